@@ -1,0 +1,193 @@
+/**
+ * Seeded random streams and weight initialisers. One seed drives everything;
+ * named sub-streams keep consumers independent, so adding a consumer never
+ * shifts the numbers another consumer sees.
+ * @module
+ */
+import seedrandom from "seedrandom";
+import type { FloatArray } from "../types/index.js";
+import { requireFinite, requireInteger, requireNonNegative, fail } from "../errors/index.js";
+
+/** Saved state of a {@link RandomStream}, for checkpoints. @category Random */
+export interface RandomStreamState {
+  readonly name: string;
+  readonly prng: seedrandom.State.Arc4;
+  readonly spare: number | null;
+}
+
+/**
+ * A deterministic stream of random numbers (ARC4 from seedrandom).
+ * @category Random
+ */
+export class RandomStream {
+  /** The stream's full name (root seed and sub-stream path). */
+  readonly name: string;
+  private prng: seedrandom.StatefulPRNG<seedrandom.State.Arc4>;
+  private spare: number | null = null;
+
+  /** @internal Use {@link createRandom} or {@link RandomStream.child}. */
+  constructor(name: string, state?: seedrandom.State.Arc4) {
+    this.name = name;
+    this.prng = state === undefined ? seedrandom(name, { state: true }) : seedrandom("", { state: state as seedrandom.State.Arc4 });
+  }
+
+  /** Uniform number in [0, 1) with 53 bits of randomness. */
+  uniform(): number {
+    return this.prng.double();
+  }
+
+  /** Uniform number in [lo, hi). */
+  between(lo: number, hi: number): number {
+    return lo + (hi - lo) * this.prng.double();
+  }
+
+  /** Uniform integer in [0, n). */
+  int(n: number): number {
+    return Math.floor(this.prng.double() * n);
+  }
+
+  /** Standard normal number (Box–Muller; Box & Muller 1958, Ann. Math. Stat. 29:610). */
+  normal(): number {
+    if (this.spare !== null) {
+      const s = this.spare;
+      this.spare = null;
+      return s;
+    }
+    let u = 0;
+    while (u <= Number.MIN_VALUE) u = this.prng.double();
+    const v = this.prng.double();
+    const r = Math.sqrt(-2 * Math.log(u));
+    this.spare = r * Math.sin(2 * Math.PI * v);
+    return r * Math.cos(2 * Math.PI * v);
+  }
+
+  /** +1 or -1 with equal probability. */
+  sign(): number {
+    return this.prng.double() < 0.5 ? -1 : 1;
+  }
+
+  /** Shuffles `array` in place (Fisher–Yates; Knuth, TAOCP vol. 2, Algorithm P) and returns it. */
+  shuffle<T extends { length: number; [i: number]: unknown }>(array: T): T {
+    for (let i = array.length - 1; i > 0; i--) {
+      const j = this.int(i + 1);
+      const t = array[i];
+      array[i] = array[j];
+      array[j] = t;
+    }
+    return array;
+  }
+
+  /** A permutation of 0..n-1. */
+  permutation(n: number): Int32Array {
+    const p = new Int32Array(n);
+    for (let i = 0; i < n; i++) p[i] = i;
+    return this.shuffle(p);
+  }
+
+  /**
+   * An independent sub-stream named `name`. Its numbers depend only on this
+   * stream's name and `name`, never on how many numbers were drawn before.
+   */
+  child(name: string): RandomStream {
+    return new RandomStream(`${this.name}/${name}`);
+  }
+
+  /** Exports the state (for checkpoints); {@link RandomStream.fromState} restores it. */
+  saveState(): RandomStreamState {
+    return { name: this.name, prng: structuredCloneState(this.prng.state()), spare: this.spare };
+  }
+
+  /** Restores a stream saved with {@link RandomStream.saveState}. */
+  static fromState(state: RandomStreamState): RandomStream {
+    const s = new RandomStream(state.name, structuredCloneState(state.prng));
+    s.spare = state.spare;
+    return s;
+  }
+}
+
+function structuredCloneState(state: seedrandom.State.Arc4): seedrandom.State.Arc4 {
+  return JSON.parse(JSON.stringify(state)) as seedrandom.State.Arc4;
+}
+
+/**
+ * The root stream for a seed. Use `.child("weights")`, `.child("shuffle")`, ...
+ * for each consumer.
+ * @category Random
+ * @example
+ * ```ts
+ * const rng = createRandom(42);
+ * const w = rng.child("weights").normal();
+ * ```
+ */
+export function createRandom(seed: number | string): RandomStream {
+  if (typeof seed === "number") requireFinite("seed", seed);
+  else if (typeof seed !== "string") fail("invalid_parameter", "seed", "a number or a string", seed);
+  return new RandomStream(`ebbflow:${String(seed)}`);
+}
+
+
+/** Fills `out` with uniform values in [lo, hi); returns `out`. @category Random */
+export function fillUniform<T extends FloatArray>(out: T, rng: RandomStream, lo: number, hi: number): T {
+  requireFinite("lo", lo);
+  requireFinite("hi", hi);
+  if (!(hi >= lo)) fail("invalid_parameter", "hi", `a number >= lo (${lo})`, hi);
+  for (let i = 0; i < out.length; i++) out[i] = rng.between(lo, hi);
+  return out;
+}
+
+/** Fills `out` with normal values of the given mean and standard deviation; returns `out`. @category Random */
+export function fillNormal<T extends FloatArray>(out: T, rng: RandomStream, mean: number, std: number): T {
+  requireFinite("mean", mean);
+  requireNonNegative("std", std);
+  for (let i = 0; i < out.length; i++) out[i] = mean + std * rng.normal();
+  return out;
+}
+
+/**
+ * Glorot (Xavier) uniform initialisation: U(-l, l), l = sqrt(6 / (fanIn + fanOut)).
+ * Glorot & Bengio (2010), "Understanding the difficulty of training deep feedforward neural networks", AISTATS, PMLR 9:249–256.
+ * @category Random
+ */
+export function fillGlorotUniform<T extends FloatArray>(out: T, rng: RandomStream, fanIn: number, fanOut: number): T {
+  requireInteger("fanIn", fanIn, 1);
+  requireInteger("fanOut", fanOut, 1);
+  const limit = Math.sqrt(6 / (fanIn + fanOut));
+  return fillUniform(out, rng, -limit, limit);
+}
+
+/**
+ * Glorot (Xavier) normal initialisation: N(0, 2 / (fanIn + fanOut)).
+ * Glorot & Bengio (2010), AISTATS, PMLR 9:249–256.
+ * @category Random
+ */
+export function fillGlorotNormal<T extends FloatArray>(out: T, rng: RandomStream, fanIn: number, fanOut: number): T {
+  requireInteger("fanIn", fanIn, 1);
+  requireInteger("fanOut", fanOut, 1);
+  return fillNormal(out, rng, 0, Math.sqrt(2 / (fanIn + fanOut)));
+}
+
+/** A weight initialiser described as data (used by model files). @category Random */
+export type InitSpec =
+  | { readonly kind: "uniform"; readonly low: number; readonly high: number }
+  | { readonly kind: "normal"; readonly mean?: number; readonly std: number }
+  | { readonly kind: "glorot-uniform" }
+  | { readonly kind: "glorot-normal" }
+  | { readonly kind: "constant"; readonly value: number };
+
+/** Fills a |post|×|pre| weight matrix from an {@link InitSpec}; returns `out`. @category Random */
+export function initialise<T extends FloatArray>(out: T, spec: InitSpec, rng: RandomStream, fanIn: number, fanOut: number): T {
+  switch (spec.kind) {
+    case "uniform":
+      return fillUniform(out, rng, spec.low, spec.high);
+    case "normal":
+      return fillNormal(out, rng, spec.mean ?? 0, spec.std);
+    case "glorot-uniform":
+      return fillGlorotUniform(out, rng, fanIn, fanOut);
+    case "glorot-normal":
+      return fillGlorotNormal(out, rng, fanIn, fanOut);
+    case "constant":
+      return out.fill(requireFinite("value", spec.value)) as T;
+    default:
+      return fail("unknown_name", "init.kind", "one of uniform, normal, glorot-uniform, glorot-normal, constant", (spec as { kind: unknown }).kind);
+  }
+}
