@@ -1,0 +1,21 @@
+/**
+ * Runs the benchmarks: `npm run bench` (all) or `npm run bench -- units traces`.
+ * Every figure is a ratio against a peer measured in the same run.
+ */
+import { printMachine } from "./machine.js";
+
+type Suite = { run: () => Promise<void> };
+const suites: Record<string, () => Promise<Suite>> = {
+  units: () => import("./units.js"),
+  traces: () => import("./traces.js"),
+  kernels: () => import("./kernels.js"),
+};
+
+const wanted = process.argv.slice(2);
+printMachine();
+for (const [name, load] of Object.entries(suites)) {
+  if (wanted.length > 0 && !wanted.includes(name)) continue;
+  console.log(`\n## ${name}`);
+  const suite = await load();
+  await suite.run();
+}

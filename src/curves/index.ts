@@ -1,0 +1,23 @@
+/**
+ * Plasticity curves and sliding thresholds: the piecewise-linear calcium-style
+ * curve, the BCM function and objective, the calcium-control functions of
+ * Shouval, Bear & Cooper (2002), and thresholds that slide with running averages.
+ * @module
+ */
+export { calciumCurve, applyCalciumCurve } from "./calcium-curve.js";
+export { bcmPhi, bcmPhiScaled, applyBcmPhi, applyBcmPhiScaled, bcmObjective } from "./bcm.js";
+export {
+  calciumControl,
+  type CalciumControl,
+  type CalciumControlOptions,
+  type CalciumControlParameters,
+} from "./calcium-control.js";
+export {
+  slowTraceThreshold,
+  bcmThreshold,
+  mixedThreshold,
+  type SlidingThreshold,
+  type MixedThreshold,
+  type MixedThresholdOptions,
+  type MixedThresholdState,
+} from "./thresholds.js";

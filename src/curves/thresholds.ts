@@ -1,0 +1,288 @@
+/**
+ * Sliding thresholds for plasticity curves, built on exponential traces:
+ * a slower trace of the same coactivity (error-driven), the long-term average of
+ * the squared postsynaptic activity (BCM, self-organising), and a weighted mix.
+ * @module
+ */
+import { EbbflowError, fail, requireInteger } from "../errors/index.js";
+import { allocate, type Dtype, type FloatArray } from "../types/index.js";
+import { vectorTrace, type TraceState, type VectorTrace, type VectorTraceOptions } from "../traces/index.js";
+
+/**
+ * A threshold per element, tracking a running average; `update` allocates nothing.
+ * @category Curves
+ */
+export interface SlidingThreshold {
+  /** Number of threshold elements. */
+  readonly n: number;
+  /** Current thresholds (live view, length n). */
+  readonly value: FloatArray;
+  /** The underlying trace. */
+  readonly trace: VectorTrace;
+  /**
+   * Feeds one sample and returns {@link SlidingThreshold.value}.
+   * @throws {@link EbbflowError} `shape_mismatch` (path `input`) if the input length is not n.
+   */
+  update(input: FloatArray): FloatArray;
+  /** Sets every threshold to `value` (default 0). */
+  reset(value?: number): void;
+  /** Exports the thresholds as plain data. */
+  saveState(): TraceState;
+  /** Restores exported thresholds (validates length and finiteness). */
+  loadState(state: TraceState): void;
+}
+
+/**
+ * Error-driven threshold: a slower exponential trace of the same coactivity the
+ * curve receives, `τ_slow dθ/dt = x - θ`. With `x` a faster trace of coactivity,
+ * `calciumCurve(fast, θ)` in its linear region equals `fast - slow`: "outcome minus expectation".
+ *
+ * @param options - trace options (`tau`, `dt`, `method`, `n`, `dtype`, `initial`); the slow
+ *   time constant should exceed the fast trace's
+ * @returns the threshold; `update(coactivity)` steps the slow trace
+ * @throws {@link EbbflowError} `invalid_parameter` naming the offending option
+ * @category Curves
+ * @example
+ * ```ts
+ * const slow = slowTraceThreshold({ tau: 50, n: synapses });
+ * slow.update(coactivity); // θ per synapse
+ * ```
+ */
+export function slowTraceThreshold(options: VectorTraceOptions): SlidingThreshold {
+  const trace = vectorTrace(options);
+  return {
+    n: trace.n,
+    value: trace.value,
+    trace,
+    update: (input: FloatArray) => trace.update(input),
+    reset: (value?: number) => trace.reset(value),
+    saveState: () => trace.saveState(),
+    loadState: (state: TraceState) => trace.loadState(state),
+  };
+}
+
+class SquaredTraceThreshold implements SlidingThreshold {
+  readonly n: number;
+  readonly value: FloatArray;
+  readonly trace: VectorTrace;
+  private readonly squares: FloatArray;
+
+  constructor(trace: VectorTrace) {
+    this.trace = trace;
+    this.n = trace.n;
+    this.value = trace.value;
+    this.squares = allocate(trace.dtype, trace.n);
+  }
+
+  update(input: FloatArray): FloatArray {
+    const n = this.n;
+    if (input.length !== n) fail("shape_mismatch", "input", `an array of length ${n}`, input);
+    const sq = this.squares;
+    for (let i = 0; i < n; i++) {
+      const y = input[i] as number;
+      sq[i] = y * y;
+    }
+    return this.trace.update(sq);
+  }
+
+  reset(value?: number): void {
+    this.trace.reset(value);
+  }
+
+  saveState(): TraceState {
+    return this.trace.saveState();
+  }
+
+  loadState(state: TraceState): void {
+    this.trace.loadState(state);
+  }
+}
+
+/**
+ * BCM sliding threshold: the running average of the squared postsynaptic activity,
+ * `τ_θ dθ/dt = y^2 - θ`, an online estimate of `θ = E[y^2]`
+ * (Intrator & Cooper 1992, Neural Networks 5:3; Law & Cooper 1994, PNAS 91:7797; methods item 7).
+ * Keep `τ_θ` well below the weights' time scale: a slow threshold makes BCM oscillate
+ * (Udeigwe, Munro & Ermentrout 2017, J. Math. Neurosci. 7:2).
+ *
+ * @param options - trace options; `n` is the number of postsynaptic units
+ * @returns the threshold; `update(y)` feeds the activities y (it squares them)
+ * @throws {@link EbbflowError} `invalid_parameter` naming the offending option
+ * @category Curves
+ * @example
+ * ```ts
+ * const theta = bcmThreshold({ tau: 50, n: 1 });
+ * theta.update(new Float64Array([2])); // [0.0784...] (= (1 - e^{-1/50}) * 4)
+ * ```
+ */
+export function bcmThreshold(options: VectorTraceOptions): SlidingThreshold {
+  return new SquaredTraceThreshold(vectorTrace(options));
+}
+
+/**
+ * Options of a mixed threshold. Thresholds are laid out like a weight matrix:
+ * row i = postsynaptic unit i, column j = presynaptic unit j (`post × pre`, row-major).
+ * @category Curves
+ */
+export interface MixedThresholdOptions {
+  /** Number of postsynaptic units (rows); integer >= 1. */
+  readonly post: number;
+  /** Number of presynaptic units (columns); integer >= 1, default 1 (one threshold per unit). */
+  readonly pre?: number | undefined;
+  /** Weight m of the slow-trace part, in [0, 1]: `θ = m θ_slow + (1 - m) θ_bcm`. */
+  readonly mix: number;
+  /** Timing of the slow coactivity trace (`tau`, `dt`, `method`, `initial`). */
+  readonly slow: Omit<VectorTraceOptions, "n" | "dtype">;
+  /** Timing of the BCM trace of y^2 (`tau`, `dt`, `method`, `initial`). */
+  readonly bcm: Omit<VectorTraceOptions, "n" | "dtype">;
+  /** Precision; default `"float64"`. */
+  readonly dtype?: Dtype | undefined;
+}
+
+/**
+ * Saved state of a mixed threshold.
+ * @category Curves
+ */
+export interface MixedThresholdState {
+  /** The slow coactivity trace (post × pre values). */
+  readonly slow: TraceState;
+  /** The BCM trace (one value per postsynaptic unit). */
+  readonly bcm: TraceState;
+}
+
+/**
+ * A mix of the error-driven and the BCM threshold.
+ * @category Curves
+ */
+export interface MixedThreshold {
+  /** Rows (postsynaptic units). */
+  readonly post: number;
+  /** Columns (presynaptic units). */
+  readonly pre: number;
+  /** Weight of the slow-trace part. */
+  readonly mix: number;
+  /** Mixed thresholds, `post × pre` row-major (live view). */
+  readonly value: FloatArray;
+  /** The error-driven part (post × pre). */
+  readonly slow: SlidingThreshold;
+  /** The BCM part (one per postsynaptic unit). */
+  readonly bcm: SlidingThreshold;
+  /**
+   * Steps both parts and writes `value[i*pre + j] = m slow[i*pre + j] + (1 - m) bcm[i]`.
+   * Allocates nothing; returns `value`.
+   * @throws {@link EbbflowError} `shape_mismatch` (path `input`) if `coactivity.length !== post*pre` or `postActivity.length !== post`.
+   */
+  update(coactivity: FloatArray, postActivity: FloatArray): FloatArray;
+  /** Resets both parts to `value` (default 0) and recomputes the mix. */
+  reset(value?: number): void;
+  /** Exports both parts. */
+  saveState(): MixedThresholdState;
+  /** Restores both parts (validated before anything is written) and recomputes the mix. */
+  loadState(state: MixedThresholdState): void;
+}
+
+class WeightedThreshold implements MixedThreshold {
+  readonly post: number;
+  readonly pre: number;
+  readonly mix: number;
+  readonly value: FloatArray;
+  readonly slow: SlidingThreshold;
+  readonly bcm: SlidingThreshold;
+
+  constructor(post: number, pre: number, mix: number, slow: SlidingThreshold, bcm: SlidingThreshold, dtype: Dtype) {
+    this.post = post;
+    this.pre = pre;
+    this.mix = mix;
+    this.slow = slow;
+    this.bcm = bcm;
+    this.value = allocate(dtype, post * pre);
+    this.combine();
+  }
+
+  private combine(): void {
+    const m = this.mix;
+    const rest = 1 - m;
+    const pre = this.pre;
+    const s = this.slow.value;
+    const b = this.bcm.value;
+    const out = this.value;
+    for (let i = 0, o = 0; i < this.post; i++) {
+      const bi = rest * (b[i] as number);
+      for (let j = 0; j < pre; j++, o++) out[o] = m * (s[o] as number) + bi;
+    }
+  }
+
+  update(coactivity: FloatArray, postActivity: FloatArray): FloatArray {
+    this.slow.update(coactivity);
+    this.bcm.update(postActivity);
+    this.combine();
+    return this.value;
+  }
+
+  reset(value?: number): void {
+    this.slow.reset(value);
+    this.bcm.reset(value);
+    this.combine();
+  }
+
+  saveState(): MixedThresholdState {
+    return { slow: this.slow.saveState(), bcm: this.bcm.saveState() };
+  }
+
+  loadState(state: MixedThresholdState): void {
+    if (typeof state !== "object" || state === null) fail("invalid_parameter", "state", "an object { slow, bcm }", state);
+    // Validate both parts on scratch copies first, so a bad state leaves this one untouched.
+    const slowScratch = vectorTrace({ tau: 1, n: this.slow.n, dtype: this.slow.trace.dtype });
+    const bcmScratch = vectorTrace({ tau: 1, n: this.bcm.n, dtype: this.bcm.trace.dtype });
+    prefixed("state.slow", () => slowScratch.loadState(state.slow));
+    prefixed("state.bcm", () => bcmScratch.loadState(state.bcm));
+    this.slow.value.set(slowScratch.value);
+    this.bcm.value.set(bcmScratch.value);
+    this.combine();
+  }
+}
+
+/** Runs `fn`, prefixing the path of any {@link EbbflowError} it throws with `prefix`. */
+function prefixed<T>(prefix: string, fn: () => T): T {
+  try {
+    return fn();
+  } catch (e) {
+    if (!(e instanceof EbbflowError)) throw e;
+    throw new EbbflowError(
+      e.issues.map((i) => ({ ...i, path: i.path.startsWith("state.") ? `${prefix}${i.path.slice("state".length)}` : `${prefix}.${i.path}` })),
+    );
+  }
+}
+
+/**
+ * Weighted mix of the error-driven and the BCM threshold,
+ * `θ_ij = m θ_slow,ij + (1 - m) θ_bcm,i`: m = 1 is purely error-driven (outcome minus
+ * expectation), m = 0 purely self-organising (BCM; Bienenstock, Cooper & Munro 1982,
+ * J. Neurosci. 2:32). The BCM part is per postsynaptic unit and shared along its row.
+ *
+ * @param options - `post`, `pre` (default 1), `mix` in [0, 1], `slow` and `bcm` trace timing, `dtype`
+ * @returns the mixed threshold
+ * @throws {@link EbbflowError} `invalid_parameter` naming `post`, `pre`, `mix`, `dtype`, or
+ *   `slow.tau`, `bcm.dt`, ... for the trace options
+ * @category Curves
+ * @example
+ * ```ts
+ * const theta = mixedThreshold({ post: 10, pre: 20, mix: 0.8, slow: { tau: 50 }, bcm: { tau: 200 } });
+ * theta.update(coactivity, postRates); // Float64Array(200)
+ * ```
+ */
+export function mixedThreshold(options: MixedThresholdOptions): MixedThreshold {
+  if (typeof options !== "object" || options === null) fail("invalid_parameter", "options", "an object", options);
+  const post = requireInteger("post", options.post, 1);
+  const pre = options.pre === undefined ? 1 : requireInteger("pre", options.pre, 1);
+  const mix = options.mix;
+  if (typeof mix !== "number" || !Number.isFinite(mix) || mix < 0 || mix > 1) fail("invalid_parameter", "mix", "a number in [0, 1]", mix);
+  const dtype = options.dtype;
+  if (dtype !== undefined && dtype !== "float32" && dtype !== "float64") fail("invalid_parameter", "dtype", 'one of "float32", "float64"', dtype);
+  const resolved: Dtype = dtype ?? "float64";
+  if (typeof options.slow !== "object" || options.slow === null) fail("invalid_parameter", "slow", "an object with tau", options.slow);
+  if (typeof options.bcm !== "object" || options.bcm === null) fail("invalid_parameter", "bcm", "an object with tau", options.bcm);
+  const slow = prefixed("slow", () => slowTraceThreshold({ ...options.slow, n: post * pre, dtype: resolved }));
+  const bcm = prefixed("bcm", () => bcmThreshold({ ...options.bcm, n: post, dtype: resolved }));
+  return new WeightedThreshold(post, pre, mix, slow, bcm, resolved);
+}

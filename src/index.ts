@@ -1,0 +1,14 @@
+/**
+ * ebbflow: biologically constrained, error-driven learning in settling
+ * bidirectional networks, with local rules verified against exact gradients.
+ * @module
+ */
+export * from "./errors/index.js";
+export * from "./types/index.js";
+export * from "./random/index.js";
+export * from "./units/index.js";
+export * from "./traces/index.js";
+export * from "./curves/index.js";
+export * from "./kernels/index.js";
+export * from "./network/index.js";
+export * from "./config/index.js";

@@ -1,0 +1,192 @@
+/**
+ * A network: layers, connections and their parameters, built from a
+ * validated declaration. Weights live in flat typed arrays of the network's
+ * dtype; a connection's matrix is |to|×|from| row-major (row = receiving unit).
+ * @module
+ */
+import { createUnit, type UnitFunction } from "../units/index.js";
+import { createRandom, initialise, type InitSpec } from "../random/index.js";
+import { allocate, type Dtype, type FloatArray } from "../types/index.js";
+import { fail } from "../errors/index.js";
+import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
+
+/** Role of a layer in the phases. @category Network */
+export type LayerRole = "input" | "hidden" | "output";
+
+/** A layer of rate units. @category Network */
+export interface Layer {
+  readonly index: number;
+  readonly name: string;
+  readonly size: number;
+  readonly role: LayerRole;
+  /** The unit (activation) function; input layers take their clamped values as activity. */
+  readonly unit: UnitFunction;
+  /** Bias per unit (learned by the rules unless every incoming connection is frozen). */
+  readonly bias: FloatArray;
+  readonly inhibition: InhibitionSpec;
+  readonly spec: LayerSpec;
+}
+
+/** Feedback path of a built connection. @category Network */
+export type Feedback =
+  | { readonly kind: "none" }
+  | { readonly kind: "tied"; readonly gain: number }
+  | { readonly kind: "separate"; readonly learned: boolean; readonly weights: FloatArray };
+
+/** A built connection from layer `from` to layer `to`. @category Network */
+export interface Connection {
+  readonly index: number;
+  /** Index of the sending layer. */
+  readonly from: number;
+  /** Index of the receiving layer. */
+  readonly to: number;
+  /** |to|×|from| row-major weights: `weights[i * |from| + j]` is the weight from unit j to unit i. */
+  readonly weights: FloatArray;
+  /** Feedback path; a separate matrix is |from|×|to| row-major. */
+  readonly feedback: Feedback;
+  readonly spec: ConnectionSpec;
+  /** `"layerA->layerB"`, used in reports and file formats. */
+  readonly label: string;
+}
+
+/** Applies a connection's sign and bound constraints to its weights in place. @category Network */
+export function constrainWeights(w: FloatArray, spec: Pick<ConnectionSpec, "sign" | "bounds">): void {
+  if (spec.sign === "excitatory") for (let i = 0; i < w.length; i++) w[i] = Math.abs(w[i] as number);
+  else if (spec.sign === "inhibitory") for (let i = 0; i < w.length; i++) w[i] = -Math.abs(w[i] as number);
+  if (spec.bounds === "soft") {
+    // soft bounds hold each magnitude in [0, 1]; sign (if any) is kept
+    for (let i = 0; i < w.length; i++) {
+      const v = w[i] as number;
+      const m = Math.min(1, Math.abs(v));
+      w[i] = spec.sign === "inhibitory" ? -m : m;
+    }
+  }
+}
+
+/**
+ * A bidirectional network of rate units: layers plus connections with their
+ * parameters. Build one with {@link buildNetwork}.
+ * @category Network
+ */
+export class Network {
+  readonly spec: NetworkSpec;
+  readonly dtype: Dtype;
+  readonly layers: readonly Layer[];
+  readonly connections: readonly Connection[];
+  /** Connections arriving at each layer. */
+  readonly incoming: readonly (readonly Connection[])[];
+  /** Connections leaving each layer that carry a feedback path back to it. */
+  readonly feedbackInto: readonly (readonly Connection[])[];
+
+  /** @internal Use {@link buildNetwork}. */
+  constructor(spec: NetworkSpec, layers: Layer[], connections: Connection[]) {
+    this.spec = spec;
+    this.dtype = spec.dtype;
+    this.layers = layers;
+    this.connections = connections;
+    this.incoming = layers.map((l) => connections.filter((c) => c.to === l.index));
+    this.feedbackInto = layers.map((l) => connections.filter((c) => c.from === l.index && c.from !== c.to && c.feedback.kind !== "none"));
+  }
+
+  /** Index of the layer named `name`. @throws EbbflowError `unknown_name`. */
+  layerIndex(name: string): number {
+    const i = this.layers.findIndex((l) => l.name === name);
+    if (i < 0) fail("unknown_name", "layer", `a layer name (${this.layers.map((l) => l.name).join(", ")})`, name);
+    return i;
+  }
+
+  /** The layer named `name`. */
+  layer(name: string): Layer {
+    return this.layers[this.layerIndex(name)] as Layer;
+  }
+
+  /** The connection from `from` to `to`. @throws EbbflowError `unknown_name`. */
+  connection(from: string, to: string): Connection {
+    const c = this.connections.find((x) => this.layers[x.from]?.name === from && this.layers[x.to]?.name === to);
+    if (c === undefined) fail("unknown_name", "connection", `an existing connection (${this.connections.map((x) => x.label).join(", ")})`, `${from}->${to}`);
+    return c;
+  }
+
+  /** Layers with role `input`. */
+  get inputLayers(): Layer[] {
+    return this.layers.filter((l) => l.role === "input");
+  }
+
+  /** Layers with role `output`. */
+  get outputLayers(): Layer[] {
+    return this.layers.filter((l) => l.role === "output");
+  }
+
+  /** Total number of parameters (weights, learned feedback matrices and biases). */
+  get parameterCount(): number {
+    let n = 0;
+    for (const c of this.connections) n += c.weights.length + (c.feedback.kind === "separate" ? c.feedback.weights.length : 0);
+    for (const l of this.layers) if (l.role !== "input") n += l.size;
+    return n;
+  }
+
+  /** A deep copy (same spec, copied parameter arrays). */
+  clone(): Network {
+    const layers = this.layers.map((l) => ({ ...l, bias: l.bias.slice() }));
+    const connections = this.connections.map((c) => ({
+      ...c,
+      weights: c.weights.slice(),
+      feedback: c.feedback.kind === "separate" ? { ...c.feedback, weights: c.feedback.weights.slice() } : c.feedback,
+    }));
+    return new Network(this.spec, layers, connections);
+  }
+}
+
+/**
+ * Builds a network from a declaration (validated; defaults filled in).
+ * Weights come from the declaration's `weights` array when given, otherwise
+ * from its initialiser drawing on the sub-stream `weights/<from>-><to>` of
+ * the seed, so adding a connection never changes another's weights.
+ * @throws {@link EbbflowError} `invalid_config` listing every problem.
+ * @category Network
+ * @example
+ * ```ts
+ * const net = buildNetwork({
+ *   layers: [ { name: "in", size: 2, role: "input" }, { name: "out", size: 1, role: "output" } ],
+ *   connections: [ { from: "in", to: "out" } ],
+ * });
+ * net.connection("in", "out").weights.length; // 2
+ * ```
+ */
+export function buildNetwork(input: NetworkSpecInput | NetworkSpec): Network {
+  const spec = parseNetwork(input);
+  const root = createRandom(spec.seed);
+  const layers: Layer[] = spec.layers.map((ls, index) => {
+    const bias = allocate(spec.dtype, ls.size);
+    if (Array.isArray(ls.bias)) bias.set(ls.bias);
+    else bias.fill(ls.bias);
+    let unit: UnitFunction;
+    try {
+      unit = createUnit(ls.unit);
+    } catch (e) {
+      const err = e as { path?: string };
+      return fail("invalid_config", `layers[${index}].unit${err.path ? `.${err.path}` : ""}`, "valid unit parameters", ls.unit, String((e as Error).message));
+    }
+    return { index, name: ls.name, size: ls.size, role: ls.role, unit, bias, inhibition: ls.inhibition, spec: ls };
+  });
+  const byName = new Map(layers.map((l) => [l.name, l]));
+  const connections: Connection[] = spec.connections.map((cs, index) => {
+    const from = byName.get(cs.from) as Layer;
+    const to = byName.get(cs.to) as Layer;
+    const label = `${cs.from}->${cs.to}`;
+    const weights = allocate(spec.dtype, to.size * from.size);
+    if (cs.weights !== undefined) weights.set(cs.weights);
+    else {
+      initialise(weights, cs.init as InitSpec, root.child(`weights/${label}`), from.size, to.size);
+      constrainWeights(weights, cs);
+    }
+    let feedback: Feedback;
+    if (cs.feedback.kind === "separate") {
+      const fw = allocate(spec.dtype, from.size * to.size);
+      initialise(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
+      feedback = { kind: "separate", learned: cs.feedback.learned, weights: fw };
+    } else feedback = cs.feedback;
+    return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label };
+  });
+  return new Network(spec, layers, connections);
+}

@@ -1,0 +1,422 @@
+/**
+ * The settling engine: batch-major rate or energy dynamics with free,
+ * clamped and nudged phases, a stop rule and a divergence check. All buffers
+ * are allocated once per {@link Settler}; a settling step allocates nothing.
+ * @module
+ */
+import { allFinite, gemm, maxAbs } from "../kernels/index.js";
+import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive } from "../errors/index.js";
+import { allocate, type FloatArray } from "../types/index.js";
+import type { Network } from "./network.js";
+
+/** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
+export type Phase = "free" | "clamped" | "nudged";
+
+/** Per-layer values for a batch: layer name → B×N flat array (row = pattern). @category Settling */
+export type LayerValues = Readonly<Record<string, ArrayLike<number>>>;
+
+/** Options of one phase. @category Settling */
+export interface PhaseOptions {
+  /** Which phase to settle. */
+  readonly phase: Phase;
+  /** Values of every input layer, B×N each. */
+  readonly inputs: LayerValues;
+  /** Targets of every output layer (clamped and nudged phases). */
+  readonly targets?: LayerValues | undefined;
+  /** Nudging strength (nudged phase; may be negative, not 0). */
+  readonly beta?: number | undefined;
+  /** Start from this state (for example the free fixed point); default: rest (zero). */
+  readonly start?: Snapshot | undefined;
+  /** Override of the network's maximum number of steps. */
+  readonly maxSteps?: number | undefined;
+  /** Override of the network's tolerance on the largest state change. */
+  readonly tolerance?: number | undefined;
+  /** Keep a copy of every layer's activity after every step (for plotting). */
+  readonly record?: boolean | undefined;
+  /** Throw `divergence` if the stop rule ends on maxSteps without converging (default false: the snapshot says `converged: false`). */
+  readonly requireConvergence?: boolean | undefined;
+}
+
+/**
+ * The result of a phase: every layer's activity (and, for energy dynamics,
+ * its state), batch-major, with how settling ended.
+ * @category Settling
+ */
+export class Snapshot {
+  /** Number of patterns. */
+  readonly batch: number;
+  /** Activity per layer, B×N (row = pattern). */
+  readonly activity: FloatArray[];
+  /** Dynamical state per layer (equals activity for rate dynamics; u with activity ρ(u) for energy dynamics). */
+  readonly state: FloatArray[];
+  /** Steps taken. */
+  steps = 0;
+  /** True if the largest state change fell below the tolerance. */
+  converged = false;
+  /** Largest state change in the last step. */
+  lastChange = Number.POSITIVE_INFINITY;
+  /** The phase that produced it. */
+  phase: Phase = "free";
+  /** Per-step activities if recording was asked for: `record[step][layer]`. */
+  record: FloatArray[][] | null = null;
+
+  /** Allocates a zeroed snapshot for `net` and `batch` patterns. */
+  constructor(net: Network, batch: number) {
+    this.batch = batch;
+    this.activity = net.layers.map((l) => allocate(net.dtype, batch * l.size));
+    this.state = net.spec.dynamics.kind === "energy" ? net.layers.map((l) => allocate(net.dtype, batch * l.size)) : this.activity;
+  }
+
+  /** Activity of one pattern of one layer, as a copy. */
+  patternActivity(layer: number, pattern: number): number[] {
+    const a = this.activity[layer] as FloatArray;
+    const n = a.length / this.batch;
+    return Array.from(a.subarray(pattern * n, (pattern + 1) * n));
+  }
+
+  /** Copies all values from `other` (same network shape and batch). */
+  copyFrom(other: Snapshot): this {
+    for (let i = 0; i < this.activity.length; i++) (this.activity[i] as FloatArray).set(other.activity[i] as FloatArray);
+    if (this.state !== this.activity) for (let i = 0; i < this.state.length; i++) (this.state[i] as FloatArray).set(other.state[i] as FloatArray);
+    this.steps = other.steps;
+    this.converged = other.converged;
+    this.lastChange = other.lastChange;
+    this.phase = other.phase;
+    return this;
+  }
+}
+
+/** k-th largest (k >= 1) of a[0..n) via quickselect on a scratch copy; reorders `scratch`. */
+function kthLargest(scratch: FloatArray, n: number, k: number): number {
+  let lo = 0;
+  let hi = n - 1;
+  const target = k - 1;
+  while (lo < hi) {
+    const pivot = scratch[(lo + hi) >> 1] as number;
+    let i = lo;
+    let j = hi;
+    while (i <= j) {
+      while ((scratch[i] as number) > pivot) i++;
+      while ((scratch[j] as number) < pivot) j--;
+      if (i <= j) {
+        const t = scratch[i] as number;
+        scratch[i] = scratch[j] as number;
+        scratch[j] = t;
+        i++;
+        j--;
+      }
+    }
+    if (target <= j) hi = j;
+    else if (target >= i) lo = i;
+    else break;
+  }
+  return scratch[target] as number;
+}
+
+/**
+ * Settles one network on batches of a fixed size. Holds every buffer a
+ * phase needs, so repeated phases allocate nothing but their snapshots.
+ * @category Settling
+ * @example
+ * ```ts
+ * const settler = new Settler(net, 4);
+ * const free = settler.settle({ phase: "free", inputs: { in: xs } });
+ * const clamped = settler.settle({ phase: "clamped", inputs: { in: xs }, targets: { out: ts } });
+ * ```
+ */
+export class Settler {
+  readonly net: Network;
+  readonly batch: number;
+  private readonly drive: FloatArray[];
+  private readonly netInput: FloatArray[];
+  private readonly next: FloatArray[];
+  private readonly tmp: FloatArray[];
+  private readonly scratch: FloatArray;
+  private readonly clamped: boolean[];
+  private readonly targetBuf: FloatArray[];
+
+  constructor(net: Network, batch: number) {
+    requireInteger("batch", batch, 1);
+    this.net = net;
+    this.batch = batch;
+    const alloc = () => net.layers.map((l) => allocate(net.dtype, batch * l.size));
+    this.drive = alloc();
+    this.netInput = alloc();
+    this.next = alloc();
+    this.tmp = alloc();
+    this.targetBuf = alloc();
+    this.scratch = allocate(net.dtype, Math.max(...net.layers.map((l) => l.size)));
+    this.clamped = net.layers.map(() => false);
+  }
+
+  /** Checks and copies per-layer values (inputs or targets) into `dest`; reports every problem at once. */
+  private loadValues(values: LayerValues | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[]): void {
+    const problems = [];
+    if (values === undefined || values === null || typeof values !== "object") {
+      throw new EbbflowError(issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, String(values)));
+    }
+    for (const layer of this.net.layers) {
+      if (layer.role !== role) continue;
+      const v = values[layer.name];
+      const want = this.batch * layer.size;
+      if (v === undefined) {
+        problems.push(issueText("shape_mismatch", `${what}.${layer.name}`, `${want} values (batch ${this.batch} × size ${layer.size})`, "missing"));
+        continue;
+      }
+      if (v.length !== want) {
+        problems.push(issueText("shape_mismatch", `${what}.${layer.name}`, `${want} values (batch ${this.batch} × size ${layer.size})`, `${v.length} values`));
+        continue;
+      }
+      const d = dest[layer.index] as FloatArray;
+      for (let i = 0; i < want; i++) {
+        const x = v[i] as number;
+        if (typeof x !== "number" || !Number.isFinite(x)) {
+          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, "a finite number", String(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
+          break;
+        }
+        d[i] = x;
+      }
+    }
+    for (const name of Object.keys(values)) {
+      const l = this.net.layers.find((x) => x.name === name);
+      if (l === undefined || l.role !== role) problems.push(issueText("unknown_name", `${what}.${name}`, `an ${role} layer name`, JSON.stringify(name)));
+    }
+    if (problems.length > 0) throw new EbbflowError(problems);
+  }
+
+  /**
+   * Settles one phase and returns its snapshot (written into `out` if given).
+   * @throws {@link EbbflowError} `shape_mismatch` for wrong input or target lengths,
+   *   `invalid_parameter` for a bad beta, `divergence` when a layer's state becomes
+   *   non-finite or exceeds the bound (naming the layer and the step).
+   */
+  settle(options: PhaseOptions, out?: Snapshot): Snapshot {
+    const { net, batch } = this;
+    const dyn = net.spec.dynamics;
+    const phase = options.phase;
+    if (phase !== "free" && phase !== "clamped" && phase !== "nudged") fail("invalid_parameter", "phase", "free, clamped or nudged", phase);
+    const maxSteps = options.maxSteps === undefined ? dyn.maxSteps : requireInteger("maxSteps", options.maxSteps, 1);
+    const tolerance = options.tolerance === undefined ? dyn.tolerance : requirePositive("tolerance", options.tolerance);
+    let beta = 0;
+    if (phase === "nudged") {
+      beta = requireFinite("beta", options.beta);
+      if (beta === 0) fail("invalid_parameter", "beta", "a non-zero nudging strength (use the free phase for beta = 0)", 0);
+    }
+    const snap = out ?? new Snapshot(net, batch);
+    if (snap.batch !== batch) fail("shape_mismatch", "out", `a snapshot of batch ${batch}`, `batch ${snap.batch}`);
+    if (options.start !== undefined && options.start.batch !== batch) fail("shape_mismatch", "start", `a snapshot of batch ${batch}`, `batch ${options.start.batch}`);
+
+    // which layers are held fixed in this phase
+    for (const l of net.layers) this.clamped[l.index] = l.role === "input" || (phase === "clamped" && l.role === "output");
+    this.loadValues(options.inputs, "input", "inputs", snap.activity);
+    if (phase !== "free") this.loadValues(options.targets, "output", "targets", this.targetBuf);
+
+    // starting state
+    const energy = dyn.kind === "energy";
+    for (const l of net.layers) {
+      const i = l.index;
+      const act = snap.activity[i] as FloatArray;
+      const st = snap.state[i] as FloatArray;
+      if (l.role === "input") {
+        if (energy) st.set(act);
+        continue;
+      }
+      if (this.clamped[i]) {
+        act.set(this.targetBuf[i] as FloatArray);
+        if (energy) st.set(act);
+      } else if (options.start !== undefined) {
+        st.set(options.start.state[i] as FloatArray);
+        if (energy) l.unit.fill(act, st);
+      } else {
+        st.fill(0);
+        if (energy) l.unit.fill(act, st);
+      }
+    }
+
+    // clamp-aware drive: bias plus everything that comes from clamped layers, computed once per phase
+    for (const l of net.layers) {
+      if (this.clamped[l.index]) continue;
+      const d = this.drive[l.index] as FloatArray;
+      for (let b = 0; b < batch; b++) d.set(l.bias, b * l.size);
+      this.accumulate(d, l.index, snap.activity, true);
+    }
+
+    snap.record = options.record ? [] : null;
+    snap.phase = phase;
+    snap.converged = false;
+    snap.lastChange = Number.POSITIVE_INFINITY;
+    let step = 0;
+    const bound = dyn.bound;
+    while (step < maxSteps) {
+      step++;
+      let change = 0;
+      for (const l of net.layers) {
+        const i = l.index;
+        if (this.clamped[i]) continue;
+        const n = l.size;
+        const len = batch * n;
+        const eta = this.netInput[i] as FloatArray;
+        eta.set(this.drive[i] as FloatArray);
+        this.accumulate(eta, i, snap.activity, false);
+        this.inhibit(eta, i, snap.activity[i] as FloatArray);
+        const x = snap.state[i] as FloatArray;
+        const nx = this.next[i] as FloatArray;
+        const t = this.tmp[i] as FloatArray;
+        const dt = dyn.dt;
+        const nudge = phase === "nudged" && l.role === "output";
+        const tgt = this.targetBuf[i] as FloatArray;
+        if (!energy) {
+          // rate dynamics: x += dt (f(eta) - x) [+ dt beta (t - x)]
+          l.unit.fill(t, eta, len);
+          if (nudge) for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) - (x[k] as number) + beta * ((tgt[k] as number) - (x[k] as number)));
+          else for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) - (x[k] as number));
+        } else {
+          // energy dynamics: u += dt (rho'(u) eta - u) [+ dt beta (t - u)]  (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24)
+          l.unit.fillSlope(t, x, len);
+          if (nudge) for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) * (eta[k] as number) - (x[k] as number) + beta * ((tgt[k] as number) - (x[k] as number)));
+          else for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) * (eta[k] as number) - (x[k] as number));
+          if (dyn.clip && Number.isFinite(l.unit.lower) && Number.isFinite(l.unit.upper)) {
+            const lo = l.unit.lower;
+            const hi = l.unit.upper;
+            for (let k = 0; k < len; k++) {
+              const v = nx[k] as number;
+              nx[k] = v < lo ? lo : v > hi ? hi : v;
+            }
+          }
+        }
+        if (!allFinite(nx, len) || maxAbs(nx, len) > bound) {
+          const bad = !allFinite(nx, len) ? "a non-finite value" : `a value of magnitude ${maxAbs(nx, len)}`;
+          throw new EbbflowError(
+            issueText("divergence", `layers[${i}]`, `settling of layer ${JSON.stringify(l.name)} to stay finite and within ±${bound}`, bad, `phase ${phase}, step ${step}; try a smaller dt or weaker weights`),
+          );
+        }
+        for (let k = 0; k < len; k++) {
+          const d = Math.abs((nx[k] as number) - (x[k] as number));
+          if (d > change) change = d;
+        }
+      }
+      // synchronous update: every layer moved from the previous step's activities
+      for (const l of net.layers) {
+        const i = l.index;
+        if (this.clamped[i]) continue;
+        (snap.state[i] as FloatArray).set(this.next[i] as FloatArray);
+        if (energy) l.unit.fill(snap.activity[i] as FloatArray, snap.state[i] as FloatArray);
+      }
+      if (snap.record !== null) snap.record.push(snap.activity.map((a) => a.slice()));
+      snap.lastChange = change;
+      if (change < tolerance) {
+        snap.converged = true;
+        break;
+      }
+    }
+    snap.steps = step;
+    if (!snap.converged && options.requireConvergence) {
+      throw new EbbflowError(
+        issueText("divergence", "dynamics.maxSteps", `settling to converge within ${maxSteps} steps (tolerance ${tolerance})`, `largest change ${snap.lastChange} at the last step`, `phase ${phase}`),
+      );
+    }
+    return snap;
+  }
+
+  /**
+   * Adds to `eta` (layer i's net input, B×N) the contributions of connections
+   * into i and of feedback paths from layers i sends to, taking only sources
+   * that are clamped (`fromClamped`) or only those that are free.
+   */
+  private accumulate(eta: FloatArray, i: number, act: FloatArray[], fromClamped: boolean): void {
+    const { net, batch } = this;
+    const n = net.layers[i]!.size;
+    for (const c of net.incoming[i] as readonly import("./network.js").Connection[]) {
+      if (this.clamped[c.from] !== fromClamped) continue;
+      const m = net.layers[c.from]!.size;
+      // eta (B×n) += X_from (B×m) · Wᵀ (m×n)
+      gemm(eta, act[c.from] as FloatArray, c.weights, batch, n, m, false, true, 1, 1);
+    }
+    for (const c of net.feedbackInto[i] as readonly import("./network.js").Connection[]) {
+      if (this.clamped[c.to] !== fromClamped) continue;
+      const m = net.layers[c.to]!.size;
+      if (c.feedback.kind === "tied") {
+        // eta (B×n) += gain · X_to (B×m) · W (m×n)
+        if (c.feedback.gain !== 0) gemm(eta, act[c.to] as FloatArray, c.weights, batch, n, m, false, false, c.feedback.gain, 1);
+      } else if (c.feedback.kind === "separate") {
+        // eta (B×n) += X_to (B×m) · Fᵀ, F is n×m
+        gemm(eta, act[c.to] as FloatArray, c.feedback.weights, batch, n, m, false, true, 1, 1);
+      }
+    }
+  }
+
+  /** Subtracts the layer's inhibition from its net input. */
+  private inhibit(eta: FloatArray, i: number, act: FloatArray): void {
+    const layer = this.net.layers[i]!;
+    const inh = layer.inhibition;
+    if (inh.kind === "none") return;
+    const n = layer.size;
+    for (let b = 0; b < this.batch; b++) {
+      const off = b * n;
+      if (inh.kind === "pooled") {
+        // pooled feedback inhibition proportional to the layer's mean activity (common practice)
+        let mean = 0;
+        for (let j = 0; j < n; j++) mean += act[off + j] as number;
+        const g = (inh.gain * mean) / n;
+        for (let j = 0; j < n; j++) eta[off + j] = (eta[off + j] as number) - g;
+      } else if (inh.k < n) {
+        // k-winners-take-all: one inhibition per pattern, midway between the k-th and (k+1)-th largest net input,
+        // so exactly the k strongest units receive positive net input (common practice)
+        const s = this.scratch;
+        for (let j = 0; j < n; j++) s[j] = eta[off + j] as number;
+        const kth = kthLargest(s, n, inh.k);
+        for (let j = 0; j < n; j++) s[j] = eta[off + j] as number;
+        const k1 = kthLargest(s, n, inh.k + 1);
+        const g = 0.5 * (kth + k1);
+        for (let j = 0; j < n; j++) eta[off + j] = (eta[off + j] as number) - g;
+      }
+    }
+  }
+}
+
+/**
+ * The Hopfield-style energy of a snapshot, summed over the batch
+ * (Hopfield 1984, PNAS 81:3088; layered form of Scellier & Bengio 2017):
+ * `E = Σ_layers [½‖u‖² − b·ρ(u)] − Σ_connections ρ(x_to)ᵀ W ρ(x_from) − ½ Σ_lateral ρᵀWρ + β·½‖u_out − t‖²`.
+ * Defined for networks whose feedback paths are tied with gain 1 and whose
+ * lateral weights are symmetric; input layers enter only through couplings.
+ * @category Settling
+ */
+export function energy(net: Network, snap: Snapshot, targets?: LayerValues, beta = 0): number {
+  let e = 0;
+  const B = snap.batch;
+  for (const l of net.layers) {
+    if (l.role === "input") continue;
+    const u = snap.state[l.index] as FloatArray;
+    const x = snap.activity[l.index] as FloatArray;
+    for (let b = 0; b < B; b++) {
+      for (let j = 0; j < l.size; j++) {
+        const k = b * l.size + j;
+        e += 0.5 * (u[k] as number) ** 2 - (l.bias[j] as number) * (x[k] as number);
+      }
+    }
+  }
+  for (const c of net.connections) {
+    const pre = snap.activity[c.from] as FloatArray;
+    const post = snap.activity[c.to] as FloatArray;
+    const m = net.layers[c.from]!.size;
+    const n = net.layers[c.to]!.size;
+    const factor = c.from === c.to ? 0.5 : 1;
+    for (let b = 0; b < B; b++) {
+      for (let i = 0; i < n; i++) {
+        let s = 0;
+        for (let j = 0; j < m; j++) s += (c.weights[i * m + j] as number) * (pre[b * m + j] as number);
+        e -= factor * (post[b * n + i] as number) * s;
+      }
+    }
+  }
+  if (beta !== 0 && targets !== undefined) {
+    for (const l of net.outputLayers) {
+      const t = targets[l.name];
+      if (t === undefined) fail("shape_mismatch", `targets.${l.name}`, "target values", undefined);
+      const u = snap.state[l.index] as FloatArray;
+      for (let k = 0; k < u.length; k++) e += beta * 0.5 * ((u[k] as number) - (t[k] as number)) ** 2;
+    }
+  }
+  return e;
+}

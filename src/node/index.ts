@@ -1,0 +1,5 @@
+/**
+ * Node-only parts of ebbflow (files). Import from `ebbflow/node`.
+ * @module
+ */
+export * from "./files.js";

@@ -1,0 +1,56 @@
+/**
+ * Softplus rate function and its slope.
+ * @module
+ */
+
+/**
+ * Softplus rate: `f(x) = log(1 + exp(gain * x)) / gain`, a smooth rectifier,
+ * evaluated as `(max(gain x, 0) + log1p(exp(-|gain x|))) / gain` so that it
+ * neither overflows nor loses precision in either tail.
+ *
+ * Reference: Dugas, Bengio, Bélisle, Nadeau & Garcia 2001 (NIPS 13,
+ * "Incorporating second-order functional knowledge for better option pricing").
+ * @param x Net input, any number; NaN gives NaN.
+ * @param gain Sharpness, finite and > 0 (default 1); large gains approach `max(0, x)`.
+ * @returns The rate, in [0, Infinity).
+ * @category Units
+ * @example
+ * ```ts
+ * softplus(0); // 0.6931471805599453 (= ln 2)
+ * ```
+ */
+export function softplus(x: number, gain = 1): number {
+  const z = gain * x;
+  return ((z > 0 ? z : 0) + Math.log1p(Math.exp(-Math.abs(z)))) / gain;
+}
+
+/**
+ * Slope of softplus: `f'(x) = 1 / (1 + exp(-gain x))` (a logistic of `gain x`).
+ * @param x Net input, any number.
+ * @param gain Sharpness, finite and > 0 (default 1).
+ * @returns The slope, in [0, 1].
+ * @category Units
+ * @example
+ * ```ts
+ * softplusSlope(0); // 0.5
+ * ```
+ */
+export function softplusSlope(x: number, gain = 1): number {
+  return 1 / (1 + Math.exp(-gain * x));
+}
+
+/**
+ * Slope of softplus written from its output `y = f(x)`:
+ * `1 - exp(-gain y)` (since `exp(gain y) = 1 + exp(gain x)`).
+ * @param y A softplus rate, >= 0.
+ * @param gain Sharpness, finite and > 0 (default 1).
+ * @returns The slope at the net input that produced `y`.
+ * @category Units
+ * @example
+ * ```ts
+ * softplusSlopeFromOutput(Math.LN2); // 0.5
+ * ```
+ */
+export function softplusSlopeFromOutput(y: number, gain = 1): number {
+  return -Math.expm1(-gain * y);
+}
