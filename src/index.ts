@@ -12,3 +12,4 @@ export * from "./curves/index.js";
 export * from "./kernels/index.js";
 export * from "./network/index.js";
 export * from "./config/index.js";
+export * from "./rules/index.js";

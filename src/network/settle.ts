@@ -5,7 +5,7 @@
  * @module
  */
 import { allFinite, gemm, maxAbs } from "../kernels/index.js";
-import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive } from "../errors/index.js";
+import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import { allocate, type FloatArray } from "../types/index.js";
 import type { Network } from "./network.js";
 
@@ -35,6 +35,8 @@ export interface PhaseOptions {
   readonly record?: boolean | undefined;
   /** Throw `divergence` if the stop rule ends on maxSteps without converging (default false: the snapshot says `converged: false`). */
   readonly requireConvergence?: boolean | undefined;
+  /** Called after every step with the snapshot being settled (for traces updated during settling). */
+  readonly onStep?: ((snapshot: Snapshot, step: number) => void) | undefined;
 }
 
 /**
@@ -150,10 +152,10 @@ export class Settler {
   }
 
   /** Checks and copies per-layer values (inputs or targets) into `dest`; reports every problem at once. */
-  private loadValues(values: LayerValues | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[]): void {
-    const problems = [];
+  private loadValues(values: LayerValues | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[]): Issue[] {
+    const problems: Issue[] = [];
     if (values === undefined || values === null || typeof values !== "object") {
-      throw new EbbflowError(issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, String(values)));
+      return [issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, String(values))];
     }
     for (const layer of this.net.layers) {
       if (layer.role !== role) continue;
@@ -181,7 +183,7 @@ export class Settler {
       const l = this.net.layers.find((x) => x.name === name);
       if (l === undefined || l.role !== role) problems.push(issueText("unknown_name", `${what}.${name}`, `an ${role} layer name`, JSON.stringify(name)));
     }
-    if (problems.length > 0) throw new EbbflowError(problems);
+    return problems;
   }
 
   /**
@@ -208,8 +210,9 @@ export class Settler {
 
     // which layers are held fixed in this phase
     for (const l of net.layers) this.clamped[l.index] = l.role === "input" || (phase === "clamped" && l.role === "output");
-    this.loadValues(options.inputs, "input", "inputs", snap.activity);
-    if (phase !== "free") this.loadValues(options.targets, "output", "targets", this.targetBuf);
+    const problems = this.loadValues(options.inputs, "input", "inputs", snap.activity);
+    if (phase !== "free") problems.push(...this.loadValues(options.targets, "output", "targets", this.targetBuf));
+    if (problems.length > 0) throw new EbbflowError(problems);
 
     // starting state
     const energy = dyn.kind === "energy";
@@ -303,6 +306,7 @@ export class Settler {
         if (energy) l.unit.fill(snap.activity[i] as FloatArray, snap.state[i] as FloatArray);
       }
       if (snap.record !== null) snap.record.push(snap.activity.map((a) => a.slice()));
+      if (options.onStep !== undefined) options.onStep(snap, step);
       snap.lastChange = change;
       if (change < tolerance) {
         snap.converged = true;

@@ -14,7 +14,7 @@ const nonNegative = (what = "a finite number >= 0") => z.number({ error: what })
 const positiveInt = (what = "an integer >= 1") => z.number({ error: what }).int({ error: what }).min(1, { error: what });
 
 /** Schema of a unit (activation) function. */
-export const unitSchema: z.ZodType<UnitSpecData> = z.lazy(() =>
+export const unitSchema: z.ZodType<UnitSpecData, UnitSpecData> = z.lazy(() =>
   z.discriminatedUnion(
     "kind",
     [

@@ -1,5 +1,5 @@
 import { describe, it, expect } from "vitest";
-import { buildNetwork, parseNetwork, safeParseNetwork, networkJsonSchema, EbbflowError } from "../../src/index.js";
+import { buildNetwork, parseNetwork, safeParseNetwork, networkJsonSchema, EbbflowError, type NetworkSpecInput } from "../../src/index.js";
 import { readFileSync } from "node:fs";
 
 const issuesOf = (input: unknown) => {
@@ -100,7 +100,7 @@ describe("network declarations", () => {
       ],
       connections: [{ from: "in", to: "out", feedback: { kind: "separate", learned: false } }],
     };
-    const fromText = buildNetwork(JSON.parse(JSON.stringify(decl)) as typeof decl & Record<string, never>);
+    const fromText = buildNetwork(JSON.parse(JSON.stringify(decl)) as NetworkSpecInput);
     const inCode = buildNetwork({
       seed: 11,
       layers: [

@@ -1,0 +1,22 @@
+/**
+ * Typed-array hot loops: matrix products, outer-product accumulation,
+ * elementwise operations and reductions on flat row-major arrays.
+ *
+ * Conventions shared by every kernel:
+ * - output first: the destination is the first argument and is returned;
+ * - nothing is allocated and nothing is checked (validate once at the edge
+ *   with {@link checkGemm}, {@link checkGemv}, {@link checkGer} or call the
+ *   members of {@link kernelsChecked});
+ * - `Float32Array` and `Float64Array` are both accepted, also mixed (values
+ *   are rounded to the storage type of the output when stored);
+ * - each kernel documents whether `out` may alias an input.
+ * @module
+ */
+export type { ReadonlyFloatArray } from "./types.js";
+export { gemm } from "./gemm.js";
+export { gemv } from "./gemv.js";
+export { ger } from "./ger.js";
+export { add, sub, mul, axpy, axpby, scale, fill, copy } from "./elementwise.js";
+export { maxAbsDiff, allFinite, maxAbs, dot, sumSquares } from "./reductions.js";
+export { addRowVector, sumRows } from "./rows.js";
+export { checkGemm, checkGemv, checkGer, kernelsChecked } from "./checked.js";

@@ -1,0 +1,112 @@
+/**
+ * What every learning rule provides, and helpers the rules share.
+ * @module
+ */
+import { gemm } from "../kernels/index.js";
+import { fail } from "../errors/index.js";
+import type { FloatArray } from "../types/index.js";
+import type { Connection, Network } from "../network/network.js";
+import { Settler, Snapshot, type LayerValues } from "../network/settle.js";
+import { applyDelta, ParameterDelta } from "./delta.js";
+import type { RuleConfig } from "./config.js";
+
+/** A batch of patterns: values per input layer and targets per output layer, B×N flat. @category Rules */
+export interface Batch {
+  readonly inputs: LayerValues;
+  readonly targets: LayerValues;
+}
+
+/**
+ * A learning rule bound to one network. `computeDelta` leaves the network
+ * untouched; `step` computes and applies the change under the constraints.
+ * @category Rules
+ */
+export interface LearningRule {
+  readonly config: RuleConfig;
+  readonly net: Network;
+  /** The phases the rule settles (for reports). */
+  readonly phases: readonly string[];
+  /** Writes the rule's parameter change for `batch` into `out` (cleared first) and returns it. */
+  computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta;
+  /** Computes the change for `batch` and applies it (all-or-nothing; see applyDelta). */
+  step(batch: Batch): ParameterDelta;
+  /** The free-phase snapshot of the last batch, if the rule settles one. */
+  readonly lastFree: Snapshot | null;
+}
+
+/** Number of patterns in a batch, from the first input layer's values. @category Rules */
+export function batchSizeOf(net: Network, batch: Batch): number {
+  const first = net.inputLayers[0];
+  if (first === undefined) return fail("invalid_config", "layers", "an input layer", "none");
+  const v = batch.inputs[first.name];
+  if (v === undefined) return fail("shape_mismatch", `inputs.${first.name}`, "input values", undefined);
+  if (v.length === 0 || v.length % first.size !== 0) fail("shape_mismatch", `inputs.${first.name}`, `a non-empty multiple of ${first.size} values`, `${v.length} values`);
+  return v.length / first.size;
+}
+
+/** Learning rate of a connection: the rule's per-connection override or its rate, times the connection's own multiplier. @category Rules */
+export function connectionRate(config: RuleConfig, c: Connection): number {
+  const base = config.rates?.[c.label] ?? config.rate;
+  return base * (c.spec.rate ?? 1);
+}
+
+/** Checks that every key of `rates` names a connection. */
+export function checkRates(net: Network, config: RuleConfig): void {
+  for (const key of Object.keys(config.rates ?? {})) {
+    if (!net.connections.some((c) => c.label === key)) fail("unknown_name", `rule.rates["${key}"]`, `a connection label (${net.connections.map((c) => c.label).join(", ")})`, key);
+  }
+}
+
+/**
+ * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
+ * the outcome-minus-expectation coactivity of a connection.
+ */
+export function contrast(out: FloatArray, alpha: number, postA: FloatArray, preA: FloatArray, postB: FloatArray, preB: FloatArray, batch: number, n: number, m: number): void {
+  gemm(out, postA, preA, n, m, batch, true, false, alpha, 0);
+  gemm(out, postB, preB, n, m, batch, true, false, -alpha, 1);
+}
+
+/** `out[j] = alpha · Σ_b (a[b,j] − b[b,j])` (bias changes). */
+export function contrastBias(out: FloatArray, alpha: number, a: FloatArray, b: FloatArray, batch: number, n: number): void {
+  for (let j = 0; j < n; j++) {
+    let s = 0;
+    for (let p = 0; p < batch; p++) s += (a[p * n + j] as number) - (b[p * n + j] as number);
+    out[j] = alpha * s;
+  }
+}
+
+/** Shared machinery of rules that settle phases: one Settler and snapshots per batch size. */
+export abstract class SettlingRule implements LearningRule {
+  abstract readonly phases: readonly string[];
+  readonly config: RuleConfig;
+  readonly net: Network;
+  lastFree: Snapshot | null = null;
+  private readonly settlers = new Map<number, { settler: Settler; snaps: Snapshot[] }>();
+  private stepDelta: ParameterDelta | null = null;
+
+  constructor(net: Network, config: RuleConfig) {
+    this.net = net;
+    this.config = config;
+    checkRates(net, config);
+  }
+
+  /** The settler and `count` reusable snapshots for a batch size. */
+  protected workspace(batch: number, count: number): { settler: Settler; snaps: Snapshot[] } {
+    let ws = this.settlers.get(batch);
+    if (ws === undefined) {
+      ws = { settler: new Settler(this.net, batch), snaps: [] };
+      this.settlers.set(batch, ws);
+    }
+    while (ws.snaps.length < count) ws.snaps.push(new Snapshot(this.net, batch));
+    return ws;
+  }
+
+  abstract computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta;
+
+  step(batch: Batch): ParameterDelta {
+    this.stepDelta ??= new ParameterDelta(this.net);
+    this.computeDelta(batch, this.stepDelta);
+    applyDelta(this.net, this.stepDelta);
+    return this.stepDelta;
+  }
+}

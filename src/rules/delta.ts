@@ -1,0 +1,135 @@
+/**
+ * Parameter changes of a network and their application under the
+ * connections' constraints (frozen, sign, soft bounds).
+ * @module
+ */
+import { EbbflowError, issueText } from "../errors/index.js";
+import { allocate, type FloatArray } from "../types/index.js";
+import type { Network } from "../network/network.js";
+
+/**
+ * A change (or a gradient) for every parameter of a network: one array per
+ * connection's weights, per learned separate feedback matrix, and per layer's
+ * biases (input layers have an empty array).
+ * @category Rules
+ */
+export class ParameterDelta {
+  readonly weights: FloatArray[];
+  readonly feedback: (FloatArray | null)[];
+  readonly biases: FloatArray[];
+
+  /** A zeroed delta shaped like `net`. */
+  constructor(net: Network) {
+    this.weights = net.connections.map((c) => allocate(net.dtype, c.weights.length));
+    this.feedback = net.connections.map((c) => (c.feedback.kind === "separate" && c.feedback.learned ? allocate(net.dtype, c.feedback.weights.length) : null));
+    this.biases = net.layers.map((l) => allocate(net.dtype, l.role === "input" ? 0 : l.size));
+  }
+
+  /** Sets every entry to zero. */
+  clear(): this {
+    for (const w of this.weights) w.fill(0);
+    for (const f of this.feedback) f?.fill(0);
+    for (const b of this.biases) b.fill(0);
+    return this;
+  }
+
+  /** Multiplies every entry by `s`. */
+  scale(s: number): this {
+    for (const arr of [...this.weights, ...this.biases]) for (let i = 0; i < arr.length; i++) arr[i] = (arr[i] as number) * s;
+    for (const f of this.feedback) if (f) for (let i = 0; i < f.length; i++) f[i] = (f[i] as number) * s;
+    return this;
+  }
+
+  /** Adds `s · other` to this delta. */
+  addScaled(other: ParameterDelta, s: number): this {
+    const pairs: [FloatArray, FloatArray][] = [];
+    this.weights.forEach((w, i) => pairs.push([w, other.weights[i] as FloatArray]));
+    this.biases.forEach((b, i) => pairs.push([b, other.biases[i] as FloatArray]));
+    this.feedback.forEach((f, i) => {
+      const o = other.feedback[i];
+      if (f && o) pairs.push([f, o]);
+    });
+    for (const [a, b] of pairs) for (let i = 0; i < a.length; i++) a[i] = (a[i] as number) + s * (b[i] as number);
+    return this;
+  }
+}
+
+function constrained(w: number, dw: number, sign: string, bounds: string): number {
+  if (bounds === "soft") {
+    // multiplicative soft bounds on the magnitude m in [0, 1]: growth scaled by (1 - m), shrinkage by m
+    const s = sign === "inhibitory" ? -1 : 1;
+    const m = Math.abs(w);
+    const dm = s * dw;
+    const next = dm > 0 ? m + dm * (1 - m) : m + dm * m;
+    return s * Math.min(1, Math.max(0, next));
+  }
+  const v = w + dw;
+  if (sign === "excitatory") return v < 0 ? 0 : v;
+  if (sign === "inhibitory") return v > 0 ? 0 : v;
+  return v;
+}
+
+/**
+ * Adds `delta` to the network's parameters, respecting each connection's
+ * constraints: frozen connections do not change, sign-constrained weights
+ * stop at zero, soft-bounded magnitudes stay in [0, 1] (growth scaled by
+ * 1 − |w|, shrinkage by |w|). Biases of a layer change unless every
+ * connection into it is frozen.
+ *
+ * All-or-nothing: if any changed parameter would be non-finite, nothing is
+ * changed and an error names the connection (or layer).
+ * @throws {@link EbbflowError} `non_finite_update`.
+ * @category Rules
+ */
+export function applyDelta(net: Network, delta: ParameterDelta): void {
+  const problems = [];
+  for (const c of net.connections) {
+    if (c.spec.frozen) continue;
+    const d = delta.weights[c.index] as FloatArray;
+    for (let i = 0; i < d.length; i++) {
+      if (!Number.isFinite((c.weights[i] as number) + (d[i] as number))) {
+        problems.push(issueText("non_finite_update", `connections[${c.index}]`, `finite weight changes for ${c.label}`, `${d[i]} at entry ${i}`));
+        break;
+      }
+    }
+    const f = delta.feedback[c.index];
+    if (f && c.feedback.kind === "separate") {
+      for (let i = 0; i < f.length; i++) {
+        if (!Number.isFinite((c.feedback.weights[i] as number) + (f[i] as number))) {
+          problems.push(issueText("non_finite_update", `connections[${c.index}].feedback`, `finite feedback-weight changes for ${c.label}`, `${f[i]} at entry ${i}`));
+          break;
+        }
+      }
+    }
+  }
+  for (const l of net.layers) {
+    const d = delta.biases[l.index] as FloatArray;
+    for (let i = 0; i < d.length; i++) {
+      if (!Number.isFinite((l.bias[i] as number) + (d[i] as number))) {
+        problems.push(issueText("non_finite_update", `layers[${l.index}].bias`, `finite bias changes for layer ${JSON.stringify(l.name)}`, `${d[i]} at unit ${i}`));
+        break;
+      }
+    }
+  }
+  if (problems.length > 0) throw new EbbflowError(problems);
+  for (const c of net.connections) {
+    if (c.spec.frozen) continue;
+    const d = delta.weights[c.index] as FloatArray;
+    const w = c.weights;
+    const { sign, bounds } = c.spec;
+    if (sign === "any" && bounds === "none") for (let i = 0; i < d.length; i++) w[i] = (w[i] as number) + (d[i] as number);
+    else for (let i = 0; i < d.length; i++) w[i] = constrained(w[i] as number, d[i] as number, sign, bounds);
+    const f = delta.feedback[c.index];
+    if (f && c.feedback.kind === "separate") {
+      const fw = c.feedback.weights;
+      for (let i = 0; i < f.length; i++) fw[i] = (fw[i] as number) + (f[i] as number);
+    }
+  }
+  for (const l of net.layers) {
+    if (l.role === "input") continue;
+    const into = net.incoming[l.index] ?? [];
+    if (into.length > 0 && into.every((c) => c.spec.frozen)) continue;
+    const d = delta.biases[l.index] as FloatArray;
+    for (let i = 0; i < d.length; i++) l.bias[i] = (l.bias[i] as number) + (d[i] as number);
+  }
+}

@@ -1,0 +1,74 @@
+/**
+ * Equilibrium Propagation on energy dynamics.
+ * @module
+ */
+import { fail } from "../errors/index.js";
+import type { FloatArray } from "../types/index.js";
+import type { Network } from "../network/network.js";
+import { createRandom, type RandomStream } from "../random/index.js";
+import { ParameterDelta } from "./delta.js";
+import { SettlingRule, batchSizeOf, connectionRate, contrast, contrastBias, type Batch } from "./base.js";
+import type { RuleConfig } from "./config.js";
+import type { Snapshot } from "../network/settle.js";
+
+type Cfg = Extract<RuleConfig, { rule: "eqprop" }>;
+
+/**
+ * Equilibrium Propagation: `ΔW = (ε/β)(ρ(u^β)_post ρ(u^β)_preᵀ − ρ(u⁰)_post ρ(u⁰)_preᵀ)`, biases alike,
+ * averaged over the batch; the nudged phase starts from the free fixed point u⁰
+ * (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24). Modes: `one-sided` (bias O(β)),
+ * `random-sign` (β ← ±β per batch, as in the authors' code), `symmetric` (+β and −β phases,
+ * `ΔW = (ε/2β)(ρρ^{+β} − ρρ^{−β})`, bias O(β²); Laborieux et al. 2021, Front. Neurosci. 15:633674).
+ * Needs energy dynamics (`dynamics.kind: "energy"`).
+ * @category Rules
+ */
+export class EquilibriumPropagation extends SettlingRule {
+  readonly phases: readonly string[];
+  private readonly cfg: Cfg;
+  private readonly signs: RandomStream;
+  /** If set, the free phase of the next batch starts here (persistent states; methods item 4). */
+  start: Snapshot | null = null;
+
+  constructor(net: Network, config: Cfg) {
+    super(net, config);
+    if (config.beta === 0) fail("invalid_parameter", "rule.beta", "a non-zero nudging strength beta", 0);
+    if (net.spec.dynamics.kind !== "energy") fail("invalid_config", "dynamics.kind", '"energy" (Equilibrium Propagation settles on an energy function)', net.spec.dynamics.kind);
+    this.cfg = config;
+    this.phases = config.mode === "symmetric" ? ["free", "nudged +β", "nudged −β"] : ["free", "nudged"];
+    this.signs = createRandom(net.spec.seed).child("eqprop/sign");
+  }
+
+  computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
+    const net = this.net;
+    const B = batchSizeOf(net, batch);
+    const { settler, snaps } = this.workspace(B, 3);
+    const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.start ?? undefined }, snaps[0]);
+    this.lastFree = free;
+    let beta = this.cfg.beta;
+    let a: Snapshot;
+    let b: Snapshot;
+    let scale: number;
+    if (this.cfg.mode === "symmetric") {
+      a = settler.settle({ phase: "nudged", beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+      b = settler.settle({ phase: "nudged", beta: -beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
+      scale = 1 / (2 * beta);
+    } else {
+      if (this.cfg.mode === "random-sign") beta *= this.signs.sign();
+      a = settler.settle({ phase: "nudged", beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+      b = free;
+      scale = 1 / beta;
+    }
+    out.clear();
+    for (const c of net.connections) {
+      if (c.spec.frozen) continue;
+      const n = net.layers[c.to]!.size;
+      const m = net.layers[c.from]!.size;
+      contrast(out.weights[c.index] as FloatArray, (connectionRate(this.cfg, c) * scale) / B, a.activity[c.to] as FloatArray, a.activity[c.from] as FloatArray, b.activity[c.to] as FloatArray, b.activity[c.from] as FloatArray, B, n, m);
+    }
+    for (const l of net.layers) {
+      if (l.role === "input") continue;
+      contrastBias(out.biases[l.index] as FloatArray, (this.cfg.rate * scale) / B, a.activity[l.index] as FloatArray, b.activity[l.index] as FloatArray, B, l.size);
+    }
+    return out;
+  }
+}

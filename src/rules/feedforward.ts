@@ -1,0 +1,232 @@
+/**
+ * Rules on the feedforward pass (feedback paths ignored): backprop, the
+ * reference; feedback alignment; direct feedback alignment.
+ * @module
+ */
+import { gemm } from "../kernels/index.js";
+import { fail } from "../errors/index.js";
+import { allocate, type FloatArray } from "../types/index.js";
+import type { Network } from "../network/network.js";
+import { createRandom, fillNormal } from "../random/index.js";
+import { ParameterDelta, applyDelta } from "./delta.js";
+import { batchSizeOf, checkRates, connectionRate, type Batch, type LearningRule } from "./base.js";
+import type { RuleConfig } from "./config.js";
+import type { Snapshot } from "../network/settle.js";
+
+/** Layers in an order where every forward connection goes from an earlier to a later layer. @category Rules */
+export function forwardOrder(net: Network): number[] {
+  const indeg = net.layers.map(() => 0);
+  for (const c of net.connections) {
+    if (c.from === c.to) fail("unsupported", `connections[${c.index}]`, "no lateral connection on a feedforward pass", c.label);
+    indeg[c.to] = (indeg[c.to] as number) + 1;
+  }
+  const order: number[] = [];
+  const ready = net.layers.filter((l) => indeg[l.index] === 0).map((l) => l.index);
+  while (ready.length > 0) {
+    const i = ready.shift() as number;
+    order.push(i);
+    for (const c of net.connections) {
+      if (c.from !== i) continue;
+      indeg[c.to] = (indeg[c.to] as number) - 1;
+      if (indeg[c.to] === 0) ready.push(c.to);
+    }
+  }
+  if (order.length !== net.layers.length) fail("unsupported", "connections", "forward connections without cycles (a feedforward pass)", "a cycle");
+  for (const l of net.layers) {
+    if (l.role !== "input" && l.inhibition.kind !== "none") fail("unsupported", `layers[${l.index}].inhibition`, "kind none on a feedforward pass (inhibition depends on the layer's own activity)", l.inhibition.kind);
+  }
+  return order;
+}
+
+/** Buffers of one feedforward pass: net input, activity, slope and error signal per layer (B×N). @category Rules */
+export interface ForwardPass {
+  readonly batch: number;
+  readonly netInput: FloatArray[];
+  readonly activity: FloatArray[];
+  readonly slope: FloatArray[];
+  readonly delta: FloatArray[];
+}
+
+/** Allocates a {@link ForwardPass} for `net` and `batch`. @category Rules */
+export function createForwardPass(net: Network, batch: number): ForwardPass {
+  const a = () => net.layers.map((l) => allocate(net.dtype, batch * l.size));
+  return { batch, netInput: a(), activity: a(), slope: a(), delta: a() };
+}
+
+/** Runs the feedforward pass: `a_l = Σ W x_from + b_l`, `x_l = f(a_l)`; inputs taken as activity. @category Rules */
+export function runForward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass): void {
+  const B = pass.batch;
+  for (const i of order) {
+    const l = net.layers[i]!;
+    const x = pass.activity[i] as FloatArray;
+    if (l.role === "input") {
+      const v = batch.inputs[l.name];
+      if (v === undefined || v.length !== B * l.size) fail("shape_mismatch", `inputs.${l.name}`, `${B * l.size} values`, v === undefined ? "missing" : `${v.length} values`);
+      for (let k = 0; k < x.length; k++) x[k] = v[k] as number;
+      continue;
+    }
+    const a = pass.netInput[i] as FloatArray;
+    for (let p = 0; p < B; p++) a.set(l.bias, p * l.size);
+    for (const c of net.incoming[i] ?? []) gemm(a, pass.activity[c.from] as FloatArray, c.weights, B, l.size, net.layers[c.from]!.size, false, true, 1, 1);
+    l.unit.fill(x, a);
+    l.unit.fillSlope(pass.slope[i] as FloatArray, a);
+  }
+}
+
+/** Writes into the output layers' `delta` the error `(y − t) ⊙ f'(a)` (squared error ½‖y − t‖²). */
+function outputError(net: Network, batch: Batch, pass: ForwardPass): void {
+  for (const l of net.outputLayers) {
+    const t = batch.targets[l.name];
+    const n = pass.batch * l.size;
+    if (t === undefined || t.length !== n) fail("shape_mismatch", `targets.${l.name}`, `${n} values`, t === undefined ? "missing" : `${t.length} values`);
+    const d = pass.delta[l.index] as FloatArray;
+    const y = pass.activity[l.index] as FloatArray;
+    const s = pass.slope[l.index] as FloatArray;
+    for (let k = 0; k < n; k++) d[k] = ((y[k] as number) - (t[k] as number)) * (s[k] as number);
+  }
+}
+
+/** How the error reaches a hidden layer. */
+type Carrier = "transpose" | "feedback" | "direct";
+
+/**
+ * Backward pass: error signals δ per layer, then `out = scale · gradient-shaped changes`
+ * (`out_W = scale · δ_postᵀ x_pre / B`). With `transpose` this is backprop
+ * (Rumelhart, Hinton & Williams 1986, Nature 323:533); `feedback` uses each connection's separate
+ * fixed matrix B in place of Wᵀ (Lillicrap et al. 2016, Nat. Commun. 7:13276); `direct` sends the
+ * output error through a fixed matrix per hidden layer (Nøkland 2016, NIPS 29).
+ */
+function backward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass, carrier: Carrier, direct: (FloatArray | null)[], config: RuleConfig | null, out: ParameterDelta): void {
+  const B = pass.batch;
+  outputError(net, batch, pass);
+  const outputs = net.outputLayers;
+  for (let o = order.length - 1; o >= 0; o--) {
+    const i = order[o] as number;
+    const l = net.layers[i]!;
+    if (l.role === "input" || l.role === "output") continue;
+    const d = pass.delta[i] as FloatArray;
+    d.fill(0);
+    if (carrier === "direct") {
+      const D = direct[i] as FloatArray;
+      let col = 0;
+      const total = outputs.reduce((s, x) => s + x.size, 0);
+      for (const out of outputs) {
+        // d (B×n) += e_out (B×|out|) · D[:, col:col+|out|]ᵀ, D is n×total
+        for (let p = 0; p < B; p++)
+          for (let u = 0; u < l.size; u++) {
+            let s = 0;
+            for (let k = 0; k < out.size; k++) s += ((pass.delta[out.index] as FloatArray)[p * out.size + k] as number) * (D[u * total + col + k] as number);
+            d[p * l.size + u] = (d[p * l.size + u] as number) + s;
+          }
+        col += out.size;
+      }
+    } else {
+      for (const c of net.connections) {
+        if (c.from !== i) continue;
+        const n = net.layers[c.to]!.size;
+        if (carrier === "transpose") gemm(d, pass.delta[c.to] as FloatArray, c.weights, B, l.size, n, false, false, 1, 1);
+        else {
+          if (c.feedback.kind !== "separate") fail("invalid_config", `connections[${c.index}].feedback`, 'kind "separate" (a fixed random feedback matrix for feedback alignment)', c.feedback.kind);
+          gemm(d, pass.delta[c.to] as FloatArray, c.feedback.weights, B, l.size, n, false, true, 1, 1);
+        }
+      }
+    }
+    const s = pass.slope[i] as FloatArray;
+    for (let k = 0; k < d.length; k++) d[k] = (d[k] as number) * (s[k] as number);
+  }
+  out.clear();
+  for (const c of net.connections) {
+    if (config !== null && c.spec.frozen) continue;
+    const scale = config === null ? 1 : -connectionRate(config, c);
+    gemm(out.weights[c.index] as FloatArray, pass.delta[c.to] as FloatArray, pass.activity[c.from] as FloatArray, net.layers[c.to]!.size, net.layers[c.from]!.size, B, true, false, scale / B, 0);
+  }
+  for (const l of net.layers) {
+    if (l.role === "input") continue;
+    const scale = config === null ? 1 : -config.rate;
+    const b = out.biases[l.index] as FloatArray;
+    const d = pass.delta[l.index] as FloatArray;
+    for (let j = 0; j < l.size; j++) {
+      let s = 0;
+      for (let p = 0; p < B; p++) s += d[p * l.size + j] as number;
+      b[j] = (scale * s) / B;
+    }
+  }
+}
+
+/**
+ * The exact gradient of `J = (1/B) Σ ½‖y − t‖²` on the feedforward pass (feedback ignored),
+ * by backprop (Rumelhart, Hinton & Williams 1986, Nature 323:533). Returns `out`.
+ * @category Verification
+ */
+export function feedforwardGradient(net: Network, batch: Batch, out?: ParameterDelta): ParameterDelta {
+  const order = forwardOrder(net);
+  const pass = createForwardPass(net, batchSizeOf(net, batch));
+  runForward(net, order, batch, pass);
+  const o = out ?? new ParameterDelta(net);
+  backward(net, order, batch, pass, "transpose", [], null, o);
+  return o;
+}
+
+/**
+ * Backprop, feedback alignment or direct feedback alignment on the feedforward pass, as a rule:
+ * the change is `−ε ×` the (approximate) gradient of the squared error, averaged over the batch.
+ * @category Rules
+ */
+export class FeedforwardRule implements LearningRule {
+  readonly phases = ["forward", "backward"] as const;
+  readonly config: RuleConfig;
+  readonly net: Network;
+  readonly lastFree: Snapshot | null = null;
+  private readonly order: number[];
+  private readonly carrier: Carrier;
+  /** Direct feedback matrices (|layer| × total output size) per hidden layer (direct feedback alignment only). */
+  readonly direct: (FloatArray | null)[];
+  private passes = new Map<number, ForwardPass>();
+  private delta: ParameterDelta | null = null;
+
+  constructor(net: Network, config: Extract<RuleConfig, { rule: "backprop" | "feedback-alignment" | "direct-feedback-alignment" }>) {
+    this.net = net;
+    this.config = config;
+    checkRates(net, config);
+    this.order = forwardOrder(net);
+    this.carrier = config.rule === "backprop" ? "transpose" : config.rule === "feedback-alignment" ? "feedback" : "direct";
+    const total = net.outputLayers.reduce((s, l) => s + l.size, 0);
+    const root = createRandom(net.spec.seed);
+    this.direct = net.layers.map((l) => {
+      if (this.carrier !== "direct" || l.role !== "hidden") return null;
+      const scale = config.rule === "direct-feedback-alignment" ? config.scale : 1;
+      return fillNormal(allocate(net.dtype, l.size * total), root.child(`direct-feedback/${l.name}`), 0, scale / Math.sqrt(total));
+    });
+    if (this.carrier === "feedback") {
+      for (const c of net.connections) {
+        if (net.layers[c.from]!.role !== "input" && c.feedback.kind !== "separate") {
+          fail("invalid_config", `connections[${c.index}].feedback`, 'kind "separate" (a fixed random feedback matrix for feedback alignment)', c.feedback.kind);
+        }
+      }
+    }
+  }
+
+  /** The activities of the last feedforward pass for a batch size. */
+  pass(batch: number): ForwardPass {
+    let p = this.passes.get(batch);
+    if (p === undefined) {
+      p = createForwardPass(this.net, batch);
+      this.passes.set(batch, p);
+    }
+    return p;
+  }
+
+  computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
+    const pass = this.pass(batchSizeOf(this.net, batch));
+    runForward(this.net, this.order, batch, pass);
+    backward(this.net, this.order, batch, pass, this.carrier, this.direct, this.config, out);
+    return out;
+  }
+
+  step(batch: Batch): ParameterDelta {
+    this.delta ??= new ParameterDelta(this.net);
+    this.computeDelta(batch, this.delta);
+    applyDelta(this.net, this.delta);
+    return this.delta;
+  }
+}

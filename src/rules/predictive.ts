@@ -1,0 +1,144 @@
+/**
+ * Predictive coding (Whittington & Bogacz 2017) on the layered structure of a network.
+ * @module
+ */
+import { gemm } from "../kernels/index.js";
+import { fail, EbbflowError, issueText } from "../errors/index.js";
+import { allocate, type FloatArray } from "../types/index.js";
+import type { Network } from "../network/network.js";
+import type { Snapshot } from "../network/settle.js";
+import { ParameterDelta, applyDelta } from "./delta.js";
+import { batchSizeOf, checkRates, connectionRate, type Batch, type LearningRule } from "./base.js";
+import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "./feedforward.js";
+import type { RuleConfig } from "./config.js";
+
+type Cfg = Extract<RuleConfig, { rule: "predictive-coding" }>;
+
+/**
+ * Predictive coding: value nodes v_l hold each non-input layer's net input, predictions
+ * `μ_l = Σ W f(v_pre) + b_l` (the unit function on the presynaptic value; inputs enter as they are),
+ * errors `ε_l = (v_l − μ_l)/Σ_l` (Σ = 1 for hidden layers, `outputVariance` for outputs, whose
+ * values are clamped to the targets). Inference `dv_l/dt = −ε_l + f'(v_l) ⊙ Σ Wᵀ ε_post` starts at
+ * the feedforward pass and runs to equilibrium; then `ΔW = ε · Σ_out · ε_post f(v_pre)ᵀ`
+ * (Whittington & Bogacz 2017, Neural Computation 29:1229). The factor Σ_out expresses the rate in
+ * backprop units, so as Σ_out grows the change tends to backprop's with error O(1/Σ_out).
+ * Needs linear output units (the output is the prediction itself).
+ * @category Rules
+ */
+export class PredictiveCoding implements LearningRule {
+  readonly phases = ["inference"] as const;
+  readonly config: Cfg;
+  readonly net: Network;
+  readonly lastFree: Snapshot | null = null;
+  /** Steps the last inference took. */
+  lastSteps = 0;
+  private readonly order: number[];
+  private ws = new Map<number, { pass: ForwardPass; value: FloatArray[]; err: FloatArray[]; fv: FloatArray[]; slope: FloatArray[]; next: FloatArray[] }>();
+  private delta: ParameterDelta | null = null;
+
+  constructor(net: Network, config: Cfg) {
+    this.net = net;
+    this.config = config;
+    checkRates(net, config);
+    this.order = forwardOrder(net);
+    for (const l of net.outputLayers) {
+      if (l.unit.spec.kind !== "linear") fail("invalid_config", `layers[${l.index}].unit.kind`, '"linear" output units for predictive coding (the output is the prediction)', l.unit.spec.kind);
+    }
+  }
+
+  private workspace(B: number) {
+    let w = this.ws.get(B);
+    if (w === undefined) {
+      const a = () => this.net.layers.map((l) => allocate(this.net.dtype, B * l.size));
+      w = { pass: createForwardPass(this.net, B), value: a(), err: a(), fv: a(), slope: a(), next: a() };
+      this.ws.set(B, w);
+    }
+    return w;
+  }
+
+  computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
+    const net = this.net;
+    const cfg = this.config;
+    const B = batchSizeOf(net, batch);
+    const w = this.workspace(B);
+    runForward(net, this.order, batch, w.pass);
+    for (const l of net.layers) {
+      const v = w.value[l.index] as FloatArray;
+      if (l.role === "input") v.set(w.pass.activity[l.index] as FloatArray);
+      else if (l.role === "output") {
+        const t = batch.targets[l.name];
+        if (t === undefined || t.length !== v.length) fail("shape_mismatch", `targets.${l.name}`, `${v.length} values`, t === undefined ? "missing" : `${t.length} values`);
+        for (let k = 0; k < v.length; k++) v[k] = t[k] as number;
+      } else v.set(w.pass.netInput[l.index] as FloatArray);
+    }
+    const variance = (i: number) => (net.layers[i]!.role === "output" ? cfg.outputVariance : 1);
+    const computeErrors = () => {
+      for (const l of net.layers) {
+        const fv = w.fv[l.index] as FloatArray;
+        if (l.role === "input") fv.set(w.value[l.index] as FloatArray);
+        else {
+          l.unit.fill(fv, w.value[l.index] as FloatArray);
+          l.unit.fillSlope(w.slope[l.index] as FloatArray, w.value[l.index] as FloatArray);
+        }
+      }
+      for (const l of net.layers) {
+        if (l.role === "input") continue;
+        const e = w.err[l.index] as FloatArray;
+        for (let p = 0; p < B; p++) e.set(l.bias, p * l.size);
+        for (const c of net.incoming[l.index] ?? []) gemm(e, w.fv[c.from] as FloatArray, c.weights, B, l.size, net.layers[c.from]!.size, false, true, -1, -1);
+        // e now holds −μ; ε = (v − μ)/Σ
+        const v = w.value[l.index] as FloatArray;
+        const s = 1 / variance(l.index);
+        for (let k = 0; k < e.length; k++) e[k] = ((v[k] as number) + (e[k] as number)) * s;
+      }
+    };
+    let step = 0;
+    let converged = false;
+    for (; step < cfg.maxSteps && !converged; step++) {
+      computeErrors();
+      let change = 0;
+      for (const l of net.layers) {
+        if (l.role !== "hidden") continue;
+        const g = w.next[l.index] as FloatArray;
+        g.fill(0);
+        for (const c of net.connections) if (c.from === l.index) gemm(g, w.err[c.to] as FloatArray, c.weights, B, l.size, net.layers[c.to]!.size, false, false, 1, 1);
+        const v = w.value[l.index] as FloatArray;
+        const e = w.err[l.index] as FloatArray;
+        const sl = w.slope[l.index] as FloatArray;
+        for (let k = 0; k < v.length; k++) {
+          const dv = cfg.dt * (-(e[k] as number) + (sl[k] as number) * (g[k] as number));
+          v[k] = (v[k] as number) + dv;
+          if (Math.abs(dv) > change) change = Math.abs(dv);
+        }
+        for (let k = 0; k < v.length; k++) if (!Number.isFinite(v[k] as number)) throw new EbbflowError(issueText("divergence", `layers[${l.index}]`, "finite value nodes during inference", "a non-finite value", `step ${step + 1}`));
+      }
+      converged = change < cfg.tolerance;
+    }
+    computeErrors();
+    this.lastSteps = step;
+    out.clear();
+    for (const c of net.connections) {
+      if (c.spec.frozen) continue;
+      const alpha = (connectionRate(cfg, c) * cfg.outputVariance) / B;
+      gemm(out.weights[c.index] as FloatArray, w.err[c.to] as FloatArray, w.fv[c.from] as FloatArray, net.layers[c.to]!.size, net.layers[c.from]!.size, B, true, false, alpha, 0);
+    }
+    for (const l of net.layers) {
+      if (l.role === "input") continue;
+      const b = out.biases[l.index] as FloatArray;
+      const e = w.err[l.index] as FloatArray;
+      for (let j = 0; j < l.size; j++) {
+        let s = 0;
+        for (let p = 0; p < B; p++) s += e[p * l.size + j] as number;
+        b[j] = (cfg.rate * cfg.outputVariance * s) / B;
+      }
+    }
+    return out;
+  }
+
+  step(batch: Batch): ParameterDelta {
+    this.delta ??= new ParameterDelta(this.net);
+    this.computeDelta(batch, this.delta);
+    applyDelta(this.net, this.delta);
+    return this.delta;
+  }
+}
