@@ -13,3 +13,4 @@ export * from "./kernels/index.js";
 export * from "./network/index.js";
 export * from "./config/index.js";
 export * from "./rules/index.js";
+export * from "./verify/index.js";

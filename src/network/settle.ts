@@ -269,10 +269,11 @@ export class Settler {
         const nudge = phase === "nudged" && l.role === "output";
         const tgt = this.targetBuf[i] as FloatArray;
         if (!energy) {
-          // rate dynamics: x += dt (f(eta) - x) [+ dt beta (t - x)]
+          // rate dynamics: x += dt (f(eta) - x); nudging adds the current beta (t - x) to the net input,
+          // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost
+          if (nudge) for (let k = 0; k < len; k++) eta[k] = (eta[k] as number) + beta * ((tgt[k] as number) - (x[k] as number));
           l.unit.fill(t, eta, len);
-          if (nudge) for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) - (x[k] as number) + beta * ((tgt[k] as number) - (x[k] as number)));
-          else for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) - (x[k] as number));
+          for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) - (x[k] as number));
         } else {
           // energy dynamics: u += dt (rho'(u) eta - u) [+ dt beta (t - u)]  (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24)
           l.unit.fillSlope(t, x, len);

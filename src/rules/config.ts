@@ -33,12 +33,14 @@ export const ruleSchema = z.discriminatedUnion(
     z
       .object({
         rule: z.literal("calcium"),
-        trough: z.number().refine((v) => v > 0 && v < 1, { error: "a trough position in the open interval (0, 1)" }).default(0.1),
+        trough: z.number().refine((v) => v > 0 && v < 1, { error: "a trough position in the open interval (0, 1)" }).default(0.05),
         threshold: z.enum(["error", "bcm", "mix"], { error: "one of error, bcm, mix" }).default("error"),
         mix: z.number().refine((v) => v >= 0 && v <= 1, { error: "a mix weight in [0, 1]" }).default(0.9),
         timing: z.enum(["phases", "continuous"], { error: "one of phases, continuous" }).default("phases"),
-        fastTau: positive("a time constant > 0 (settling steps)").default(2),
+        fastTau: positive("a time constant > 0 (settling steps)").default(1),
         slowTau: positive("a time constant > 0 (settling steps)").default(20),
+        freeSteps: z.number().int().min(1, { error: "an integer >= 1" }).default(100),
+        clampedSteps: z.number().int().min(1, { error: "an integer >= 1" }).default(10),
         averageTau: positive("a time constant > 0 (trials)").default(50),
         ...common,
       })

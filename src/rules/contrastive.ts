@@ -256,8 +256,17 @@ export class SlidingThresholdRule extends SettlingRule {
       const aSlow = 1 - Math.exp(-1 / cfg.slowTau);
       const tf = buf.fastPre;
       const ts = buf.slowPre;
-      for (const t of [...tf, ...ts]) t.fill(0);
+      let first = true;
       const feed = (s: Snapshot) => {
+        if (first) {
+          // both traces start at the trial's first state, so neither is biased toward zero
+          for (let li = 0; li < net.layers.length; li++) {
+            (tf[li] as FloatArray).set(s.activity[li] as FloatArray);
+            (ts[li] as FloatArray).set(s.activity[li] as FloatArray);
+          }
+          first = false;
+          return;
+        }
         for (let li = 0; li < net.layers.length; li++) {
           const a = s.activity[li] as FloatArray;
           const f = tf[li] as FloatArray;
@@ -268,9 +277,10 @@ export class SlidingThresholdRule extends SettlingRule {
           }
         }
       };
-      const free = settler.settle({ phase: "free", inputs: batch.inputs, onStep: feed }, snaps[0]);
+      // fixed phase durations (no early stop), so the traces see a known time course
+      const free = settler.settle({ phase: "free", inputs: batch.inputs, onStep: feed, maxSteps: cfg.freeSteps, tolerance: Number.MIN_VALUE }, snaps[0]);
       this.lastFree = free;
-      settler.settle({ phase: "clamped", inputs: batch.inputs, targets: batch.targets, start: free, onStep: feed }, snaps[1]);
+      settler.settle({ phase: "clamped", inputs: batch.inputs, targets: batch.targets, start: free, onStep: feed, maxSteps: cfg.clampedSteps, tolerance: Number.MIN_VALUE }, snaps[1]);
       fast = tf;
       slow = ts;
     }

@@ -19,7 +19,8 @@ type Cfg = Extract<RuleConfig, { rule: "eqprop" }>;
  * (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24). Modes: `one-sided` (bias O(β)),
  * `random-sign` (β ← ±β per batch, as in the authors' code), `symmetric` (+β and −β phases,
  * `ΔW = (ε/2β)(ρρ^{+β} − ρρ^{−β})`, bias O(β²); Laborieux et al. 2021, Front. Neurosci. 15:633674).
- * Needs energy dynamics (`dynamics.kind: "energy"`).
+ * Runs on energy dynamics or on rate dynamics (whose nudged fixed point is a stationary point of the
+ * continuous-Hopfield energy plus β·cost); the estimate follows the gradient when feedback is tied with gain 1.
  * @category Rules
  */
 export class EquilibriumPropagation extends SettlingRule {
@@ -32,7 +33,6 @@ export class EquilibriumPropagation extends SettlingRule {
   constructor(net: Network, config: Cfg) {
     super(net, config);
     if (config.beta === 0) fail("invalid_parameter", "rule.beta", "a non-zero nudging strength beta", 0);
-    if (net.spec.dynamics.kind !== "energy") fail("invalid_config", "dynamics.kind", '"energy" (Equilibrium Propagation settles on an energy function)', net.spec.dynamics.kind);
     this.cfg = config;
     this.phases = config.mode === "symmetric" ? ["free", "nudged +β", "nudged −β"] : ["free", "nudged"];
     this.signs = createRandom(net.spec.seed).child("eqprop/sign");

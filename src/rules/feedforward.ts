@@ -93,10 +93,11 @@ type Carrier = "transpose" | "feedback" | "direct";
  * Backward pass: error signals δ per layer, then `out = scale · gradient-shaped changes`
  * (`out_W = scale · δ_postᵀ x_pre / B`). With `transpose` this is backprop
  * (Rumelhart, Hinton & Williams 1986, Nature 323:533); `feedback` uses each connection's separate
- * fixed matrix B in place of Wᵀ (Lillicrap et al. 2016, Nat. Commun. 7:13276); `direct` sends the
+ * fixed matrix B in place of Wᵀ (its separate feedback matrix, or a fixed random one the rule draws; Lillicrap et al.
+ * 2016, Nat. Commun. 7:13276); `direct` sends the
  * output error through a fixed matrix per hidden layer (Nøkland 2016, NIPS 29).
  */
-function backward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass, carrier: Carrier, direct: (FloatArray | null)[], config: RuleConfig | null, out: ParameterDelta): void {
+function backward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass, carrier: Carrier, direct: readonly (FloatArray | null)[], random: readonly (FloatArray | null)[], config: RuleConfig | null, out: ParameterDelta): void {
   const B = pass.batch;
   outputError(net, batch, pass);
   const outputs = net.outputLayers;
@@ -126,8 +127,8 @@ function backward(net: Network, order: readonly number[], batch: Batch, pass: Fo
         const n = net.layers[c.to]!.size;
         if (carrier === "transpose") gemm(d, pass.delta[c.to] as FloatArray, c.weights, B, l.size, n, false, false, 1, 1);
         else {
-          if (c.feedback.kind !== "separate") fail("invalid_config", `connections[${c.index}].feedback`, 'kind "separate" (a fixed random feedback matrix for feedback alignment)', c.feedback.kind);
-          gemm(d, pass.delta[c.to] as FloatArray, c.feedback.weights, B, l.size, n, false, true, 1, 1);
+          const fb = c.feedback.kind === "separate" ? c.feedback.weights : (random[c.index] as FloatArray);
+          gemm(d, pass.delta[c.to] as FloatArray, fb, B, l.size, n, false, true, 1, 1);
         }
       }
     }
@@ -163,7 +164,7 @@ export function feedforwardGradient(net: Network, batch: Batch, out?: ParameterD
   const pass = createForwardPass(net, batchSizeOf(net, batch));
   runForward(net, order, batch, pass);
   const o = out ?? new ParameterDelta(net);
-  backward(net, order, batch, pass, "transpose", [], null, o);
+  backward(net, order, batch, pass, "transpose", [], [], null, o);
   return o;
 }
 
@@ -181,6 +182,8 @@ export class FeedforwardRule implements LearningRule {
   private readonly carrier: Carrier;
   /** Direct feedback matrices (|layer| × total output size) per hidden layer (direct feedback alignment only). */
   readonly direct: (FloatArray | null)[];
+  /** Fixed random feedback matrices (|from| × |to|) for connections without a separate feedback matrix (feedback alignment only). */
+  readonly random: (FloatArray | null)[];
   private passes = new Map<number, ForwardPass>();
   private delta: ParameterDelta | null = null;
 
@@ -197,13 +200,13 @@ export class FeedforwardRule implements LearningRule {
       const scale = config.rule === "direct-feedback-alignment" ? config.scale : 1;
       return fillNormal(allocate(net.dtype, l.size * total), root.child(`direct-feedback/${l.name}`), 0, scale / Math.sqrt(total));
     });
-    if (this.carrier === "feedback") {
-      for (const c of net.connections) {
-        if (net.layers[c.from]!.role !== "input" && c.feedback.kind !== "separate") {
-          fail("invalid_config", `connections[${c.index}].feedback`, 'kind "separate" (a fixed random feedback matrix for feedback alignment)', c.feedback.kind);
-        }
-      }
-    }
+    // feedback alignment: each connection's own separate feedback matrix, or else a fixed random one of the rule's
+    this.random = net.connections.map((c) => {
+      if (this.carrier !== "feedback" || c.feedback.kind === "separate" || net.layers[c.from]!.role === "input") return null;
+      const n = net.layers[c.to]!.size;
+      const m = net.layers[c.from]!.size;
+      return fillNormal(allocate(net.dtype, m * n), root.child(`fixed-feedback/${c.label}`), 0, 1 / Math.sqrt(n));
+    });
   }
 
   /** The activities of the last feedforward pass for a batch size. */
@@ -219,7 +222,7 @@ export class FeedforwardRule implements LearningRule {
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
     const pass = this.pass(batchSizeOf(this.net, batch));
     runForward(this.net, this.order, batch, pass);
-    backward(this.net, this.order, batch, pass, this.carrier, this.direct, this.config, out);
+    backward(this.net, this.order, batch, pass, this.carrier, this.direct, this.random, this.config, out);
     return out;
   }
 
