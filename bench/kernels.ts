@@ -7,11 +7,14 @@
  * Each precision runs in its own worker thread: V8 specialises a function for
  * the array types it has seen, and a kernel that has seen both Float32Array
  * and Float64Array runs slower for both. A process normally computes in one
- * precision, so each is measured on a fresh engine.
+ * precision, so each is measured on a fresh engine. The main thread asks the
+ * two workers for one case at a time, in turn, so both precisions of a case
+ * are measured under similar machine load.
  */
 import { Worker, isMainThread, parentPort, workerData } from "node:worker_threads";
 import { gemm, gemv, ger } from "../src/kernels/index.js";
-import type { Dtype, FloatArray } from "../src/types/index.js";
+import { createRandom, fillUniform } from "../src/random/index.js";
+import { allocate, type Dtype, type FloatArray } from "../src/types/index.js";
 import { consume } from "./machine.js";
 
 interface Row {
@@ -116,87 +119,102 @@ function pair(flops: number, kernel: () => void, peer: () => void, samples = 7, 
 }
 
 function filled(dtype: Dtype, n: number, seed: number): FloatArray {
-  const out = dtype === "float32" ? new Float32Array(n) : new Float64Array(n);
-  let s = seed >>> 0;
-  for (let i = 0; i < n; i++) {
-    s = (Math.imul(s, 1664525) + 1013904223) >>> 0; // LCG (Numerical Recipes constants): data only, not statistics
-    out[i] = s / 2 ** 32 - 0.5;
-  }
-  return out;
+  return fillUniform(allocate(dtype, n), createRandom(seed).child("bench-kernels"), -0.5, 0.5);
 }
 
-function measure(dtype: Dtype): Row[] {
-  const rows: Row[] = [];
+/** One benchmark case: allocates its arrays when run, outside the timed loops. */
+type Case = () => Row;
+
+function cases(dtype: Dtype): Case[] {
+  const list: Case[] = [];
+  const gemmCases: [string, boolean, boolean, typeof naiveGemmNN][] = [
+    ["gemm NN", false, false, naiveGemmNN],
+    ["gemm NT", false, true, naiveGemmNT],
+    ["gemm TN", true, false, naiveGemmTN],
+  ];
   for (const size of [64, 128, 256]) {
-    const a = filled(dtype, size * size, 1);
-    const b = filled(dtype, size * size, 2);
-    const c = filled(dtype, size * size, 3);
-    const flops = 2 * size * size * size;
-    const shape = `${size}x${size}x${size}`;
-    const cases: [string, boolean, boolean, typeof naiveGemmNN][] = [
-      ["gemm NN", false, false, naiveGemmNN],
-      ["gemm NT", false, true, naiveGemmNT],
-      ["gemm TN", true, false, naiveGemmTN],
-    ];
-    for (const [op, tA, tB, naive] of cases) {
-      const [kernel, peer] = pair(
-        flops,
-        () => gemm(c, a, b, size, size, size, tA, tB, 1, 0),
-        () => naive(c, a, b, size, size, size),
-      );
-      consume(c);
-      rows.push({ op, shape, dtype, kernel, naive: peer });
+    for (const [op, tA, tB, naive] of gemmCases) {
+      list.push(() => {
+        const a = filled(dtype, size * size, 1);
+        const b = filled(dtype, size * size, 2);
+        const c = filled(dtype, size * size, 3);
+        const [kernel, peer] = pair(
+          2 * size * size * size,
+          () => gemm(c, a, b, size, size, size, tA, tB, 1, 0),
+          () => naive(c, a, b, size, size, size),
+        );
+        consume(c);
+        return { op, shape: `${size}x${size}x${size}`, dtype, kernel, naive: peer };
+      });
     }
   }
-
   for (const size of [256, 1024]) {
-    const a = filled(dtype, size * size, 4);
-    const x = filled(dtype, size, 5);
-    const y = filled(dtype, size, 6);
-    const flops = 2 * size * size;
-    const shape = `${size}x${size}`;
-    const [kernel, peer] = pair(
-      flops,
-      () => gemv(y, a, x, size, size, false, 1, 0),
-      () => naiveGemv(y, a, x, size, size),
-    );
-    consume(y);
-    rows.push({ op: "gemv A x", shape, dtype, kernel, naive: peer });
-    const [kernelT, peerT] = pair(
-      flops,
-      () => gemv(y, a, x, size, size, true, 1, 0),
-      () => naiveGemvT(y, a, x, size, size),
-    );
-    consume(y);
-    rows.push({ op: "gemv Aᵀ x", shape, dtype, kernel: kernelT, naive: peerT });
+    for (const trans of [false, true]) {
+      list.push(() => {
+        const a = filled(dtype, size * size, 4);
+        const x = filled(dtype, size, 5);
+        const y = filled(dtype, size, 6);
+        const [kernel, peer] = pair(
+          2 * size * size,
+          () => gemv(y, a, x, size, size, trans, 1, 0),
+          trans ? () => naiveGemvT(y, a, x, size, size) : () => naiveGemv(y, a, x, size, size),
+        );
+        consume(y);
+        return { op: trans ? "gemv Aᵀ x" : "gemv A x", shape: `${size}x${size}`, dtype, kernel, naive: peer };
+      });
+    }
   }
-
-  {
+  list.push(() => {
     const size = 256;
     const out = filled(dtype, size * size, 7);
     const x = filled(dtype, size, 8);
     const y = filled(dtype, size, 9);
-    // tiny alpha keeps the accumulated matrix bounded over many calls
+    // a tiny alpha keeps the accumulated matrix bounded over many calls
     const [kernel, peer] = pair(
       2 * size * size,
       () => ger(out, x, y, size, size, 1e-9),
       () => naiveGer(out, x, y, size, size, 1e-9),
     );
     consume(out);
-    rows.push({ op: "ger", shape: `${size}x${size}`, dtype, kernel, naive: peer });
-  }
-  return rows;
+    return { op: "ger", shape: `${size}x${size}`, dtype, kernel, naive: peer };
+  });
+  return list;
 }
 
-function inWorker(dtype: Dtype): Promise<Row[]> {
-  return new Promise((resolve, reject) => {
+/** A worker thread holding the cases of one precision; runs one case per request. */
+class PrecisionWorker {
+  private readonly worker: Worker;
+  private constructor(worker: Worker) {
+    this.worker = worker;
+  }
+
+  static async start(dtype: Dtype): Promise<{ runner: PrecisionWorker; count: number }> {
     const worker = new Worker(new URL(import.meta.url), { workerData: { tag: WORKER_TAG, dtype } });
-    worker.once("message", (rows: Row[]) => resolve(rows));
-    worker.once("error", reject);
-    worker.once("exit", (code) => {
-      if (code !== 0) reject(new Error(`kernel benchmark worker (${dtype}) exited with code ${code}`));
+    const runner = new PrecisionWorker(worker);
+    const count = await runner.next<number>();
+    return { runner, count };
+  }
+
+  private next<R>(): Promise<R> {
+    return new Promise((resolve, reject) => {
+      const onError = (e: Error) => reject(e);
+      this.worker.once("error", onError);
+      this.worker.once("message", (value: R) => {
+        this.worker.off("error", onError);
+        resolve(value);
+      });
     });
-  });
+  }
+
+  run(index: number): Promise<Row> {
+    const reply = this.next<Row>();
+    this.worker.postMessage(index);
+    return reply;
+  }
+
+  stop(): Promise<number> {
+    return this.worker.terminate();
+  }
 }
 
 function fmt(x: number, digits = 2): string {
@@ -205,8 +223,20 @@ function fmt(x: number, digits = 2): string {
 
 /** Runs the kernel benchmark and prints one table (GFLOP/s and ratios). */
 export async function run(): Promise<void> {
-  const f64 = await inWorker("float64");
-  const f32 = await inWorker("float32");
+  const w64 = await PrecisionWorker.start("float64");
+  const w32 = await PrecisionWorker.start("float32");
+  const f64: Row[] = [];
+  const f32: Row[] = [];
+  try {
+    // the two precisions take turns case by case, so both meet similar machine load
+    for (let q = 0; q < w64.count; q++) {
+      f64.push(await w64.runner.run(q));
+      f32.push(await w32.runner.run(q));
+    }
+  } finally {
+    await w64.runner.stop();
+    await w32.runner.stop();
+  }
   const header = ["op", "shape", "f64 GFLOP/s", "f64 ×naive", "f32 GFLOP/s", "f32 ×naive", "f32/f64"];
   const lines: string[][] = [header];
   f64.forEach((r, q) => {
@@ -220,11 +250,14 @@ export async function run(): Promise<void> {
   for (const l of lines.slice(1)) console.log(render(l));
   console.log(
     "×naive: speed-up over the textbook loop nest (samples alternate with the kernel's, medians of 7);" +
-      " f32/f64: float32 kernel over float64 kernel. Each precision runs in its own worker thread (fresh type feedback).",
+      " f32/f64: float32 kernel over float64 kernel, measured in turn. Each precision runs in its own worker thread (fresh type feedback).",
   );
 }
 
 if (!isMainThread && (workerData as { tag?: string } | null)?.tag === WORKER_TAG) {
   const { dtype } = workerData as { dtype: Dtype };
-  parentPort!.postMessage(measure(dtype));
+  const list = cases(dtype);
+  const port = parentPort!;
+  port.on("message", (index: number) => port.postMessage(list[index]!()));
+  port.postMessage(list.length);
 }

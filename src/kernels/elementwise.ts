@@ -77,7 +77,7 @@ export function mul<T extends FloatArray>(out: T, a: ReadonlyFloatArray, b: Read
  * Scaled accumulation `out[i] = alpha * a[i] + out[i]` (BLAS xAXPY: Lawson,
  * Hanson, Kincaid & Krogh, 1979, ACM Trans. Math. Softw. 5(3):308-323).
  *
- * Aliasing: `out` may be `a` (then `out[i] *= 1 + alpha`).
+ * Aliasing: `out` may be `a` (then `out[i] = alpha * out[i] + out[i]`).
  * @param out - accumulator, updated in place.
  * @param a - increment.
  * @param alpha - scale of the increment.

@@ -245,7 +245,7 @@ class BankCascade implements VectorCascade {
     this.ordering = r.ordering;
     this.delayed = r.ordering === "delayed";
     this.all = allocate(dtype, r.stages * n);
-    if (r.initial !== 0) this.all.fill(r.initial);
+    this.all.fill(r.initial);
     const views: FloatArray[] = [];
     for (let k = 0; k < r.stages; k++) views.push(this.all.subarray(k * n, (k + 1) * n));
     this.views = views;

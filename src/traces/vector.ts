@@ -75,7 +75,7 @@ class BankTrace implements VectorTrace {
     this.method = method;
     this.coefficient = coefficient;
     this.value = allocate(dtype, n);
-    if (initial !== 0) this.value.fill(initial);
+    this.value.fill(initial);
   }
 
   update(input: FloatArray): FloatArray {

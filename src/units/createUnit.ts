@@ -245,7 +245,7 @@ class NoisyUnit implements UnitFunction {
  *
  * A `noisy` spec is tabulated here (see `tabulateNoisyRate` for the table,
  * its default range, the interpolation and the extrapolation beyond it);
- * with the default resolution this takes a few milliseconds.
+ * with the default resolution this takes some tens of milliseconds, once.
  * @param spec The unit function as data.
  * @returns The unit function; its `spec` is a frozen normalised copy.
  * @throws EbbflowError `invalid_parameter` with the parameter path (`gain`,

@@ -59,13 +59,17 @@ export interface NoisyRateTable {
  *   interpolation error is O(step^4) for the rate and O(step^3) for the slope,
  *   and the reported slope is exactly the derivative of the reported rate.
  *   Slopes are limited where needed so that the interpolant is monotone
- *   (Fritsch & Carlson 1980, SIAM J. Numer. Anal. 17:238).
+ *   (Fritsch & Carlson 1980, SIAM J. Numer. Anal. 17:238); its evaluation
+ *   in floating point may still step back by one ulp between adjacent inputs.
  * - Beyond the table: the base shifted to join continuously,
  *   `F(x) ≈ f(x) + (F(low) - f(low))` for `x < low` (likewise above `high`),
  *   clamped to the base's bounds (slope 0 where clamped). With the default
- *   range the error there is below 1e-15 except for the saturating base,
- *   whose slowly curving tail leaves about `sigma^2 gain^2 / 125000` (from
- *   `sigma^2 f''/2` at `gain z = 50`).
+ *   range the error there is of the order of `P(|Z| > 8) ≈ 1e-15` (times
+ *   `sigma` for the unbounded bases), except for the saturating base, whose
+ *   slowly curving tail leaves up to about `sigma^2 gain^2 / 125000` (from
+ *   `sigma^2 f''/2` at `gain z = 50`); pass a wider `range` to reduce it.
+ * - Accuracy inside the table: about `step^4 max|F''''| / 384` for the rate
+ *   (e.g. 6e-11 for the rectifier with `sigma = 1` and the defaults).
  * - A noisy base is merged into one: the noise variances add.
  * @param spec A noisy unit spec.
  * @returns The table.
@@ -75,7 +79,7 @@ export interface NoisyRateTable {
  * @example
  * ```ts
  * const t = tabulateNoisyRate({ kind: "noisy", base: { kind: "relu" }, sigma: 1 });
- * noisyRate(t, 0); // 0.3989422804014327 (= sigma / sqrt(2 pi)), to ~1e-12
+ * noisyRate(t, 0); // 0.39894228046 (exact: sigma / sqrt(2 pi) = 0.3989422804014327; table error ~6e-11)
  * ```
  */
 export function tabulateNoisyRate(spec: SpecOf<"noisy">): NoisyRateTable {

@@ -25,10 +25,10 @@
  */
 export function saturating(x: number, gain = 1, threshold = 0): number {
   const z = x - threshold;
-  if (z > 0) {
-    const u = gain * z;
-    return u === Number.POSITIVE_INFINITY ? 1 : u / (u + 1);
-  }
+  // 1 / (1 + 1/u) equals u / (u + 1); each step is a correctly rounded monotone
+  // operation, so the result never decreases as x grows (not even by one ulp),
+  // and u = Infinity gives 1 without Infinity / Infinity.
+  if (z > 0) return 1 / (1 + 1 / (gain * z));
   return z <= 0 ? 0 : Number.NaN;
 }
 

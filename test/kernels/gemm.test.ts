@@ -3,7 +3,7 @@ import { describe, expect, it } from "vitest";
 import { gemm } from "../../src/kernels/index.js";
 import type { Dtype } from "../../src/types/index.js";
 import { check } from "../helpers/property.js";
-import { arb, epsOf, expectExact, expectWithinBound, make, naiveGemm, randomArray } from "./reference.js";
+import { arb, epsOf, expectExact, expectWithinBound, naiveGemm, randomArray } from "./reference.js";
 
 /** Runs gemm and the naive reference on the same random data and compares within the rounding bound. */
 function compare(

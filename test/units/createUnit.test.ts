@@ -88,11 +88,13 @@ describe.each(units)("createUnit(%s)", (_label, entry, unit) => {
       300,
     );
   });
-  it("is non-decreasing", () => {
+  it("is non-decreasing (noisy tables: up to rounding of the interpolant, two ulps)", () => {
+    const noisy = entry.spec.kind === "noisy";
     check(
       fc.property(xArb, xArb, (a, b) => {
         const [lo, hi] = a <= b ? [a, b] : [b, a];
-        expect(unit.value(lo), `f(${lo}) <= f(${hi})`).toBeLessThanOrEqual(unit.value(hi));
+        const slack = noisy ? 4 * EPS64 * Math.max(1, Math.abs(unit.value(hi))) : 0;
+        expect(unit.value(lo), `f(${lo}) <= f(${hi})`).toBeLessThanOrEqual(unit.value(hi) + slack);
       }),
       500,
     );

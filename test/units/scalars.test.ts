@@ -86,6 +86,15 @@ const scalars: readonly [string, fc.Arbitrary<Scalar>][] = [
 
 const xArb = fc.double({ min: -40, max: 40, noNaN: true });
 
+/** The next double above a finite x. */
+function nextUp(x: number): number {
+  if (x === 0) return Number.MIN_VALUE;
+  const buf = new Float64Array([x]);
+  const bits = new BigInt64Array(buf.buffer);
+  bits[0] = (bits[0] as bigint) + (x > 0 ? 1n : -1n);
+  return buf[0] as number;
+}
+
 describe.each(scalars)("%s: properties (fast-check)", (_name, unitArb) => {
   it("slope equals a centred finite difference away from kinks", () => {
     check(
@@ -107,6 +116,22 @@ describe.each(scalars)("%s: properties (fast-check)", (_name, unitArb) => {
         expect(u.f(lo), `${u.label} at ${lo} vs ${hi}`).toBeLessThanOrEqual(u.f(hi));
       }),
       300,
+    );
+  });
+  it("never decreases between adjacent doubles, not even by one ulp", () => {
+    check(
+      fc.property(unitArb, fc.double({ min: -60, max: 60, noNaN: true }), fc.integer({ min: 1, max: 64 }), (u, x, steps) => {
+        let a = x;
+        let fa = u.f(a);
+        for (let k = 0; k < steps; k++) {
+          const b = nextUp(a);
+          const fb = u.f(b);
+          expect(fb, `${u.label}: f(${a}) = ${fa} > f(${b}) = ${fb}`).toBeGreaterThanOrEqual(fa);
+          a = b;
+          fa = fb;
+        }
+      }),
+      500,
     );
   });
   it("stays within its bounds and has a non-negative slope", () => {
