@@ -286,7 +286,7 @@ function dotBlocks(
         c[r] = alpha * t0 + beta * c[r]!;
         c[r + 1] = alpha * t1 + beta * c[r + 1]!;
         c[r + 2] = alpha * t2 + beta * c[r + 2]!;
-        c[r + 3] = alpha * t3 + beta * c[r + 2]!;
+        c[r + 3] = alpha * t3 + beta * c[r + 3]!;
       }
     }
     for (; j < n; j++) {
