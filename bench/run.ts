@@ -9,6 +9,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   units: () => import("./units.js"),
   traces: () => import("./traces.js"),
   kernels: () => import("./kernels.js"),
+  agreement: () => import("./agreement.js"),
 };
 
 const wanted = process.argv.slice(2);

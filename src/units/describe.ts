@@ -1,5 +1,5 @@
 /**
- * Per-kind facts used by the noisy tabulation and by `createUnit`: scalar
+ * Per-kind facts used by the noisy tabulation: scalar
  * rate and slope, bounds, and where the function changes character.
  * @module
  * @internal
