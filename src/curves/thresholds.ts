@@ -170,7 +170,8 @@ export interface MixedThreshold {
   /**
    * Steps both parts and writes `value[i*pre + j] = m slow[i*pre + j] + (1 - m) bcm[i]`.
    * Allocates nothing; returns `value`.
-   * @throws {@link EbbflowError} `shape_mismatch` (path `input`) if `coactivity.length !== post*pre` or `postActivity.length !== post`.
+   * @throws {@link EbbflowError} `shape_mismatch` (path `coactivity` or `postActivity`) if
+   *   `coactivity.length !== post*pre` or `postActivity.length !== post`; nothing is updated then.
    */
   update(coactivity: FloatArray, postActivity: FloatArray): FloatArray;
   /** Resets both parts to `value` (default 0) and recomputes the mix. */
@@ -213,6 +214,9 @@ class WeightedThreshold implements MixedThreshold {
   }
 
   update(coactivity: FloatArray, postActivity: FloatArray): FloatArray {
+    // Both lengths are checked before either part moves, so a bad call changes nothing.
+    if (coactivity.length !== this.slow.n) fail("shape_mismatch", "coactivity", `an array of length ${this.slow.n} (post * pre)`, coactivity);
+    if (postActivity.length !== this.post) fail("shape_mismatch", "postActivity", `an array of length ${this.post} (post)`, postActivity);
     this.slow.update(coactivity);
     this.bcm.update(postActivity);
     this.combine();
