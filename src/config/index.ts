@@ -4,3 +4,4 @@
  */
 export * from "./encoding.js";
 export * from "./modelFile.js";
+export * from "./experiment.js";

@@ -109,7 +109,7 @@ export function applyBcmPhiScaled<T extends FloatArray>(out: T, y: FloatArray, t
  * @category Curves
  * @example
  * ```ts
- * bcmObjective([2, 0]); // 0.3333333333333333 (selective, K = 2: K^2/12)
+ * bcmObjective([2, 0]); // 0.33333333333333326 (selective, K = 2: K^2/12)
  * bcmObjective([1, 1]); // 0.08333333333333331 (non-selective: 1/12)
  * ```
  */

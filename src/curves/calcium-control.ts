@@ -138,8 +138,8 @@ class BoundCalciumControl implements CalciumControl {
  * @example
  * ```ts
  * const cc = calciumControl();
- * cc.omega(0.35);       // 0.12500011253... (half-way down at α1)
- * cc.learningRate(1.0); // 0.9090917...
+ * cc.omega(0.35);       // 0.12500011253516208 (half-way down at α1)
+ * cc.learningRate(1.0); // 0.9090917355296769
  * ```
  */
 export function calciumControl(options: CalciumControlOptions = {}): CalciumControl {

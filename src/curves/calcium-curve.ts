@@ -67,7 +67,9 @@ export function calciumCurve(x: number, theta: number, trough: number): number {
  * @category Curves
  * @example
  * ```ts
- * applyCalciumCurve(out, fastTrace.value, slowTrace.value, 0.2); // out[i] = fast[i] - slow[i] in the linear region
+ * const out = new Float64Array(2);
+ * applyCalciumCurve(out, new Float64Array([0.8, 0.05]), new Float64Array([0.5, 0.5]), 0.2);
+ * // Float64Array [0.30000000000000004, -0.2]: linear region (0.8 - 0.5), then depression segment
  * ```
  */
 export function applyCalciumCurve<T extends FloatArray>(out: T, coactivity: FloatArray, threshold: FloatArray, trough: number): T {

@@ -44,8 +44,8 @@ export interface SlidingThreshold {
  * @category Curves
  * @example
  * ```ts
- * const slow = slowTraceThreshold({ tau: 50, n: synapses });
- * slow.update(coactivity); // θ per synapse
+ * const slow = slowTraceThreshold({ tau: 50, n: 2 });
+ * slow.update(new Float64Array([1, 0.5])); // Float64Array [0.0198013266932447, 0.00990066334662235]
  * ```
  */
 export function slowTraceThreshold(options: VectorTraceOptions): SlidingThreshold {
@@ -112,7 +112,7 @@ class SquaredTraceThreshold implements SlidingThreshold {
  * @example
  * ```ts
  * const theta = bcmThreshold({ tau: 50, n: 1 });
- * theta.update(new Float64Array([2])); // [0.0784...] (= (1 - e^{-1/50}) * 4)
+ * theta.update(new Float64Array([2])); // Float64Array [0.0792053067729788] (= (1 - e^{-1/50}) * 4)
  * ```
  */
 export function bcmThreshold(options: VectorTraceOptions): SlidingThreshold {
@@ -271,8 +271,9 @@ function prefixed<T>(prefix: string, fn: () => T): T {
  * @category Curves
  * @example
  * ```ts
- * const theta = mixedThreshold({ post: 10, pre: 20, mix: 0.8, slow: { tau: 50 }, bcm: { tau: 200 } });
- * theta.update(coactivity, postRates); // Float64Array(200)
+ * const theta = mixedThreshold({ post: 1, pre: 2, mix: 0.5, slow: { tau: 1 }, bcm: { tau: 1 } });
+ * theta.update(new Float64Array([1, 0]), new Float64Array([2]));
+ * // slow = a·[1, 0], bcm = a·4 with a = 1 - e^-1: Float64Array [1.5803..., 1.2642...]
  * ```
  */
 export function mixedThreshold(options: MixedThresholdOptions): MixedThreshold {

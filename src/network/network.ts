@@ -125,6 +125,12 @@ export class Network {
     return n;
   }
 
+  /** A deep copy whose settling dynamics are changed by `patch` (same parameters, bit for bit). */
+  withDynamics(patch: Partial<NetworkSpec["dynamics"]>): Network {
+    const copy = this.clone();
+    return new Network(parseNetwork({ ...this.spec, dynamics: { ...this.spec.dynamics, ...patch } }), copy.layers as Layer[], copy.connections as Connection[]);
+  }
+
   /** A deep copy (same spec, copied parameter arrays). */
   clone(): Network {
     const layers = this.layers.map((l) => ({ ...l, bias: l.bias.slice() }));

@@ -32,7 +32,20 @@ export interface LearningRule {
   step(batch: Batch): ParameterDelta;
   /** The free-phase snapshot of the last batch, if the rule settles one. */
   readonly lastFree: Snapshot | null;
+  /**
+   * If set (same batch size), the next free phase starts from this state instead of rest: persistent
+   * states, as in the Equilibrium Propagation authors' code (methods.md item 4). Rules on the
+   * feedforward pass ignore it.
+   */
+  freeStart: Snapshot | null;
+  /** The rule's internal state (random streams, sliding thresholds, running averages) as plain JSON data. */
+  saveState(): RuleState;
+  /** Restores a state saved by {@link LearningRule.saveState} (for bit-identical resumption). */
+  loadState(state: RuleState): void;
 }
+
+/** A rule's internal state as plain JSON data. @category Rules */
+export type RuleState = Readonly<Record<string, unknown>>;
 
 /** Number of patterns in a batch, from the first input layer's values. @category Rules */
 export function batchSizeOf(net: Network, batch: Batch): number {
@@ -81,6 +94,7 @@ export abstract class SettlingRule implements LearningRule {
   readonly config: RuleConfig;
   readonly net: Network;
   lastFree: Snapshot | null = null;
+  freeStart: Snapshot | null = null;
   private readonly settlers = new Map<number, { settler: Settler; snaps: Snapshot[] }>();
   private stepDelta: ParameterDelta | null = null;
 
@@ -102,6 +116,19 @@ export abstract class SettlingRule implements LearningRule {
   }
 
   abstract computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta;
+
+  /** The start of the next free phase: {@link LearningRule.freeStart} when its batch size matches. */
+  protected startFor(batch: number): Snapshot | undefined {
+    return this.freeStart !== null && this.freeStart.batch === batch ? this.freeStart : undefined;
+  }
+
+  saveState(): RuleState {
+    return {};
+  }
+
+  loadState(_state: RuleState): void {
+    // stateless by default
+  }
 
   step(batch: Batch): ParameterDelta {
     this.stepDelta ??= new ParameterDelta(this.net);

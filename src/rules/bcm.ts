@@ -6,7 +6,7 @@ import { allocate, type FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { bcmPhi } from "../curves/index.js";
 import { ParameterDelta } from "./delta.js";
-import { SettlingRule, batchSizeOf, connectionRate, type Batch } from "./base.js";
+import { SettlingRule, batchSizeOf, connectionRate, type Batch, type RuleState } from "./base.js";
 import type { RuleConfig } from "./config.js";
 
 type Cfg = Extract<RuleConfig, { rule: "bcm" }>;
@@ -32,11 +32,22 @@ export class BcmRule extends SettlingRule {
     this.thresholds = net.layers.map((l) => allocate(net.dtype, l.size));
   }
 
+  override saveState(): RuleState {
+    return { started: this.started, thresholds: this.thresholds.map((t) => Array.from(t)) };
+  }
+
+  override loadState(state: RuleState): void {
+    const th = state.thresholds as number[][] | undefined;
+    if (th === undefined) return;
+    th.forEach((t, i) => (this.thresholds[i] as FloatArray).set(t));
+    this.started = state.started === true;
+  }
+
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
     const net = this.net;
     const B = batchSizeOf(net, batch);
     const { settler, snaps } = this.workspace(B, 1);
-    const free = settler.settle({ phase: "free", inputs: batch.inputs }, snaps[0]);
+    const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B) }, snaps[0]);
     this.lastFree = free;
     const a = this.started ? 1 - Math.exp(-1 / this.cfg.thresholdTau) : 1;
     this.started = true;

@@ -11,7 +11,7 @@ import type { Network } from "../network/network.js";
 import type { Snapshot } from "../network/settle.js";
 import { applyCalciumCurve } from "../curves/index.js";
 import { ParameterDelta } from "./delta.js";
-import { SettlingRule, batchSizeOf, connectionRate, contrast, contrastBias, type Batch } from "./base.js";
+import { SettlingRule, batchSizeOf, connectionRate, contrast, contrastBias, type Batch, type RuleState } from "./base.js";
 import type { RuleConfig } from "./config.js";
 
 type Cfg<K extends RuleConfig["rule"]> = Extract<RuleConfig, { rule: K }>;
@@ -33,10 +33,10 @@ export function layerDepths(net: Network): number[] {
 }
 
 /** Settles the free phase and then the clamped phase from the free state; returns [free, clamped]. */
-function settleTwoPhases(rule: SettlingRule & { ws: (b: number) => { settler: import("../network/settle.js").Settler; snaps: Snapshot[] } }, batch: Batch): [Snapshot, Snapshot, number] {
+function settleTwoPhases(rule: SettlingRule & { ws: (b: number) => { settler: import("../network/settle.js").Settler; snaps: Snapshot[] }; startAt: (b: number) => Snapshot | undefined }, batch: Batch): [Snapshot, Snapshot, number] {
   const B = batchSizeOf(rule.net, batch);
   const { settler, snaps } = rule.ws(B);
-  const free = settler.settle({ phase: "free", inputs: batch.inputs }, snaps[0]);
+  const free = settler.settle({ phase: "free", inputs: batch.inputs, start: rule.startAt(B) }, snaps[0]);
   const clamped = settler.settle({ phase: "clamped", inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
   return [free, clamped, B];
 }
@@ -76,6 +76,11 @@ export class ContrastiveHebbian extends SettlingRule {
   /** @internal */
   ws(b: number) {
     return this.workspace(b, 2);
+  }
+
+  /** @internal */
+  startAt(b: number) {
+    return this.startFor(b);
   }
 
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
@@ -129,6 +134,11 @@ export class GeneRec extends SettlingRule {
   /** @internal */
   ws(b: number) {
     return this.workspace(b, 2);
+  }
+
+  /** @internal */
+  startAt(b: number) {
+    return this.startFor(b);
   }
 
   private buffers(B: number): [FloatArray[], FloatArray[]] {
@@ -220,6 +230,11 @@ export class SlidingThresholdRule extends SettlingRule {
     return this.workspace(b, 2);
   }
 
+  /** @internal */
+  startAt(b: number) {
+    return this.startFor(b);
+  }
+
   private buffers(B: number) {
     let s = this.scratch.get(B);
     if (s === undefined) {
@@ -236,6 +251,17 @@ export class SlidingThresholdRule extends SettlingRule {
     return s;
   }
 
+  override saveState(): RuleState {
+    return { started: this.averagesStarted, averages: this.averages.map((a) => Array.from(a)) };
+  }
+
+  override loadState(state: RuleState): void {
+    const avg = state.averages as number[][] | undefined;
+    if (avg === undefined) return;
+    avg.forEach((a, i) => (this.averages[i] as FloatArray).set(a));
+    this.averagesStarted = state.started === true;
+  }
+
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
     const net = this.net;
     const cfg = this.cfg;
@@ -245,7 +271,7 @@ export class SlidingThresholdRule extends SettlingRule {
     let fast: FloatArray[];
     let slow: FloatArray[];
     if (cfg.timing === "phases") {
-      const free = settler.settle({ phase: "free", inputs: batch.inputs }, snaps[0]);
+      const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B) }, snaps[0]);
       this.lastFree = free;
       const clamped = settler.settle({ phase: "clamped", inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
       fast = clamped.activity;
@@ -278,7 +304,7 @@ export class SlidingThresholdRule extends SettlingRule {
         }
       };
       // fixed phase durations (no early stop), so the traces see a known time course
-      const free = settler.settle({ phase: "free", inputs: batch.inputs, onStep: feed, maxSteps: cfg.freeSteps, tolerance: Number.MIN_VALUE }, snaps[0]);
+      const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B), onStep: feed, maxSteps: cfg.freeSteps, tolerance: Number.MIN_VALUE }, snaps[0]);
       this.lastFree = free;
       settler.settle({ phase: "clamped", inputs: batch.inputs, targets: batch.targets, start: free, onStep: feed, maxSteps: cfg.clampedSteps, tolerance: Number.MIN_VALUE }, snaps[1]);
       fast = tf;

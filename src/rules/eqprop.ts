@@ -5,9 +5,9 @@
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
-import { createRandom, type RandomStream } from "../random/index.js";
+import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
 import { ParameterDelta } from "./delta.js";
-import { SettlingRule, batchSizeOf, connectionRate, contrast, contrastBias, type Batch } from "./base.js";
+import { SettlingRule, batchSizeOf, connectionRate, contrast, contrastBias, type Batch, type RuleState } from "./base.js";
 import type { RuleConfig } from "./config.js";
 import type { Snapshot } from "../network/settle.js";
 
@@ -26,9 +26,7 @@ type Cfg = Extract<RuleConfig, { rule: "eqprop" }>;
 export class EquilibriumPropagation extends SettlingRule {
   readonly phases: readonly string[];
   private readonly cfg: Cfg;
-  private readonly signs: RandomStream;
-  /** If set, the free phase of the next batch starts here (persistent states; methods item 4). */
-  start: Snapshot | null = null;
+  private signs: RandomStream;
 
   constructor(net: Network, config: Cfg) {
     super(net, config);
@@ -38,11 +36,19 @@ export class EquilibriumPropagation extends SettlingRule {
     this.signs = createRandom(net.spec.seed).child("eqprop/sign");
   }
 
+  override saveState(): RuleState {
+    return { signs: this.signs.saveState() };
+  }
+
+  override loadState(state: RuleState): void {
+    if (state.signs !== undefined) this.signs = RandomStream.fromState(state.signs as RandomStreamState);
+  }
+
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
     const net = this.net;
     const B = batchSizeOf(net, batch);
     const { settler, snaps } = this.workspace(B, 3);
-    const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.start ?? undefined }, snaps[0]);
+    const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B) }, snaps[0]);
     this.lastFree = free;
     let beta = this.cfg.beta;
     let a: Snapshot;

@@ -9,7 +9,7 @@ import { allocate, type FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta, applyDelta } from "./delta.js";
-import { batchSizeOf, checkRates, connectionRate, type Batch, type LearningRule } from "./base.js";
+import { batchSizeOf, checkRates, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import type { RuleConfig } from "./config.js";
 import type { Snapshot } from "../network/settle.js";
 
@@ -178,6 +178,15 @@ export class FeedforwardRule implements LearningRule {
   readonly config: RuleConfig;
   readonly net: Network;
   readonly lastFree: Snapshot | null = null;
+  freeStart: Snapshot | null = null;
+
+  saveState(): RuleState {
+    return {};
+  }
+
+  loadState(_state: RuleState): void {
+    // no internal state: the fixed feedback matrices are drawn from the network's seed
+  }
   private readonly order: number[];
   private readonly carrier: Carrier;
   /** Direct feedback matrices (|layer| × total output size) per hidden layer (direct feedback alignment only). */

@@ -8,7 +8,7 @@ import { allocate, type FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import type { Snapshot } from "../network/settle.js";
 import { ParameterDelta, applyDelta } from "./delta.js";
-import { batchSizeOf, checkRates, connectionRate, type Batch, type LearningRule } from "./base.js";
+import { batchSizeOf, checkRates, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "./feedforward.js";
 import type { RuleConfig } from "./config.js";
 
@@ -30,6 +30,15 @@ export class PredictiveCoding implements LearningRule {
   readonly config: Cfg;
   readonly net: Network;
   readonly lastFree: Snapshot | null = null;
+  freeStart: Snapshot | null = null;
+
+  saveState(): RuleState {
+    return {};
+  }
+
+  loadState(_state: RuleState): void {
+    // no internal state: the fixed feedback matrices are drawn from the network's seed
+  }
   /** Steps the last inference took. */
   lastSteps = 0;
   private readonly order: number[];

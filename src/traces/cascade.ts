@@ -8,6 +8,7 @@ import { allocate, type Dtype, type FloatArray } from "../types/index.js";
 import { resolveTiming, type TraceMethod, type TraceOptions } from "./coefficient.js";
 import { readValues, type CascadeState } from "./state.js";
 import { resolveDtype } from "./vector.js";
+import { stepFilter } from "./step.js";
 
 /**
  * Order in which the stages of a cascade are stepped.
@@ -264,31 +265,11 @@ class BankCascade implements VectorCascade {
     const last = this.stages - 1;
     if (this.delayed) {
       // Later stages first, so each reads its predecessor's output from before the step.
-      for (let k = last; k > 0; k--) {
-        const off = k * n;
-        const prev = off - n;
-        for (let i = 0; i < n; i++) {
-          const yk = y[off + i] as number;
-          y[off + i] = yk + a * ((y[prev + i] as number) - yk);
-        }
-      }
-      for (let i = 0; i < n; i++) {
-        const y0 = y[i] as number;
-        y[i] = y0 + a * ((input[i] as number) - y0);
-      }
+      for (let k = last; k > 0; k--) stepFilter(y, k * n, y, (k - 1) * n, n, a);
+      stepFilter(y, 0, input, 0, n, a);
     } else {
-      for (let i = 0; i < n; i++) {
-        const y0 = y[i] as number;
-        y[i] = y0 + a * ((input[i] as number) - y0);
-      }
-      for (let k = 1; k <= last; k++) {
-        const off = k * n;
-        const prev = off - n;
-        for (let i = 0; i < n; i++) {
-          const yk = y[off + i] as number;
-          y[off + i] = yk + a * ((y[prev + i] as number) - yk);
-        }
-      }
+      stepFilter(y, 0, input, 0, n, a);
+      for (let k = 1; k <= last; k++) stepFilter(y, k * n, y, (k - 1) * n, n, a);
     }
     return this.value;
   }
@@ -320,7 +301,7 @@ class BankCascade implements VectorCascade {
  * @example
  * ```ts
  * const c = traceCascade({ tau: 5, dt: 1, method: "euler", stages: 2 }); // a = 0.2
- * c.update(1); // 0.04 (= a^2)
+ * c.update(1); // 0.04000000000000001 (= a^2)
  * c.stage(1);  // 0.2
  * ```
  */
@@ -338,9 +319,9 @@ export function traceCascade(options: CascadeOptions): TraceCascade {
  * @category Traces
  * @example
  * ```ts
- * const c = vectorCascade({ tau: 20, stages: 3, n: 100, dtype: "float32" });
- * c.update(rates); // last stage, Float32Array(100)
- * c.stage(1);      // first stage, Float32Array(100)
+ * const c = vectorCascade({ tau: 5, method: "euler", stages: 2, n: 2 }); // a = 0.2
+ * c.update(new Float64Array([1, 2])); // last stage: Float64Array [0.04000000000000001, 0.08000000000000002]
+ * c.stage(1);                         // first stage: Float64Array [0.2, 0.4]
  * ```
  */
 export function vectorCascade(options: VectorCascadeOptions): VectorCascade {

@@ -52,7 +52,7 @@ export interface ResolvedTiming {
  * @category Traces
  * @example
  * ```ts
- * smoothingCoefficient(10, 1);          // 0.09516258196404048
+ * smoothingCoefficient(10, 1);          // 0.09516258196404043
  * smoothingCoefficient(10, 1, "euler"); // 0.1
  * ```
  */

@@ -6,6 +6,7 @@ import { fail, requireFinite, requireInteger } from "../errors/index.js";
 import { allocate, type Dtype, type FloatArray } from "../types/index.js";
 import { resolveTiming, type TraceMethod, type TraceOptions } from "./coefficient.js";
 import { readValues, toPlain, traceValues, type TraceState } from "./state.js";
+import { stepFilter } from "./step.js";
 
 /**
  * Options of a vector trace.
@@ -82,11 +83,7 @@ class BankTrace implements VectorTrace {
     const y = this.value;
     const n = this.n;
     if (input.length !== n) fail("shape_mismatch", "input", `an array of length ${n}`, input);
-    const a = this.coefficient;
-    for (let i = 0; i < n; i++) {
-      const yi = y[i] as number;
-      y[i] = yi + a * ((input[i] as number) - yi);
-    }
+    stepFilter(y, 0, input, 0, n, this.coefficient);
     return y;
   }
 
@@ -116,7 +113,7 @@ class BankTrace implements VectorTrace {
  * @example
  * ```ts
  * const t = vectorTrace({ tau: 10, n: 3, dtype: "float32" });
- * t.update(new Float32Array([1, 2, 3])); // Float32Array [0.0951..., 0.1903..., 0.2854...]
+ * t.update(new Float32Array([1, 2, 3])); // Float32Array [0.095162585, 0.19032517, 0.28548774]
  * ```
  */
 export function vectorTrace(options: VectorTraceOptions): VectorTrace {

@@ -1,0 +1,39 @@
+/**
+ * `ebbflow check`: the gradient-agreement table of each configured rule on a batch of the data.
+ * @module
+ */
+import { fail } from "../errors/index.js";
+import { gradientAgreement, formatAgreement, type GradientReference } from "../verify/agreement.js";
+import { readModelArgument, readRuleArgument, resolveData } from "./inputs.js";
+
+/** Options of `ebbflow check`. */
+export interface CheckCommandOptions {
+  readonly data?: string;
+  readonly rule?: string[];
+  readonly rate?: number;
+  readonly beta?: number;
+  readonly examples?: number;
+  readonly reference?: GradientReference;
+  readonly json?: boolean;
+}
+
+/** Runs `ebbflow check MODEL.json ...`. */
+export async function checkCommand(modelFile: string, o: CheckCommandOptions): Promise<void> {
+  const { experiment, net } = await readModelArgument(modelFile);
+  const rules = o.rule !== undefined && o.rule.length > 0 ? await Promise.all(o.rule.map((r) => readRuleArgument(r, { rate: o.rate ?? 1, beta: o.beta }))) : experiment.rules;
+  if (rules.length === 0) fail("invalid_config", "--rule", "at least one rule (on the command line or in the experiment's rules)", "none");
+  const source = o.data ?? experiment.data?.source;
+  if (source === undefined) fail("invalid_config", "--data", "a data source", "none");
+  const { train } = await resolveData(source, { testFraction: 0, seed: experiment.network.seed });
+  const n = Math.min(o.examples ?? 16, train.size);
+  const input = net.inputLayers[0]!;
+  const output = net.outputLayers[0]!;
+  const batch = { inputs: { [input.name]: train.inputs.subarray(0, n * train.inputSize) }, targets: { [output.name]: train.targets.subarray(0, n * train.targetSize) } };
+  const reports = rules.map((rule) => {
+    // each rule sees the same weights, with tight settling so that rule and reference compare fixed points
+    const tight = net.withDynamics({ tolerance: Math.min(net.spec.dynamics.tolerance, 1e-12), maxSteps: Math.max(net.spec.dynamics.maxSteps, 100000) });
+    return gradientAgreement(tight, rule, batch, { reference: o.reference ?? "recurrent" });
+  });
+  if (o.json) process.stdout.write(JSON.stringify(reports) + "\n");
+  else process.stdout.write(`${n} examples of ${source}\n\n` + reports.map(formatAgreement).join("\n\n") + "\n");
+}

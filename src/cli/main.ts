@@ -1,0 +1,94 @@
+#!/usr/bin/env node
+/**
+ * The `ebbflow` command.
+ * @module
+ */
+import { Command, InvalidArgumentError, Option } from "commander";
+import { guard } from "./output.js";
+import { trainCommand } from "./train.js";
+import { checkCommand } from "./check.js";
+import { plotCommand } from "./plot.js";
+import { demoCommand } from "./demo.js";
+import { VERSION } from "./version.js";
+
+const int = (name: string) => (v: string) => {
+  const n = Number(v);
+  if (!Number.isInteger(n) || n < 1) throw new InvalidArgumentError(`${name} must be an integer >= 1, got ${JSON.stringify(v)}`);
+  return n;
+};
+const num = (name: string) => (v: string) => {
+  const n = Number(v);
+  if (!Number.isFinite(n)) throw new InvalidArgumentError(`${name} must be a number, got ${JSON.stringify(v)}`);
+  return n;
+};
+const collect = (v: string, prev: string[] = []) => [...prev, v];
+
+const program = new Command();
+program
+  .name("ebbflow")
+  .description("Biologically constrained, error-driven learning: train, verify and compare local learning rules.")
+  .version(VERSION)
+  .option("--debug", "print stack traces on errors")
+  .showHelpAfterError("(add --help for usage)")
+  .exitOverride((err) => {
+    // commander's own argument errors: one line, exit code 2
+    process.exit(err.exitCode === 0 ? 0 : 2);
+  });
+
+program
+  .command("train")
+  .description("train a model (experiment file, network declaration or saved model) and write results, weights and checkpoints")
+  .argument("<model>", "MODEL.json")
+  .option("--data <source>", "touch-strip, xor, parity:N, iris, digits[:N] or a .csv/.json file")
+  .option("--rule <rule>", "rule name, inline JSON or a JSON file (default: the experiment's first rule)")
+  .option("--rate <rate>", "learning rate (with a bare rule name)", num("--rate"))
+  .option("--beta <beta>", "nudging strength for eqprop (with a bare rule name)", num("--beta"))
+  .option("--epochs <n>", "number of epochs", int("--epochs"))
+  .option("--batch-size <n>", "mini-batch size", int("--batch-size"))
+  .option("--seed <seed>", "seed for shuffling and the split (default: the network's seed)")
+  .option("--test-fraction <f>", "fraction held out for testing", num("--test-fraction"))
+  .option("--scale", "scale inputs to [0, 1] using the training split")
+  .option("--persistent", "start each example's free phase from its last settled state")
+  .option("--out <dir>", "output folder (results.jsonl, model.json, checkpoint.json)")
+  .option("--checkpoint-every <n>", "epochs between checkpoints", int("--checkpoint-every"))
+  .option("--resume", "continue from the output folder's checkpoint")
+  .option("--json", "machine-readable output")
+  .action(guard(trainCommand));
+
+program
+  .command("check")
+  .description("print the gradient-agreement table of each configured rule")
+  .argument("<model>", "MODEL.json")
+  .option("--data <source>", "data source (as for train)")
+  .option("--rule <rule>", "a rule (repeatable; default: the experiment's rules)", collect)
+  .option("--rate <rate>", "learning rate for bare rule names", num("--rate"))
+  .option("--beta <beta>", "nudging strength for eqprop", num("--beta"))
+  .option("--examples <n>", "examples in the batch", int("--examples"))
+  .addOption(new Option("--reference <kind>", "exact reference").choices(["recurrent", "finite-difference", "feedforward"]))
+  .option("--json", "machine-readable output")
+  .action(guard(checkCommand));
+
+program
+  .command("plot")
+  .description("write SVG learning curves from results files, and weight matrices or receptive fields from a saved model")
+  .argument("[results...]", "RESULTS.jsonl files")
+  .option("--out <file>", "SVG file to write")
+  .option("--metric <name>", "sse, crossEntropy, accuracy or cosine", "sse")
+  .addOption(new Option("--split <split>", "which evaluation").choices(["train", "test", "both"]))
+  .option("--weights <model>", "a saved model file: plot a weight matrix")
+  .option("--connection <label>", "connection to plot (from->to)")
+  .option("--image <WxH>", "show each unit's weights as a W×H image (receptive fields)")
+  .option("--title <title>", "chart title")
+  .option("--json", "machine-readable output")
+  .action(guard((files: string[], o: object) => plotCommand(files, o)));
+
+program
+  .command("demo")
+  .description("the touch-strip demo: why a hidden layer is needed, four local rules learning it, gradient agreement, curves")
+  .option("--out <dir>", "folder for the SVG learning curves", "ebbflow-demo")
+  .option("--seeds <n>", "seeds per rule", int("--seeds"), 10)
+  .option("--epochs <n>", "epoch limit with a hidden layer", int("--epochs"), 1500)
+  .option("--json", "machine-readable output")
+  .action(guard(demoCommand));
+
+await program.parseAsync(process.argv);

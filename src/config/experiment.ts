@@ -1,0 +1,68 @@
+/**
+ * The experiment file: a network declaration, the rules to train or compare, training options and a
+ * data source, validated together (every problem with its path).
+ * @module
+ */
+import { z } from "zod";
+import { EbbflowError, type Issue } from "../errors/index.js";
+import { issuesFromZod, safeParseNetwork, type NetworkSpec } from "../network/spec.js";
+import { ruleSchema, type RuleConfig } from "../rules/config.js";
+import { trainingSchema, type TrainingOptions } from "../train/loop.js";
+
+/** Schema of an experiment's data section. @category Files */
+export const dataSourceSchema = z
+  .object({
+    /** A built-in set (`xor`, `parity:N`, `touch-strip`, `iris`, `digits` or `digits:N`) or a CSV/JSON file path. */
+    source: z.string({ error: "a data source name or file path" }).min(1),
+    /** Fraction held out for testing (seeded split), 0 for none. */
+    testFraction: z.number().min(0).max(0.9, { error: "a fraction in [0, 0.9]" }).default(0),
+    /** For CSV files: the columns that hold the targets (0-based indices or header names). */
+    targetColumns: z.array(z.union([z.number().int().min(0), z.string()])).optional(),
+    /** For CSV files: one-hot encode the (single) target column as class labels. */
+    oneHot: z.boolean().optional(),
+    /** Scale inputs to [0, 1] with the training split's minimum and maximum. */
+    scale: z.boolean().default(false),
+  })
+  .strict();
+
+/** Schema of an experiment file (without the network, which has its own validator). @category Files */
+export const experimentSchema = z
+  .object({
+    name: z.string().optional(),
+    network: z.unknown(),
+    rules: z.array(ruleSchema).min(1, { error: "at least one rule" }).optional(),
+    training: trainingSchema.optional(),
+    data: dataSourceSchema.optional(),
+  })
+  .strict();
+
+/** A validated experiment. @category Files */
+export interface Experiment {
+  readonly name: string | undefined;
+  readonly network: NetworkSpec;
+  readonly rules: readonly RuleConfig[];
+  readonly training: TrainingOptions | undefined;
+  readonly data: z.output<typeof dataSourceSchema> | undefined;
+}
+
+/**
+ * Validates an experiment object. A bare network declaration (with `layers`) is accepted as an
+ * experiment with only a network. Reports every problem at once.
+ * @throws {@link EbbflowError} `invalid_config`.
+ * @category Files
+ */
+export function parseExperiment(input: unknown): Experiment {
+  if (input !== null && typeof input === "object" && "layers" in input && !("network" in input)) input = { network: input };
+  const problems: Issue[] = [];
+  const r = experimentSchema.safeParse(input);
+  if (!r.success) problems.push(...issuesFromZod(r.error, input));
+  const net = safeParseNetwork((input as { network?: unknown } | null)?.network);
+  if (!net.ok) problems.push(...net.issues.map((i) => ({ ...i, path: i.path === "" ? "network" : `network.${i.path}` })));
+  if (problems.length > 0 || !r.success || !net.ok) throw new EbbflowError(problems);
+  return { name: r.data.name, network: net.value, rules: r.data.rules ?? [], training: r.data.training, data: r.data.data };
+}
+
+/** The JSON Schema of an experiment file (the network part refers to the network schema). @category Files */
+export function experimentJsonSchema(): Record<string, unknown> {
+  return z.toJSONSchema(experimentSchema, { io: "input", unrepresentable: "any" }) as Record<string, unknown>;
+}

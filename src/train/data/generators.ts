@@ -1,0 +1,183 @@
+/**
+ * Small generated data sets: XOR, n-bit parity and random sparse pattern
+ * associations. Deterministic (the random one from its seed).
+ * @module
+ */
+import { fail, requireFinite, requireInteger } from "../../errors/index.js";
+import { createRandom, type RandomStream } from "../../random/index.js";
+import { makeDataset, type Dataset } from "./dataset.js";
+
+/**
+ * Values used for the two binary states in generated sets.
+ * @category Data
+ */
+export interface BinaryCoding {
+  /** Value of an "off" bit; default 0. */
+  readonly low?: number | undefined;
+  /** Value of an "on" bit; default 1. Must differ from `low`. */
+  readonly high?: number | undefined;
+}
+
+/** Reads and checks a binary coding. */
+function coding(options: BinaryCoding): { low: number; high: number } {
+  const low = requireFinite("low", options.low ?? 0);
+  const high = requireFinite("high", options.high ?? 1);
+  if (low === high) fail("invalid_parameter", "high", `a value different from low (${low})`, high);
+  return { low, high };
+}
+
+/**
+ * All `2^bits` binary patterns with their parity as the target: the output is
+ * on when an odd number of inputs are on. Pattern `p` (row `p`, from 0) has input
+ * `j` on when bit `bits − 1 − j` of `p` is 1, so the rows count in binary with the
+ * first input as the most significant bit. Exactly half the patterns are odd.
+ *
+ * The parity problem, a function a single layer of threshold units cannot compute:
+ * Minsky & Papert (1969), Perceptrons, MIT Press; learnt with hidden units by
+ * Rumelhart, Hinton & Williams (1986), in Parallel Distributed Processing vol. 1, ch. 8, MIT Press.
+ * @category Data
+ * @param bits - Number of inputs, an integer in [1, 16].
+ * @param options - Values for off/on bits (inputs and target), default 0 and 1.
+ * @returns A set named `parity-<bits>` with 2^bits examples, `bits` inputs, 1 target.
+ * @throws {@link EbbflowError} `invalid_parameter` with path `bits`, `low` or `high`.
+ * @example
+ * ```ts
+ * parityDataset(3).targets; // Float64Array [0, 1, 1, 0, 1, 0, 0, 1]
+ * ```
+ */
+export function parityDataset(bits: number, options: BinaryCoding = {}): Dataset {
+  requireInteger("bits", bits, 1);
+  if (bits > 16) fail("invalid_parameter", "bits", "an integer in [1, 16] (2^bits patterns are generated)", bits);
+  const { low, high } = coding(options);
+  const n = 2 ** bits;
+  const inputs = new Float64Array(n * bits);
+  const targets = new Float64Array(n);
+  for (let p = 0; p < n; p++) {
+    let ones = 0;
+    for (let j = 0; j < bits; j++) {
+      const on = (p >> (bits - 1 - j)) & 1;
+      ones += on;
+      inputs[p * bits + j] = on === 1 ? high : low;
+    }
+    targets[p] = ones % 2 === 1 ? high : low;
+  }
+  return makeDataset({ name: `parity-${bits}`, size: n, inputSize: bits, targetSize: 1, inputs, targets });
+}
+
+/**
+ * The four exclusive-or patterns: inputs (0,0), (0,1), (1,0), (1,1) in that
+ * order, targets 0, 1, 1, 0 (the 2-bit case of {@link parityDataset}). Not
+ * linearly separable: Minsky & Papert (1969), Perceptrons, MIT Press.
+ * @category Data
+ * @param options - Values for off/on bits, default 0 and 1 (for example −1 and 1).
+ * @returns A set named `xor` with 4 examples, 2 inputs, 1 target.
+ * @throws {@link EbbflowError} `invalid_parameter` with path `low` or `high`.
+ * @example
+ * ```ts
+ * xorDataset().targets; // Float64Array [0, 1, 1, 0]
+ * ```
+ */
+export function xorDataset(options: BinaryCoding = {}): Dataset {
+  const ds = parityDataset(2, options);
+  return makeDataset({ ...ds, name: "xor" });
+}
+
+/**
+ * Options of {@link randomAssociation}.
+ * @category Data
+ */
+export interface RandomAssociationOptions {
+  /** Number of pattern pairs (integer >= 1). */
+  readonly patterns: number;
+  /** Units per input pattern (integer >= 1). */
+  readonly inputSize: number;
+  /** Units per target pattern (integer >= 1). */
+  readonly targetSize: number;
+  /** On units per input pattern, in [1, inputSize]; default `max(1, round(inputSize / 4))`. */
+  readonly activeInputs?: number | undefined;
+  /** On units per target pattern, in [1, targetSize]; default `max(1, round(targetSize / 4))`. */
+  readonly activeTargets?: number | undefined;
+  /** Require every input pattern to differ from every other (default true), so the association is a function. */
+  readonly distinctInputs?: boolean | undefined;
+  /** Seed of the patterns. */
+  readonly seed: number | string;
+}
+
+/** Number of ways to choose k of n, as a float (exact while below 2^53). */
+function choose(n: number, k: number): number {
+  let r = 1;
+  for (let i = 1; i <= k; i++) r = (r * (n - k + i)) / i;
+  return r;
+}
+
+/** Writes one pattern with exactly `active` of `size` units on (positions by a partial Fisher–Yates draw). */
+function drawPattern(rng: RandomStream, scratch: Int32Array, out: Float64Array, offset: number, size: number, active: number): void {
+  for (let j = 0; j < size; j++) scratch[j] = j;
+  for (let j = 0; j < active; j++) {
+    const r = j + rng.int(size - j);
+    const t = scratch[j] as number;
+    scratch[j] = scratch[r] as number;
+    scratch[r] = t;
+    out[offset + (scratch[j] as number)] = 1;
+  }
+}
+
+/**
+ * Random sparse binary pattern pairs to associate: each input pattern has
+ * exactly `activeInputs` units on (value 1, others 0) at random positions, each
+ * target pattern exactly `activeTargets`, drawn independently — the kind of
+ * random pattern sets used to measure the capacity of associative memories
+ * (Willshaw, Buneman & Longuet-Higgins 1969, Nature 222:960–962; from memory).
+ *
+ * Seeded: inputs come from `createRandom(seed).child("association").child("inputs")`,
+ * targets from `.child("targets")`, so the same seed gives the same pairs and
+ * changing the target size leaves the inputs unchanged. With `distinctInputs`,
+ * an input pattern equal to an earlier one is drawn again.
+ * @category Data
+ * @param options - Pattern count, sizes, activity and seed.
+ * @returns A set named `random-association` with `patterns` examples.
+ * @throws {@link EbbflowError} `invalid_parameter` with the option name as path (e.g. `activeInputs`);
+ *   `patterns` when more distinct inputs are asked for than C(inputSize, activeInputs).
+ * @example
+ * ```ts
+ * const ds = randomAssociation({ patterns: 20, inputSize: 16, targetSize: 8, seed: 1 });
+ * ds.inputs.slice(0, 16).reduce((a, b) => a + b); // 4 (= round(16 / 4) units on)
+ * ```
+ */
+export function randomAssociation(options: RandomAssociationOptions): Dataset {
+  if (typeof options !== "object" || options === null) fail("invalid_parameter", "options", "an options object", options);
+  const patterns = requireInteger("patterns", options.patterns, 1);
+  const inputSize = requireInteger("inputSize", options.inputSize, 1);
+  const targetSize = requireInteger("targetSize", options.targetSize, 1);
+  const activeInputs = requireInteger("activeInputs", options.activeInputs ?? Math.max(1, Math.round(inputSize / 4)), 1);
+  const activeTargets = requireInteger("activeTargets", options.activeTargets ?? Math.max(1, Math.round(targetSize / 4)), 1);
+  if (activeInputs > inputSize) fail("invalid_parameter", "activeInputs", `an integer in [1, ${inputSize}] (inputSize)`, activeInputs);
+  if (activeTargets > targetSize) fail("invalid_parameter", "activeTargets", `an integer in [1, ${targetSize}] (targetSize)`, activeTargets);
+  const distinct = options.distinctInputs ?? true;
+  if (typeof distinct !== "boolean") fail("invalid_parameter", "distinctInputs", "true or false", distinct);
+  if (distinct && choose(inputSize, activeInputs) < patterns) {
+    fail("invalid_parameter", "patterns", `at most C(${inputSize}, ${activeInputs}) = ${choose(inputSize, activeInputs)} distinct input patterns`, patterns);
+  }
+  const root = createRandom(options.seed).child("association");
+  const inRng = root.child("inputs");
+  const outRng = root.child("targets");
+  const inputs = new Float64Array(patterns * inputSize);
+  const targets = new Float64Array(patterns * targetSize);
+  const scratch = new Int32Array(Math.max(inputSize, targetSize));
+  const seen = new Set<string>();
+  for (let p = 0; p < patterns; p++) {
+    const offset = p * inputSize;
+    for (;;) {
+      inputs.fill(0, offset, offset + inputSize);
+      drawPattern(inRng, scratch, inputs, offset, inputSize, activeInputs);
+      if (!distinct) break;
+      const key = inputs.subarray(offset, offset + inputSize).join("");
+      if (!seen.has(key)) {
+        seen.add(key);
+        break;
+      }
+    }
+  }
+  for (let p = 0; p < patterns; p++) drawPattern(outRng, scratch, targets, p * targetSize, targetSize, activeTargets);
+  return makeDataset({ name: "random-association", size: patterns, inputSize, targetSize, inputs, targets });
+}

@@ -1,0 +1,8 @@
+/**
+ * Data sets, metrics, schedules and the training loop.
+ * @module
+ */
+export * from "./data/index.js";
+export * from "./metrics.js";
+export * from "./schedule.js";
+export * from "./loop.js";

@@ -1,0 +1,337 @@
+/**
+ * The training loop: epochs of seeded mini-batches, a learning rule chosen by config, evaluation on
+ * held-out data, early stopping, learning-rate schedules, callbacks, persistent free-phase states,
+ * and a complete state for checkpoints (resuming gives bit-identical results).
+ * @module
+ */
+import { z } from "zod";
+import { EbbflowError, fail, issueText } from "../errors/index.js";
+import { allocate, type FloatArray } from "../types/index.js";
+import type { Network } from "../network/network.js";
+import { Settler, Snapshot } from "../network/settle.js";
+import { issuesFromZod } from "../network/spec.js";
+import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
+import { createRule, applyDelta, ParameterDelta, type LearningRule, type RuleConfigInput, type RuleState } from "../rules/index.js";
+import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "../rules/feedforward.js";
+import type { Dataset } from "./data/index.js";
+import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
+import { scheduleFactor, scheduleSchema } from "./schedule.js";
+
+const metricName = z.enum(["sse", "crossEntropy", "accuracy", "cosine"], { error: "one of sse, crossEntropy, accuracy, cosine" });
+
+/** Schema of the training options. @category Training */
+export const trainingSchema = z
+  .object({
+    epochs: z.number({ error: "an integer >= 1" }).int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" }),
+    batchSize: z.number().int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" }).default(16),
+    shuffle: z.boolean().default(true),
+    schedule: scheduleSchema.default({ kind: "constant" }),
+    earlyStopping: z
+      .object({
+        metric: metricName.default("sse"),
+        split: z.enum(["train", "test"]).default("test"),
+        patience: z.number().int().min(1, { error: "an integer >= 1" }).default(10),
+        minDelta: z.number().min(0, { error: "a number >= 0" }).default(0),
+      })
+      .strict()
+      .optional(),
+    stopWhen: z
+      .object({ metric: metricName, split: z.enum(["train", "test"]).default("train"), atLeast: z.number().optional(), atMost: z.number().optional() })
+      .strict()
+      .optional(),
+    persistentStates: z.boolean().default(false),
+    readout: z.enum(["auto", "settle", "forward"], { error: "one of auto, settle, forward" }).default("auto"),
+    evaluateTrain: z.boolean().default(true),
+  })
+  .strict();
+
+/** Training options as written. @category Training */
+export type TrainingOptionsInput = z.input<typeof trainingSchema>;
+/** Training options with defaults filled in. @category Training */
+export type TrainingOptions = z.output<typeof trainingSchema>;
+
+/** Validates training options; problems are reported with paths under `training`. @category Training */
+export function parseTraining(input: unknown, prefix = "training"): TrainingOptions {
+  const r = trainingSchema.safeParse(input);
+  if (!r.success) throw new EbbflowError(issuesFromZod(r.error, input, [prefix]));
+  return r.data;
+}
+
+/** One epoch's results (a line of the results file). @category Training */
+export interface EpochRecord {
+  readonly kind: "epoch";
+  readonly epoch: number;
+  readonly seconds: number;
+  /** The rate factor of the schedule in this epoch. */
+  readonly rateFactor: number;
+  readonly train?: Metrics | undefined;
+  readonly test?: Metrics | undefined;
+}
+
+/** Why training ended. @category Training */
+export type StopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback";
+
+/** Everything needed to resume training bit for bit (weights are saved separately in the model file). @category Training */
+export interface TrainerState {
+  readonly epoch: number;
+  readonly shuffle: RandomStreamState;
+  readonly rule: RuleState;
+  readonly history: readonly EpochRecord[];
+  readonly best: number | null;
+  readonly sinceBest: number;
+  /** Persistent free-phase states per non-input layer, n×size, when enabled. */
+  readonly persistent: (number[] | null)[] | null;
+}
+
+/** Callbacks of a {@link Trainer}. @category Training */
+export interface TrainerHooks {
+  /** After every epoch; return `"stop"` to end training. */
+  readonly onEpoch?: ((record: EpochRecord, trainer: Trainer) => void | "stop") | undefined;
+  /** After every mini-batch. */
+  readonly onBatch?: ((info: { epoch: number; batch: number; batches: number; size: number }) => void) | undefined;
+}
+
+const FEEDFORWARD = new Set(["backprop", "feedback-alignment", "direct-feedback-alignment", "predictive-coding"]);
+
+/**
+ * Trains a network with a rule on a data set.
+ * @category Training
+ * @example
+ * ```ts
+ * const trainer = new Trainer(net, { rule: "generec", rate: 0.2 }, xorDataset(), { epochs: 500, batchSize: 4 }, { seed: 1 });
+ * const { reason } = trainer.run();
+ * ```
+ */
+export class Trainer {
+  readonly net: Network;
+  readonly rule: LearningRule;
+  readonly options: TrainingOptions;
+  readonly train: Dataset;
+  readonly test: Dataset | undefined;
+  readonly hooks: TrainerHooks;
+  /** Completed epochs. */
+  epoch = 0;
+  readonly history: EpochRecord[] = [];
+  private shuffleStream: RandomStream;
+  private best: number | null = null;
+  private sinceBest = 0;
+  private readonly inputName: string;
+  private readonly outputName: string;
+  private readonly outputIndex: number;
+  private readonly delta: ParameterDelta;
+  private readonly order: number[];
+  private readonly persistent: (FloatArray | null)[] | null;
+  private readonly forward: boolean;
+  private evalSettlers = new Map<number, Settler>();
+  private evalPasses = new Map<number, ForwardPass>();
+  private starts = new Map<number, Snapshot>();
+
+  constructor(net: Network, rule: RuleConfigInput, train: Dataset, options: TrainingOptionsInput, extras: { test?: Dataset | undefined; seed?: number | string | undefined; hooks?: TrainerHooks | undefined } = {}) {
+    this.net = net;
+    this.options = parseTraining(options);
+    this.rule = createRule(net, rule);
+    this.train = train;
+    this.test = extras.test;
+    this.hooks = extras.hooks ?? {};
+    const inputs = net.inputLayers;
+    const outputs = net.outputLayers;
+    if (inputs.length !== 1 || outputs.length !== 1) fail("unsupported", "layers", "exactly one input and one output layer for training from a data set", `${inputs.length} input and ${outputs.length} output layers`);
+    const input = inputs[0]!;
+    const output = outputs[0]!;
+    this.inputName = input.name;
+    this.outputName = output.name;
+    this.outputIndex = output.index;
+    const problems = [];
+    for (const [ds, what] of [[train, "train"], [extras.test, "test"]] as const) {
+      if (ds === undefined) continue;
+      if (ds.size === 0) problems.push(issueText("shape_mismatch", `data.${what}`, "at least one example", "an empty data set"));
+      if (ds.inputSize !== input.size) problems.push(issueText("shape_mismatch", `data.${what}.inputs`, `${input.size} values per example (layer ${JSON.stringify(input.name)})`, `${ds.inputSize}`));
+      if (ds.targetSize !== output.size) problems.push(issueText("shape_mismatch", `data.${what}.targets`, `${output.size} values per example (layer ${JSON.stringify(output.name)})`, `${ds.targetSize}`));
+    }
+    if (problems.length > 0) throw new EbbflowError(problems);
+    if (this.options.earlyStopping?.split === "test" && this.test === undefined) fail("invalid_config", "training.earlyStopping.split", '"train" (no test set was given)', "test");
+    this.shuffleStream = createRandom(extras.seed ?? net.spec.seed).child("train/shuffle");
+    this.delta = new ParameterDelta(net);
+    this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && FEEDFORWARD.has(this.rule.config.rule));
+    this.order = this.forward ? forwardOrder(net) : [];
+    this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
+  }
+
+  /** Evaluates the network (free phase, or the feedforward pass) on a data set. */
+  evaluate(ds: Dataset): Metrics {
+    const sums = new MetricSums();
+    const chunk = Math.min(256, ds.size);
+    const k = ds.targetSize;
+    for (let start = 0; start < ds.size; start += chunk) {
+      const B = Math.min(chunk, ds.size - start);
+      const inputs = { [this.inputName]: ds.inputs.subarray(start * ds.inputSize, (start + B) * ds.inputSize) };
+      let y: FloatArray;
+      if (this.forward) {
+        let pass = this.evalPasses.get(B);
+        if (pass === undefined) {
+          pass = createForwardPass(this.net, B);
+          this.evalPasses.set(B, pass);
+        }
+        runForward(this.net, this.order, { inputs, targets: {} }, pass);
+        y = pass.activity[this.outputIndex] as FloatArray;
+      } else {
+        let s = this.evalSettlers.get(B);
+        if (s === undefined) {
+          s = new Settler(this.net, B);
+          this.evalSettlers.set(B, s);
+        }
+        y = s.settle({ phase: "free", inputs }).activity[this.outputIndex] as FloatArray;
+      }
+      accumulateMetrics(sums, y, ds.targets.subarray(start * k, (start + B) * k), B, k);
+    }
+    return sums.result();
+  }
+
+  /** Gathers a mini-batch's examples (rows `idx`) into flat arrays. */
+  private gather(idx: Int32Array, from: number, B: number, inBuf: Float64Array, tBuf: Float64Array): void {
+    const ds = this.train;
+    for (let p = 0; p < B; p++) {
+      const e = idx[from + p] as number;
+      inBuf.set(ds.inputs.subarray(e * ds.inputSize, (e + 1) * ds.inputSize), p * ds.inputSize);
+      tBuf.set(ds.targets.subarray(e * ds.targetSize, (e + 1) * ds.targetSize), p * ds.targetSize);
+    }
+  }
+
+  private persistentStart(idx: Int32Array, from: number, B: number): Snapshot {
+    let snap = this.starts.get(B);
+    if (snap === undefined) {
+      snap = new Snapshot(this.net, B);
+      this.starts.set(B, snap);
+    }
+    for (const l of this.net.layers) {
+      const store = this.persistent?.[l.index];
+      if (!store) continue;
+      const st = snap.state[l.index] as FloatArray;
+      for (let p = 0; p < B; p++) {
+        const e = idx[from + p] as number;
+        st.set(store.subarray(e * l.size, (e + 1) * l.size), p * l.size);
+      }
+    }
+    return snap;
+  }
+
+  private keepPersistent(idx: Int32Array, from: number, B: number): void {
+    const free = this.rule.lastFree;
+    if (free === null) return;
+    for (const l of this.net.layers) {
+      const store = this.persistent?.[l.index];
+      if (!store) continue;
+      const st = free.state[l.index] as FloatArray;
+      for (let p = 0; p < B; p++) {
+        const e = idx[from + p] as number;
+        store.set(st.subarray(p * l.size, (p + 1) * l.size), e * l.size);
+      }
+    }
+  }
+
+  /** Runs one epoch and returns its record. */
+  runEpoch(): EpochRecord {
+    const t0 = performance.now();
+    const epoch = this.epoch + 1;
+    const ds = this.train;
+    const n = ds.size;
+    const idx = this.options.shuffle ? this.shuffleStream.permutation(n) : Int32Array.from({ length: n }, (_, i) => i);
+    const factor = scheduleFactor(this.options.schedule, epoch);
+    const bs = this.options.batchSize;
+    const batches = Math.ceil(n / bs);
+    const inBuf = new Float64Array(bs * ds.inputSize);
+    const tBuf = new Float64Array(bs * ds.targetSize);
+    for (let b = 0; b < batches; b++) {
+      const from = b * bs;
+      const B = Math.min(bs, n - from);
+      this.gather(idx, from, B, inBuf, tBuf);
+      const batch = { inputs: { [this.inputName]: inBuf.subarray(0, B * ds.inputSize) }, targets: { [this.outputName]: tBuf.subarray(0, B * ds.targetSize) } };
+      this.rule.freeStart = this.persistent ? this.persistentStart(idx, from, B) : null;
+      this.rule.computeDelta(batch, this.delta);
+      if (factor !== 1) this.delta.scale(factor);
+      applyDelta(this.net, this.delta);
+      if (this.persistent) this.keepPersistent(idx, from, B);
+      this.hooks.onBatch?.({ epoch, batch: b + 1, batches, size: B });
+    }
+    this.rule.freeStart = null;
+    const record: EpochRecord = {
+      kind: "epoch",
+      epoch,
+      seconds: (performance.now() - t0) / 1000,
+      rateFactor: factor,
+      ...(this.options.evaluateTrain ? { train: this.evaluate(ds) } : {}),
+      ...(this.test !== undefined ? { test: this.evaluate(this.test) } : {}),
+    };
+    this.epoch = epoch;
+    this.history.push(record);
+    return record;
+  }
+
+  /**
+   * Checks the stop conditions after an epoch (target reached, early stopping, epoch limit) and updates
+   * the early-stopping state; returns the reason to stop, or null to go on. Call once per epoch.
+   */
+  stopAfter(record: EpochRecord): StopReason | null {
+    const o = this.options;
+    if (o.stopWhen !== undefined) {
+      const m = record[o.stopWhen.split];
+      if (m !== undefined) {
+        const v = m[o.stopWhen.metric];
+        if ((o.stopWhen.atLeast === undefined || v >= o.stopWhen.atLeast) && (o.stopWhen.atMost === undefined || v <= o.stopWhen.atMost)) return "target-reached";
+      }
+    }
+    if (o.earlyStopping !== undefined) {
+      const m = record[o.earlyStopping.split];
+      if (m !== undefined) {
+        const higherBetter = o.earlyStopping.metric === "accuracy" || o.earlyStopping.metric === "cosine";
+        const v = higherBetter ? -m[o.earlyStopping.metric] : m[o.earlyStopping.metric];
+        if (this.best === null || v < this.best - o.earlyStopping.minDelta) {
+          this.best = v;
+          this.sinceBest = 0;
+        } else if (++this.sinceBest >= o.earlyStopping.patience) return "early-stopping";
+      }
+    }
+    return this.epoch >= o.epochs ? "max-epochs" : null;
+  }
+
+  /** Trains until the epoch limit or a stop condition. */
+  run(): { reason: StopReason; epochs: number } {
+    while (this.epoch < this.options.epochs) {
+      const record = this.runEpoch();
+      const reason = this.stopAfter(record);
+      if (this.hooks.onEpoch?.(record, this) === "stop") return { reason: "callback", epochs: this.epoch };
+      if (reason !== null) return { reason, epochs: this.epoch };
+    }
+    return { reason: "max-epochs", epochs: this.epoch };
+  }
+
+  /** The state to save beside the weights for bit-identical resumption. */
+  saveState(): TrainerState {
+    return {
+      epoch: this.epoch,
+      shuffle: this.shuffleStream.saveState(),
+      rule: this.rule.saveState(),
+      history: this.history.slice(),
+      best: this.best,
+      sinceBest: this.sinceBest,
+      persistent: this.persistent ? this.persistent.map((p) => (p ? Array.from(p) : null)) : null,
+    };
+  }
+
+  /** Restores a state saved by {@link Trainer.saveState} (the network must hold the matching weights). */
+  loadState(state: TrainerState): void {
+    this.epoch = state.epoch;
+    this.shuffleStream = RandomStream.fromState(state.shuffle);
+    this.rule.loadState(state.rule);
+    this.history.length = 0;
+    this.history.push(...state.history);
+    this.best = state.best;
+    this.sinceBest = state.sinceBest;
+    if (this.persistent && state.persistent) {
+      state.persistent.forEach((p, i) => {
+        const store = this.persistent?.[i];
+        if (p && store) store.set(p);
+      });
+    }
+  }
+}
