@@ -27,10 +27,11 @@ export const NC: i32 = 512;
 const PACK_A_BYTES: usize = <usize>(MC * KC * 8);
 const PACK_B_BYTES: usize = <usize>(KC * NC * 8);
 const TILE_BYTES: usize = <usize>(MR * 8 * 8);
+const SCALE_BYTES: usize = 32;
 
-/** Bytes of workspace the caller passes to gemm (packed panels and one edge tile). */
+/** Bytes of workspace the caller passes to gemm (packed panels, one edge tile, the scales). */
 export function gemmWorkspaceBytes(): i32 {
-  return <i32>(PACK_A_BYTES + PACK_B_BYTES + TILE_BYTES);
+  return <i32>(PACK_A_BYTES + PACK_B_BYTES + TILE_BYTES + SCALE_BYTES);
 }
 
 /** Columns of the register tile: two vectors. */
@@ -43,8 +44,11 @@ function NR<T>(): i32 {
 /**
  * The register tile: C[0..MR, 0..NR) = alpha * sum_p Apanel[p] Bpanel[p]ᵀ
  * (+ beta * C unless betaZero), with `ldc` the byte stride between rows of C.
+ * alpha and beta are read from memory at `scales` (alpha, then beta) after the
+ * loop: as parameters they would hold two vector registers through the loop
+ * and push the accumulators out of registers (measured: half the speed).
  */
-function tile<T>(kc: i32, pa: usize, pb: usize, cp: usize, ldc: usize, alpha: T, beta: T, betaZero: bool): void {
+function tile<T>(kc: i32, pa: usize, pb: usize, cp: usize, ldc: usize, scales: usize, betaZero: bool): void {
   const S = sizeof<T>();
   const zero = v128.splat<T>(0);
   let c00 = zero, c01 = zero, c10 = zero, c11 = zero, c20 = zero, c21 = zero, c30 = zero, c31 = zero, c40 = zero, c41 = zero;
@@ -69,7 +73,7 @@ function tile<T>(kc: i32, pa: usize, pb: usize, cp: usize, ldc: usize, alpha: T,
     pa += 5 * S;
     pb += 2 * VBYTES;
   }
-  const va = v128.splat<T>(alpha);
+  const va = v128.load_splat<T>(scales);
   if (betaZero) {
     v128.store(cp, v128.mul<T>(va, c00));
     v128.store(cp, v128.mul<T>(va, c01), VBYTES);
@@ -86,7 +90,7 @@ function tile<T>(kc: i32, pa: usize, pb: usize, cp: usize, ldc: usize, alpha: T,
     v128.store(cp, v128.mul<T>(va, c40));
     v128.store(cp, v128.mul<T>(va, c41), VBYTES);
   } else {
-    const vb = v128.splat<T>(beta);
+    const vb = v128.load_splat<T>(scales, sizeof<T>());
     v128.store(cp, v128.add<T>(v128.mul<T>(va, c00), v128.mul<T>(vb, v128.load(cp))));
     v128.store(cp, v128.add<T>(v128.mul<T>(va, c01), v128.mul<T>(vb, v128.load(cp, VBYTES))), VBYTES);
     cp += ldc;
@@ -314,6 +318,11 @@ export function gemm<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, tr
   const pA = work;
   const pB = work + PACK_A_BYTES;
   const pT = pB + PACK_B_BYTES;
+  // scales of the register tile: (alpha, beta of this block) and (1, 1) for edge tiles
+  const pS = pT + TILE_BYTES;
+  const pOne = pS + 16;
+  store<T>(pOne, <T>1);
+  store<T>(pOne, <T>1, S);
   const al = <T>alpha;
   const be = <T>beta;
   const one = <T>1;
@@ -326,6 +335,8 @@ export function gemm<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, tr
       const first = pc == 0;
       const bz = first && beta == 0;
       const bt = first ? be : one;
+      store<T>(pS, al);
+      store<T>(pS, bt, S);
       packB<T>(pB, b, pc, jc, kc, nc, n, k, transB);
       for (let ic = 0; ic < m; ic += MC) {
         const mc = min(MC, m - ic);
@@ -338,9 +349,9 @@ export function gemm<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, tr
             const pa = pA + <usize>(ir * kc) * S;
             const cp = c + (<usize>(ic + ir) * <usize>n + <usize>(jc + jr)) * S;
             if (mr == MR && nr == W) {
-              tile<T>(kc, pa, pb, cp, ldc, al, bt, bz);
+              tile<T>(kc, pa, pb, cp, ldc, pS, bz);
             } else {
-              tile<T>(kc, pa, pb, pT, <usize>W * S, one, one, true);
+              tile<T>(kc, pa, pb, pT, <usize>W * S, pOne, true);
               edge<T>(pT, cp, mr, nr, ldc, al, bt, bz);
             }
           }
@@ -348,4 +359,10 @@ export function gemm<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, tr
       }
     }
   }
+}
+export function tileBench(kc: i32, pa: usize, pb: usize, cp: usize, reps: i32): void {
+  for (let r = 0; r < reps; r++) tile<f32>(kc, pa, pb, cp, 1024, 0, true);
+}
+export function tileBench2(kc: i32, pa: usize, pb: usize, cp: usize, reps: i32, npanels: i32): void {
+  for (let r = 0; r < reps; r++) for (let q = 0; q < npanels; q++) tile<f32>(kc, pa + <usize>(q * kc * 20), pb, cp, 1024, 0, true);
 }

@@ -14,3 +14,5 @@ export * from "./network/index.js";
 export * from "./config/index.js";
 export * from "./rules/index.js";
 export * from "./verify/index.js";
+export * from "./train/index.js";
+export { touchStripDataset, TOUCH_PATTERNS } from "./demo/touchStrip.js";

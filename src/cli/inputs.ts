@@ -10,9 +10,9 @@ import { modelFromData, MODEL_FORMAT } from "../config/modelFile.js";
 import { buildNetwork, type Network } from "../network/network.js";
 import { parseRule, type RuleConfig } from "../rules/config.js";
 import type { Dataset } from "../train/data/index.js";
-import { parityDataset, xorDataset, trainTestSplit } from "../train/data/index.js";
+import { parityDataset, xorDataset, trainTestSplit, fitScaler } from "../train/data/index.js";
 import { touchStripDataset } from "../demo/touchStrip.js";
-import { irisDataset, digitsDataset, loadDataset, fitScaler } from "../node/data.js";
+import { irisDataset, digitsDataset, loadDataset } from "../node/data.js";
 
 /** Reads and parses a JSON file; errors name the file. */
 export async function readJson(file: string): Promise<unknown> {
@@ -73,9 +73,9 @@ export async function resolveData(source: string, options: { testFraction: numbe
   else if (name === "touch-strip") ds = touchStripDataset(options.low !== undefined ? { low: options.low, high: 1 - options.low } : {});
   else if (name === "parity") ds = parityDataset(Number(arg ?? 3));
   else if (name === "iris") ds = await irisDataset();
-  else if (name === "digits") ds = await digitsDataset(arg !== undefined ? { count: Number(arg) } : {});
-  else if (/\.(csv|json)$/i.test(source)) ds = await loadDataset(source, { targetColumns: options.targetColumns, oneHot: options.oneHot });
-  else throw new EbbflowError(issueText("unknown_name", "--data", "touch-strip, xor, parity:N, iris, digits, digits:N, or a .csv/.json file", JSON.stringify(source)));
+  else if (name === "digits" || name === "mnist") ds = await digitsDataset(arg !== undefined ? { count: Number(arg) } : {});
+  else if (/\.(csv|json)$/i.test(source)) ds = await loadDataset(source, { ...(options.targetColumns !== undefined ? { targetColumns: options.targetColumns as readonly string[] } : {}), oneHot: options.oneHot });
+  else throw new EbbflowError(issueText("unknown_name", "--data", "touch-strip, xor, parity:N, iris, digits (or mnist), digits:N, or a .csv/.json file", JSON.stringify(source)));
   if (options.testFraction <= 0) return { train: options.scale ? fitScaler(ds).apply(ds) : ds, test: undefined };
   const { train, test } = trainTestSplit(ds, options.testFraction, options.seed);
   if (!options.scale) return { train, test };

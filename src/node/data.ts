@@ -163,7 +163,7 @@ export interface MnistOptions {
   readonly train?: number | undefined;
   /** Test images (integer >= 0); default 2000. `train + test` is at most the number of images (10,000 in mnist 1.1.0). */
   readonly test?: number | undefined;
-  /** Folder holding `0.json` ... `9.json` in the `mnist` package's layout; default the installed package's `src/digits`. */
+  /** Folder holding `0.json` ... `9.json` (each `{ "data": [...] }`, 784 values per image) as in the `mnist` package; default the installed package's `src/digits`. */
   readonly directory?: string | undefined;
 }
 
@@ -200,11 +200,65 @@ async function readDigitFile(file: string): Promise<unknown[]> {
   return data;
 }
 
+/** All images of the digit files, in the proportional interleaved order. */
+interface DigitImages {
+  readonly files: readonly string[];
+  readonly digits: readonly (readonly unknown[])[];
+  /** Digit and image index (within its file) of each position of the order. */
+  readonly order: readonly { readonly d: number; readonly j: number }[];
+}
+
+/**
+ * Reads the ten digit files and orders all images: image `j` of digit `d`
+ * (which has `n_d` images) gets the key `(j + 1/2) / n_d`; sorted by key, ties by digit.
+ */
+async function readDigits(directory: string | undefined): Promise<DigitImages> {
+  if (directory !== undefined && (typeof directory !== "string" || directory === "")) {
+    fail("invalid_parameter", "directory", "a non-empty path", directory);
+  }
+  const dir = directory ?? mnistDirectory();
+  const files = Array.from({ length: 10 }, (_, d) => path.join(dir, `${d}.json`));
+  const digits = await Promise.all(files.map(readDigitFile));
+  const keyed: { d: number; j: number; key: number }[] = [];
+  digits.forEach((data, d) => {
+    const n = data.length / IMAGE;
+    for (let j = 0; j < n; j++) keyed.push({ d, j, key: (j + 0.5) / n });
+  });
+  keyed.sort((a, b) => a.key - b.key || a.d - b.d);
+  return { files, digits, order: keyed };
+}
+
+/** Copies `size` images from position `from` of the order into a checked data set. */
+function digitPart(images: DigitImages, from: number, size: number, name: string): Dataset {
+  const inputs = new Float64Array(size * IMAGE);
+  const targets = new Float64Array(size * 10);
+  const labels = new Int32Array(size);
+  for (let k = 0; k < size; k++) {
+    const { d, j } = images.order[from + k] as { d: number; j: number };
+    const data = images.digits[d] as readonly unknown[];
+    for (let p = 0; p < IMAGE; p++) {
+      const v: unknown = data[j * IMAGE + p];
+      if (typeof v !== "number" || !(v >= 0 && v <= 1)) {
+        fail("parse_error", `${images.files[d] as string}:data[${j * IMAGE + p}]`, "a pixel value in [0, 1]", v, `image ${j}, pixel ${p}`);
+      }
+      inputs[k * IMAGE + p] = v;
+    }
+    targets[k * 10 + d] = 1;
+    labels[k] = d;
+  }
+  return createDataset(name, inputs, targets, {
+    inputSize: IMAGE,
+    targetSize: 10,
+    labels,
+    classNames: ["0", "1", "2", "3", "4", "5", "6", "7", "8", "9"],
+  });
+}
+
 /**
  * Handwritten digits from the `mnist` package (a 10,000-image sample of MNIST
  * bundled as JSON; LeCun, Bottou, Bengio & Haffner 1998, Proc. IEEE 86(11):2278–2324):
  * 784 inputs (28 × 28 pixels in [0, 1], row by row) and 10 one-hot targets
- * with labels and class names `"0"` ... `"9"`.
+ * with labels and class names `"0"` ... `"9"`, split into a training and a test part.
  *
  * Deterministic, unlike the package's own `set()` (which shuffles with
  * `Math.random`): the digit files are read directly and all images are put in
@@ -219,7 +273,7 @@ async function readDigitFile(file: string): Promise<unknown[]> {
  * @returns `{ train, test }` named `mnist/train` and `mnist/test`.
  * @throws {@link EbbflowError} `unsupported` (path `mnist`) when the package is not installed and no folder is given;
  *   `io_error` / `parse_error` (path = file) for unreadable or malformed digit files; `invalid_parameter` with path
- *   `train` or `test`.
+ *   `train`, `test` or `directory`.
  * @example
  * ```ts
  * const { train, test } = await mnistDataset({ train: 1000, test: 500 });
@@ -228,46 +282,39 @@ async function readDigitFile(file: string): Promise<unknown[]> {
 export async function mnistDataset(options: MnistOptions = {}): Promise<DatasetSplit> {
   const nTrain = requireInteger("train", options.train ?? 8000, 1);
   const nTest = requireInteger("test", options.test ?? 2000, 0);
-  if (options.directory !== undefined && (typeof options.directory !== "string" || options.directory === "")) {
-    fail("invalid_parameter", "directory", "a non-empty path", options.directory);
-  }
-  const dir = options.directory ?? mnistDirectory();
-  const files = Array.from({ length: 10 }, (_, d) => path.join(dir, `${d}.json`));
-  const digits = await Promise.all(files.map(readDigitFile));
-  const counts = digits.map((data) => data.length / IMAGE);
-  const total = counts.reduce((a, b) => a + b, 0);
+  const images = await readDigits(options.directory);
+  const total = images.order.length;
   if (nTrain + nTest > total) {
-    fail("invalid_parameter", nTest > 0 ? "test" : "train", `train + test <= ${total} (the images available)`, nTest > 0 ? nTest : nTrain, `train = ${nTrain}, test = ${nTest}`);
+    fail("invalid_parameter", "train", `train + test <= ${total} (the images available)`, nTrain, `train = ${nTrain}, test = ${nTest}`);
   }
-  // proportional interleaving: key (j + 1/2) / n_d, ties by digit
-  const order: { d: number; j: number; key: number }[] = [];
-  counts.forEach((n, d) => {
-    for (let j = 0; j < n; j++) order.push({ d, j, key: (j + 0.5) / n });
-  });
-  order.sort((a, b) => a.key - b.key || a.d - b.d);
-  const part = (from: number, size: number, name: string): Dataset => {
-    const inputs = new Float64Array(size * IMAGE);
-    const targets = new Float64Array(size * 10);
-    const labels = new Int32Array(size);
-    for (let k = 0; k < size; k++) {
-      const { d, j } = order[from + k] as { d: number; j: number };
-      const data = digits[d] as unknown[];
-      for (let p = 0; p < IMAGE; p++) {
-        const v: unknown = data[j * IMAGE + p];
-        if (typeof v !== "number" || !(v >= 0 && v <= 1)) {
-          fail("parse_error", `${files[d] as string}:data[${j * IMAGE + p}]`, "a pixel value in [0, 1]", v, `image ${j}, pixel ${p}`);
-        }
-        inputs[k * IMAGE + p] = v;
-      }
-      targets[k * 10 + d] = 1;
-      labels[k] = d;
-    }
-    return createDataset(name, inputs, targets, {
-      inputSize: IMAGE,
-      targetSize: 10,
-      labels,
-      classNames: ["0", "1", "2", "3", "4", "5", "6", "7", "8", "9"],
-    });
-  };
-  return { train: part(0, nTrain, "mnist/train"), test: part(total - nTest, nTest, "mnist/test") };
+  return { train: digitPart(images, 0, nTrain, "mnist/train"), test: digitPart(images, total - nTest, nTest, "mnist/test") };
+}
+
+/**
+ * Options of {@link digitsDataset}.
+ * @category Data
+ */
+export interface DigitsOptions {
+  /** Number of images (integer >= 1); default all (10,000 in mnist 1.1.0). */
+  readonly count?: number | undefined;
+  /** Folder holding `0.json` ... `9.json`; default the installed `mnist` package's `src/digits`. */
+  readonly directory?: string | undefined;
+}
+
+/**
+ * The `mnist` package's digits as one data set (to split with `trainTestSplit`
+ * or `kFold`): the first `count` images of the fixed proportional order described
+ * at {@link mnistDataset}; 784 inputs in [0, 1], 10 one-hot targets, labels.
+ * @category Data
+ * @param options - Number of images; a folder with the digit files.
+ * @returns A set named `mnist`.
+ * @throws {@link EbbflowError} as {@link mnistDataset}; `invalid_parameter` with path `count`.
+ */
+export async function digitsDataset(options: DigitsOptions = {}): Promise<Dataset> {
+  if (options.count !== undefined) requireInteger("count", options.count, 1);
+  const images = await readDigits(options.directory);
+  const total = images.order.length;
+  const count = options.count ?? total;
+  if (count > total) fail("invalid_parameter", "count", `an integer in [1, ${total}] (the images available)`, count);
+  return digitPart(images, 0, count, "mnist");
 }

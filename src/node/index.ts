@@ -3,3 +3,5 @@
  * @module
  */
 export * from "./files.js";
+export * from "./checkpoint.js";
+export * from "./data.js";

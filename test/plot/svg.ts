@@ -70,8 +70,9 @@ export function cells(group: string): { x: number; y: number; w: number; h: numb
 /**
  * A pixel map read off an axis: the labelled ticks of the axis whose
  * aria-label starts with `X-axis` or `Y-axis`, fitted by least squares
- * (pixel = a + b * t(value), t = identity or log10). The axis group is
- * drawn half a pixel off the plotting area (crisp lines), so 0.5 is added.
+ * (pixel = a + b * t(value), t = identity or log10). Vega draws axis groups
+ * displaced by half a pixel for crisp lines (its axis `translate` setting);
+ * the tick positions inside the group are the scale's own values.
  */
 export function axisMap(svg: string, axis: "X" | "Y", log = false): { toPixel: (v: number) => number; ticks: number[] } {
   const start = svg.indexOf(`aria-label="${axis}-axis`);
@@ -79,7 +80,7 @@ export function axisMap(svg: string, axis: "X" | "Y", log = false): { toPixel: (
   const part = svg.slice(start, svg.indexOf("role-axis-domain", start));
   const tickGroup = flatGroups(part, "mark-rule role-axis-tick")[0]!;
   const labelGroup = flatGroups(part, "mark-text role-axis-label")[0]!;
-  const tickPos = [...tickGroup.matchAll(/translate\((-?[\d.]+),(-?[\d.]+)\)/g)].map((m) => Number(axis === "X" ? m[1] : m[2]) + 0.5);
+  const tickPos = [...tickGroup.matchAll(/translate\((-?[\d.]+),(-?[\d.]+)\)/g)].map((m) => Number(axis === "X" ? m[1] : m[2]));
   const labels = [...labelGroup.matchAll(/<text[^>]*?(?:\/>|>([^<]*)<\/text>)/g)].map((m) => m[1]);
   if (labels.length !== tickPos.length) throw new Error("ticks and labels differ in number");
   const t = (v: number) => (log ? Math.log10(v) : v);
@@ -104,4 +105,10 @@ export function axisMap(svg: string, axis: "X" | "Y", log = false): { toPixel: (
   }
   const b = sxy / sxx;
   return { toPixel: (v) => my + b * (t(v) - mx), ticks };
+}
+
+/** Asserts that two pixel positions agree within `tol` pixels (absolute), printing both on failure. */
+export function expectPixel(actual: number | undefined, expected: number, tol: number, label: string): void {
+  const ok = actual !== undefined && Math.abs(actual - expected) <= tol;
+  if (!ok) throw new Error(`${label}: pixel ${actual} expected ${expected} (tolerance ${tol} px)`);
 }

@@ -26,7 +26,7 @@ export interface LearningCurveOptions {
   readonly split?: CurveSplit | undefined;
   /** Chart title (default `"<metric> per epoch"`). */
   readonly title?: string | undefined;
-  /** Logarithmic y axis; every value drawn must then be > 0 (default false). */
+  /** Logarithmic y axis; every value drawn must then be >= 1e-300 (default false). On a linear axis, values within 1e-280 of 0 are drawn at 0. */
   readonly logY?: boolean | undefined;
   /** Width of the plotting area in pixels (default 480). */
   readonly width?: number | undefined;
@@ -78,6 +78,20 @@ interface SeriesPoint {
 const SPLITS: readonly CurveSplit[] = ["train", "test", "both"];
 const BANDS: readonly BandKind[] = ["range", "sd"];
 
+/**
+ * On a linear axis, values closer to 0 than this are drawn at 0: vega's tick
+ * maths fails (a crash, not a warning) when all values lie within about
+ * 1e-307 of each other but differ. No plot can show the difference anyway.
+ */
+const FLUSH_TO_ZERO = 1e-280;
+
+/** Smallest value drawn on a log axis: vega's log ticks fail on subnormal values. */
+const LOG_MIN = 1e-300;
+
+function drawn(v: number, log: boolean): number {
+  return !log && Math.abs(v) < FLUSH_TO_ZERO ? 0 : v;
+}
+
 function splitsOf(split: CurveSplit): ("train" | "test")[] {
   return split === "both" ? ["train", "test"] : [split];
 }
@@ -112,7 +126,7 @@ function series(path: string, results: Results, metric: string, split: "train" |
     const value = metrics?.[metric];
     if (value === undefined) continue;
     if (typeof value !== "number" || !Number.isFinite(value)) fail("invalid_parameter", `${where}.${split}.${metric}`, "a finite number", value);
-    if (positive && value <= 0) fail("invalid_parameter", `${where}.${split}.${metric}`, "a value > 0 (the y axis is logarithmic)", value);
+    if (positive && !(value >= LOG_MIN)) fail("invalid_parameter", `${where}.${split}.${metric}`, `a value >= ${LOG_MIN} (the y axis is logarithmic)`, value);
     points.push({ epoch: record.epoch, value });
   }
   if (points.length === 0) fail("invalid_parameter", path, `epochs reporting "${metric}" in the ${split} metrics`, `${results.epochs.length} epochs without it`);
@@ -208,7 +222,7 @@ export function learningCurveSpec(runs: readonly LabelledRun[], options: Learnin
     for (const split of splitsOf(o.split)) {
       const points = series(`runs[${i}].results`, results, o.metric, split, o.logY);
       shortest = Math.min(shortest, points.length);
-      for (const p of points) values.push({ run: labels[i]!, split, epoch: p.epoch, value: p.value });
+      for (const p of points) values.push({ run: labels[i]!, split, epoch: p.epoch, value: drawn(p.value, o.logY) });
     }
   }
   return {
@@ -236,7 +250,7 @@ export function learningCurveSpec(runs: readonly LabelledRun[], options: Learnin
  * @throws EbbflowError `invalid_parameter` for an empty list of runs, an empty
  *   run, a repeated label, a run that never reports the metric, a non-finite
  *   metric value (path `runs[i].results.epochs[j].<split>.<metric>`), a value
- *   <= 0 on a log axis, or bad options.
+ *   below 1e-300 on a log axis, or bad options.
  * @category Plots
  * @example
  * ```ts
@@ -327,15 +341,17 @@ export function bandCurveSpec(groups: readonly RunGroup[], options: BandCurveOpt
       for (const p of points) {
         const lower = band === "range" ? p.min : p.mean - p.sd;
         const upper = band === "range" ? p.max : p.mean + p.sd;
-        if (o.logY && lower <= 0) {
-          fail("invalid_parameter", "options.logY", `band edges > 0 on a log axis (group "${labels[g]}", ${split}, epoch ${p.epoch}); use band: "range"`, lower);
+        if (o.logY && !(lower >= LOG_MIN)) {
+          fail("invalid_parameter", "options.logY", `band edges >= ${LOG_MIN} on a log axis (group "${labels[g]}", ${split}, epoch ${p.epoch}); use band: "range"`, lower);
         }
-        values.push({ group: labels[g]!, split, epoch: p.epoch, n: p.n, value: p.mean, sd: p.sd, min: p.min, max: p.max, lower, upper });
+        values.push({ group: labels[g]!, split, epoch: p.epoch, n: p.n, value: drawn(p.mean, o.logY), sd: p.sd, min: p.min, max: p.max, lower: drawn(lower, o.logY), upper: drawn(upper, o.logY) });
       }
     }
   }
   const { x, y } = axes(o, values.map((v) => v.epoch));
-  const color = { field: "group", type: "nominal" as const, scale: { domain: labels }, legend: { title: "group" } };
+  // the same legend on both layers (a line symbol): legends that differ between layers make vega-lite warn
+  const legend = { title: "group", symbolType: "stroke", symbolStrokeWidth: 2, symbolOpacity: 1 };
+  const color = { field: "group", type: "nominal" as const, scale: { domain: labels }, legend };
   const bandTitle = band === "range" ? "min to max" : "mean ± sd";
   return {
     $schema: VEGA_LITE_SCHEMA,
@@ -346,7 +362,7 @@ export function bandCurveSpec(groups: readonly RunGroup[], options: BandCurveOpt
     layer: [
       {
         mark: { type: "area", opacity: 0.25 },
-        encoding: { x, y: { field: "lower", type: "quantitative" }, y2: { field: "upper" }, color: { ...color, legend: null }, detail: { field: "split", type: "nominal" } },
+        encoding: { x, y: { field: "lower", type: "quantitative" }, y2: { field: "upper" }, color, detail: { field: "split", type: "nominal" } },
       },
       {
         mark: { type: "line", point: o.points ?? shortest < 2 },
@@ -365,7 +381,7 @@ export function bandCurveSpec(groups: readonly RunGroup[], options: BandCurveOpt
  * @param options - As {@link learningCurveSvg}, plus `band`.
  * @returns SVG text.
  * @throws EbbflowError `invalid_parameter` as {@link learningCurveSvg}, with
- *   paths `groups[g].runs[i]...`; on a log axis also when a band edge is <= 0.
+ *   paths `groups[g].runs[i]...`; on a log axis also when a band edge is below 1e-300.
  * @category Plots
  */
 export async function bandCurveSvg(groups: readonly RunGroup[], options: BandCurveOptions): Promise<string> {

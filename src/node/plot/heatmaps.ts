@@ -87,13 +87,24 @@ function tickValues(n: number): number[] {
   return out;
 }
 
-function diverging(field: string, limit: number, title: string) {
+/**
+ * Colour encoding of `level` = weight / limit on [-1, 1] (clamped beyond), so
+ * 0 is the scheme's middle colour; the legend shows level × limit. Colouring
+ * the ratio rather than the weight keeps vega's tick maths away from extreme
+ * magnitudes (a limit of 1e-310 would make its legend fail).
+ */
+function diverging(limit: number, title: string) {
   return {
-    field,
+    field: "level",
     type: "quantitative" as const,
-    scale: { type: "linear" as const, domain: [-limit, limit], scheme: SCHEME, clamp: true },
-    legend: { title },
+    scale: { type: "linear" as const, domain: [-1, 1], scheme: SCHEME, clamp: true },
+    legend: { title, titleLimit: 400, values: [-1, -0.5, 0, 0.5, 1], labelExpr: `format(datum.value * ${String(limit)}, '.3~g')` },
   };
+}
+
+/** Clamps to [-1, 1] (a ratio beyond the colour limit, possibly ±Infinity for a tiny limit). */
+function clampUnit(v: number): number {
+  return v > 1 ? 1 : v < -1 ? -1 : v;
 }
 
 function options0<T>(options: T | undefined): Partial<T> {
@@ -104,7 +115,7 @@ function options0<T>(options: T | undefined): Partial<T> {
 
 /**
  * Builds the vega-lite specification of {@link weightMatrixSvg} (inline data;
- * fields `row`, `col`, `weight`), for embedding or restyling.
+ * fields `row`, `col`, `weight`, and `level` = weight / limit, which is coloured), for embedding or restyling.
  * @param weights - Row-major matrix, `rows` × `cols`.
  * @param rows - Number of rows (receiving units).
  * @param cols - Number of columns (sending units).
@@ -121,8 +132,13 @@ export function weightMatrixSpec(weights: FloatArray, rows: number, cols: number
   const colLabel = titleText("options.colLabel", o.colLabel, "sending unit");
   const limit = colourLimit(o.limit, maxAbs(weights, 0, weights.length));
   const cell = pixels("options.cellSize", o.cellSize, Math.max(2, Math.min(24, Math.floor(400 / Math.max(rows, cols)))));
-  const values: { row: number; col: number; weight: number }[] = new Array(rows * cols);
-  for (let r = 0; r < rows; r++) for (let c = 0; c < cols; c++) values[r * cols + c] = { row: r, col: c, weight: weights[r * cols + c]! };
+  const values: { row: number; col: number; weight: number; level: number }[] = new Array(rows * cols);
+  for (let r = 0; r < rows; r++) {
+    for (let c = 0; c < cols; c++) {
+      const w = weights[r * cols + c]!;
+      values[r * cols + c] = { row: r, col: c, weight: w, level: clampUnit(w / limit) };
+    }
+  }
   return {
     $schema: VEGA_LITE_SCHEMA,
     title,
@@ -133,7 +149,7 @@ export function weightMatrixSpec(weights: FloatArray, rows: number, cols: number
     encoding: {
       x: { field: "col", type: "ordinal", scale: { paddingInner: 0, paddingOuter: 0 }, axis: { title: colLabel, values: tickValues(cols), labelAngle: 0 } },
       y: { field: "row", type: "ordinal", scale: { paddingInner: 0, paddingOuter: 0 }, axis: { title: rowLabel, values: tickValues(rows) } },
-      color: diverging("weight", limit, "weight"),
+      color: diverging(limit, "weight"),
     },
   };
 }
@@ -179,7 +195,8 @@ function chooseUnits(value: unknown, rows: number): number[] {
 
 /**
  * Builds the vega-lite specification of {@link receptiveFieldsSvg} (inline
- * data; fields `unit`, `x`, `y`, `weight`, `level` (the coloured value)), for
+ * data; fields `unit`, `x`, `y`, `weight`, and `level`, the coloured value:
+ * weight / limit, or weight / the unit's max |weight|), for
  * embedding or restyling.
  * @param weights - Row-major matrix, `rows` × `cols`, cols = imageWidth × imageHeight.
  * @param rows - Number of units (rows).
@@ -216,11 +233,11 @@ export function receptiveFieldsSpec(
   const values: { unit: number; x: number; y: number; weight: number; level: number }[] = [];
   for (const u of units) {
     const own = maxAbs(weights, u * cols, (u + 1) * cols);
-    const divide = scaling === "unit" && own > 0 ? own : 1;
+    const divide = scaling === "unit" ? (own > 0 ? own : 1) : limit;
     for (let y = 0; y < imageHeight; y++) {
       for (let x = 0; x < imageWidth; x++) {
         const w = weights[u * cols + y * imageWidth + x]!;
-        values.push({ unit: u, x, y, weight: w, level: w / divide });
+        values.push({ unit: u, x, y, weight: w, level: clampUnit(w / divide) });
       }
     }
   }
@@ -244,7 +261,7 @@ export function receptiveFieldsSpec(
       encoding: {
         x: { field: "x", type: "ordinal", scale: { paddingInner: 0, paddingOuter: 0 }, axis: null },
         y: { field: "y", type: "ordinal", scale: { paddingInner: 0, paddingOuter: 0 }, axis: null },
-        color: diverging("level", limit, scaling === "unit" ? "weight / unit's max |weight|" : "weight"),
+        color: diverging(scaling === "unit" ? 1 : limit, scaling === "unit" ? "weight / unit's max |w|" : "weight"),
       },
     },
   };
