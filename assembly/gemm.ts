@@ -7,19 +7,23 @@
 // registers per step: 2 loads of B, MR broadcast loads of A, 2 * MR
 // multiply-adds.
 //
-// MR = 5 rows, NR = two vectors of columns (8 f32 or 4 f64): 10 accumulators
-// plus 2 B vectors and one broadcast fit the 16 vector registers of x86-64
-// (V8 keeps one as scratch). 5 x 8 measured fastest among 2..6 x 8..16 tiles
-// for the plain SIMD build here; the relaxed build uses the same tile.
+// MR = 4 rows, NR = two vectors of columns (8 f32 or 4 f64): 8 accumulators,
+// 2 B vectors and 4 broadcasts fit the 16 vector registers of x86-64 (V8
+// keeps one as scratch). V8 hoists the loads of a step above the arithmetic,
+// so all broadcasts of a step are live at once: a 5-row tile spills two
+// accumulators to the stack and runs at half speed. Among tiles of 3..6 rows
+// by 2..3 vectors (broadcast loads or one vector load plus lane shuffles),
+// 4 x 2 vectors with broadcast loads was fastest or near it in both builds
+// and both types on this machine.
 
 import { VBYTES, lanes, scaleInPlace, vmadd } from "./simd";
 
 /** Rows of the register tile. */
-export const MR: i32 = 5;
+export const MR: i32 = 4;
 /** Depth of a packed block along the inner dimension. */
 export const KC: i32 = 256;
 /** Rows of C per packed block of A (a multiple of MR). */
-export const MC: i32 = 120;
+export const MC: i32 = 128;
 /** Columns of C per packed block of B (a multiple of NR for both types). */
 export const NC: i32 = 512;
 
@@ -51,7 +55,7 @@ function NR<T>(): i32 {
 function tile<T>(kc: i32, pa: usize, pb: usize, cp: usize, ldc: usize, scales: usize, betaZero: bool): void {
   const S = sizeof<T>();
   const zero = v128.splat<T>(0);
-  let c00 = zero, c01 = zero, c10 = zero, c11 = zero, c20 = zero, c21 = zero, c30 = zero, c31 = zero, c40 = zero, c41 = zero;
+  let c00 = zero, c01 = zero, c10 = zero, c11 = zero, c20 = zero, c21 = zero, c30 = zero, c31 = zero;
   for (let p = 0; p < kc; p++) {
     const b0 = v128.load(pb);
     const b1 = v128.load(pb, VBYTES);
@@ -67,10 +71,7 @@ function tile<T>(kc: i32, pa: usize, pb: usize, cp: usize, ldc: usize, scales: u
     x = v128.load_splat<T>(pa, 3 * S);
     c30 = vmadd<T>(x, b0, c30);
     c31 = vmadd<T>(x, b1, c31);
-    x = v128.load_splat<T>(pa, 4 * S);
-    c40 = vmadd<T>(x, b0, c40);
-    c41 = vmadd<T>(x, b1, c41);
-    pa += 5 * S;
+    pa += 4 * S;
     pb += 2 * VBYTES;
   }
   const va = v128.load_splat<T>(scales);
@@ -86,9 +87,6 @@ function tile<T>(kc: i32, pa: usize, pb: usize, cp: usize, ldc: usize, scales: u
     cp += ldc;
     v128.store(cp, v128.mul<T>(va, c30));
     v128.store(cp, v128.mul<T>(va, c31), VBYTES);
-    cp += ldc;
-    v128.store(cp, v128.mul<T>(va, c40));
-    v128.store(cp, v128.mul<T>(va, c41), VBYTES);
   } else {
     const vb = v128.load_splat<T>(scales, sizeof<T>());
     v128.store(cp, v128.add<T>(v128.mul<T>(va, c00), v128.mul<T>(vb, v128.load(cp))));
@@ -102,9 +100,6 @@ function tile<T>(kc: i32, pa: usize, pb: usize, cp: usize, ldc: usize, scales: u
     cp += ldc;
     v128.store(cp, v128.add<T>(v128.mul<T>(va, c30), v128.mul<T>(vb, v128.load(cp))));
     v128.store(cp, v128.add<T>(v128.mul<T>(va, c31), v128.mul<T>(vb, v128.load(cp, VBYTES))), VBYTES);
-    cp += ldc;
-    v128.store(cp, v128.add<T>(v128.mul<T>(va, c40), v128.mul<T>(vb, v128.load(cp))));
-    v128.store(cp, v128.add<T>(v128.mul<T>(va, c41), v128.mul<T>(vb, v128.load(cp, VBYTES))), VBYTES);
   }
 }
 
@@ -222,19 +217,13 @@ function packA<T>(dst: usize, a: usize, ic: i32, pc: i32, mc: i32, kc: i32, m: i
     const rows = min(MR, mc - ir);
     const i0 = ic + ir;
     if (rows == MR && transA) {
-      // A stored k x m: the MR entries of one step are contiguous
+      // A stored k x m: the MR entries of one step are contiguous (one or two vectors)
       let src = a + <usize>(pc * m + i0) * S;
       const step = <usize>m * S;
       let d = panel;
       for (let p = 0; p < kc; p++) {
-        if (S == 4) {
-          v128.store(d, v128.load(src));
-          store<T>(d, load<T>(src, 4 * S), 4 * S);
-        } else {
-          v128.store(d, v128.load(src));
-          v128.store(d, v128.load(src, VBYTES), VBYTES);
-          store<T>(d, load<T>(src, 4 * S), 4 * S);
-        }
+        v128.store(d, v128.load(src));
+        if (S == 8) v128.store(d, v128.load(src, VBYTES), VBYTES);
         src += step;
         d += rowBytes;
       }
@@ -242,41 +231,23 @@ function packA<T>(dst: usize, a: usize, ic: i32, pc: i32, mc: i32, kc: i32, m: i
       // A stored m x k: transpose MR rows, L steps at a time
       const rowStep = <usize>k * S;
       const r0 = a + <usize>(i0 * k + pc) * S;
-      const r1 = r0 + rowStep, r2 = r1 + rowStep, r3 = r2 + rowStep, r4 = r3 + rowStep;
+      const r1 = r0 + rowStep, r2 = r1 + rowStep, r3 = r2 + rowStep;
       const pv = kc - kc % L;
       let p = 0;
       if (S == 4) {
         for (; p < pv; p += 4) {
           const off = <usize>p * S;
-          const d = panel + <usize>p * rowBytes;
-          // rows 0..3 transposed (the 4-byte tail of each 16-byte store is overwritten by row 4 next)
-          const v0 = v128.load(r0 + off), v1 = v128.load(r1 + off), v2 = v128.load(r2 + off), v3 = v128.load(r3 + off);
-          const v4 = v128.load(r4 + off);
-          const s0 = v128.shuffle<f32>(v0, v1, 0, 4, 1, 5);
-          const s1 = v128.shuffle<f32>(v0, v1, 2, 6, 3, 7);
-          const s2 = v128.shuffle<f32>(v2, v3, 0, 4, 1, 5);
-          const s3 = v128.shuffle<f32>(v2, v3, 2, 6, 3, 7);
-          v128.store(d, v128.shuffle<f32>(s0, s2, 0, 1, 4, 5));
-          v128.store_lane<f32>(d, v4, 0, 4 * S);
-          v128.store(d + rowBytes, v128.shuffle<f32>(s0, s2, 2, 3, 6, 7));
-          v128.store_lane<f32>(d + rowBytes, v4, 1, 4 * S);
-          v128.store(d + 2 * rowBytes, v128.shuffle<f32>(s1, s3, 0, 1, 4, 5));
-          v128.store_lane<f32>(d + 2 * rowBytes, v4, 2, 4 * S);
-          v128.store(d + 3 * rowBytes, v128.shuffle<f32>(s1, s3, 2, 3, 6, 7));
-          v128.store_lane<f32>(d + 3 * rowBytes, v4, 3, 4 * S);
+          storeTransposed4(panel + <usize>p * rowBytes, rowBytes, v128.load(r0 + off), v128.load(r1 + off), v128.load(r2 + off), v128.load(r3 + off));
         }
       } else {
         for (; p < pv; p += 2) {
           const off = <usize>p * S;
           const d = panel + <usize>p * rowBytes;
           const v0 = v128.load(r0 + off), v1 = v128.load(r1 + off), v2 = v128.load(r2 + off), v3 = v128.load(r3 + off);
-          const v4 = v128.load(r4 + off);
           v128.store(d, v128.shuffle<f64>(v0, v1, 0, 2));
           v128.store(d, v128.shuffle<f64>(v2, v3, 0, 2), VBYTES);
-          v128.store_lane<f64>(d, v4, 0, 4 * S);
           v128.store(d + rowBytes, v128.shuffle<f64>(v0, v1, 1, 3));
           v128.store(d + rowBytes, v128.shuffle<f64>(v2, v3, 1, 3), VBYTES);
-          v128.store_lane<f64>(d + rowBytes, v4, 1, 4 * S);
         }
       }
       for (; p < kc; p++) {
@@ -286,7 +257,6 @@ function packA<T>(dst: usize, a: usize, ic: i32, pc: i32, mc: i32, kc: i32, m: i
         store<T>(d, load<T>(r1 + off), S);
         store<T>(d, load<T>(r2 + off), 2 * S);
         store<T>(d, load<T>(r3 + off), 3 * S);
-        store<T>(d, load<T>(r4 + off), 4 * S);
       }
     } else {
       // last, partial panel: element by element, zero padding
@@ -359,10 +329,4 @@ export function gemm<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, tr
       }
     }
   }
-}
-export function tileBench(kc: i32, pa: usize, pb: usize, cp: usize, reps: i32): void {
-  for (let r = 0; r < reps; r++) tile<f32>(kc, pa, pb, cp, 1024, 0, true);
-}
-export function tileBench2(kc: i32, pa: usize, pb: usize, cp: usize, reps: i32, npanels: i32): void {
-  for (let r = 0; r < reps; r++) for (let q = 0; q < npanels; q++) tile<f32>(kc, pa + <usize>(q * kc * 20), pb, cp, 1024, 0, true);
 }

@@ -4,11 +4,11 @@
 // (src/kernels/wasm/) owns the memory layout; this module has no data
 // segment, no allocator and no imports besides the memory.
 
-import { gemm, gemmWorkspaceBytes, tileBench, tileBench2 } from "./gemm";
+import { gemm, gemmWorkspaceBytes } from "./gemm";
 import { gemv, ger } from "./level2";
 import { addRowVector, allFinite, axpby, axpy, binary, dot, fill, maxAbs, maxAbsDiff, scale, sumRows } from "./vector";
 
-export { gemmWorkspaceBytes, tileBench, tileBench2 };
+export { gemmWorkspaceBytes };
 
 /** 1 in the build with relaxed-SIMD multiply-adds, 0 in the plain SIMD build. */
 export function relaxed(): i32 {

@@ -9,7 +9,7 @@
 import { promises as fs } from "node:fs";
 import { createRequire } from "node:module";
 import path from "node:path";
-import { describeValue, fail, requireInteger } from "../errors/index.js";
+import { type EbbflowError, describeValue, fail, requireInteger } from "../errors/index.js";
 import { createDataset, makeDataset, type Dataset } from "../train/data/dataset.js";
 import { parseCsvDataset, type CsvDatasetOptions } from "../train/data/csv.js";
 import { parseJsonDataset } from "../train/data/json.js";

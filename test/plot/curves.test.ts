@@ -2,7 +2,7 @@ import { describe, it, expect } from "vitest";
 import fc from "fast-check";
 import { readResults, learningCurveSvg, bandCurveSvg, summariseRuns, learningCurveSpec, type Results } from "../../src/node/plot.js";
 import { check } from "../helpers/property.js";
-import { expectClose } from "../helpers/tolerance.js";
+import { expectClose, EPS64 } from "../helpers/tolerance.js";
 import { ariaFields, axisMap, expectPixel, marks, points, xmlProblems } from "./svg.js";
 
 /** A results file of our own invention: train (and test) metrics per epoch. */
@@ -169,6 +169,14 @@ describe("summariseRuns", () => {
       }),
       100,
     );
+  });
+
+  it("avoids overflow and underflow at the ends of the double range: s·(1, 1/2, 1/4) has mean 7s/12 and sd s·sqrt(21)/12 (closed form)", () => {
+    for (const s of [Number.MAX_VALUE, 1e-200]) {
+      const p = summariseRuns([1, 0.5, 0.25].map((f, i) => run(i, [s * f], undefined, "m")), "m", "train")[0]!;
+      expectClose(p.mean / s, 7 / 12, 4 * EPS64, `mean / s at s = ${s}`);
+      expectClose(p.sd / s, Math.sqrt(21) / 12, 8 * EPS64, `sd / s at s = ${s}`);
+    }
   });
 
   it("rejects an empty list, a bad split and a non-finite value", () => {

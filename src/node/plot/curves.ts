@@ -64,7 +64,7 @@ export interface BandPoint {
   readonly n: number;
   /** Arithmetic mean. */
   readonly mean: number;
-  /** Sample standard deviation (divisor n - 1); 0 when n = 1. */
+  /** Sample standard deviation (divisor n - 1); 0 when n = 1; Infinity only if the true value exceeds the largest double. */
   readonly sd: number;
   readonly min: number;
   readonly max: number;
@@ -277,20 +277,31 @@ function summarise(path: string, runs: readonly Results[], metric: string, split
   for (const epoch of [...byEpoch.keys()].sort((a, b) => a - b)) {
     const xs = byEpoch.get(epoch)!;
     const n = xs.length;
-    let sum = 0;
     let min = Infinity;
     let max = -Infinity;
     for (const x of xs) {
-      sum += x;
       if (x < min) min = x;
       if (x > max) max = x;
     }
-    // the clamp keeps min <= mean <= max despite rounding in the sum (n equal values give that value)
-    const mean = Math.min(max, Math.max(min, sum / n));
-    // two-pass sample variance: common practice for numerical stability
-    let ss = 0;
-    for (const x of xs) ss += (x - mean) * (x - mean);
-    const sd = n > 1 ? Math.sqrt(ss / (n - 1)) : 0;
+    // beyond 1e150 (or below 1e-150) squared deviations overflow (or underflow):
+    // there, work on x / max|x| in [-1, 1]; elsewhere on x itself (exact textbook sums)
+    const big = Math.max(Math.abs(min), Math.abs(max));
+    const scale = big > 1e150 || big < 1e-150 ? big : 1;
+    let mean = 0;
+    let sd = 0;
+    if (scale > 0) {
+      let m = 0;
+      if (scale === 1) {
+        for (const x of xs) m += x;
+        m /= n;
+      } else for (const x of xs) m += x / scale / n;
+      // two-pass sample variance: common practice for numerical stability
+      let ss = 0;
+      for (const x of xs) ss += (x / scale - m) ** 2;
+      // the clamp keeps min <= mean <= max despite rounding (n equal values give that value)
+      mean = Math.min(max, Math.max(min, m * scale));
+      sd = n > 1 ? Math.sqrt(ss / (n - 1)) * scale : 0;
+    }
     out.push({ epoch, n, mean, sd, min, max });
   }
   return out;
@@ -339,8 +350,9 @@ export function bandCurveSpec(groups: readonly RunGroup[], options: BandCurveOpt
       const points = summarise(`groups[${g}].runs`, groups[g]!.runs, o.metric, split, o.logY);
       shortest = Math.min(shortest, points.length);
       for (const p of points) {
-        const lower = band === "range" ? p.min : p.mean - p.sd;
-        const upper = band === "range" ? p.max : p.mean + p.sd;
+        // mean ± sd may pass the largest double: clamp, so the chart stays finite
+        const lower = band === "range" ? p.min : Math.max(-Number.MAX_VALUE, p.mean - p.sd);
+        const upper = band === "range" ? p.max : Math.min(Number.MAX_VALUE, p.mean + p.sd);
         if (o.logY && !(lower >= LOG_MIN)) {
           fail("invalid_parameter", "options.logY", `band edges >= ${LOG_MIN} on a log axis (group "${labels[g]}", ${split}, epoch ${p.epoch}); use band: "range"`, lower);
         }
