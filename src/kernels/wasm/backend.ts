@@ -1,0 +1,143 @@
+/**
+ * The backend interface shared by the TypeScript kernels and the WebAssembly
+ * SIMD kernels, and the TypeScript backend.
+ * @module
+ */
+import { fail, requireInteger } from "../../errors/index.js";
+import type { Dtype, FloatArray } from "../../types/index.js";
+import {
+  add,
+  addRowVector,
+  allFinite,
+  axpby,
+  axpy,
+  copy,
+  dot,
+  fill,
+  gemm,
+  gemv,
+  ger,
+  maxAbs,
+  maxAbsDiff,
+  mul,
+  scale,
+  sub,
+  sumRows,
+  sumSquares,
+} from "../index.js";
+
+/**
+ * Name of a kernel backend: the TypeScript loops, the WebAssembly kernels
+ * compiled for 128-bit SIMD, or the same kernels with relaxed-SIMD fused
+ * multiply-adds.
+ * @category Kernels
+ */
+export type BackendName = "typescript" | "wasm-simd" | "wasm-relaxed-simd";
+
+/**
+ * One implementation of the kernels: every member has the signature and the
+ * semantics of the function of the same name in the kernels module (output
+ * first, nothing allocated, nothing checked, `beta = 0` overwrites without
+ * reading, `alpha = 0` does not read the inputs, the same aliasing rules).
+ *
+ * Results agree between backends within the rounding bounds the kernels
+ * document: the elementwise kernels, the maxima, `addRowVector` and (in
+ * float64) `ger` are bit-identical; sums (gemm, gemv, sumRows, dot) may be
+ * added in a different order, and the relaxed-SIMD backend may fuse a
+ * multiply and an add into one rounding.
+ *
+ * `allocate` returns a zeroed array of the backend's preferred kind: an
+ * ordinary typed array for the TypeScript backend, a view into WebAssembly
+ * memory for the WASM backends (arrays the WASM kernels read without a copy).
+ * @category Kernels
+ */
+export interface KernelBackend {
+  /** Which implementation this is. */
+  readonly name: BackendName;
+  /**
+   * A zeroed array of `n` elements of the given precision.
+   * @throws {@link EbbflowError} `invalid_parameter` when `dtype` is not
+   * `"float32"`/`"float64"` or `n` is not an integer ≥ 0.
+   */
+  allocate(dtype: Dtype, n: number): FloatArray;
+  /** Matrix-matrix product, as {@link gemm}. */
+  readonly gemm: typeof gemm;
+  /** Matrix-vector product, as {@link gemv}. */
+  readonly gemv: typeof gemv;
+  /** Outer-product accumulation, as {@link ger}. */
+  readonly ger: typeof ger;
+  /** Elementwise sum, as {@link add}. */
+  readonly add: typeof add;
+  /** Elementwise difference, as {@link sub}. */
+  readonly sub: typeof sub;
+  /** Elementwise product, as {@link mul}. */
+  readonly mul: typeof mul;
+  /** Scaled accumulation, as {@link axpy}. */
+  readonly axpy: typeof axpy;
+  /** Linear combination, as {@link axpby}. */
+  readonly axpby: typeof axpby;
+  /** Scaling, as {@link scale}. */
+  readonly scale: typeof scale;
+  /** Fill, as {@link fill}. */
+  readonly fill: typeof fill;
+  /** Copy, as {@link copy}. */
+  readonly copy: typeof copy;
+  /** Largest absolute difference, as {@link maxAbsDiff}. */
+  readonly maxAbsDiff: typeof maxAbsDiff;
+  /** Finiteness test, as {@link allFinite}. */
+  readonly allFinite: typeof allFinite;
+  /** Largest magnitude, as {@link maxAbs}. */
+  readonly maxAbs: typeof maxAbs;
+  /** Inner product, as {@link dot}. */
+  readonly dot: typeof dot;
+  /** Sum of squares, as {@link sumSquares}. */
+  readonly sumSquares: typeof sumSquares;
+  /** Row broadcast, as {@link addRowVector}. */
+  readonly addRowVector: typeof addRowVector;
+  /** Column sums, as {@link sumRows}. */
+  readonly sumRows: typeof sumRows;
+}
+
+/** Validates the arguments of `allocate` (shared by every backend). */
+export function checkAllocation(dtype: unknown, n: unknown): void {
+  if (dtype !== "float32" && dtype !== "float64") fail("invalid_parameter", "dtype", '"float32" or "float64"', dtype);
+  requireInteger("n", n, 0);
+}
+
+/**
+ * The TypeScript kernels as a {@link KernelBackend}: the functions of the
+ * kernels module unchanged; `allocate` returns an ordinary zeroed
+ * `Float32Array`/`Float64Array`. Works wherever JavaScript runs.
+ * @category Kernels
+ * @example
+ * ```ts
+ * const be = typescriptBackend;
+ * const c = be.gemm(be.allocate("float64", 1), Float64Array.of(1, 2), Float64Array.of(3, 4), 1, 1, 2, false, false, 1, 0);
+ * // Float64Array [11]
+ * ```
+ */
+export const typescriptBackend: KernelBackend = Object.freeze({
+  name: "typescript",
+  allocate(dtype: Dtype, n: number): FloatArray {
+    checkAllocation(dtype, n);
+    return dtype === "float32" ? new Float32Array(n) : new Float64Array(n);
+  },
+  gemm,
+  gemv,
+  ger,
+  add,
+  sub,
+  mul,
+  axpy,
+  axpby,
+  scale,
+  fill,
+  copy,
+  maxAbsDiff,
+  allFinite,
+  maxAbs,
+  dot,
+  sumSquares,
+  addRowVector,
+  sumRows,
+} as const);
