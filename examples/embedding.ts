@@ -34,7 +34,9 @@ export function runEmbeddingExample(): { cosine: number; before: number; after: 
   const settler = new Settler(net, 4);
   const error = (): number => {
     const y = settler.settle({ phase: "free", inputs: batch.inputs }).activity[2] as FloatArray;
-    return y.reduce((s, v, i) => s + (v - (valence[i] as number)) ** 2, 0);
+    let sse = 0;
+    for (let i = 0; i < y.length; i++) sse += ((y[i] as number) - (valence[i] as number)) ** 2;
+    return sse;
   };
   const before = error();
   const rule = createRule(net, { rule: "eqprop", beta: 0.5, rate: 0.5 });

@@ -71,7 +71,7 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
   for (const rule of DEMO_RULES) {
     const runs = hidden[rule.label] ?? [];
     const svg = await learningCurveSvg(
-      runs.map((r) => ({ label: `seed ${r.seed}`, results: { header: { kind: "header", ebbflow: VERSION, seed: r.seed, config: { rule: rule.config }, started: new Date(0).toISOString() }, epochs: r.history, end: undefined } })),
+      runs.map((r) => ({ label: `seed ${r.seed}`, results: { source: `${rule.label} seed ${r.seed}`, header: { kind: "header" as const, ebbflow: VERSION, seed: r.seed, config: { rule: rule.config }, started: new Date(0).toISOString() }, epochs: r.history } })),
       { metric: "sse", split: "train", title: `${rule.label}: sum squared error per epoch (touch strip)`, logY: true },
     );
     const file = path.join(out, `${rule.label.replace(/[^A-Za-z0-9]+/g, "-").toLowerCase()}-curves.svg`);

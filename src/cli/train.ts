@@ -52,7 +52,7 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
   const out = o.out ?? path.join("runs", `${experiment.name ?? path.basename(modelFile, ".json")}-${rule.rule}-${seed}`);
   await fs.mkdir(out, { recursive: true });
   const files = { results: path.join(out, "results.jsonl"), model: path.join(out, "model.json"), checkpoint: path.join(out, "checkpoint.json") };
-  const config = { network: experiment.network, rule, training, data: { source, testFraction }, seed };
+  const config: Record<string, unknown> = { network: experiment.network, rule, training, data: { source, testFraction }, seed };
 
   let net = built;
   let resumed = null;

@@ -64,20 +64,21 @@ export function demoRun(rule: DemoRule, seed: number, hidden: number, epochs: nu
   return { rule: rule.label, seed, solved: reason === "target-reached", epochs: ran, bestCorrect: best, finalSse: trainer.history.at(-1)?.train?.sse ?? Number.NaN, history: trainer.history };
 }
 
-/** The gradient-agreement reports of the demo's rules on one hidden-layer network. @category Demo */
+/**
+ * The gradient-agreement reports on one hidden-layer network: each demo rule with the targets it trains on
+ * (the calcium rule's "off" target is 0.05), then symmetric EqProp at small β and backprop.
+ * @category Demo
+ */
 export function demoAgreement(hidden: number, seed: number): AgreementReport[] {
-  const data = touchStripDataset();
-  const batch = { inputs: { sensors: data.inputs }, targets: { texture: data.targets } };
-  const rules: RuleConfigInput[] = [
-    { rule: "generec", rate: 1 },
-    { rule: "chl", rate: 1 },
-    { rule: "eqprop", beta: 0.05, rate: 1 },
-    { rule: "eqprop", beta: 0.05, rate: 1, mode: "symmetric" },
-    { rule: "calcium", rate: 1 },
-    { rule: "backprop", rate: 1 },
+  const rules: DemoRule[] = [
+    ...DEMO_RULES.map((r) => ({ ...r, config: { ...r.config, rate: 1 } as RuleConfigInput })),
+    { label: "EqProp, symmetric, small β", config: { rule: "eqprop", beta: 0.01, rate: 1, mode: "symmetric" }, low: 0 },
+    { label: "backprop (feedforward pass)", config: { rule: "backprop", rate: 1 }, low: 0 },
   ];
   return rules.map((r) => {
-    const spec = demoNetwork(hidden, seed);
-    return gradientAgreement(buildNetwork({ ...spec, dynamics: { dt: 0.5, maxSteps: 100000, tolerance: 1e-12 } }), r, batch);
+    const data = touchStripDataset({ low: r.low, high: 1 - r.low });
+    const batch = { inputs: { sensors: data.inputs }, targets: { texture: data.targets } };
+    const net = buildNetwork(demoNetwork(hidden, seed)).withDynamics({ maxSteps: 100000, tolerance: 1e-12 });
+    return gradientAgreement(net, r.config, batch);
   });
 }

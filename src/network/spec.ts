@@ -50,7 +50,8 @@ export type UnitSpecData =
   | { kind: "saturating"; gain?: number | undefined; threshold?: number | undefined }
   | { kind: "noisy"; base: UnitSpecData; sigma: number; resolution?: number | undefined; range?: [number, number] | undefined };
 
-const initSchema = z.discriminatedUnion(
+/** Schema of a weight initialiser. @category Network */
+export const initSchema = z.discriminatedUnion(
   "kind",
   [
     z.object({ kind: z.literal("uniform"), low: finite(), high: finite() }).strict(),

@@ -8,6 +8,7 @@ import { modelFromData, modelToData, type ModelFile } from "../config/modelFile.
 import type { Network } from "../network/network.js";
 import type { EpochRecord, StopReason, Trainer, TrainerState } from "../train/loop.js";
 import { writeFileAtomic } from "./files.js";
+import type { ResultsHeaderLine } from "./plot/results.js";
 
 /** Identifier in a checkpoint file's `format` field. @category Files */
 export const CHECKPOINT_FORMAT = "ebbflow-checkpoint";
@@ -46,15 +47,6 @@ export async function loadCheckpoint(file: string): Promise<{ net: Network; stat
   return { net: modelFromData(data.model), state: data.trainer, config: data.config };
 }
 
-/** The header line of a results file. @category Files */
-export interface ResultsHeader {
-  readonly kind: "header";
-  readonly ebbflow: string;
-  readonly seed: number | string;
-  readonly config: unknown;
-  readonly started: string;
-}
-
 /**
  * Results as JSON Lines: a header with the config and seed, one object per epoch, an end line.
  * The whole file is rewritten atomically after every epoch, so it always matches a finished epoch.
@@ -64,7 +56,7 @@ export class ResultsWriter {
   readonly file: string;
   private readonly lines: string[];
 
-  constructor(file: string, header: ResultsHeader, history: readonly EpochRecord[] = []) {
+  constructor(file: string, header: ResultsHeaderLine, history: readonly EpochRecord[] = []) {
     this.file = file;
     this.lines = [JSON.stringify(header), ...history.map((r) => JSON.stringify(r))];
   }

@@ -15,10 +15,6 @@ import { parseCsvDataset, type CsvDatasetOptions } from "../train/data/csv.js";
 import { parseJsonDataset } from "../train/data/json.js";
 import type { DatasetSplit } from "../train/data/split.js";
 
-// Scaling is browser-safe and lives in the core (`ebbflow`); re-exported here so
-// Node code that loads files finds it beside the loaders.
-export { fitScaler, type Scaler, type ScalerKind } from "../train/data/scaling.js";
-
 /**
  * Options of {@link loadDataset}: the CSV options (needed for `.csv`/`.tsv`
  * files; ignored for `.json`) without `source`, which is the file path.
@@ -222,7 +218,12 @@ async function readDigits(directory: string | undefined): Promise<DigitImages> {
   }
   const dir = directory ?? mnistDirectory();
   const files = Array.from({ length: 10 }, (_, d) => path.join(dir, `${d}.json`));
-  const digits = await Promise.all(files.map(readDigitFile));
+  // read in parallel, but report the first failing file in digit order (not whichever fails first in time)
+  const settled = await Promise.allSettled(files.map(readDigitFile));
+  const digits = settled.map((r) => {
+    if (r.status === "rejected") throw r.reason;
+    return r.value;
+  });
   const keyed: { d: number; j: number; key: number }[] = [];
   digits.forEach((data, d) => {
     const n = data.length / IMAGE;

@@ -5,3 +5,4 @@
 export * from "./files.js";
 export * from "./checkpoint.js";
 export * from "./data.js";
+export * from "./plot.js";

@@ -5,7 +5,7 @@
  * @module
  */
 export { readResults, loadResults } from "./plot/results.js";
-export type { Metrics, ResultsHeader, EpochRecord, StopReason, RunEnd, Results } from "./plot/results.js";
+export type { ResultsMetrics, ResultsHeaderLine, ResultsEpochLine, ResultsStopReason, ResultsEndLine, Results } from "./plot/results.js";
 export { renderSvg, writeSvg } from "./plot/render.js";
 export { learningCurveSpec, learningCurveSvg, summariseRuns, bandCurveSpec, bandCurveSvg } from "./plot/curves.js";
 export type { CurveSplit, LabelledRun, LearningCurveOptions, BandKind, BandCurveOptions, RunGroup, BandPoint } from "./plot/curves.js";

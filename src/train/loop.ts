@@ -62,8 +62,8 @@ export interface EpochRecord {
   readonly kind: "epoch";
   readonly epoch: number;
   readonly seconds: number;
-  /** The rate factor of the schedule in this epoch. */
-  readonly rateFactor: number;
+  /** The rule's base learning rate times the schedule's factor in this epoch. */
+  readonly rate: number;
   readonly train?: Metrics | undefined;
   readonly test?: Metrics | undefined;
 }
@@ -258,7 +258,7 @@ export class Trainer {
       kind: "epoch",
       epoch,
       seconds: (performance.now() - t0) / 1000,
-      rateFactor: factor,
+      rate: this.rule.config.rate * factor,
       ...(this.options.evaluateTrain ? { train: this.evaluate(ds) } : {}),
       ...(this.test !== undefined ? { test: this.evaluate(this.test) } : {}),
     };

@@ -5,7 +5,7 @@
 import type { FloatArray } from "../types/index.js";
 
 /** Metrics of one evaluation. @category Training */
-export interface Metrics {
+export type Metrics = {
   /** Sum over examples and output units of (y − t)². */
   readonly sse: number;
   /** Mean over examples of −Σ [t ln y + (1 − t) ln(1 − y)], y clipped to [1e-12, 1 − 1e-12] (outputs read as probabilities). */
@@ -18,7 +18,7 @@ export interface Metrics {
   readonly ties: number;
   /** Number of examples. */
   readonly examples: number;
-}
+};
 
 /** Running sums of {@link Metrics}. @category Training */
 export class MetricSums {

@@ -127,8 +127,10 @@ describe("learningCurveSvg", () => {
   it("rejects empty and inconsistent input with the path of the problem", async () => {
     const empty = run(7, []);
     const nan: Results = { ...a, epochs: [a.epochs[0]!, { ...a.epochs[1]!, train: { sse: Number.NaN } }] };
+    const swapped: Results = { header: a.header, epochs: [a.epochs[1]!, a.epochs[0]!] };
     const cases: [() => Promise<string>, string, string][] = [
       [() => learningCurveSvg([], { metric: "sse" }), "invalid_parameter", "runs"],
+      [() => learningCurveSvg([{ label: "A", results: swapped }], { metric: "sse" }), "invalid_parameter", "runs[0].results.epochs[1].epoch"],
       [() => learningCurveSvg([{ label: "A", results: empty }], { metric: "sse" }), "invalid_parameter", "runs[0].results.epochs"],
       [() => learningCurveSvg([{ label: "A", results: nan }], { metric: "sse" }), "invalid_parameter", "runs[0].results.epochs[1].train.sse"],
       [() => learningCurveSvg([{ label: "A", results: a }, { label: "A", results: b }], { metric: "sse" }), "invalid_parameter", "runs[1].label"],

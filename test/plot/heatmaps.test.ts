@@ -16,7 +16,11 @@ function fillAt(map: ReturnType<typeof cells>, r: number, c: number, size: numbe
 
 const matrix = fc
   .tuple(fc.integer({ min: 1, max: 5 }), fc.integer({ min: 1, max: 6 }))
-  .chain(([rows, cols]) => fc.tuple(fc.constant(rows), fc.constant(cols), fc.array(fc.double({ min: -10, max: 10, noNaN: true }), { minLength: rows * cols, maxLength: rows * cols })));
+  .chain(([rows, cols]) => {
+    // weights of ordinary size (or exactly 0): scaling by 2^±30 stays exact, no subnormals
+    const weight = fc.oneof(fc.constant(0), fc.double({ min: 1e-6, max: 10, noNaN: true }), fc.double({ min: -10, max: -1e-6, noNaN: true }));
+    return fc.tuple(fc.constant(rows), fc.constant(cols), fc.array(weight, { minLength: rows * cols, maxLength: rows * cols }));
+  });
 
 describe("weightMatrixSvg", () => {
   it("draws one cell per weight (rows × cols rect marks) tiling the grid, with title and axis titles", async () => {
@@ -58,10 +62,11 @@ describe("weightMatrixSvg", () => {
   });
 
   it("colours by w / max|w|: scaling all weights by c > 0 leaves every colour unchanged", async () => {
+    // c a power of two, so c·w and c·w / (c·max|w|) = w / max|w| are exact in floating point
     await check(
-      fc.asyncProperty(matrix, fc.double({ min: 0.01, max: 100, noNaN: true }), async ([rows, cols, values], c) => {
+      fc.asyncProperty(matrix, fc.integer({ min: -30, max: 30 }), async ([rows, cols, values], k) => {
         const w = Float64Array.from(values);
-        const scaled = w.map((x) => x * c);
+        const scaled = w.map((x) => x * 2 ** k);
         const p = heatMaps(await weightMatrixSvg(w, rows, cols, { cellSize: 4 }))[0]!;
         const q = heatMaps(await weightMatrixSvg(scaled, rows, cols, { cellSize: 4 }))[0]!;
         expect(p).toHaveLength(rows * cols);

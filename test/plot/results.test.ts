@@ -50,7 +50,7 @@ describe("readResults", () => {
 
   it("accepts CRLF line ends and skips blank lines, while line numbers still count them", () => {
     const text = [JSON.stringify(header), "", JSON.stringify(epoch(1, 0.5)), "   ", JSON.stringify(epoch(2, 0.25))].join("\r\n") + "\r\n\r\n";
-    expect(readResults(text, "f").epochs.map((e) => e.train.sse)).toEqual([0.5, 0.25]);
+    expect(readResults(text, "f").epochs.map((e) => e.train!.sse)).toEqual([0.5, 0.25]);
     const bad = [JSON.stringify(header), "", "", '{"kind":"epoch",'].join("\n");
     expect(problem(bad, "f").path).toBe("f:line 4");
   });
@@ -86,7 +86,7 @@ describe("readResults", () => {
     const e = problem(jsonl(header, epoch(1, 0.1, { train: { accuracy: 87 } }), epoch(2, 0.1, { train: { cosine: -1.5 } }), epoch(3, 0.1, { train: { crossEntropy: -0.1 } })));
     expect(e.issues.map((i) => i.expected)).toEqual(['"train.accuracy" to be a fraction in [0, 1]', '"train.cosine" to be a number in [-1, 1]', '"train.crossEntropy" to be a finite number >= 0']);
     // further metrics by other names are kept
-    expect(readResults(jsonl(header, epoch(1, 0.1, { train: { sse: 0.1, settlingSteps: 41 } })), "f").epochs[0]!.train.settlingSteps).toBe(41);
+    expect(readResults(jsonl(header, epoch(1, 0.1, { train: { sse: 0.1, settlingSteps: 41 } })), "f").epochs[0]!.train!.settlingSteps).toBe(41);
   });
 
   it("requires the header first, once, with a version, a seed, a config object and an ISO date", () => {
@@ -129,7 +129,7 @@ describe("readResults", () => {
     const dir = mkdtempSync(path.join(tmpdir(), "ebbflow-plot-"));
     const file = path.join(dir, "run.jsonl");
     writeFileSync(file, jsonl(header, epoch(1, 0.5)));
-    expect((await loadResults(file)).epochs[0]!.train.sse).toBe(0.5);
+    expect((await loadResults(file)).epochs[0]!.train!.sse).toBe(0.5);
     writeFileSync(file, jsonl(header, "oops"));
     await expect(loadResults(file)).rejects.toMatchObject({ code: "parse_error", path: `${file}:line 2` });
     await expect(loadResults(path.join(dir, "missing.jsonl"))).rejects.toMatchObject({ code: "io_error" });

@@ -271,6 +271,10 @@ describe("mnistDataset / digitsDataset (mnist 1.1.0, digit files read directly)"
       await expectRejection(digitsDataset({ directory: dir }), "parse_error", `${path.join(dir, "3.json")}:data`);
       await fs.writeFile(path.join(dir, "3.json"), JSON.stringify({ data: image.map((v, p) => (p === 5 ? 1.5 : v)) }));
       await expectRejection(digitsDataset({ directory: dir }), "parse_error", `${path.join(dir, "3.json")}:data[5]`);
+      // several missing files: the first in digit order is reported, whatever finishes first
+      await fs.rm(path.join(dir, "7.json"));
+      await fs.rm(path.join(dir, "2.json"));
+      for (let k = 0; k < 3; k++) await expectRejection(digitsDataset({ directory: dir }), "io_error", path.join(dir, "2.json"));
     } finally {
       await fs.rm(dir, { recursive: true, force: true });
     }

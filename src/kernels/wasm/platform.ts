@@ -69,8 +69,22 @@ export function decodeBase64(text: string): Uint8Array {
 export type WasmBuild = "simd" | "relaxed";
 
 const bytesCache: Partial<Record<WasmBuild, Uint8Array>> = {};
-const validCache: Partial<Record<WasmBuild, boolean>> = {};
-const moduleCache: Partial<Record<WasmBuild, WasmModule>> = {};
+
+/** Validation results and compiled modules, per WebAssembly namespace (so a replaced global is asked afresh). */
+interface EngineCache {
+  valid: Partial<Record<WasmBuild, boolean>>;
+  modules: Partial<Record<WasmBuild, WasmModule>>;
+}
+const engines = new WeakMap<object, EngineCache>();
+
+function engineCache(wa: WasmNamespace): EngineCache {
+  let c = engines.get(wa);
+  if (c === undefined) {
+    c = { valid: {}, modules: {} };
+    engines.set(wa, c);
+  }
+  return c;
+}
 
 /** The module bytes of a build (decoded once). */
 export function moduleBytes(build: WasmBuild): Uint8Array {
@@ -82,39 +96,43 @@ export function moduleBytes(build: WasmBuild): Uint8Array {
   return b;
 }
 
-/** Whether this engine validates the module of a build (checked once per build). */
+/** Whether this engine validates the module of a build (checked once per build and engine). */
 export function buildValidates(build: WasmBuild): boolean {
-  let v = validCache[build];
+  const wa = wasmGlobal();
+  if (wa === undefined) return false;
+  const cache = engineCache(wa).valid;
+  let v = cache[build];
   if (v === undefined) {
-    const wa = wasmGlobal();
     try {
-      v = wa !== undefined && wa.validate(moduleBytes(build));
+      v = wa.validate(moduleBytes(build));
     } catch {
       v = false;
     }
-    validCache[build] = v;
+    cache[build] = v;
   }
   return v;
 }
 
 /** Compiles a build synchronously (cached). Chrome refuses this on its main thread for modules over 4 KB. */
 export function compileSync(build: WasmBuild): WasmModule {
-  let m = moduleCache[build];
+  const wa = wasmGlobal()!;
+  const cache = engineCache(wa).modules;
+  let m = cache[build];
   if (m === undefined) {
-    const wa = wasmGlobal()!;
     m = new wa.Module(moduleBytes(build));
-    moduleCache[build] = m;
+    cache[build] = m;
   }
   return m;
 }
 
 /** Compiles a build asynchronously (cached). */
 export async function compileAsync(build: WasmBuild): Promise<WasmModule> {
-  let m = moduleCache[build];
+  const wa = wasmGlobal()!;
+  const cache = engineCache(wa).modules;
+  let m = cache[build];
   if (m === undefined) {
-    const wa = wasmGlobal()!;
     m = await wa.compile(moduleBytes(build));
-    moduleCache[build] = m;
+    cache[build] = m;
   }
   return m;
 }

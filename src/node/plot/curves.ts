@@ -5,7 +5,7 @@
  */
 import type { TopLevelSpec } from "vega-lite";
 import { fail } from "../../errors/index.js";
-import type { Metrics, Results } from "./results.js";
+import type { ResultsMetrics, Results } from "./results.js";
 import { VEGA_LITE_SCHEMA, choice, flag, pixels, renderSvg, titleText } from "./render.js";
 
 /** Which split of the data a curve shows; `"both"` draws train solid and test dashed. @category Plots */
@@ -124,10 +124,10 @@ function series(path: string, results: Results, metric: string, split: "train" |
     const record = results.epochs[i]!;
     const where = `${path}.epochs[${i}]`;
     if (typeof record.epoch !== "number" || !Number.isInteger(record.epoch) || record.epoch <= last) {
-      fail("invalid_parameter", `${where}.epoch`, `an integer > ${last} (epochs strictly increasing)`, record.epoch);
+      fail("invalid_parameter", `${where}.epoch`, last === -Infinity ? "an integer" : `an integer > ${last} (epochs strictly increasing)`, record.epoch);
     }
     last = record.epoch;
-    const metrics: Metrics | undefined = record[split];
+    const metrics: ResultsMetrics | undefined = record[split];
     const value = metrics?.[metric];
     if (value === undefined) continue;
     if (typeof value !== "number" || !Number.isFinite(value)) fail("invalid_parameter", `${where}.${split}.${metric}`, "a finite number", value);

@@ -21,7 +21,7 @@ import { EbbflowError, fail, issueText, describeValue, type Issue } from "../../
  * allowed. Every present value is a finite number.
  * @category Plots
  */
-export interface Metrics {
+export interface ResultsMetrics {
   /** Sum of squared errors over the split (>= 0). */
   readonly sse?: number;
   /** Cross-entropy over the split (>= 0). */
@@ -35,7 +35,7 @@ export interface Metrics {
 }
 
 /** First line of a results file: what was run, with which seed, when. @category Plots */
-export interface ResultsHeader {
+export interface ResultsHeaderLine {
   readonly kind: "header";
   /** Version of ebbflow that wrote the file. */
   readonly ebbflow: string;
@@ -48,7 +48,7 @@ export interface ResultsHeader {
 }
 
 /** One epoch of training. @category Plots */
-export interface EpochRecord {
+export interface ResultsEpochLine {
   readonly kind: "epoch";
   /** Epoch number (integer >= 1, strictly increasing through the file). */
   readonly epoch: number;
@@ -56,22 +56,22 @@ export interface EpochRecord {
   readonly seconds: number;
   /** Learning rate used in this epoch (>= 0). */
   readonly rate: number;
-  /** Metrics on the training split. */
-  readonly train: Metrics;
+  /** Metrics on the training split (absent when the run did not evaluate it). */
+  readonly train?: ResultsMetrics | undefined;
   /** Metrics on the test split, when measured this epoch. */
-  readonly test?: Metrics | undefined;
+  readonly test?: ResultsMetrics | undefined;
 }
 
 /** Why a run stopped. @category Plots */
-export type StopReason = "max-epochs" | "early-stopping" | "target-reached";
+export type ResultsStopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback";
 
 /** Optional last line of a results file. @category Plots */
-export interface RunEnd {
+export interface ResultsEndLine {
   readonly kind: "end";
   /** Number of the last epoch run (equals the last epoch line when there is one). */
   readonly epochs: number;
   /** Why the run stopped. */
-  readonly stopped: StopReason;
+  readonly stopped: ResultsStopReason;
   /** Total wall-clock seconds (>= 0). */
   readonly seconds: number;
 }
@@ -80,14 +80,14 @@ export interface RunEnd {
 export interface Results {
   /** Where the text came from (file name); set by {@link readResults}, optional for results built in code. */
   readonly source?: string | undefined;
-  readonly header: ResultsHeader;
+  readonly header: ResultsHeaderLine;
   /** Epoch lines in file order (epochs strictly increasing). */
-  readonly epochs: readonly EpochRecord[];
+  readonly epochs: readonly ResultsEpochLine[];
   /** The end line, absent while a run is still going (or if it crashed). */
-  readonly end?: RunEnd | undefined;
+  readonly end?: ResultsEndLine | undefined;
 }
 
-const STOP_REASONS: readonly StopReason[] = ["max-epochs", "early-stopping", "target-reached"];
+const STOP_REASONS: readonly ResultsStopReason[] = ["max-epochs", "early-stopping", "target-reached", "callback"];
 const ISO_DATE = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}(:\d{2}(\.\d+)?)?(Z|[+-]\d{2}:\d{2})$/;
 /** Slack on the bounds of accuracy and cosine, for rounding in the writer. */
 const BOUND_SLACK = 1e-9;
@@ -135,7 +135,7 @@ function metricRange(name: string): [number, number, string] {
   }
 }
 
-function readMetrics(line: LineIssues, value: unknown, split: "train" | "test"): Metrics | undefined {
+function readMetrics(line: LineIssues, value: unknown, split: "train" | "test"): ResultsMetrics | undefined {
   if (!isObject(value)) {
     line.add(split, "an object of metrics (name: finite number)", value);
     return undefined;
@@ -152,7 +152,7 @@ function readMetrics(line: LineIssues, value: unknown, split: "train" | "test"):
   return ok ? out : undefined;
 }
 
-function readHeader(line: LineIssues, obj: Obj): ResultsHeader | undefined {
+function readHeader(line: LineIssues, obj: Obj): ResultsHeaderLine | undefined {
   const before = line.list.length;
   const { ebbflow, seed, config, started } = obj;
   if (typeof ebbflow !== "string" || ebbflow.length === 0) line.add("ebbflow", "the writer's version as a non-empty string", ebbflow);
@@ -165,20 +165,20 @@ function readHeader(line: LineIssues, obj: Obj): ResultsHeader | undefined {
   return { kind: "header", ebbflow: ebbflow as string, seed: seed as number | string, config: config as Obj, started: started as string };
 }
 
-function readEpoch(line: LineIssues, obj: Obj): EpochRecord | undefined {
+function readEpoch(line: LineIssues, obj: Obj): ResultsEpochLine | undefined {
   const before = line.list.length;
   const epoch = obj.epoch;
   if (typeof epoch !== "number" || !Number.isInteger(epoch) || epoch < 1) line.add("epoch", "an integer >= 1", epoch);
   const seconds = readNumber(line, obj, "seconds", "", 0);
   const rate = readNumber(line, obj, "rate", "", 0);
-  const train = readMetrics(line, obj.train, "train");
+  const train = obj.train === undefined ? undefined : readMetrics(line, obj.train, "train");
   const test = obj.test === undefined ? undefined : readMetrics(line, obj.test, "test");
   if (line.list.length > before) return undefined;
-  const record = { kind: "epoch" as const, epoch: epoch as number, seconds: seconds as number, rate: rate as number, train: train as Metrics };
+  const record = { kind: "epoch" as const, epoch: epoch as number, seconds: seconds as number, rate: rate as number, ...(train === undefined ? {} : { train }) };
   return test === undefined ? record : { ...record, test };
 }
 
-function readEnd(line: LineIssues, obj: Obj): RunEnd | undefined {
+function readEnd(line: LineIssues, obj: Obj): ResultsEndLine | undefined {
   const before = line.list.length;
   const epochs = obj.epochs;
   if (typeof epochs !== "number" || !Number.isInteger(epochs) || epochs < 0) line.add("epochs", "an integer >= 0", epochs);
@@ -188,7 +188,7 @@ function readEnd(line: LineIssues, obj: Obj): RunEnd | undefined {
   }
   const seconds = readNumber(line, obj, "seconds", "", 0);
   if (line.list.length > before) return undefined;
-  return { kind: "end", epochs: epochs as number, stopped: stopped as StopReason, seconds: seconds as number };
+  return { kind: "end", epochs: epochs as number, stopped: stopped as ResultsStopReason, seconds: seconds as number };
 }
 
 function excerpt(text: string): string {
@@ -210,7 +210,7 @@ function excerpt(text: string): string {
  * const r = readResults(
  *   '{"kind":"header","ebbflow":"0.1.0","seed":1,"config":{},"started":"2025-01-31T12:00:00Z"}\n' +
  *   '{"kind":"epoch","epoch":1,"seconds":0.1,"rate":0.05,"train":{"sse":0.5}}\n', "run.jsonl");
- * r.epochs[0].train.sse; // 0.5
+ * r.epochs[0]?.train?.sse; // 0.5
  * ```
  */
 export function readResults(text: string, source: string): Results {
@@ -218,11 +218,11 @@ export function readResults(text: string, source: string): Results {
   if (typeof source !== "string") fail("invalid_parameter", "source", "the name of the results file as a string", source);
   const lines = text.split("\n");
   const issues: Issue[] = [];
-  let header: ResultsHeader | undefined;
-  let end: RunEnd | undefined;
+  let header: ResultsHeaderLine | undefined;
+  let end: ResultsEndLine | undefined;
   let endLine = 0;
   let lastEpoch = 0;
-  const epochs: EpochRecord[] = [];
+  const epochs: ResultsEpochLine[] = [];
   let seenFirst = false;
   for (let i = 0; i < lines.length; i++) {
     const raw = (lines[i] as string).replace(/\r$/, "");
@@ -270,7 +270,7 @@ export function readResults(text: string, source: string): Results {
   }
   if (!seenFirst) issues.push(issueText("parse_error", `${source}:line 1`, "a header line", "an empty file"));
   if (issues.length > 0) throw new EbbflowError(issues);
-  const results = { source, header: header as ResultsHeader, epochs };
+  const results = { source, header: header as ResultsHeaderLine, epochs };
   return end === undefined ? results : { ...results, end };
 }
 

@@ -1,0 +1,27 @@
+/**
+ * WebAssembly SIMD kernels behind one backend interface.
+ *
+ * The kernels of the kernels module exist twice: as TypeScript loops
+ * ({@link typescriptBackend}) and as AssemblyScript compiled to WebAssembly
+ * with 128-bit SIMD (f32x4 / f64x2 lanes), in a plain build and a build with
+ * relaxed-SIMD fused multiply-adds. {@link selectBackend} picks one; both
+ * implement {@link KernelBackend}, so code written against the interface runs
+ * on either.
+ *
+ * The WASM backends compute on arrays in their own WebAssembly memory: get
+ * them from `backend.allocate(dtype, n)` (16-byte aligned views) and the
+ * kernels run on them in place. Ordinary typed arrays also work, through a
+ * copy (the slow path). See {@link WasmKernelBackend} for memory growth.
+ * @module
+ */
+export { typescriptBackend, type BackendName, type KernelBackend } from "./backend.js";
+export type { WasmBackendOptions, WasmKernelBackend } from "./wasm-backend.js";
+export {
+  loadWasmKernels,
+  loadWasmKernelsSync,
+  selectBackend,
+  selectBackendAsync,
+  wasmRelaxedSimdSupported,
+  wasmSimdSupported,
+  type BackendChoice,
+} from "./loader.js";
