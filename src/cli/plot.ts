@@ -37,7 +37,8 @@ export async function plotCommand(files: string[], o: PlotCommandOptions): Promi
     }
     const metric = o.metric ?? "sse";
     const out = o.out ?? path.join(path.dirname(files[0]!), `${metric}.svg`);
-    await writeSvg(out, await learningCurveSvg(runs, { metric, split: o.split ?? "both", title: o.title ?? `${metric} per epoch` }));
+    const hasTest = runs.some((r) => r.results.epochs.some((e) => e.test !== undefined));
+    await writeSvg(out, await learningCurveSvg(runs, { metric, split: o.split ?? (hasTest ? "both" : "train"), title: o.title ?? `${metric} per epoch` }));
     written.push(out);
   }
   if (o.weights !== undefined) {

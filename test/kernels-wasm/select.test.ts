@@ -16,7 +16,8 @@ import { check } from "../helpers/property.js";
 import { expectExact, randomArray } from "../kernels/reference.js";
 import { relaxed, simd } from "./backends.js";
 
-const realWebAssembly = globalThis.WebAssembly;
+/** The engine's WebAssembly namespace (lib ES2022 declares none, hence the local type). */
+const realWebAssembly = (globalThis as unknown as { WebAssembly: { validate(bytes: Uint8Array): boolean } }).WebAssembly;
 
 /** Replaces the global WebAssembly object for one test (undefined: an engine without WebAssembly). */
 function withWebAssembly(replacement: unknown): void {
