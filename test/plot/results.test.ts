@@ -99,8 +99,8 @@ describe("readResults", () => {
     expect(problem("\n\n", "empty.jsonl").received).toBe("an empty file");
   });
 
-  it("requires epochs as integers >= 1, strictly increasing, with seconds and rate >= 0 and a train object", () => {
-    const e = problem(jsonl(header, epoch(2, 0.5), epoch(2, 0.4), epoch(1.5, 0.3), { kind: "epoch", epoch: 4, seconds: -1, rate: 0.1 }));
+  it("requires epochs as integers >= 1, strictly increasing, with seconds and rate >= 0; train metrics are optional but must be an object", () => {
+    const e = problem(jsonl(header, epoch(2, 0.5), epoch(2, 0.4), epoch(1.5, 0.3), { kind: "epoch", epoch: 4, seconds: -1, rate: 0.1, train: 3 }));
     expect(e.issues.map((i) => [i.path, i.expected])).toEqual([
       ["run.jsonl:line 3", '"epoch" to be an epoch number > 2 (strictly increasing)'],
       ["run.jsonl:line 4", '"epoch" to be an integer >= 1'],
