@@ -16,6 +16,7 @@
 // 4 x 2 vectors with broadcast loads was fastest or near it in both builds
 // and both types on this machine.
 
+import { gemmDotNT } from "./gemm-dot";
 import { VBYTES, lanes, scaleInPlace, vmadd } from "./simd";
 
 /** Rows of the register tile. */
@@ -26,6 +27,14 @@ export const KC: i32 = 256;
 export const MC: i32 = 128;
 /** Columns of C per packed block of B (a multiple of NR for both types). */
 export const NC: i32 = 512;
+
+/**
+ * Largest m for which A Bᵀ runs as dot products without packing (see
+ * gemm-dot.ts). Measured here on 1..512 x 10..1024 x 64..4096 shapes: the
+ * dot path was faster up to m = 32 (by 10-400 %: packing transposes all of B
+ * for few rows of A) and within noise of the packed path from 64 to 512.
+ */
+const DOT_MAX_ROWS: i32 = 63;
 
 /** Workspace layout (bytes), sized for f64; the f32 kernels use the front of each part. */
 const PACK_A_BYTES: usize = <usize>(MC * KC * 8);
@@ -297,6 +306,12 @@ export function gemm<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, tr
   const be = <T>beta;
   const one = <T>1;
   const ldc = <usize>n * S;
+  if (!transA && transB && m <= DOT_MAX_ROWS) {
+    store<T>(pS, al);
+    store<T>(pS, be, S);
+    gemmDotNT<T>(c, a, b, m, n, k, pS, beta == 0);
+    return;
+  }
   for (let jc = 0; jc < n; jc += NC) {
     const nc = min(NC, n - jc);
     for (let pc = 0; pc < k; pc += KC) {

@@ -143,6 +143,28 @@ export class Network {
   }
 }
 
+/** Options of {@link buildNetwork}. @category Network */
+export interface BuildOptions {
+  /**
+   * Allocates every parameter array, in this order: each layer's biases (layer order), then each
+   * connection's weights followed by its separate feedback matrix if any (connection order). Use it to
+   * place parameters in shared memory (worker threads) or in a kernel backend's memory.
+   */
+  readonly allocate?: ((dtype: Dtype, length: number) => FloatArray) | undefined;
+  /** The allocator's arrays already hold the parameters: do not initialise them. */
+  readonly keepValues?: boolean | undefined;
+}
+
+/** Every parameter array of a network in allocation order (see {@link BuildOptions.allocate}). @category Network */
+export function parameterBuffers(net: Network): FloatArray[] {
+  const out: FloatArray[] = net.layers.map((l) => l.bias);
+  for (const c of net.connections) {
+    out.push(c.weights);
+    if (c.feedback.kind === "separate") out.push(c.feedback.weights);
+  }
+  return out;
+}
+
 /**
  * Builds a network from a declaration (validated; defaults filled in).
  * Weights come from the declaration's `weights` array when given, otherwise
@@ -159,12 +181,15 @@ export class Network {
  * net.connection("in", "out").weights.length; // 2
  * ```
  */
-export function buildNetwork(input: NetworkSpecInput | NetworkSpec): Network {
+export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: BuildOptions = {}): Network {
   const spec = parseNetwork(input);
   const root = createRandom(spec.seed);
+  const alloc = options.allocate ?? allocate;
   const layers: Layer[] = spec.layers.map((ls, index) => {
-    const bias = allocate(spec.dtype, ls.size);
-    if (Array.isArray(ls.bias)) bias.set(ls.bias);
+    const bias = alloc(spec.dtype, ls.size);
+    if (options.keepValues) {
+      // values come with the allocator's arrays
+    } else if (Array.isArray(ls.bias)) bias.set(ls.bias);
     else bias.fill(ls.bias);
     let unit: UnitFunction;
     try {
@@ -180,16 +205,18 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec): Network {
     const from = byName.get(cs.from) as Layer;
     const to = byName.get(cs.to) as Layer;
     const label = `${cs.from}->${cs.to}`;
-    const weights = allocate(spec.dtype, to.size * from.size);
-    if (cs.weights !== undefined) weights.set(cs.weights);
+    const weights = alloc(spec.dtype, to.size * from.size);
+    if (options.keepValues) {
+      // the allocator supplied arrays that already hold the parameters
+    } else if (cs.weights !== undefined) weights.set(cs.weights);
     else {
       initialise(weights, cs.init as InitSpec, root.child(`weights/${label}`), from.size, to.size);
       constrainWeights(weights, cs);
     }
     let feedback: Feedback;
     if (cs.feedback.kind === "separate") {
-      const fw = allocate(spec.dtype, from.size * to.size);
-      initialise(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
+      const fw = alloc(spec.dtype, from.size * to.size);
+      if (!options.keepValues) initialise(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
       feedback = { kind: "separate", learned: cs.feedback.learned, weights: fw };
     } else feedback = cs.feedback;
     return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label };

@@ -6,3 +6,4 @@ export * from "./files.js";
 export * from "./checkpoint.js";
 export * from "./data.js";
 export * from "./plot.js";
+export * from "./parallel/index.js";

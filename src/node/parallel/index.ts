@@ -1,0 +1,5 @@
+/**
+ * Multi-core training on worker threads.
+ * @module
+ */
+export { ParallelRule } from "./pool.js";

@@ -1,0 +1,56 @@
+/**
+ * The training worker: computes a rule's change for one slice of a batch, on parameters held in
+ * shared memory, and writes it, weighted by the slice's share of the batch, into the slice's own
+ * shared change arrays.
+ * @module
+ */
+import { buildNetwork, parameterBuffers, type Network } from "../../network/network.js";
+import { createRule, ParameterDelta, type LearningRule } from "../../rules/index.js";
+import type { Dtype, FloatArray } from "../../types/index.js";
+import type { SliceTask } from "./protocol.js";
+
+const view = (dtype: Dtype, buf: SharedArrayBuffer): FloatArray => (dtype === "float32" ? new Float32Array(buf) : new Float64Array(buf));
+
+interface Session {
+  readonly net: Network;
+  readonly rule: LearningRule;
+  readonly delta: ParameterDelta;
+  readonly slots: FloatArray[];
+}
+const sessions = new Map<number, Session>();
+
+function session(task: SliceTask): Session {
+  let s = sessions.get(task.session);
+  if (s === undefined) {
+    let k = 0;
+    const net = buildNetwork(task.spec, { allocate: () => view(task.spec.dtype, task.parameters[k++] as SharedArrayBuffer), keepValues: true });
+    const rule = createRule(net, task.rule);
+    const delta = new ParameterDelta(net);
+    // the change arrays in parameter order (biases of every layer, weights, feedback)
+    const slots = parameterBuffers(net).map(() => new Float64Array(0) as FloatArray);
+    s = { net, rule, delta, slots };
+    sessions.set(task.session, s);
+  }
+  return s;
+}
+
+/** Runs one slice; returns the number of rows processed. */
+export default function runSlice(task: SliceTask): number {
+  const s = session(task);
+  const { net } = s;
+  const inputs = new Float64Array(task.inputs).subarray(task.start * task.inputSize, (task.start + task.count) * task.inputSize);
+  const targets = new Float64Array(task.targets).subarray(task.start * task.targetSize, (task.start + task.count) * task.targetSize);
+  s.rule.computeDelta({ inputs: { [task.inputName]: inputs }, targets: { [task.outputName]: targets } }, s.delta);
+  // the rule averaged over this slice; weight it by the slice's share so the slices add up to the batch mean
+  const w = task.count / task.total;
+  const own: FloatArray[] = [...s.delta.biases];
+  net.connections.forEach((c) => {
+    own.push(s.delta.weights[c.index] as FloatArray);
+    if (c.feedback.kind === "separate") own.push(s.delta.feedback[c.index] ?? new Float64Array(c.feedback.weights.length));
+  });
+  own.forEach((src, i) => {
+    const dst = new Float64Array(task.deltas[i] as SharedArrayBuffer);
+    for (let k = 0; k < src.length; k++) dst[k] = w * (src[k] as number);
+  });
+  return task.count;
+}
