@@ -104,21 +104,19 @@ function tile1x4<T>(a0: usize, b0: usize, ldb: usize, k: i32, c0: usize, sc: usi
   put<T>(c0 + 3 * S, r3, sc, betaZero);
 }
 
-/** One row of A by one row of B (edges). */
+/**
+ * One row of A by one row of B (edges). One accumulator, lanes added in the
+ * same order as in the larger tiles, so an entry does not depend on the tile
+ * that computed it (A Aᵀ comes out exactly symmetric).
+ */
 function tile1x1<T>(a0: usize, b0: usize, k: i32, c0: usize, sc: usize, betaZero: bool): void {
   const S = sizeof<T>();
   const L = lanes<T>();
   let s0 = v128.splat<T>(0);
-  let s1 = s0;
-  const k2 = <usize>(k - k % (2 * L)) * S;
   const kv = <usize>(k - k % L) * S;
   let o: usize = 0;
-  for (; o < k2; o += 2 * VBYTES) {
-    s0 = vmadd<T>(v128.load(a0 + o), v128.load(b0 + o), s0);
-    s1 = vmadd<T>(v128.load(a0 + o, VBYTES), v128.load(b0 + o, VBYTES), s1);
-  }
   for (; o < kv; o += VBYTES) s0 = vmadd<T>(v128.load(a0 + o), v128.load(b0 + o), s0);
-  let r = hsum<T>(v128.add<T>(s0, s1));
+  let r = hsum<T>(s0);
   const ke = <usize>k * S;
   for (; o < ke; o += S) r += load<T>(a0 + o) * load<T>(b0 + o);
   put<T>(c0, r, sc, betaZero);

@@ -15,6 +15,10 @@
 // by 2..3 vectors (broadcast loads or one vector load plus lane shuffles),
 // 4 x 2 vectors with broadcast loads was fastest or near it in both builds
 // and both types on this machine.
+//
+// A * Bᵀ with few rows of A (a small batch times a weight matrix stored
+// n x k) skips the packing and runs as tiles of dot products (gemm-dot.ts):
+// packing would transpose all of B on every call for little reuse.
 
 import { gemmDotNT } from "./gemm-dot";
 import { VBYTES, lanes, scaleInPlace, vmadd } from "./simd";
@@ -30,11 +34,12 @@ export const NC: i32 = 512;
 
 /**
  * Largest m for which A Bᵀ runs as dot products without packing (see
- * gemm-dot.ts). Measured here on 1..512 x 10..1024 x 64..4096 shapes: the
- * dot path was faster up to m = 32 (by 10-400 %: packing transposes all of B
- * for few rows of A) and within noise of the packed path from 64 to 512.
+ * gemm-dot.ts). Measured here on m = 1..512, n = 10..1024, k = 64..4096:
+ * the dot path was faster up to m = 16 (from 10 % at m = 16 to 4x at
+ * m = 1) and within the noise of the packed path from m = 32 to 128 when k
+ * is large; the packed path was ahead on cubes (k = m = 64, 256).
  */
-const DOT_MAX_ROWS: i32 = 63;
+const DOT_MAX_ROWS: i32 = 64;
 
 /** Workspace layout (bytes), sized for f64; the f32 kernels use the front of each part. */
 const PACK_A_BYTES: usize = <usize>(MC * KC * 8);

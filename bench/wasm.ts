@@ -1,6 +1,6 @@
 /**
  * WebAssembly SIMD kernels against the TypeScript kernels: GFLOP/s of gemm
- * (64/128/256 cubes in the NN, NT and TN cases, and one settling shape), gemv
+ * (64/128/256 cubes in the NN, NT and TN cases, and two settling shapes), gemv
  * (256 and 1024, A x and Aᵀ x) and ger (256), float32 and float64, with the
  * ratio WASM/TypeScript measured in the same run and the percentage of the
  * CPU's FMA peak.
@@ -119,8 +119,9 @@ function cases(dtype: Dtype): Case[] {
     out.push(gemmCase("gemm NT", size, size, size, false, true));
     out.push(gemmCase("gemm TN", size, size, size, true, false));
   }
-  // a settling step of a 784-256 connection on a batch of 64: out(B×n) += X(B×m)·Wᵀ
-  out.push(gemmCase("gemm NT settle", 64, 256, 784, false, true));
+  // a settling step of a 784-256 connection on batches of 16 and 128: out(B×n) += X(B×m)·Wᵀ
+  out.push(gemmCase("gemm NT settle", 16, 256, 784, false, true));
+  out.push(gemmCase("gemm NT settle", 128, 256, 784, false, true));
   for (const size of [256, 1024]) {
     for (const trans of [false, true]) {
       out.push((list) => {

@@ -9,6 +9,7 @@ import { trainCommand } from "./train.js";
 import { checkCommand } from "./check.js";
 import { plotCommand } from "./plot.js";
 import { demoCommand } from "./demo.js";
+import { benchCommand } from "./bench.js";
 import { VERSION } from "./version.js";
 
 const int = (name: string) => (v: string) => {
@@ -90,5 +91,20 @@ program
   .option("--epochs <n>", "epoch limit with a hidden layer", int("--epochs"), 1500)
   .option("--json", "machine-readable output")
   .action(guard(demoCommand));
+
+const ints = (name: string) => (v: string, prev: number[] = []) => [...prev, int(name)(v)];
+
+program
+  .command("bench")
+  .description("measure training speed (µs per example) against NumPy and TF.js in the same run; compare two reports")
+  .argument("[model]", "MODEL.json (default: a 784-256-10 network)")
+  .option("--out <file>", "where to write the JSON report")
+  .option("--compare <files...>", "two reports to show side by side")
+  .option("--seconds <s>", "seconds per measurement", num("--seconds"))
+  .option("--batch <n>", "batch size (repeatable)", ints("--batch"))
+  .option("--workers <n>", "worker threads (repeatable)", ints("--workers"))
+  .option("--no-peers", "skip the NumPy and TF.js peers")
+  .option("--json", "machine-readable output")
+  .action(guard(benchCommand));
 
 await program.parseAsync(process.argv);

@@ -7,3 +7,4 @@ export * from "./checkpoint.js";
 export * from "./data.js";
 export * from "./plot.js";
 export * from "./parallel/index.js";
+export * from "./bench/index.js";

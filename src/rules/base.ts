@@ -4,7 +4,7 @@
  */
 import { gemm } from "../kernels/index.js";
 import { fail } from "../errors/index.js";
-import type { FloatArray } from "../types/index.js";
+import { allocate, type FloatArray } from "../types/index.js";
 import type { Connection, Network } from "../network/network.js";
 import { Settler, Snapshot, type LayerValues } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";
@@ -72,9 +72,17 @@ export function checkRates(net: Network, config: RuleConfig): void {
 
 /**
  * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
- * the outcome-minus-expectation coactivity of a connection.
+ * the outcome-minus-expectation coactivity of a connection. When the sending layer is clamped in both
+ * phases (`samePre`: preA and preB hold the same values), it is computed as one product
+ * `alpha · (postA − postB)ᵀ pre`, using `scratch` (at least B×n) for the difference.
  */
-export function contrast(out: FloatArray, alpha: number, postA: FloatArray, preA: FloatArray, postB: FloatArray, preB: FloatArray, batch: number, n: number, m: number): void {
+export function contrast(out: FloatArray, alpha: number, postA: FloatArray, preA: FloatArray, postB: FloatArray, preB: FloatArray, batch: number, n: number, m: number, samePre = false, scratch?: FloatArray): void {
+  if (samePre && scratch !== undefined) {
+    const len = batch * n;
+    for (let k = 0; k < len; k++) scratch[k] = (postA[k] as number) - (postB[k] as number);
+    gemm(out, scratch.subarray(0, len), preA, n, m, batch, true, false, alpha, 0);
+    return;
+  }
   gemm(out, postA, preA, n, m, batch, true, false, alpha, 0);
   gemm(out, postB, preB, n, m, batch, true, false, -alpha, 1);
 }
@@ -96,6 +104,7 @@ export abstract class SettlingRule implements LearningRule {
   lastFree: Snapshot | null = null;
   freeStart: Snapshot | null = null;
   private readonly settlers = new Map<number, { settler: Settler; snaps: Snapshot[] }>();
+  private readonly diffs = new Map<number, FloatArray>();
   private stepDelta: ParameterDelta | null = null;
 
   constructor(net: Network, config: RuleConfig) {
@@ -116,6 +125,16 @@ export abstract class SettlingRule implements LearningRule {
   }
 
   abstract computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta;
+
+  /** A scratch array of B × (largest layer) for phase differences. */
+  protected diffScratch(batch: number): FloatArray {
+    let d = this.diffs.get(batch);
+    if (d === undefined) {
+      d = allocate(this.net.dtype, batch * Math.max(...this.net.layers.map((l) => l.size)));
+      this.diffs.set(batch, d);
+    }
+    return d;
+  }
 
   /** The start of the next free phase: {@link LearningRule.freeStart} when its batch size matches. */
   protected startFor(batch: number): Snapshot | undefined {

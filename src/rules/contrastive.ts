@@ -86,12 +86,12 @@ export class ContrastiveHebbian extends SettlingRule {
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
     const [free, clamped, B] = settleTwoPhases(this, batch);
     this.lastFree = free;
-    return chlFromSnapshots(this.net, this.config, this.factors, free, clamped, B, out);
+    return chlFromSnapshots(this.net, this.config, this.factors, free, clamped, B, out, this.diffScratch(B));
   }
 }
 
 /** CHL changes from a free and a clamped snapshot (batch-averaged), with per-layer factors. */
-function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly number[], minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta): ParameterDelta {
+function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly number[], minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, scratch: FloatArray): ParameterDelta {
   out.clear();
   for (const c of net.connections) {
     if (c.spec.frozen) continue;
@@ -99,7 +99,8 @@ function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly nu
     const m = net.layers[c.from]!.size;
     const alpha = (connectionRate(config, c) * (factors[c.to] as number)) / B;
     if (alpha === 0) continue;
-    contrast(out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m);
+    const clampedPre = net.layers[c.from]!.role === "input";
+    contrast(out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m, clampedPre, scratch);
     transposeInto(out.feedback[c.index] ?? null, out.weights[c.index] as FloatArray, n, m);
   }
   for (const l of net.layers) {

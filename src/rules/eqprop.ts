@@ -65,11 +65,13 @@ export class EquilibriumPropagation extends SettlingRule {
       scale = 1 / beta;
     }
     out.clear();
+    const scratch = this.diffScratch(B);
     for (const c of net.connections) {
       if (c.spec.frozen) continue;
       const n = net.layers[c.to]!.size;
       const m = net.layers[c.from]!.size;
-      contrast(out.weights[c.index] as FloatArray, (connectionRate(this.cfg, c) * scale) / B, a.activity[c.to] as FloatArray, a.activity[c.from] as FloatArray, b.activity[c.to] as FloatArray, b.activity[c.from] as FloatArray, B, n, m);
+      const clampedPre = net.layers[c.from]!.role === "input";
+      contrast(out.weights[c.index] as FloatArray, (connectionRate(this.cfg, c) * scale) / B, a.activity[c.to] as FloatArray, a.activity[c.from] as FloatArray, b.activity[c.to] as FloatArray, b.activity[c.from] as FloatArray, B, n, m, clampedPre, scratch);
     }
     for (const l of net.layers) {
       if (l.role === "input") continue;

@@ -44,13 +44,16 @@ describe("WASM arena", () => {
     );
   });
 
-  it("arena views stay the same live views through every kernel (no growth, no detachment, no copy)", () => {
+  it("arena views stay the same live views through every kernel, and the fast path copies nothing into the free space", () => {
     for (const be of wasmBackends) {
       const gen = be.generation;
       const [a, b, c, x, y] = inArena(be, randomArray("float32", 64 * 48, 1, "a"), randomArray("float32", 48 * 32, 1, "b"), new Float32Array(64 * 32), randomArray("float32", 48, 1, "x"), new Float32Array(64));
       const bufferBefore = a.buffer;
-      const free = be.freeBytes;
+      // the free space beyond the arena holds the scratch copies of the slow path: mark it
+      const free = new Uint8Array(a.buffer, a.buffer.byteLength - be.freeBytes, be.freeBytes).fill(0xab);
+      const marked = () => free.every((v) => v === 0xab);
       be.gemm(c, a, b, 64, 32, 48, false, false, 1, 0);
+      be.gemm(c, a, a, 64, 64 / 2, 48, false, true, 1, 0);
       be.gemv(y, a, x, 64, 48, false, 1, 0);
       be.ger(a, y, x, 64, 48, 0.5);
       be.add(c, c, c);
@@ -60,14 +63,18 @@ describe("WASM arena", () => {
       be.sumRows(x, a, 64, 48, 1, 0);
       be.addRowVector(a, x, 64, 48);
       expect(be.allFinite(c)).toBe(true);
+      expect(be.dot(c, c)).toBeGreaterThan(0);
       for (const v of [a, b, c, x, y]) {
         expect(v.buffer).toBe(bufferBefore);
         expect(be.isArenaView(v)).toBe(true);
       }
       expect([a.length, b.length, c.length, x.length, y.length]).toEqual([64 * 48, 48 * 32, 64 * 32, 48, 64]);
       expect(be.generation).toBe(gen);
-      // the fast path copies nothing: the free space is untouched by the calls
-      expect(be.freeBytes).toBe(free);
+      expect(marked()).toBe(true);
+      // an ordinary array goes through the free space (the slow path), leaving the arena views live
+      be.scale(new Float32Array(64), y, 2);
+      expect(marked()).toBe(false);
+      expect(be.isArenaView(y)).toBe(true);
     }
   });
 

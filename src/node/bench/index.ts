@@ -1,0 +1,6 @@
+/**
+ * Benchmarks across CPUs (Node only).
+ * @module
+ */
+export * from "./machine.js";
+export * from "./workload.js";

@@ -1,0 +1,275 @@
+/**
+ * The training benchmark: Equilibrium Propagation on a 784-256-10 network (20 free + 4 nudged steps,
+ * float32, input drive once per phase), microseconds per example at batch 1 and 64, for ebbflow on one
+ * thread and on worker threads, and for peers measured in the same run: a NumPy implementation of the
+ * same workload (`bench/peers/numpy_eqprop.py`, when python3 with NumPy is present) and TF.js on its CPU
+ * backend (when `@tensorflow/tfjs-core` and `@tensorflow/tfjs-backend-cpu` are installed).
+ * @module
+ */
+import { spawnSync } from "node:child_process";
+import { existsSync } from "node:fs";
+import { fileURLToPath } from "node:url";
+import { buildNetwork, type Network } from "../../network/network.js";
+import type { NetworkSpec, NetworkSpecInput } from "../../network/spec.js";
+import { createRule } from "../../rules/index.js";
+import { createRandom } from "../../random/index.js";
+import { gemm } from "../../kernels/index.js";
+import { ParallelRule } from "../parallel/pool.js";
+import { estimatedPeakGflops, machineFingerprint, type MachineFingerprint } from "./machine.js";
+
+/** One measured figure. @category Benchmarks */
+export interface BenchFigure {
+  readonly implementation: string;
+  readonly batch: number;
+  readonly workers: number;
+  /** Microseconds per training example (null when skipped). */
+  readonly usPerExample: number | null;
+  readonly note?: string | undefined;
+}
+
+/** One kernel figure. @category Benchmarks */
+export interface KernelFigure {
+  readonly kernel: string;
+  readonly size: number;
+  readonly dtype: "float32" | "float64";
+  readonly gflops: number;
+  readonly percentOfPeak: number | null;
+}
+
+/** A benchmark run, as written to JSON. @category Benchmarks */
+export interface BenchReport {
+  readonly kind: "ebbflow-bench";
+  readonly version: 1;
+  readonly created: string;
+  readonly machine: MachineFingerprint;
+  readonly peakGflops: number | null;
+  readonly workload: string;
+  readonly figures: readonly BenchFigure[];
+  readonly kernels: readonly KernelFigure[];
+  /** Bytes of the network's parameters, states and traces, and the process's measured growth while building it. */
+  readonly memory: { readonly parameterBytes: number; readonly stateBytes: number; readonly measuredBytes: number };
+}
+
+/** The benchmark's network (overridable by a model file). @category Benchmarks */
+export function benchNetwork(dtype: "float32" | "float64" = "float32"): NetworkSpecInput {
+  return {
+    dtype,
+    seed: 1,
+    layers: [
+      { name: "image", size: 784, role: "input" },
+      { name: "hidden", size: 256, role: "hidden" },
+      { name: "digit", size: 10, role: "output" },
+    ],
+    connections: [
+      { from: "image", to: "hidden", feedback: { kind: "tied", gain: 1 } },
+      { from: "hidden", to: "digit", feedback: { kind: "tied", gain: 1 } },
+    ],
+    dynamics: { dt: 0.5, maxSteps: 20, tolerance: 1e-30 },
+  };
+}
+
+function batchOf(net: Network, B: number): { inputs: Record<string, Float32Array>; targets: Record<string, Float32Array> } {
+  const rng = createRandom(7).child("bench-data");
+  const input = net.inputLayers[0]!;
+  const output = net.outputLayers[0]!;
+  const x = new Float32Array(B * input.size);
+  for (let i = 0; i < x.length; i++) x[i] = rng.uniform() < 0.15 ? 1 : 0;
+  const t = new Float32Array(B * output.size);
+  for (let p = 0; p < B; p++) t[p * output.size + rng.int(output.size)] = 1;
+  return { inputs: { [input.name]: x }, targets: { [output.name]: t } };
+}
+
+async function timeIt(fn: () => unknown, seconds: number): Promise<number> {
+  await fn();
+  let reps = 0;
+  const t0 = performance.now();
+  let t = t0;
+  while (t - t0 < seconds * 1000) {
+    await fn();
+    reps++;
+    t = performance.now();
+  }
+  return (t - t0) / reps / 1000;
+}
+
+async function numpyPeer(batches: number[], seconds: number): Promise<BenchFigure[]> {
+  const script = fileURLToPath(new URL("../../../bench/peers/numpy_eqprop.py", import.meta.url));
+  const skip = (note: string) => batches.map((b) => ({ implementation: "numpy", batch: b, workers: 1, usPerExample: null, note }));
+  if (!existsSync(script)) return skip(`peer script not found (${script})`);
+  const r = spawnSync("python3", [script, String(seconds), ...batches.map(String)], { encoding: "utf8", timeout: 600_000 });
+  if (r.error !== undefined || r.status !== 0) return skip(`skipped: python3 with NumPy not available (${(r.stderr || r.error?.message || "").trim().split("\n").at(-1) ?? ""})`);
+  const out = JSON.parse(r.stdout) as { numpy: string; results: Record<string, number> };
+  return batches.map((b) => ({ implementation: "numpy", batch: b, workers: 1, usPerExample: out.results[String(b)] ?? null, note: `NumPy ${out.numpy}` }));
+}
+
+async function tfjsPeer(batches: number[], seconds: number): Promise<BenchFigure[]> {
+  let tf: typeof import("@tensorflow/tfjs-core");
+  try {
+    tf = await import("@tensorflow/tfjs-core");
+    await import("@tensorflow/tfjs-backend-cpu");
+    tf.env().set("IS_TEST", true);
+    await tf.setBackend("cpu");
+  } catch {
+    return batches.map((b) => ({ implementation: "tfjs-cpu", batch: b, workers: 1, usPerExample: null, note: "skipped: @tensorflow/tfjs-core and tfjs-backend-cpu not installed" }));
+  }
+  const out: BenchFigure[] = [];
+  for (const B of batches) {
+    const rng = createRandom(1).child("tfjs");
+    const lim1 = Math.sqrt(6 / (784 + 256));
+    const lim2 = Math.sqrt(6 / (256 + 10));
+    let w1 = tf.tensor2d(Float32Array.from({ length: 256 * 784 }, () => rng.between(-lim1, lim1)), [256, 784]);
+    let w2 = tf.tensor2d(Float32Array.from({ length: 10 * 256 }, () => rng.between(-lim2, lim2)), [10, 256]);
+    const x = tf.tensor2d(Float32Array.from({ length: B * 784 }, () => (rng.uniform() < 0.15 ? 1 : 0)), [B, 784]);
+    const t = tf.cast(tf.oneHot(tf.tensor1d(Array.from({ length: B }, () => rng.int(10)), "int32"), 10), "float32");
+    const settle = (h: import("@tensorflow/tfjs-core").Tensor2D, y: import("@tensorflow/tfjs-core").Tensor2D, steps: number, nudge: boolean) => {
+      const drive = tf.matMul(x, w1, false, true);
+      for (let s = 0; s < steps; s++) {
+        const etaH = tf.add(drive, tf.matMul(y, w2));
+        let etaY = tf.matMul(h, w2, false, true);
+        if (nudge) etaY = tf.add(etaY, tf.mul(0.5, tf.sub(t, y)));
+        h = tf.add(h, tf.mul(0.5, tf.sub(tf.sigmoid(etaH), h))) as import("@tensorflow/tfjs-core").Tensor2D;
+        y = tf.add(y, tf.mul(0.5, tf.sub(tf.sigmoid(etaY), y))) as import("@tensorflow/tfjs-core").Tensor2D;
+      }
+      return [h, y] as const;
+    };
+    const step = () => {
+      const [nw1, nw2] = tf.tidy(() => {
+        const [h0, y0] = settle(tf.zeros([B, 256]), tf.zeros([B, 10]), 20, false);
+        const [hb, yb] = settle(h0, y0, 4, true);
+        const s = 0.01 / (0.5 * B);
+        return [tf.add(w1, tf.mul(s, tf.sub(tf.matMul(hb, x, true), tf.matMul(h0, x, true)))), tf.add(w2, tf.mul(s, tf.sub(tf.matMul(yb, hb, true), tf.matMul(y0, h0, true))))];
+      });
+      w1.dispose();
+      w2.dispose();
+      w1 = nw1 as import("@tensorflow/tfjs-core").Tensor2D;
+      w2 = nw2 as import("@tensorflow/tfjs-core").Tensor2D;
+    };
+    const sec = await timeIt(step, seconds);
+    out.push({ implementation: "tfjs-cpu", batch: B, workers: 1, usPerExample: (sec / B) * 1e6, note: `tfjs ${tf.version_core}` });
+    tf.dispose([w1, w2, x, t]);
+  }
+  return out;
+}
+
+function kernelFigures(peak: number | null, seconds: number): Promise<KernelFigure[]> {
+  const out: KernelFigure[] = [];
+  const run = async () => {
+    for (const dtype of ["float32", "float64"] as const) {
+      for (const n of [64, 256]) {
+        const mk = () => (dtype === "float32" ? new Float32Array(n * n) : new Float64Array(n * n));
+        const a = mk().fill(0.5);
+        const b = mk().fill(0.25);
+        const c = mk();
+        const sec = await timeIt(() => gemm(c, a, b, n, n, n, false, true, 1, 0), seconds);
+        const gflops = (2 * n * n * n) / sec / 1e9;
+        out.push({ kernel: "gemm NT (typescript)", size: n, dtype, gflops, percentOfPeak: peak === null ? null : (100 * gflops) / peak });
+      }
+    }
+    return out;
+  };
+  return run();
+}
+
+/** Options of {@link runBench}. @category Benchmarks */
+export interface BenchOptions {
+  readonly model?: NetworkSpec | undefined;
+  readonly batches?: readonly number[] | undefined;
+  readonly workers?: readonly number[] | undefined;
+  readonly seconds?: number | undefined;
+  readonly peers?: boolean | undefined;
+  readonly log?: ((line: string) => void) | undefined;
+}
+
+/** Runs the training benchmark and returns its report. @category Benchmarks */
+export async function runBench(options: BenchOptions = {}): Promise<BenchReport> {
+  const machine = machineFingerprint();
+  const peak = estimatedPeakGflops(machine);
+  const seconds = options.seconds ?? 1;
+  const batches = [...(options.batches ?? [1, 64])];
+  const workers = [...(options.workers ?? [1, 2])];
+  const log = options.log ?? (() => undefined);
+  const spec = options.model ?? (benchNetwork() as NetworkSpec);
+  const figures: BenchFigure[] = [];
+  const before = process.memoryUsage().arrayBuffers;
+  const probe = buildNetwork({ ...spec, dynamics: { ...spec.dynamics, maxSteps: 20, tolerance: 1e-30 } });
+  const measured = process.memoryUsage().arrayBuffers - before;
+  const parameterBytes = [...probe.layers.map((l) => l.bias.byteLength), ...probe.connections.map((c) => c.weights.byteLength)].reduce((a, b) => a + b, 0);
+  const width = probe.dtype === "float32" ? 4 : 8;
+  const stateBytes = probe.layers.reduce((s, l) => s + l.size * width, 0);
+  for (const B of batches) {
+    for (const w of workers) {
+      const net = buildNetwork({ ...spec, dynamics: { ...spec.dynamics, maxSteps: 20, tolerance: 1e-30 } });
+      const data = batchOf(net, B);
+      const rule = { rule: "eqprop" as const, beta: 0.5, rate: 0.01 };
+      let sec: number;
+      if (w === 1) {
+        const r = createRule(net, rule);
+        sec = await timeIt(() => r.step(data), seconds);
+      } else {
+        if (B < w) continue;
+        const par = await ParallelRule.create(net, rule, w);
+        try {
+          sec = await timeIt(() => par.step(data), seconds);
+        } finally {
+          await par.close();
+        }
+      }
+      const fig = { implementation: "ebbflow-typescript", batch: B, workers: w, usPerExample: (sec / B) * 1e6 };
+      figures.push(fig);
+      log(`ebbflow-typescript batch ${B} workers ${w}: ${fig.usPerExample.toFixed(1)} µs/example`);
+    }
+  }
+  if (options.peers !== false) {
+    for (const f of [...(await numpyPeer(batches, seconds)), ...(await tfjsPeer(batches, seconds))]) {
+      figures.push(f);
+      log(`${f.implementation} batch ${f.batch}: ${f.usPerExample === null ? f.note : `${f.usPerExample.toFixed(1)} µs/example`}`);
+    }
+  }
+  const kernels = await kernelFigures(peak, Math.min(seconds, 0.5));
+  return {
+    kind: "ebbflow-bench",
+    version: 1,
+    created: new Date().toISOString(),
+    machine,
+    peakGflops: peak,
+    workload: "EqProp 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per phase",
+    figures,
+    kernels,
+    memory: { parameterBytes, stateBytes, measuredBytes: measured },
+  };
+}
+
+/** Renders a report, or two side by side, as a text table. @category Benchmarks */
+export function formatBench(a: BenchReport, b?: BenchReport): string {
+  const key = (f: BenchFigure) => `${f.implementation} | batch ${f.batch} | ${f.workers} worker${f.workers > 1 ? "s" : ""}`;
+  const rows = new Map<string, [BenchFigure | undefined, BenchFigure | undefined]>();
+  for (const f of a.figures) rows.set(key(f), [f, undefined]);
+  for (const f of b?.figures ?? []) rows.set(key(f), [rows.get(key(f))?.[0], f]);
+  const v = (f: BenchFigure | undefined) => (f === undefined ? "-" : f.usPerExample === null ? "skipped" : f.usPerExample.toFixed(1));
+  const lines = [`A: ${a.machine.cpu}, ${a.machine.cores} cores, Node ${a.machine.node}, ${a.created}`];
+  if (b !== undefined) lines.push(`B: ${b.machine.cpu}, ${b.machine.cores} cores, Node ${b.machine.node}, ${b.created}`);
+  lines.push("", b === undefined ? "| workload | µs per example |" : "| workload | A µs/example | B µs/example | B/A |", b === undefined ? "| --- | --- |" : "| --- | --- | --- | --- |");
+  for (const [k, [fa, fb]] of rows) {
+    if (b === undefined) lines.push(`| ${k} | ${v(fa)} |`);
+    else {
+      const ratio = fa?.usPerExample && fb?.usPerExample ? (fb.usPerExample / fa.usPerExample).toFixed(2) : "-";
+      lines.push(`| ${k} | ${v(fa)} | ${v(fb)} | ${ratio} |`);
+    }
+  }
+  const base = (impl: string, B: number, w = 1) => a.figures.find((f) => f.implementation === impl && f.batch === B && f.workers === w)?.usPerExample ?? null;
+  lines.push("", "ratios in run A (time of peer / time of ebbflow on one thread; > 1 means ebbflow is faster):");
+  for (const B of [...new Set(a.figures.map((f) => f.batch))]) {
+    const ours = base("ebbflow-typescript", B);
+    for (const peer of ["numpy", "tfjs-cpu"]) {
+      const p = base(peer, B);
+      if (ours !== null && p !== null) lines.push(`  batch ${B}: ${peer} / ebbflow = ${(p / ours).toFixed(2)}`);
+    }
+    const two = base("ebbflow-typescript", B, 2);
+    if (ours !== null && two !== null) lines.push(`  batch ${B}: throughput with 2 workers / 1 worker = ${(ours / two).toFixed(2)}`);
+  }
+  lines.push("", `kernels (peak estimate ${a.peakGflops === null ? "unknown" : `${a.peakGflops.toFixed(0)} GFLOP/s per core, float32`}):`);
+  for (const k of a.kernels) lines.push(`  ${k.kernel} ${k.size} ${k.dtype}: ${k.gflops.toFixed(2)} GFLOP/s${k.percentOfPeak === null ? "" : ` (${k.percentOfPeak.toFixed(1)}% of peak)`}`);
+  const m = a.memory;
+  lines.push("", `memory: parameters ${m.parameterBytes} B, states ${m.stateBytes} B per pattern; typed-array growth while building ${m.measuredBytes} B (${(m.measuredBytes / (m.parameterBytes + m.stateBytes)).toFixed(2)}× parameters + one pattern's states)`);
+  return lines.join("\n");
+}
