@@ -10,6 +10,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   traces: () => import("./traces.js"),
   kernels: () => import("./kernels.js"),
   settle: () => import("./settle.js"),
+  training: () => import("./training.js"),
   agreement: () => import("./agreement.js"),
 };
 

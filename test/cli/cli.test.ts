@@ -140,3 +140,19 @@ describe("the ebbflow command", () => {
     expect(d.written).toHaveLength(4);
   });
 });
+
+describe("ebbflow bench", () => {
+  it("writes a report with the machine's fingerprint, and --compare shows two reports side by side", () => {
+    const dir = workdir();
+    const a = run(["bench", "--seconds", "0.05", "--batch", "2", "--workers", "1", "--workers", "2", "--no-peers", "--out", "a.json", "--json"], dir);
+    expect(a.code, a.err).toBe(0);
+    const report = JSON.parse(readFileSync(path.join(dir, "a.json"), "utf8")) as { machine: { cpu: string; cores: number; node: string }; figures: { implementation: string; workers: number; usPerExample: number }[] };
+    expect(report.machine.node).toBe(process.version);
+    expect(report.figures.map((f) => f.workers)).toEqual([1, 2]);
+    expect(report.figures.every((f) => f.usPerExample > 0)).toBe(true);
+    writeFileSync(path.join(dir, "b.json"), readFileSync(path.join(dir, "a.json")));
+    const c = run(["bench", "--compare", "a.json", "b.json"], dir);
+    expect(c.code, c.err).toBe(0);
+    expect(c.out).toMatch(/\| ebbflow-typescript \| batch 2 \| 1 worker \| [\d.]+ \| [\d.]+ \| 1\.00 \|/);
+  });
+});

@@ -170,9 +170,16 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   const arenaStart = alignUp(work + X.gemmWorkspaceBytes());
   const initialPages = Math.ceil((arenaStart + arenaReserve + scratchBytes) / PAGE_BYTES);
   if (initialPages > maxPages) {
-    fail("invalid_parameter", "maximumBytes", `at least ${initialPages * PAGE_BYTES} (workspace + arenaBytes + scratchBytes)`, maximumBytes);
+    if (maximumBytes !== undefined) {
+      fail("invalid_parameter", "maximumBytes", `at least ${initialPages * PAGE_BYTES} (workspace + arenaBytes + scratchBytes)`, maximumBytes);
+    }
+    fail("invalid_parameter", "arenaBytes", `at most ${maxPages * PAGE_BYTES - arenaStart - scratchBytes} (4 GiB of memory minus workspace and scratch)`, arenaReserve);
   }
-  memory.grow(initialPages - 1);
+  try {
+    memory.grow(initialPages - 1);
+  } catch (e) {
+    fail("unsupported", "memory", `the engine to provide ${initialPages * PAGE_BYTES} bytes of WebAssembly memory`, String(e));
+  }
 
   let buf = memory.buffer;
   let heap32 = new Float32Array(buf);
