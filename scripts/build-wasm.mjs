@@ -13,7 +13,6 @@ import { createHash } from "node:crypto";
 import { mkdirSync, readFileSync, readdirSync, writeFileSync, existsSync } from "node:fs";
 import { dirname, join } from "node:path";
 import { fileURLToPath } from "node:url";
-import asc from "assemblyscript/asc";
 
 const root = join(dirname(fileURLToPath(import.meta.url)), "..");
 process.chdir(root);
@@ -36,6 +35,7 @@ if (!process.argv.includes("--force") && existsSync(out) && readFileSync(out, "u
   console.log(`build-wasm: ${out} is up to date`);
   process.exit(0);
 }
+const { default: asc } = await import("assemblyscript/asc");
 const built = [];
 for (const t of targets) {
   const { error, stderr } = await asc.main(["--config", "assembly/asconfig.json", "--target", t.name]);
