@@ -33,13 +33,20 @@ export const MC: i32 = 128;
 export const NC: i32 = 512;
 
 /**
- * Largest m for which A Bᵀ runs as dot products without packing (see
- * gemm-dot.ts). Measured here on m = 1..512, n = 10..1024, k = 64..4096:
- * the dot path was faster up to m = 16 (from 10 % at m = 16 to 4x at
- * m = 1) and within the noise of the packed path from m = 32 to 128 when k
- * is large; the packed path was ahead on cubes (k = m = 64, 256).
+ * Whether A Bᵀ (m x n, inner dimension k) runs as dot products without
+ * packing (see gemm-dot.ts). Packing costs n * k moves for m * n * k
+ * multiply-adds (relatively more for small m); the dot tiles add their lanes
+ * once per entry (relatively more for small k). Measured here on m = 1..512,
+ * n = 10..1024, k = 64..4096: the dot path was faster up to m = 16 (from 10 %
+ * at m = 16 to 4x at m = 1, also with k = 256), level with or ahead of the
+ * packed path for m = 32..128 with k >= 784, and behind it on the 64 and 256
+ * cubes.
  */
-const DOT_MAX_ROWS: i32 = 64;
+// @ts-ignore: decorator
+@inline
+function useDotPath(m: i32, k: i32): bool {
+  return m <= 16 || (m <= 64 && k >= 256);
+}
 
 /** Workspace layout (bytes), sized for f64; the f32 kernels use the front of each part. */
 const PACK_A_BYTES: usize = <usize>(MC * KC * 8);
@@ -311,7 +318,7 @@ export function gemm<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, tr
   const be = <T>beta;
   const one = <T>1;
   const ldc = <usize>n * S;
-  if (!transA && transB && m <= DOT_MAX_ROWS) {
+  if (!transA && transB && useDotPath(m, k)) {
     store<T>(pS, al);
     store<T>(pS, be, S);
     gemmDotNT<T>(c, a, b, m, n, k, pS, beta == 0);

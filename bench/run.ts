@@ -9,6 +9,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   units: () => import("./units.js"),
   traces: () => import("./traces.js"),
   kernels: () => import("./kernels.js"),
+  wasm: () => import("./wasm.js"),
   settle: () => import("./settle.js"),
   training: () => import("./training.js"),
   agreement: () => import("./agreement.js"),

@@ -16,3 +16,4 @@ export * from "./rules/index.js";
 export * from "./verify/index.js";
 export * from "./train/index.js";
 export { touchStripDataset, TOUCH_PATTERNS } from "./demo/touchStrip.js";
+export * from "./kernels/wasm/index.js";

@@ -11,6 +11,7 @@ import { plotCommand } from "./plot.js";
 import { demoCommand } from "./demo.js";
 import { benchCommand } from "./bench.js";
 import { VERSION } from "./version.js";
+import { registerSweep } from "./sweep.js";
 
 const int = (name: string) => (v: string) => {
   const n = Number(v);
@@ -106,5 +107,7 @@ program
   .option("--no-peers", "skip the NumPy and TF.js peers")
   .option("--json", "machine-readable output")
   .action(guard(benchCommand));
+
+registerSweep(program);
 
 await program.parseAsync(process.argv);

@@ -25,7 +25,7 @@ interface WasmNamespace {
   compile(bytes: Uint8Array): Promise<WasmModule>;
   Module: new (bytes: Uint8Array) => WasmModule;
   Instance: new (module: WasmModule, imports: Record<string, Record<string, unknown>>) => WasmInstance;
-  Memory: new (descriptor: { initial: number; maximum?: number }) => WasmMemory;
+  Memory: new (descriptor: { initial: number; maximum?: number; shared?: boolean }) => WasmMemory;
 }
 
 /** Bytes of one WebAssembly page. */
@@ -146,5 +146,6 @@ export function instantiate(module: WasmModule, memory: WasmMemory): Record<stri
 /** Creates a memory of `pages` pages (optionally bounded). */
 export function createMemory(pages: number, maximumPages: number | undefined): WasmMemory {
   const wa = wasmGlobal()!;
-  return maximumPages === undefined ? new wa.Memory({ initial: pages }) : new wa.Memory({ initial: pages, maximum: maximumPages });
+  // shared memory: growth keeps earlier views valid (the kernels' module declares its memory shared)
+  return new wa.Memory({ initial: pages, maximum: maximumPages ?? MAX_PAGES, shared: true });
 }

@@ -187,6 +187,12 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   let generation = 0;
   let top = arenaStart;
   const registry = new WeakMap<object, Allocation>();
+  /**
+   * Buffers of earlier generations that still alias this memory: with a shared WebAssembly memory,
+   * growth does not detach earlier views, so arrays allocated before a growth stay on the fast path.
+   */
+  const earlier = new Set<ArrayBufferLike>();
+  const own = (b: ArrayBufferLike): boolean => b === buf || (earlier.size > 0 && earlier.has(b));
 
   /** Grows the memory to hold `needEnd` bytes: by at least half its size, so growth stays rare. */
   function grow(needEnd: number): void {
@@ -207,6 +213,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
         fail("unsupported", "memory", "the engine to grow the WebAssembly memory", `${need * PAGE_BYTES} bytes refused (${String(e)})`);
       }
     }
+    if (typeof SharedArrayBuffer !== "undefined" && buf instanceof SharedArrayBuffer) earlier.add(buf);
     buf = memory.buffer;
     heap32 = new Float32Array(buf);
     heap64 = new Float64Array(buf);
@@ -228,7 +235,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
 
   /** Throws when an argument is a view detached by memory growth (it would read as empty). */
   function requireLive(x: ReadonlyFloatArray, len: number, path: string): void {
-    if (len > 0 && x.buffer !== buf && x.buffer.byteLength === 0) {
+    if (len > 0 && !own(x.buffer) && x.buffer.byteLength === 0) {
       throw new EbbflowError(
         issueText(
           "invalid_parameter",
@@ -252,7 +259,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
    * the scratch space is too small.
    */
   function stage(x: ReadonlyFloatArray, len: number, read: boolean): number {
-    if (x.buffer === buf) return x.byteOffset;
+    if (own(x.buffer)) return x.byteOffset;
     for (let q = 0; q < stagedCount; q++) if (stagedSrc[q] === x) return stagedOff[q]!;
     const off = alignUp(cursor);
     const bytes = len * x.BYTES_PER_ELEMENT;
@@ -271,7 +278,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
 
   /** Copies the first `len` results back into `out` when it was staged. */
   function unstage(out: FloatArray, off: number, len: number): void {
-    if (out.buffer === buf || len <= 0) return;
+    if (own(out.buffer) || len <= 0) return;
     const n = Math.min(len, out.length);
     if (out instanceof Float32Array) out.set(heap32.subarray(off >> 2, (off >> 2) + n));
     else out.set(heap64.subarray(off >> 3, (off >> 3) + n));
@@ -299,7 +306,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   ): T {
     if (m <= 0 || n <= 0) return out;
     const w = width(out, a, b);
-    if (w !== 0 && out.buffer === buf && a.buffer === buf && b.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(a.buffer) && own(b.buffer)) {
       (w === 4 ? X.gemmF32 : X.gemmF64)(out.byteOffset, a.byteOffset, b.byteOffset, m, n, k, transA ? 1 : 0, transB ? 1 : 0, alpha, beta, work);
       return out;
     }
@@ -331,7 +338,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
     beta: number,
   ): T {
     const w = width(out, a, x);
-    if (w !== 0 && out.buffer === buf && a.buffer === buf && x.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(a.buffer) && own(x.buffer)) {
       (w === 4 ? X.gemvF32 : X.gemvF64)(out.byteOffset, a.byteOffset, x.byteOffset, rows, cols, trans ? 1 : 0, alpha, beta);
       return out;
     }
@@ -357,7 +364,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function ger<T extends FloatArray>(out: T, x: ReadonlyFloatArray, y: ReadonlyFloatArray, m: number, n: number, alpha: number): T {
     if (alpha === 0 || m <= 0 || n <= 0) return out;
     const w = width(out, x, y);
-    if (w !== 0 && out.buffer === buf && x.buffer === buf && y.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(x.buffer) && own(y.buffer)) {
       (w === 4 ? X.gerF32 : X.gerF64)(out.byteOffset, x.byteOffset, y.byteOffset, m, n, alpha);
       return out;
     }
@@ -379,7 +386,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function binary<T extends FloatArray>(op: number, out: T, a: ReadonlyFloatArray, b: ReadonlyFloatArray, n: number): T {
     if (n <= 0) return out;
     const w = width(out, a, b);
-    if (w !== 0 && out.buffer === buf && a.buffer === buf && b.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(a.buffer) && own(b.buffer)) {
       (w === 4 ? X.binaryF32 : X.binaryF64)(op, out.byteOffset, a.byteOffset, b.byteOffset, n);
       return out;
     }
@@ -401,7 +408,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function axpby<T extends FloatArray>(out: T, a: ReadonlyFloatArray, b: ReadonlyFloatArray, alpha: number, beta: number, n: number = out.length): T {
     if (n <= 0) return out;
     const w = width(out, a, b);
-    if (w !== 0 && out.buffer === buf && a.buffer === buf && b.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(a.buffer) && own(b.buffer)) {
       (w === 4 ? X.axpbyF32 : X.axpbyF64)(out.byteOffset, a.byteOffset, b.byteOffset, alpha, beta, n);
       return out;
     }
@@ -422,7 +429,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function axpy<T extends FloatArray>(out: T, a: ReadonlyFloatArray, alpha: number, n: number = out.length): T {
     if (n <= 0) return out;
     const w = width(out, a, a);
-    if (w !== 0 && out.buffer === buf && a.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(a.buffer)) {
       (w === 4 ? X.axpyF32 : X.axpyF64)(out.byteOffset, a.byteOffset, alpha, n);
       return out;
     }
@@ -441,7 +448,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function scale<T extends FloatArray>(out: T, a: ReadonlyFloatArray, alpha: number, n: number = out.length): T {
     if (n <= 0) return out;
     const w = width(out, a, a);
-    if (w !== 0 && out.buffer === buf && a.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(a.buffer)) {
       (w === 4 ? X.scaleF32 : X.scaleF64)(out.byteOffset, a.byteOffset, alpha, n);
       return out;
     }
@@ -459,7 +466,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
 
   function fill<T extends FloatArray>(out: T, value: number, n: number = out.length): T {
     if (n <= 0) return out;
-    if (out.buffer === buf) {
+    if (own(out.buffer)) {
       (out instanceof Float32Array ? X.fillF32 : X.fillF64)(out.byteOffset, value, n);
       return out;
     }
@@ -469,7 +476,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
 
   function copy<T extends FloatArray>(out: T, a: ReadonlyFloatArray, n: number = out.length): T {
     if (n <= 0 || (out as ReadonlyFloatArray) === a) return out;
-    if (width(out, a, a) !== 0 && out.buffer === buf && a.buffer === buf) {
+    if (width(out, a, a) !== 0 && own(out.buffer) && own(a.buffer)) {
       X.copyBytes(out.byteOffset, a.byteOffset, n * out.BYTES_PER_ELEMENT);
       return out;
     }
@@ -481,7 +488,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function maxAbsDiff(a: ReadonlyFloatArray, b: ReadonlyFloatArray, n: number = a.length): number {
     if (n <= 0) return 0;
     const w = width(a, b, b);
-    if (w !== 0 && a.buffer === buf && b.buffer === buf) return (w === 4 ? X.maxAbsDiffF32 : X.maxAbsDiffF64)(a.byteOffset, b.byteOffset, n);
+    if (w !== 0 && own(a.buffer) && own(b.buffer)) return (w === 4 ? X.maxAbsDiffF32 : X.maxAbsDiffF64)(a.byteOffset, b.byteOffset, n);
     requireLive(a, n, "a");
     requireLive(b, n, "b");
     if (w === 0) return ts.maxAbsDiff(a, b, n);
@@ -495,7 +502,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function maxAbs(a: ReadonlyFloatArray, n: number = a.length): number {
     if (n <= 0) return 0;
     const f32 = a instanceof Float32Array;
-    if (a.buffer === buf) return (f32 ? X.maxAbsF32 : X.maxAbsF64)(a.byteOffset, n);
+    if (own(a.buffer)) return (f32 ? X.maxAbsF32 : X.maxAbsF64)(a.byteOffset, n);
     requireLive(a, n, "a");
     begin();
     const pa = stage(a, n, true);
@@ -506,7 +513,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function allFinite(a: ReadonlyFloatArray, n: number = a.length): boolean {
     if (n <= 0) return true;
     const f32 = a instanceof Float32Array;
-    if (a.buffer === buf) return (f32 ? X.allFiniteF32 : X.allFiniteF64)(a.byteOffset, n) === 1;
+    if (own(a.buffer)) return (f32 ? X.allFiniteF32 : X.allFiniteF64)(a.byteOffset, n) === 1;
     requireLive(a, n, "a");
     begin();
     const pa = stage(a, n, true);
@@ -517,7 +524,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function dot(a: ReadonlyFloatArray, b: ReadonlyFloatArray, n: number = a.length): number {
     if (n <= 0) return 0;
     const w = width(a, b, b);
-    if (w !== 0 && a.buffer === buf && b.buffer === buf) return (w === 4 ? X.dotF32 : X.dotF64)(a.byteOffset, b.byteOffset, n);
+    if (w !== 0 && own(a.buffer) && own(b.buffer)) return (w === 4 ? X.dotF32 : X.dotF64)(a.byteOffset, b.byteOffset, n);
     requireLive(a, n, "a");
     requireLive(b, n, "b");
     if (w === 0) return ts.dot(a, b, n);
@@ -535,7 +542,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function addRowVector<T extends FloatArray>(out: T, bias: ReadonlyFloatArray, rows: number, cols: number): T {
     if (rows <= 0 || cols <= 0) return out;
     const w = width(out, bias, bias);
-    if (w !== 0 && out.buffer === buf && bias.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(bias.buffer)) {
       (w === 4 ? X.addRowVectorF32 : X.addRowVectorF64)(out.byteOffset, bias.byteOffset, rows, cols);
       return out;
     }
@@ -554,7 +561,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function sumRows<T extends FloatArray>(out: T, a: ReadonlyFloatArray, rows: number, cols: number, alpha: number, beta: number): T {
     if (cols <= 0) return out;
     const w = width(out, a, a);
-    if (w !== 0 && out.buffer === buf && a.buffer === buf) {
+    if (w !== 0 && own(out.buffer) && own(a.buffer)) {
       (w === 4 ? X.sumRowsF32 : X.sumRowsF64)(out.byteOffset, a.byteOffset, rows, cols, alpha, beta);
       return out;
     }
@@ -595,14 +602,14 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
       grow(top + bytes + scratchBytes);
     },
     isArenaView(array: ReadonlyFloatArray): boolean {
-      return array.buffer === buf;
+      return own(array.buffer);
     },
     refresh<T extends FloatArray>(view: T): T {
       const a = registry.get(view);
       if (a === undefined) {
         fail("invalid_parameter", "view", "an array returned by allocate() or refresh() of this backend", view);
       }
-      if (view.buffer === buf) return view;
+      if (own(view.buffer)) return view;
       return viewOf(a) as T;
     },
     gemm,
