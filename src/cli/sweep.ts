@@ -90,20 +90,16 @@ async function runCommand(file: string, o: RunOptions): Promise<void> {
     return;
   }
   const workers = o.workers ?? Math.max(1, Math.min(os.availableParallelism(), plan.runs.length));
-  let stopPool: (() => Promise<void>) | null = null;
+  // every file is written atomically, so stopping at once (worker threads included) loses at most the epochs since a checkpoint
   const onInterrupt = () => {
     err(`\ninterrupted: finished runs and checkpoints are kept; run the same command again to resume\n`);
-    const stop = stopPool;
-    void (stop ? stop() : Promise.resolve()).finally(() => process.exit(130));
+    process.exit(130);
   };
   process.once("SIGINT", onInterrupt);
   if (!json) err(`${plan.name}: ${plan.runs.length} runs (${plan.configurations.length} configurations × ${plan.seeds.length} seeds) on ${workers === 0 ? "this process" : `${workers} worker thread${workers === 1 ? "" : "s"}`}; folder ${dir}\n`);
   const report = await runSweepLocally(plan, {
     out: dir,
     workers,
-    onPool: (stop) => {
-      stopPool = stop;
-    },
     onOutcome: (x, done, total) => {
       if (json) return;
       const run = plan.runs[x.index];
@@ -175,6 +171,7 @@ async function listCommand(file: string, o: { json?: boolean }): Promise<void> {
 /**
  * Adds `ebbflow sweep` and its subcommands (run, task, status, resubmit, summarize, list, schema) to a program.
  * @param program - The ebbflow command.
+ * @category Sweeps
  */
 export function registerSweep(program: Command): void {
   const sweep = program.command("sweep").description("sweeps over seeds and configurations: run locally on worker threads or on a Slurm cluster, follow, resubmit, summarise");

@@ -6,7 +6,8 @@
  */
 import { createUnit, type UnitFunction } from "../units/index.js";
 import { createRandom, initialise, type InitSpec } from "../random/index.js";
-import { allocate, type Dtype, type FloatArray } from "../types/index.js";
+import { type Dtype, type FloatArray } from "../types/index.js";
+import { typescriptBackend, type KernelBackend } from "../kernels/wasm/backend.js";
 import { fail } from "../errors/index.js";
 import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
 
@@ -77,15 +78,23 @@ export class Network {
   readonly incoming: readonly (readonly Connection[])[];
   /** Connections leaving each layer that carry a feedback path back to it. */
   readonly feedbackInto: readonly (readonly Connection[])[];
+  /** The kernels that settle and train this network; its arrays live where these kernels read them. */
+  readonly kernels: KernelBackend;
 
   /** @internal Use {@link buildNetwork}. */
-  constructor(spec: NetworkSpec, layers: Layer[], connections: Connection[]) {
+  constructor(spec: NetworkSpec, layers: Layer[], connections: Connection[], kernels: KernelBackend = typescriptBackend) {
     this.spec = spec;
+    this.kernels = kernels;
     this.dtype = spec.dtype;
     this.layers = layers;
     this.connections = connections;
     this.incoming = layers.map((l) => connections.filter((c) => c.to === l.index));
     this.feedbackInto = layers.map((l) => connections.filter((c) => c.from === l.index && c.from !== c.to && c.feedback.kind !== "none"));
+  }
+
+  /** A zeroed array of the network's dtype in the kernels' memory (for state and scratch buffers). */
+  allocate(length: number): FloatArray {
+    return this.kernels.allocate(this.dtype, length);
   }
 
   /** Index of the layer named `name`. @throws EbbflowError `unknown_name`. */
@@ -128,18 +137,23 @@ export class Network {
   /** A deep copy whose settling dynamics are changed by `patch` (same parameters, bit for bit). */
   withDynamics(patch: Partial<NetworkSpec["dynamics"]>): Network {
     const copy = this.clone();
-    return new Network(parseNetwork({ ...this.spec, dynamics: { ...this.spec.dynamics, ...patch } }), copy.layers as Layer[], copy.connections as Connection[]);
+    return new Network(parseNetwork({ ...this.spec, dynamics: { ...this.spec.dynamics, ...patch } }), copy.layers as Layer[], copy.connections as Connection[], this.kernels);
   }
 
   /** A deep copy (same spec, copied parameter arrays). */
   clone(): Network {
-    const layers = this.layers.map((l) => ({ ...l, bias: l.bias.slice() }));
+    const dup = (a: FloatArray): FloatArray => {
+      const b = this.allocate(a.length);
+      b.set(a);
+      return b;
+    };
+    const layers = this.layers.map((l) => ({ ...l, bias: dup(l.bias) }));
     const connections = this.connections.map((c) => ({
       ...c,
-      weights: c.weights.slice(),
-      feedback: c.feedback.kind === "separate" ? { ...c.feedback, weights: c.feedback.weights.slice() } : c.feedback,
+      weights: dup(c.weights),
+      feedback: c.feedback.kind === "separate" ? { ...c.feedback, weights: dup(c.feedback.weights) } : c.feedback,
     }));
-    return new Network(this.spec, layers, connections);
+    return new Network(this.spec, layers, connections, this.kernels);
   }
 }
 
@@ -153,6 +167,12 @@ export interface BuildOptions {
   readonly allocate?: ((dtype: Dtype, length: number) => FloatArray) | undefined;
   /** The allocator's arrays already hold the parameters: do not initialise them. */
   readonly keepValues?: boolean | undefined;
+  /**
+   * The kernels that settle and train the network (default: the TypeScript kernels). Parameters, states
+   * and scratch arrays are allocated in its memory (unless `allocate` is given), so a WebAssembly backend
+   * computes on them in place with no copy per settling step.
+   */
+  readonly backend?: KernelBackend | undefined;
 }
 
 /** Every parameter array of a network in allocation order (see {@link BuildOptions.allocate}). @category Network */
@@ -184,7 +204,8 @@ export function parameterBuffers(net: Network): FloatArray[] {
 export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: BuildOptions = {}): Network {
   const spec = parseNetwork(input);
   const root = createRandom(spec.seed);
-  const alloc = options.allocate ?? allocate;
+  const kernels = options.backend ?? typescriptBackend;
+  const alloc = options.allocate ?? ((dtype: Dtype, n: number) => kernels.allocate(dtype, n));
   const layers: Layer[] = spec.layers.map((ls, index) => {
     const bias = alloc(spec.dtype, ls.size);
     if (options.keepValues) {
@@ -221,5 +242,5 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
     } else feedback = cs.feedback;
     return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label };
   });
-  return new Network(spec, layers, connections);
+  return new Network(spec, layers, connections, kernels);
 }

@@ -4,9 +4,8 @@
  * are allocated once per {@link Settler}; a settling step allocates nothing.
  * @module
  */
-import { allFinite, gemm, maxAbs } from "../kernels/index.js";
 import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
-import { allocate, type FloatArray } from "../types/index.js";
+import type { FloatArray } from "../types/index.js";
 import type { Network } from "./network.js";
 
 /** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
@@ -65,8 +64,8 @@ export class Snapshot {
   /** Allocates a zeroed snapshot for `net` and `batch` patterns. */
   constructor(net: Network, batch: number) {
     this.batch = batch;
-    this.activity = net.layers.map((l) => allocate(net.dtype, batch * l.size));
-    this.state = net.spec.dynamics.kind === "energy" ? net.layers.map((l) => allocate(net.dtype, batch * l.size)) : this.activity;
+    this.activity = net.layers.map((l) => net.allocate(batch * l.size));
+    this.state = net.spec.dynamics.kind === "energy" ? net.layers.map((l) => net.allocate(batch * l.size)) : this.activity;
   }
 
   /** Activity of one pattern of one layer, as a copy. */
@@ -141,13 +140,13 @@ export class Settler {
     requireInteger("batch", batch, 1);
     this.net = net;
     this.batch = batch;
-    const alloc = () => net.layers.map((l) => allocate(net.dtype, batch * l.size));
+    const alloc = () => net.layers.map((l) => net.allocate(batch * l.size));
     this.drive = alloc();
     this.netInput = alloc();
     this.next = alloc();
     this.tmp = alloc();
     this.targetBuf = alloc();
-    this.scratch = allocate(net.dtype, Math.max(...net.layers.map((l) => l.size)));
+    this.scratch = net.allocate(Math.max(...net.layers.map((l) => l.size)));
     this.clamped = net.layers.map(() => false);
   }
 
@@ -288,8 +287,9 @@ export class Settler {
             }
           }
         }
-        if (!allFinite(nx, len) || maxAbs(nx, len) > bound) {
-          const bad = !allFinite(nx, len) ? "a non-finite value" : `a value of magnitude ${maxAbs(nx, len)}`;
+        const K = net.kernels;
+        if (!K.allFinite(nx, len) || K.maxAbs(nx, len) > bound) {
+          const bad = !K.allFinite(nx, len) ? "a non-finite value" : `a value of magnitude ${K.maxAbs(nx, len)}`;
           throw new EbbflowError(
             issueText("divergence", `layers[${i}]`, `settling of layer ${JSON.stringify(l.name)} to stay finite and within ±${bound}`, bad, `phase ${phase}, step ${step}; try a smaller dt or weaker weights`),
           );
@@ -330,6 +330,7 @@ export class Settler {
    */
   private accumulate(eta: FloatArray, i: number, act: FloatArray[], fromClamped: boolean): void {
     const { net, batch } = this;
+    const gemm = net.kernels.gemm;
     const n = net.layers[i]!.size;
     for (const c of net.incoming[i] as readonly import("./network.js").Connection[]) {
       if (this.clamped[c.from] !== fromClamped) continue;

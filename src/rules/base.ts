@@ -2,9 +2,9 @@
  * What every learning rule provides, and helpers the rules share.
  * @module
  */
-import { gemm } from "../kernels/index.js";
 import { fail } from "../errors/index.js";
-import { allocate, type FloatArray } from "../types/index.js";
+import type { FloatArray } from "../types/index.js";
+import type { KernelBackend } from "../kernels/wasm/backend.js";
 import type { Connection, Network } from "../network/network.js";
 import { Settler, Snapshot, type LayerValues } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";
@@ -71,20 +71,31 @@ export function checkRates(net: Network, config: RuleConfig): void {
 }
 
 /**
+ * `out (n×m) = alpha · postᵀ pre + beta · out` over a batch of B patterns (row-major, post B×n, pre B×m):
+ * a matrix product, or for one pattern an outer-product accumulate (cheaper than a product with k = 1).
+ */
+export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1): void {
+  if (batch === 1) {
+    if (beta === 0) k.fill(out, 0, n * m);
+    k.ger(out, post, pre, n, m, alpha);
+  } else k.gemm(out, post, pre, n, m, batch, true, false, alpha, beta);
+}
+
+/**
  * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
  * the outcome-minus-expectation coactivity of a connection. When the sending layer is clamped in both
  * phases (`samePre`: preA and preB hold the same values), it is computed as one product
  * `alpha · (postA − postB)ᵀ pre`, using `scratch` (at least B×n) for the difference.
  */
-export function contrast(out: FloatArray, alpha: number, postA: FloatArray, preA: FloatArray, postB: FloatArray, preB: FloatArray, batch: number, n: number, m: number, samePre = false, scratch?: FloatArray): void {
+export function contrast(k: KernelBackend, out: FloatArray, alpha: number, postA: FloatArray, preA: FloatArray, postB: FloatArray, preB: FloatArray, batch: number, n: number, m: number, samePre = false, scratch?: FloatArray): void {
   if (samePre && scratch !== undefined) {
     const len = batch * n;
-    for (let k = 0; k < len; k++) scratch[k] = (postA[k] as number) - (postB[k] as number);
-    gemm(out, scratch.subarray(0, len), preA, n, m, batch, true, false, alpha, 0);
+    for (let i = 0; i < len; i++) scratch[i] = (postA[i] as number) - (postB[i] as number);
+    outerSum(k, out, alpha, scratch.subarray(0, len), preA, batch, n, m, 0);
     return;
   }
-  gemm(out, postA, preA, n, m, batch, true, false, alpha, 0);
-  gemm(out, postB, preB, n, m, batch, true, false, -alpha, 1);
+  outerSum(k, out, alpha, postA, preA, batch, n, m, 0);
+  outerSum(k, out, -alpha, postB, preB, batch, n, m, 1);
 }
 
 /** `out[j] = alpha · Σ_b (a[b,j] − b[b,j])` (bias changes). */
@@ -130,7 +141,7 @@ export abstract class SettlingRule implements LearningRule {
   protected diffScratch(batch: number): FloatArray {
     let d = this.diffs.get(batch);
     if (d === undefined) {
-      d = allocate(this.net.dtype, batch * Math.max(...this.net.layers.map((l) => l.size)));
+      d = this.net.allocate(batch * Math.max(...this.net.layers.map((l) => l.size)));
       this.diffs.set(batch, d);
     }
     return d;

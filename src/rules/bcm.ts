@@ -2,7 +2,7 @@
  * The BCM rule on the free phase.
  * @module
  */
-import { allocate, type FloatArray } from "../types/index.js";
+import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { bcmPhi } from "../curves/index.js";
 import { ParameterDelta } from "./delta.js";
@@ -29,7 +29,7 @@ export class BcmRule extends SettlingRule {
   constructor(net: Network, config: Cfg) {
     super(net, config);
     this.cfg = config;
-    this.thresholds = net.layers.map((l) => allocate(net.dtype, l.size));
+    this.thresholds = net.layers.map((l) => net.allocate(l.size));
   }
 
   override saveState(): RuleState {
@@ -62,7 +62,7 @@ export class BcmRule extends SettlingRule {
     }
     let phi = this.phi.get(B);
     if (phi === undefined) {
-      phi = net.layers.map((l) => allocate(net.dtype, B * l.size));
+      phi = net.layers.map((l) => net.allocate(B * l.size));
       this.phi.set(B, phi);
     }
     out.clear();

@@ -4,9 +4,8 @@
  * and the sliding-threshold calcium rule.
  * @module
  */
-import { gemm } from "../kernels/index.js";
 import { fail } from "../errors/index.js";
-import { allocate, type FloatArray } from "../types/index.js";
+import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import type { Snapshot } from "../network/settle.js";
 import { applyCalciumCurve } from "../curves/index.js";
@@ -100,7 +99,7 @@ function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly nu
     const alpha = (connectionRate(config, c) * (factors[c.to] as number)) / B;
     if (alpha === 0) continue;
     const clampedPre = net.layers[c.from]!.role === "input";
-    contrast(out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m, clampedPre, scratch);
+    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m, clampedPre, scratch);
     transposeInto(out.feedback[c.index] ?? null, out.weights[c.index] as FloatArray, n, m);
   }
   for (const l of net.layers) {
@@ -146,8 +145,8 @@ export class GeneRec extends SettlingRule {
     let d = this.diff.get(B);
     let m = this.mid.get(B);
     if (d === undefined || m === undefined) {
-      d = this.net.layers.map((l) => allocate(this.net.dtype, B * l.size));
-      m = this.net.layers.map((l) => allocate(this.net.dtype, B * l.size));
+      d = this.net.layers.map((l) => this.net.allocate(B * l.size));
+      m = this.net.layers.map((l) => this.net.allocate(B * l.size));
       this.diff.set(B, d);
       this.mid.set(B, m);
     }
@@ -175,6 +174,7 @@ export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus
     }
   }
   const variant = config.variant;
+  const gemm = net.kernels.gemm;
   for (const c of net.connections) {
     if (c.spec.frozen) continue;
     const n = net.layers[c.to]!.size;
@@ -223,7 +223,7 @@ export class SlidingThresholdRule extends SettlingRule {
   constructor(net: Network, config: Cfg<"calcium">) {
     super(net, config);
     this.cfg = config;
-    this.averages = net.layers.map((l) => allocate(net.dtype, l.size));
+    this.averages = net.layers.map((l) => net.allocate(l.size));
   }
 
   /** @internal */
@@ -241,11 +241,11 @@ export class SlidingThresholdRule extends SettlingRule {
     if (s === undefined) {
       const big = Math.max(...this.net.connections.map((c) => c.weights.length), ...this.net.layers.map((l) => l.size));
       s = {
-        fastPre: this.net.layers.map((l) => allocate(this.net.dtype, B * l.size)),
-        slowPre: this.net.layers.map((l) => allocate(this.net.dtype, B * l.size)),
-        co: allocate(this.net.dtype, big),
-        th: allocate(this.net.dtype, big),
-        ch: allocate(this.net.dtype, big),
+        fastPre: this.net.layers.map((l) => this.net.allocate(B * l.size)),
+        slowPre: this.net.layers.map((l) => this.net.allocate(B * l.size)),
+        co: this.net.allocate(big),
+        th: this.net.allocate(big),
+        ch: this.net.allocate(big),
       };
       this.scratch.set(B, s);
     }

@@ -4,7 +4,7 @@
  * @module
  */
 import { EbbflowError, issueText } from "../errors/index.js";
-import { allocate, type FloatArray } from "../types/index.js";
+import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 
 /**
@@ -20,9 +20,9 @@ export class ParameterDelta {
 
   /** A zeroed delta shaped like `net`. */
   constructor(net: Network) {
-    this.weights = net.connections.map((c) => allocate(net.dtype, c.weights.length));
-    this.feedback = net.connections.map((c) => (c.feedback.kind === "separate" && c.feedback.learned ? allocate(net.dtype, c.feedback.weights.length) : null));
-    this.biases = net.layers.map((l) => allocate(net.dtype, l.role === "input" ? 0 : l.size));
+    this.weights = net.connections.map((c) => net.allocate(c.weights.length));
+    this.feedback = net.connections.map((c) => (c.feedback.kind === "separate" && c.feedback.learned ? net.allocate(c.feedback.weights.length) : null));
+    this.biases = net.layers.map((l) => net.allocate(l.role === "input" ? 0 : l.size));
   }
 
   /** Sets every entry to zero. */
@@ -82,34 +82,36 @@ function constrained(w: number, dw: number, sign: string, bounds: string): numbe
  * @category Rules
  */
 export function applyDelta(net: Network, delta: ParameterDelta): void {
+  const K = net.kernels;
   const problems = [];
+  // w + d stays finite when d is finite and max|w| + max|d| is below the largest finite value of the dtype;
+  // only when that quick test fails are the sums checked one by one
+  const largest = net.dtype === "float32" ? 3.4028234663852886e38 : Number.MAX_VALUE;
+  const firstBad = (w: FloatArray, d: FloatArray): number => {
+    if (d.length === 0) return -1;
+    const md = K.maxAbs(d); // NaN when d holds a NaN, Infinity when it holds an infinity
+    if (Number.isFinite(md) && K.maxAbs(w) + md < largest) return -1;
+    for (let i = 0; i < d.length; i++) {
+      const v = (w[i] as number) + (d[i] as number);
+      if (!Number.isFinite(v) || Math.abs(v) > largest) return i;
+    }
+    return -1;
+  };
   for (const c of net.connections) {
     if (c.spec.frozen) continue;
     const d = delta.weights[c.index] as FloatArray;
-    for (let i = 0; i < d.length; i++) {
-      if (!Number.isFinite((c.weights[i] as number) + (d[i] as number))) {
-        problems.push(issueText("non_finite_update", `connections[${c.index}]`, `finite weight changes for ${c.label}`, `${d[i]} at entry ${i}`));
-        break;
-      }
-    }
+    const bad = firstBad(c.weights, d);
+    if (bad >= 0) problems.push(issueText("non_finite_update", `connections[${c.index}]`, `finite weight changes for ${c.label}`, `${d[bad]} at entry ${bad}`));
     const f = delta.feedback[c.index];
     if (f && c.feedback.kind === "separate") {
-      for (let i = 0; i < f.length; i++) {
-        if (!Number.isFinite((c.feedback.weights[i] as number) + (f[i] as number))) {
-          problems.push(issueText("non_finite_update", `connections[${c.index}].feedback`, `finite feedback-weight changes for ${c.label}`, `${f[i]} at entry ${i}`));
-          break;
-        }
-      }
+      const badF = firstBad(c.feedback.weights, f);
+      if (badF >= 0) problems.push(issueText("non_finite_update", `connections[${c.index}].feedback`, `finite feedback-weight changes for ${c.label}`, `${f[badF]} at entry ${badF}`));
     }
   }
   for (const l of net.layers) {
     const d = delta.biases[l.index] as FloatArray;
-    for (let i = 0; i < d.length; i++) {
-      if (!Number.isFinite((l.bias[i] as number) + (d[i] as number))) {
-        problems.push(issueText("non_finite_update", `layers[${l.index}].bias`, `finite bias changes for layer ${JSON.stringify(l.name)}`, `${d[i]} at unit ${i}`));
-        break;
-      }
-    }
+    const bad = firstBad(l.bias, d);
+    if (bad >= 0) problems.push(issueText("non_finite_update", `layers[${l.index}].bias`, `finite bias changes for layer ${JSON.stringify(l.name)}`, `${d[bad]} at unit ${bad}`));
   }
   if (problems.length > 0) throw new EbbflowError(problems);
   for (const c of net.connections) {
@@ -117,19 +119,15 @@ export function applyDelta(net: Network, delta: ParameterDelta): void {
     const d = delta.weights[c.index] as FloatArray;
     const w = c.weights;
     const { sign, bounds } = c.spec;
-    if (sign === "any" && bounds === "none") for (let i = 0; i < d.length; i++) w[i] = (w[i] as number) + (d[i] as number);
+    if (sign === "any" && bounds === "none") K.axpy(w, d, 1);
     else for (let i = 0; i < d.length; i++) w[i] = constrained(w[i] as number, d[i] as number, sign, bounds);
     const f = delta.feedback[c.index];
-    if (f && c.feedback.kind === "separate") {
-      const fw = c.feedback.weights;
-      for (let i = 0; i < f.length; i++) fw[i] = (fw[i] as number) + (f[i] as number);
-    }
+    if (f && c.feedback.kind === "separate") K.axpy(c.feedback.weights, f, 1);
   }
   for (const l of net.layers) {
     if (l.role === "input") continue;
     const into = net.incoming[l.index] ?? [];
     if (into.length > 0 && into.every((c) => c.spec.frozen)) continue;
-    const d = delta.biases[l.index] as FloatArray;
-    for (let i = 0; i < d.length; i++) l.bias[i] = (l.bias[i] as number) + (d[i] as number);
+    K.axpy(l.bias, delta.biases[l.index] as FloatArray, 1);
   }
 }

@@ -71,7 +71,7 @@ export class EquilibriumPropagation extends SettlingRule {
       const n = net.layers[c.to]!.size;
       const m = net.layers[c.from]!.size;
       const clampedPre = net.layers[c.from]!.role === "input";
-      contrast(out.weights[c.index] as FloatArray, (connectionRate(this.cfg, c) * scale) / B, a.activity[c.to] as FloatArray, a.activity[c.from] as FloatArray, b.activity[c.to] as FloatArray, b.activity[c.from] as FloatArray, B, n, m, clampedPre, scratch);
+      contrast(net.kernels, out.weights[c.index] as FloatArray, (connectionRate(this.cfg, c) * scale) / B, a.activity[c.to] as FloatArray, a.activity[c.from] as FloatArray, b.activity[c.to] as FloatArray, b.activity[c.from] as FloatArray, B, n, m, clampedPre, scratch);
     }
     for (const l of net.layers) {
       if (l.role === "input") continue;

@@ -3,9 +3,8 @@
  * reference; feedback alignment; direct feedback alignment.
  * @module
  */
-import { gemm } from "../kernels/index.js";
 import { fail } from "../errors/index.js";
-import { allocate, type FloatArray } from "../types/index.js";
+import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta, applyDelta } from "./delta.js";
@@ -49,13 +48,14 @@ export interface ForwardPass {
 
 /** Allocates a {@link ForwardPass} for `net` and `batch`. @category Rules */
 export function createForwardPass(net: Network, batch: number): ForwardPass {
-  const a = () => net.layers.map((l) => allocate(net.dtype, batch * l.size));
+  const a = () => net.layers.map((l) => net.allocate(batch * l.size));
   return { batch, netInput: a(), activity: a(), slope: a(), delta: a() };
 }
 
 /** Runs the feedforward pass: `a_l = Σ W x_from + b_l`, `x_l = f(a_l)`; inputs taken as activity. @category Rules */
 export function runForward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass): void {
   const B = pass.batch;
+  const gemm = net.kernels.gemm;
   for (const i of order) {
     const l = net.layers[i]!;
     const x = pass.activity[i] as FloatArray;
@@ -99,6 +99,7 @@ type Carrier = "transpose" | "feedback" | "direct";
  */
 function backward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass, carrier: Carrier, direct: readonly (FloatArray | null)[], random: readonly (FloatArray | null)[], config: RuleConfig | null, out: ParameterDelta): void {
   const B = pass.batch;
+  const gemm = net.kernels.gemm;
   outputError(net, batch, pass);
   const outputs = net.outputLayers;
   for (let o = order.length - 1; o >= 0; o--) {
@@ -207,14 +208,14 @@ export class FeedforwardRule implements LearningRule {
     this.direct = net.layers.map((l) => {
       if (this.carrier !== "direct" || l.role !== "hidden") return null;
       const scale = config.rule === "direct-feedback-alignment" ? config.scale : 1;
-      return fillNormal(allocate(net.dtype, l.size * total), root.child(`direct-feedback/${l.name}`), 0, scale / Math.sqrt(total));
+      return fillNormal(net.allocate(l.size * total), root.child(`direct-feedback/${l.name}`), 0, scale / Math.sqrt(total));
     });
     // feedback alignment: each connection's own separate feedback matrix, or else a fixed random one of the rule's
     this.random = net.connections.map((c) => {
       if (this.carrier !== "feedback" || c.feedback.kind === "separate" || net.layers[c.from]!.role === "input") return null;
       const n = net.layers[c.to]!.size;
       const m = net.layers[c.from]!.size;
-      return fillNormal(allocate(net.dtype, m * n), root.child(`fixed-feedback/${c.label}`), 0, 1 / Math.sqrt(n));
+      return fillNormal(net.allocate(m * n), root.child(`fixed-feedback/${c.label}`), 0, 1 / Math.sqrt(n));
     });
   }
 

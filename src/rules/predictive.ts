@@ -2,9 +2,8 @@
  * Predictive coding (Whittington & Bogacz 2017) on the layered structure of a network.
  * @module
  */
-import { gemm } from "../kernels/index.js";
 import { fail, EbbflowError, issueText } from "../errors/index.js";
-import { allocate, type FloatArray } from "../types/index.js";
+import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import type { Snapshot } from "../network/settle.js";
 import { ParameterDelta, applyDelta } from "./delta.js";
@@ -58,7 +57,7 @@ export class PredictiveCoding implements LearningRule {
   private workspace(B: number) {
     let w = this.ws.get(B);
     if (w === undefined) {
-      const a = () => this.net.layers.map((l) => allocate(this.net.dtype, B * l.size));
+      const a = () => this.net.layers.map((l) => this.net.allocate(B * l.size));
       w = { pass: createForwardPass(this.net, B), value: a(), err: a(), fv: a(), slope: a(), next: a() };
       this.ws.set(B, w);
     }
@@ -70,6 +69,7 @@ export class PredictiveCoding implements LearningRule {
     const cfg = this.config;
     const B = batchSizeOf(net, batch);
     const w = this.workspace(B);
+    const gemm = net.kernels.gemm;
     runForward(net, this.order, batch, w.pass);
     for (const l of net.layers) {
       const v = w.value[l.index] as FloatArray;

@@ -257,24 +257,6 @@ export function expandSweep(sweepInput: unknown, base: unknown, options: { where
     }
   }
 
-  // 3. distinct grid values and distinct seeds
-  for (const d of dims) {
-    if (d.values === undefined) continue;
-    const seen = new Map<string, number>();
-    d.values.forEach((v, i) => {
-      const key = canonicalJson(v);
-      const first = seen.get(key);
-      if (first !== undefined) problems.push(issueText("invalid_config", `${d.where}[${i}]`, "values distinct from one another", describeValue(v), `same as ${d.where}[${first}]`));
-      else seen.set(key, i);
-    });
-  }
-  const seedSeen = new Map<string, number>();
-  sweep.seeds.forEach((s, i) => {
-    const key = String(s);
-    const first = seedSeen.get(key);
-    if (first !== undefined) problems.push(issueText("invalid_config", `seeds[${i}]`, "seeds distinct from one another", describeValue(s), `same as seeds[${first}] (seeds 1 and "1" give the same random streams)`));
-    else seedSeen.set(key, i);
-  });
   if (experiment.rules.length > 1 && !dims.some((d) => d.segments.length === 1 && d.segments[0] === "rule")) {
     problems.push(issueText("invalid_config", `${where}.rules`, 'one rule (or vary the rule with grid["rule"])', `${experiment.rules.length} rules`));
   }
@@ -324,10 +306,17 @@ export function expandSweep(sweepInput: unknown, base: unknown, options: { where
           const p = formatPath(a.dim.segments);
           if (i.path === p || i.path.startsWith(`${p}.`) || i.path.startsWith(`${p}[`)) if (blamed === undefined || a.dim.segments.length > blamed.dim.segments.length) blamed = a;
         }
+        // a problem elsewhere (a cross-field check): blame the value that causes it on its own
+        blamed ??= point.find((a) => {
+          const alone = clone(template) as unknown;
+          setPath(alone, a.dim.segments, clone(a.assignment.value));
+          const r1 = safeParseRunConfig(alone);
+          return !r1.ok && r1.issues.some((j) => j.path === i.path && j.expected === i.expected);
+        });
         if (blamed !== undefined && blamed.dim.added && i.path === formatPath(blamed.dim.segments) && i.expected.includes("unknown key")) {
           const parent = lookupPath(template, blamed.dim.segments.slice(0, -1));
           const keys = parent.found && parent.value !== null && typeof parent.value === "object" ? Object.keys(parent.value).join(", ") : "";
-          report(issueText("invalid_config", blamed.dim.where, `a config path of the base experiment (${formatConfigPath(blamed.dim.segments.slice(0, -1))} has ${keys}, and accepts no other field named this way)`, JSON.stringify(blamed.dim.text)));
+          report(issueText("invalid_config", blamed.dim.where, `a config path of the base experiment (${formatConfigPath(blamed.dim.segments.slice(0, -1))} has ${keys})`, JSON.stringify(blamed.dim.text)));
         } else if (blamed !== undefined) {
           const at = blamed.dim.values !== undefined ? `${blamed.dim.where}[${blamed.valueIndex}]` : blamed.dim.where;
           const detail = [i.path !== blamed.assignment.path ? `at ${i.path}` : "", blamed.dim.draw !== undefined ? `draw ${blamed.valueIndex} gave ${describeValue(blamed.assignment.value)}` : "", i.detail ?? ""].filter((s) => s !== "").join("; ");

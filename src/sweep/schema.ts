@@ -2,7 +2,7 @@
  * The sweep file: a base experiment, a grid over config paths and/or seeded random draws over paths,
  * times a list of seeds. One zod schema gives the types, the shape validation and the JSON Schema export
  * (`schema/sweep.schema.json`); the paths and values are checked against the base experiment by
- * {@link expandSweep}.
+ * `expandSweep`.
  *
  * ```json
  * { "name": "strip-rates",
@@ -16,6 +16,7 @@
 import { z } from "zod";
 import { EbbflowError, describeValue, issueText, type Issue } from "../errors/index.js";
 import { experimentSchema } from "../config/experiment.js";
+import { canonicalJson } from "./hash.js";
 
 const finite = (what = "a finite number") => z.number({ error: what }).refine(Number.isFinite, { error: what });
 const positive = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
@@ -85,7 +86,13 @@ export type SweepFileInput = z.input<typeof sweepSchema>;
 /** A shape-checked sweep file with defaults filled in. @category Sweeps */
 export type SweepFile = z.output<typeof sweepSchema>;
 
-/** Sweep-file paths: keys under `grid` and `draws.over` are config paths and print as `grid["rule.rate"]`. */
+/**
+ * Renders a path inside a sweep file; keys under `grid` and `draws.over` are config paths and print quoted,
+ * as in `grid["rule.rate"][1]`.
+ * @param path - The path's keys and indices.
+ * @returns The path text.
+ * @category Sweeps
+ */
 export function formatSweepPath(path: readonly PropertyKey[]): string {
   let out = "";
   for (let i = 0; i < path.length; i++) {
@@ -120,10 +127,42 @@ function issuesOf(error: z.ZodError, input: unknown): Issue[] {
   return out;
 }
 
+/** Repeated seeds (compared as text: 1 and "1" seed the same streams) and repeated values within a grid path. */
+function repeats(input: unknown): Issue[] {
+  const out: Issue[] = [];
+  if (input === null || typeof input !== "object") return out;
+  const o = input as { seeds?: unknown; grid?: unknown };
+  const firstOf = (values: readonly unknown[], key: (v: unknown) => string | null, at: (i: number) => string, expected: string, note = ""): void => {
+    const seen = new Map<string, number>();
+    values.forEach((v, i) => {
+      const k = key(v);
+      if (k === null) return;
+      const first = seen.get(k);
+      if (first === undefined) seen.set(k, i);
+      else out.push(issueText("invalid_config", at(i), expected, describeValue(v), `same as ${at(first)}${note}`));
+    });
+  };
+  if (Array.isArray(o.seeds)) firstOf(o.seeds, (v) => (typeof v === "number" || typeof v === "string" ? String(v) : null), (i) => `seeds[${i}]`, "seeds distinct from one another", ' (seeds 1 and "1" give the same random streams)');
+  if (o.grid !== null && typeof o.grid === "object" && !Array.isArray(o.grid)) {
+    for (const [path, values] of Object.entries(o.grid as Record<string, unknown>)) {
+      if (!Array.isArray(values)) continue;
+      firstOf(values, (v) => {
+        try {
+          return canonicalJson(v);
+        } catch {
+          return null;
+        }
+      }, (i) => `grid[${JSON.stringify(path)}][${i}]`, "values distinct from one another");
+    }
+  }
+  return out;
+}
+
 /**
  * Checks the shape of a sweep file (fields, types, non-empty lists) and fills in defaults; the config paths
- * and values are checked later against the base experiment by {@link expandSweep}. Reports every problem
- * at once, each with its path (`grid["rule.rate"]`, `seeds[2]`, `draws.over["rule.beta"].low`).
+ * and values are checked later against the base experiment by `expandSweep`. Repeated seeds and repeated
+ * values of a grid path are errors. Reports every problem at once, each with its path (`grid["rule.rate"]`,
+ * `seeds[2]`, `draws.over["rule.beta"].low`).
  * @param input - The parsed JSON of a sweep file.
  * @returns The sweep file with defaults.
  * @throws {@link EbbflowError} `invalid_config`.
@@ -131,8 +170,9 @@ function issuesOf(error: z.ZodError, input: unknown): Issue[] {
  */
 export function parseSweepFile(input: unknown): SweepFile {
   const r = sweepSchema.safeParse(input);
-  if (!r.success) throw new EbbflowError(issuesOf(r.error, input));
-  const problems: Issue[] = [];
+  // repeated seeds and grid values are checked on the raw input too, so that they are reported with the shape problems
+  const problems: Issue[] = [...(r.success ? [] : issuesOf(r.error, input)), ...repeats(input)];
+  if (!r.success) throw new EbbflowError(problems);
   for (const [path, d] of Object.entries(r.data.draws?.over ?? {})) {
     if (d.kind !== "choice" && !(d.low < d.high)) problems.push(issueText("invalid_config", `draws.over[${JSON.stringify(path)}].high`, `a number > low (${d.low})`, describeValue(d.high)));
     if (d.kind === "uniform" && d.integer && (!Number.isInteger(d.low) || !Number.isInteger(d.high))) {

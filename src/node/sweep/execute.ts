@@ -69,6 +69,8 @@ export async function executeRun(task: RunTask): Promise<RunOutcome> {
     const progress = await readRunProgress(task.dir, run);
     if (progress.finished) return { index: run.index, id: run.id, status: "skipped", resumedFrom: 0, epochs: progress.epochs, stopped: progress.results?.end?.stopped };
     await fs.mkdir(files.dir, { recursive: true });
+    // temporary files of an atomic write cut short by a crash (the files they were to replace are intact)
+    for (const name of await fs.readdir(files.dir)) if (/^\..+\.tmp$/.test(name)) await fs.rm(path.join(files.dir, name), { force: true });
     const { config, seed } = run;
     const { train, test } = await resolveData(dataSource(config.data.source, task.baseDir), {
       testFraction: config.data.testFraction,

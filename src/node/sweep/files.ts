@@ -30,7 +30,7 @@ async function readJsonFile(file: string, what: string): Promise<unknown> {
  * Error paths start with the file's name, e.g. `strip.sweep.json: grid["rule.rte"]`.
  * @param file - Path of the sweep file.
  * @returns The plan, with `baseDir` set to the sweep file's folder (relative data paths resolve there).
- * @throws {@link EbbflowError} `io_error`, `parse_error`, `invalid_config`.
+ * @throws `EbbflowError` `io_error`, `parse_error`, `invalid_config`.
  * @category Sweeps
  */
 export async function loadSweepFile(file: string): Promise<SweepPlan> {
@@ -113,7 +113,7 @@ export function runFiles(dir: string, id: string): RunFiles {
  * plan, its runs must be the same (same ids in the same order): a folder holds one sweep.
  * @param dir - The sweep folder.
  * @param plan - The plan.
- * @throws {@link EbbflowError} `invalid_config` (path = the plan file) when the folder holds a different sweep.
+ * @throws `EbbflowError` `invalid_config` (path = the plan file) when the folder holds a different sweep.
  * @category Sweeps
  */
 export async function writeSweepPlan(dir: string, plan: SweepPlan): Promise<void> {
@@ -132,7 +132,7 @@ export async function writeSweepPlan(dir: string, plan: SweepPlan): Promise<void
  * Reads a sweep folder's plan (`DIR/runs.json`).
  * @param dir - The sweep folder.
  * @returns The plan.
- * @throws {@link EbbflowError} `io_error` when missing, `parse_error` when not a plan.
+ * @throws `EbbflowError` `io_error` when missing, `parse_error` when not a plan.
  * @category Sweeps
  */
 export async function readSweepPlan(dir: string): Promise<SweepPlan> {
@@ -210,7 +210,14 @@ export async function readRunProgress(dir: string, run: Pick<SweepRun, "id">): P
   return { finished, epochs: results?.epochs.length ?? 0, checkpointEpoch, results, failure };
 }
 
-/** Throws unless `index` names a run of the plan. */
+/**
+ * The run at an index of a plan.
+ * @param plan - The plan.
+ * @param index - A run index (the scheduler's array task id).
+ * @returns The run.
+ * @throws `EbbflowError` `invalid_parameter` (`--index`) when the plan has no such run.
+ * @category Sweeps
+ */
 export function runAt(plan: SweepPlan, index: number): SweepRun {
   const run = plan.runs[index];
   if (run === undefined || !Number.isInteger(index)) throw new EbbflowError(issueText("invalid_parameter", "--index", `a run index from 0 to ${plan.runs.length - 1}`, String(index)));

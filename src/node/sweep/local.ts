@@ -19,8 +19,6 @@ export interface LocalSweepOptions {
   readonly workers: number;
   /** Called after each run. */
   readonly onOutcome?: ((outcome: RunOutcome, done: number, total: number) => void) | undefined;
-  /** Called once the pool is running, with a function that stops it (for Ctrl-C). */
-  readonly onPool?: ((stop: () => Promise<void>) => void) | undefined;
   /**
    * The compiled worker script (default: `worker.js` beside this module; when this module runs from its
    * TypeScript source, as under a test runner, the compiled `dist/node/sweep/worker.js`).
@@ -53,7 +51,7 @@ export function defaultWorkerFile(): URL {
  * @param plan - The sweep plan (from `loadSweepFile`).
  * @param options - Output folder, number of workers, progress callback.
  * @returns Every run's outcome, in index order.
- * @throws {@link EbbflowError} `invalid_parameter` (`workers`); `invalid_config` when the folder holds another sweep.
+ * @throws `EbbflowError` `invalid_parameter` (`workers`); `invalid_config` when the folder holds another sweep.
  * @category Sweeps
  */
 export async function runSweepLocally(plan: SweepPlan, options: LocalSweepOptions): Promise<LocalSweepReport> {
@@ -78,7 +76,6 @@ export async function runSweepLocally(plan: SweepPlan, options: LocalSweepOption
     const file = options.workerFile ?? defaultWorkerFile();
     const threads = Math.min(workers, pending.length);
     const pool = new Piscina<RunTask, RunOutcome>({ filename: typeof file === "string" ? file : fileURLToPath(file), minThreads: threads, maxThreads: threads, concurrentTasksPerWorker: 1, idleTimeout: 1000 });
-    options.onPool?.(() => pool.destroy());
     try {
       await Promise.all(pending.map((task) => pool.run(task).then(note)));
     } finally {

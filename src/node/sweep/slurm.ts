@@ -214,7 +214,7 @@ function checkOptions(options: SlurmOptions): void {
  * @param out - The sweep folder.
  * @param options - Batch options (the CLI path is required).
  * @returns The submission, or null when every run has finished.
- * @throws {@link EbbflowError} `invalid_parameter` for bad options; `io_error` when sbatch fails.
+ * @throws `EbbflowError` `invalid_parameter` for bad options; `io_error` when sbatch fails.
  * @category Sweeps
  */
 export async function submitSweep(plan: SweepPlan, out: string, options: SlurmOptions): Promise<SlurmSubmission | null> {
@@ -238,7 +238,7 @@ export async function submitSweep(plan: SweepPlan, out: string, options: SlurmOp
  * @param dir - The sweep folder.
  * @param options - `failed`: failed runs only; `throttle`: `%K` for this array.
  * @returns The submission, or null when there is nothing to submit.
- * @throws {@link EbbflowError} `io_error` when the folder has no batch script or sbatch fails.
+ * @throws `EbbflowError` `io_error` when the folder has no batch script or sbatch fails.
  * @category Sweeps
  */
 export async function resubmitSweep(dir: string, options: { failed?: boolean | undefined; throttle?: number | undefined } = {}): Promise<SlurmSubmission | null> {
@@ -324,7 +324,7 @@ async function lastLine(file: string): Promise<string | undefined> {
  * Works for local sweeps too (no scheduler part).
  * @param dir - The sweep folder.
  * @returns The status.
- * @throws {@link EbbflowError} `io_error` / `parse_error` when the folder has no plan.
+ * @throws `EbbflowError` `io_error` / `parse_error` when the folder has no plan.
  * @category Sweeps
  */
 export async function sweepStatus(dir: string): Promise<SweepStatusReport> {
@@ -373,7 +373,7 @@ export async function sweepStatus(dir: string): Promise<SweepStatusReport> {
  * `squeue`), then returns.
  * @param jobs - Array job ids.
  * @param options - `timeoutMs` (default 10 minutes), `intervalMs` between polls (default 500).
- * @throws {@link EbbflowError} `io_error` on timeout.
+ * @throws `EbbflowError` `io_error` on timeout.
  * @category Sweeps
  */
 export async function waitForJobs(jobs: readonly string[], options: { timeoutMs?: number | undefined; intervalMs?: number | undefined } = {}): Promise<void> {

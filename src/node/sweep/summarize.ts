@@ -43,7 +43,7 @@ export interface SweepFolderSummary {
  * @param dir - The sweep folder.
  * @param options - Metric, split, level, band, whether to write files.
  * @returns The summary, its table, the SVG and the files written (`DIR/summary.json`, `DIR/plots/<metric>-<split>.svg`).
- * @throws {@link EbbflowError} `invalid_config` (path = the folder) when no run has finished; `invalid_parameter` for an unknown metric.
+ * @throws `EbbflowError` `invalid_config` (path = the folder) when no run has finished; `invalid_parameter` for an unknown metric.
  * @category Sweeps
  */
 export async function summarizeSweepFolder(dir: string, options: SummarizeOptions = {}): Promise<SweepFolderSummary> {

@@ -9,6 +9,7 @@ import { executeRun, type RunOutcome, type RunTask } from "./execute.js";
  * Executes one run in a worker thread.
  * @param task - The run to execute.
  * @returns Its outcome (errors are returned, not thrown).
+ * @category Sweeps
  */
 export default async function runInWorker(task: RunTask): Promise<RunOutcome> {
   return executeRun(task);
