@@ -28,8 +28,12 @@ export interface LearningRule {
   readonly phases: readonly string[];
   /** Writes the rule's parameter change for `batch` into `out` (cleared first) and returns it. */
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta;
-  /** Computes the change for `batch` and applies it (all-or-nothing; see applyDelta). */
-  step(batch: Batch): ParameterDelta;
+  /**
+   * Computes the change for `batch`, multiplied by `scale` (default 1; a learning-rate schedule's factor),
+   * and applies it (all-or-nothing; see applyDelta). Rules may add the change straight into the weights
+   * when that is provably safe (no constraint applies and the change is bounded), skipping the change matrix.
+   */
+  step(batch: Batch, scale?: number): void;
   /** The free-phase snapshot of the last batch, if the rule settles one. */
   readonly lastFree: Snapshot | null;
   /**
@@ -160,10 +164,64 @@ export abstract class SettlingRule implements LearningRule {
     // stateless by default
   }
 
-  step(batch: Batch): ParameterDelta {
+  step(batch: Batch, scale = 1): void {
     this.stepDelta ??= new ParameterDelta(this.net);
     this.computeDelta(batch, this.stepDelta);
+    if (scale !== 1) this.stepDelta.scale(scale);
     applyDelta(this.net, this.stepDelta);
-    return this.stepDelta;
+  }
+}
+
+/** One connection's change `alpha · (postAᵀ preA − postBᵀ preB)` (B patterns), as data. */
+export interface ContrastTerm {
+  readonly connection: Connection;
+  readonly alpha: number;
+  readonly postA: FloatArray;
+  readonly preA: FloatArray;
+  readonly postB: FloatArray;
+  readonly preB: FloatArray;
+  /** The sending layer is clamped in both phases (preA and preB hold the same values). */
+  readonly samePre: boolean;
+}
+
+/**
+ * Adds contrast terms straight into the weights, with no change matrix, when that is provably safe: no
+ * term's connection has a sign or bound constraint, and every changed weight stays finite (checked
+ * from bounds in O(B·(n + m)) plus one pass over each weight matrix: |Δw| ≤ |α|·B·(max|y_A|·max|x_A| +
+ * max|y_B|·max|x_B|)). Returns false, changing nothing, when it cannot prove that; the caller then takes
+ * the change-matrix path, which reports a non-finite update exactly.
+ */
+export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[], batch: number, scratch: FloatArray): boolean {
+  const K = net.kernels;
+  const largest = net.dtype === "float32" ? 3.4028234663852886e38 : Number.MAX_VALUE;
+  for (const t of terms) {
+    const c = t.connection;
+    if (c.spec.sign !== "any" || c.spec.bounds !== "none") return false;
+    const bound = Math.abs(t.alpha) * batch * (K.maxAbs(t.postA) * K.maxAbs(t.preA) + K.maxAbs(t.postB) * K.maxAbs(t.preB));
+    if (!Number.isFinite(bound) || !(K.maxAbs(c.weights) + bound < largest)) return false;
+  }
+  for (const t of terms) {
+    const c = t.connection;
+    const n = net.layers[c.to]!.size;
+    const m = net.layers[c.from]!.size;
+    if (t.samePre) {
+      const len = batch * n;
+      for (let i = 0; i < len; i++) scratch[i] = (t.postA[i] as number) - (t.postB[i] as number);
+      outerSum(K, c.weights, t.alpha, scratch.subarray(0, len), t.preA, batch, n, m, 1);
+    } else {
+      outerSum(K, c.weights, t.alpha, t.postA, t.preA, batch, n, m, 1);
+      outerSum(K, c.weights, -t.alpha, t.postB, t.preB, batch, n, m, 1);
+    }
+  }
+  return true;
+}
+
+/** Adds bias changes (already checked finite) to every non-input layer whose incoming connections are not all frozen. */
+export function addBiases(net: Network, biases: readonly FloatArray[]): void {
+  for (const l of net.layers) {
+    if (l.role === "input") continue;
+    const into = net.incoming[l.index] ?? [];
+    if (into.length > 0 && into.every((c) => c.spec.frozen)) continue;
+    net.kernels.axpy(l.bias, biases[l.index] as FloatArray, 1);
   }
 }

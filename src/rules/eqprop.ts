@@ -6,8 +6,8 @@ import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
-import { ParameterDelta } from "./delta.js";
-import { SettlingRule, batchSizeOf, connectionRate, contrast, contrastBias, type Batch, type RuleState } from "./base.js";
+import { ParameterDelta, applyDelta } from "./delta.js";
+import { SettlingRule, addBiases, addContrastInPlace, batchSizeOf, connectionRate, contrast, contrastBias, type Batch, type ContrastTerm, type RuleState } from "./base.js";
 import type { RuleConfig } from "./config.js";
 import type { Snapshot } from "../network/settle.js";
 
@@ -44,39 +44,84 @@ export class EquilibriumPropagation extends SettlingRule {
     if (state.signs !== undefined) this.signs = RandomStream.fromState(state.signs as RandomStreamState);
   }
 
-  computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
-    const net = this.net;
-    const B = batchSizeOf(net, batch);
+  /** Settles the free and nudged phases; returns the two states to contrast and the 1/β factor. */
+  private settlePhases(batch: Batch): { a: Snapshot; b: Snapshot; scale: number; B: number } {
+    const B = batchSizeOf(this.net, batch);
     const { settler, snaps } = this.workspace(B, 3);
     const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B) }, snaps[0]);
     this.lastFree = free;
     let beta = this.cfg.beta;
-    let a: Snapshot;
-    let b: Snapshot;
-    let scale: number;
     if (this.cfg.mode === "symmetric") {
-      a = settler.settle({ phase: "nudged", beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
-      b = settler.settle({ phase: "nudged", beta: -beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
-      scale = 1 / (2 * beta);
-    } else {
-      if (this.cfg.mode === "random-sign") beta *= this.signs.sign();
-      a = settler.settle({ phase: "nudged", beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
-      b = free;
-      scale = 1 / beta;
+      const a = settler.settle({ phase: "nudged", beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+      const b = settler.settle({ phase: "nudged", beta: -beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
+      return { a, b, scale: 1 / (2 * beta), B };
     }
+    if (this.cfg.mode === "random-sign") beta *= this.signs.sign();
+    const a = settler.settle({ phase: "nudged", beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+    return { a, b: free, scale: 1 / beta, B };
+  }
+
+  /** The weight changes as contrast terms (frozen connections left out). */
+  private terms(ph: { a: Snapshot; b: Snapshot; scale: number; B: number }, factor: number): ContrastTerm[] {
+    const net = this.net;
+    return net.connections
+      .filter((c) => !c.spec.frozen)
+      .map((c) => ({
+        connection: c,
+        alpha: (factor * connectionRate(this.cfg, c) * ph.scale) / ph.B,
+        postA: ph.a.activity[c.to] as FloatArray,
+        preA: ph.a.activity[c.from] as FloatArray,
+        postB: ph.b.activity[c.to] as FloatArray,
+        preB: ph.b.activity[c.from] as FloatArray,
+        samePre: net.layers[c.from]!.role === "input",
+      }));
+  }
+
+  private fill(ph: { a: Snapshot; b: Snapshot; scale: number; B: number }, out: ParameterDelta): ParameterDelta {
+    const net = this.net;
     out.clear();
-    const scratch = this.diffScratch(B);
-    for (const c of net.connections) {
-      if (c.spec.frozen) continue;
-      const n = net.layers[c.to]!.size;
-      const m = net.layers[c.from]!.size;
-      const clampedPre = net.layers[c.from]!.role === "input";
-      contrast(net.kernels, out.weights[c.index] as FloatArray, (connectionRate(this.cfg, c) * scale) / B, a.activity[c.to] as FloatArray, a.activity[c.from] as FloatArray, b.activity[c.to] as FloatArray, b.activity[c.from] as FloatArray, B, n, m, clampedPre, scratch);
+    const scratch = this.diffScratch(ph.B);
+    for (const t of this.terms(ph, 1)) {
+      const c = t.connection;
+      contrast(net.kernels, out.weights[c.index] as FloatArray, t.alpha, t.postA, t.preA, t.postB, t.preB, ph.B, net.layers[c.to]!.size, net.layers[c.from]!.size, t.samePre, scratch);
     }
     for (const l of net.layers) {
       if (l.role === "input") continue;
-      contrastBias(out.biases[l.index] as FloatArray, (this.cfg.rate * scale) / B, a.activity[l.index] as FloatArray, b.activity[l.index] as FloatArray, B, l.size);
+      contrastBias(out.biases[l.index] as FloatArray, (this.cfg.rate * ph.scale) / ph.B, ph.a.activity[l.index] as FloatArray, ph.b.activity[l.index] as FloatArray, ph.B, l.size);
     }
     return out;
+  }
+
+  computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
+    return this.fill(this.settlePhases(batch), out);
+  }
+
+  /** Settles the phases and adds the change straight into the weights when that is provably safe. */
+  override step(batch: Batch, scale = 1): void {
+    const ph = this.settlePhases(batch);
+    const biases = this.biasChanges(ph, scale);
+    if (biases !== null && addContrastInPlace(this.net, this.terms(ph, scale), ph.B, this.diffScratch(ph.B))) {
+      addBiases(this.net, biases);
+      return;
+    }
+    const d = this.fill(ph, (this.fallback ??= new ParameterDelta(this.net)));
+    if (scale !== 1) d.scale(scale);
+    applyDelta(this.net, d);
+  }
+
+  private fallback: ParameterDelta | null = null;
+  private biasBuffers: FloatArray[] | null = null;
+
+  /** Bias changes into small reusable arrays; null if any is not finite (the checked path then reports it). */
+  private biasChanges(ph: { a: Snapshot; b: Snapshot; scale: number; B: number }, factor: number): FloatArray[] | null {
+    const net = this.net;
+    this.biasBuffers ??= net.layers.map((l) => net.allocate(l.role === "input" ? 0 : l.size));
+    for (const l of net.layers) {
+      if (l.role === "input") continue;
+      const d = this.biasBuffers[l.index] as FloatArray;
+      contrastBias(d, (factor * this.cfg.rate * ph.scale) / ph.B, ph.a.activity[l.index] as FloatArray, ph.b.activity[l.index] as FloatArray, ph.B, l.size);
+      for (let j = 0; j < d.length; j++) if (!Number.isFinite((l.bias[j] as number) + (d[j] as number))) return null;
+    }
+    return this.biasBuffers;
   }
 }

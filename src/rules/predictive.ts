@@ -144,10 +144,10 @@ export class PredictiveCoding implements LearningRule {
     return out;
   }
 
-  step(batch: Batch): ParameterDelta {
+  step(batch: Batch, scale = 1): void {
     this.delta ??= new ParameterDelta(this.net);
     this.computeDelta(batch, this.delta);
+    if (scale !== 1) this.delta.scale(scale);
     applyDelta(this.net, this.delta);
-    return this.delta;
   }
 }

@@ -11,7 +11,7 @@ import type { Network } from "../network/network.js";
 import { Settler, Snapshot } from "../network/settle.js";
 import { issuesFromZod } from "../network/spec.js";
 import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
-import { createRule, applyDelta, ParameterDelta, type LearningRule, type RuleConfigInput, type RuleState } from "../rules/index.js";
+import { createRule, type LearningRule, type RuleConfigInput, type RuleState } from "../rules/index.js";
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "../rules/feedforward.js";
 import type { Dataset } from "./data/index.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
@@ -118,7 +118,6 @@ export class Trainer {
   private readonly inputName: string;
   private readonly outputName: string;
   private readonly outputIndex: number;
-  private readonly delta: ParameterDelta;
   private readonly order: number[];
   private readonly persistent: (FloatArray | null)[] | null;
   private readonly forward: boolean;
@@ -151,7 +150,6 @@ export class Trainer {
     if (problems.length > 0) throw new EbbflowError(problems);
     if (this.options.earlyStopping?.split === "test" && this.test === undefined) fail("invalid_config", "training.earlyStopping.split", '"train" (no test set was given)', "test");
     this.shuffleStream = createRandom(extras.seed ?? net.spec.seed).child("train/shuffle");
-    this.delta = new ParameterDelta(net);
     this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && FEEDFORWARD.has(this.rule.config.rule));
     this.order = this.forward ? forwardOrder(net) : [];
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
@@ -247,9 +245,7 @@ export class Trainer {
       this.gather(idx, from, B, inBuf, tBuf);
       const batch = { inputs: { [this.inputName]: inBuf.subarray(0, B * ds.inputSize) }, targets: { [this.outputName]: tBuf.subarray(0, B * ds.targetSize) } };
       this.rule.freeStart = this.persistent ? this.persistentStart(idx, from, B) : null;
-      this.rule.computeDelta(batch, this.delta);
-      if (factor !== 1) this.delta.scale(factor);
-      applyDelta(this.net, this.delta);
+      this.rule.step(batch, factor);
       if (this.persistent) this.keepPersistent(idx, from, B);
       this.hooks.onBatch?.({ epoch, batch: b + 1, batches, size: B });
     }

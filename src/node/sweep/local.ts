@@ -77,7 +77,16 @@ export async function runSweepLocally(plan: SweepPlan, options: LocalSweepOption
     const threads = Math.min(workers, pending.length);
     const pool = new Piscina<RunTask, RunOutcome>({ filename: typeof file === "string" ? file : fileURLToPath(file), minThreads: threads, maxThreads: threads, concurrentTasksPerWorker: 1, idleTimeout: 1000 });
     try {
-      await Promise.all(pending.map((task) => pool.run(task).then(note)));
+      // a worker thread that dies (rather than a run that fails, which is returned) fails its run, not the sweep
+      const lost = (task: RunTask, e: unknown): RunOutcome => ({
+        index: task.run.index,
+        id: task.run.id,
+        status: "failed",
+        resumedFrom: 0,
+        epochs: 0,
+        error: { code: "error", path: "", message: `worker thread: ${(e as Error)?.message ?? String(e)}`, at: new Date().toISOString() },
+      });
+      await Promise.all(pending.map((task) => pool.run(task).then(note, (e: unknown) => note(lost(task, e)))));
     } finally {
       await pool.destroy();
     }
