@@ -17,3 +17,4 @@ export * from "./verify/index.js";
 export * from "./train/index.js";
 export { touchStripDataset, TOUCH_PATTERNS } from "./demo/touchStrip.js";
 export * from "./kernels/wasm/index.js";
+export * from "./sweep/index.js";

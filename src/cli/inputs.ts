@@ -4,15 +4,11 @@
  */
 import { promises as fs } from "node:fs";
 import path from "node:path";
-import { EbbflowError, fail, issueText } from "../errors/index.js";
+import { EbbflowError, fail } from "../errors/index.js";
 import { parseExperiment, type Experiment } from "../config/experiment.js";
 import { modelFromData, MODEL_FORMAT } from "../config/modelFile.js";
 import { buildNetwork, type Network } from "../network/network.js";
 import { parseRule, type RuleConfig } from "../rules/config.js";
-import type { Dataset } from "../train/data/index.js";
-import { parityDataset, xorDataset, trainTestSplit, fitScaler } from "../train/data/index.js";
-import { touchStripDataset } from "../demo/touchStrip.js";
-import { irisDataset, digitsDataset, loadDataset } from "../node/data.js";
 
 /** Reads and parses a JSON file; errors name the file. */
 export async function readJson(file: string): Promise<unknown> {
@@ -65,20 +61,4 @@ export async function readRuleArgument(text: string, extra: { rate?: number | un
   return parseRule(raw);
 }
 
-/** Built-in data sources and files; `touch-strip`, `xor`, `parity:N`, `iris`, `digits[:N]`, or a `.csv`/`.json` path. */
-export async function resolveData(source: string, options: { testFraction: number; seed: number | string; targetColumns?: readonly (number | string)[] | undefined; oneHot?: boolean | undefined; scale?: boolean | undefined; low?: number | undefined }): Promise<{ train: Dataset; test: Dataset | undefined }> {
-  let ds: Dataset;
-  const [name, arg] = source.split(":");
-  if (name === "xor") ds = xorDataset();
-  else if (name === "touch-strip") ds = touchStripDataset(options.low !== undefined ? { low: options.low, high: 1 - options.low } : {});
-  else if (name === "parity") ds = parityDataset(Number(arg ?? 3));
-  else if (name === "iris") ds = await irisDataset();
-  else if (name === "digits" || name === "mnist") ds = await digitsDataset(arg !== undefined ? { count: Number(arg) } : {});
-  else if (/\.(csv|json)$/i.test(source)) ds = await loadDataset(source, { ...(options.targetColumns !== undefined ? { targetColumns: options.targetColumns as readonly string[] } : {}), oneHot: options.oneHot });
-  else throw new EbbflowError(issueText("unknown_name", "--data", "touch-strip, xor, parity:N, iris, digits (or mnist), digits:N, or a .csv/.json file", JSON.stringify(source)));
-  if (options.testFraction <= 0) return { train: options.scale ? fitScaler(ds).apply(ds) : ds, test: undefined };
-  const { train, test } = trainTestSplit(ds, options.testFraction, options.seed);
-  if (!options.scale) return { train, test };
-  const scaler = fitScaler(train);
-  return { train: scaler.apply(train), test: scaler.apply(test) };
-}
+export { resolveData } from "../node/sources.js";

@@ -61,11 +61,16 @@ export class Snapshot {
   /** Per-step activities if recording was asked for: `record[step][layer]`. */
   record: FloatArray[][] | null = null;
 
-  /** Allocates a zeroed snapshot for `net` and `batch` patterns. */
-  constructor(net: Network, batch: number) {
+  /**
+   * Allocates a zeroed snapshot for `net` and `batch` patterns. With `shareInputsWith`, the input layers'
+   * arrays are those of another snapshot (the phases of one batch see the same inputs), saving memory.
+   */
+  constructor(net: Network, batch: number, shareInputsWith?: Snapshot) {
     this.batch = batch;
-    this.activity = net.layers.map((l) => net.allocate(batch * l.size));
-    this.state = net.spec.dynamics.kind === "energy" ? net.layers.map((l) => net.allocate(batch * l.size)) : this.activity;
+    const inputOf = (l: { index: number; role: string }, which: "activity" | "state"): FloatArray | null =>
+      shareInputsWith !== undefined && l.role === "input" && shareInputsWith.batch === batch ? (shareInputsWith[which][l.index] as FloatArray) : null;
+    this.activity = net.layers.map((l) => inputOf(l, "activity") ?? net.allocate(batch * l.size));
+    this.state = net.spec.dynamics.kind === "energy" ? net.layers.map((l) => inputOf(l, "state") ?? net.allocate(batch * l.size)) : this.activity;
   }
 
   /** Activity of one pattern of one layer, as a copy. */
@@ -131,7 +136,6 @@ export class Settler {
   private readonly drive: FloatArray[];
   private readonly netInput: FloatArray[];
   private readonly next: FloatArray[];
-  private readonly tmp: FloatArray[];
   private readonly scratch: FloatArray;
   private readonly clamped: boolean[];
   private readonly targetBuf: FloatArray[];
@@ -140,12 +144,13 @@ export class Settler {
     requireInteger("batch", batch, 1);
     this.net = net;
     this.batch = batch;
-    const alloc = () => net.layers.map((l) => net.allocate(batch * l.size));
-    this.drive = alloc();
-    this.netInput = alloc();
-    this.next = alloc();
-    this.tmp = alloc();
-    this.targetBuf = alloc();
+    // input layers are always clamped: they need no working buffers; only output layers take targets
+    const alloc = (keep: (role: string) => boolean) => net.layers.map((l) => net.allocate(keep(l.role) ? batch * l.size : 0));
+    const free = (role: string) => role !== "input";
+    this.drive = alloc(free);
+    this.netInput = alloc(free);
+    this.next = alloc(free);
+    this.targetBuf = alloc((role) => role === "output");
     this.scratch = net.allocate(Math.max(...net.layers.map((l) => l.size)));
     this.clamped = net.layers.map(() => false);
   }
@@ -263,7 +268,6 @@ export class Settler {
         this.inhibit(eta, i, snap.activity[i] as FloatArray);
         const x = snap.state[i] as FloatArray;
         const nx = this.next[i] as FloatArray;
-        const t = this.tmp[i] as FloatArray;
         const dt = dyn.dt;
         const nudge = phase === "nudged" && l.role === "output";
         const tgt = this.targetBuf[i] as FloatArray;
@@ -271,13 +275,13 @@ export class Settler {
           // rate dynamics: x += dt (f(eta) - x); nudging adds the current beta (t - x) to the net input,
           // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost
           if (nudge) for (let k = 0; k < len; k++) eta[k] = (eta[k] as number) + beta * ((tgt[k] as number) - (x[k] as number));
-          l.unit.fill(t, eta, len);
-          for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) - (x[k] as number));
+          l.unit.fill(nx, eta, len); // f(eta) first, then the step in place
+          for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) - (x[k] as number));
         } else {
           // energy dynamics: u += dt (rho'(u) eta - u) [+ dt beta (t - u)]  (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24)
-          l.unit.fillSlope(t, x, len);
-          if (nudge) for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) * (eta[k] as number) - (x[k] as number) + beta * ((tgt[k] as number) - (x[k] as number)));
-          else for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((t[k] as number) * (eta[k] as number) - (x[k] as number));
+          l.unit.fillSlope(nx, x, len); // rho'(u) first, then the step in place
+          if (nudge) for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) * (eta[k] as number) - (x[k] as number) + beta * ((tgt[k] as number) - (x[k] as number)));
+          else for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) * (eta[k] as number) - (x[k] as number));
           if (dyn.clip && Number.isFinite(l.unit.lower) && Number.isFinite(l.unit.upper)) {
             const lo = l.unit.lower;
             const hi = l.unit.upper;

@@ -8,3 +8,5 @@ export * from "./data.js";
 export * from "./plot.js";
 export * from "./parallel/index.js";
 export * from "./bench/index.js";
+export * from "./sweep/index.js";
+export * from "./sources.js";

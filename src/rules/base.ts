@@ -135,7 +135,8 @@ export abstract class SettlingRule implements LearningRule {
       ws = { settler: new Settler(this.net, batch), snaps: [] };
       this.settlers.set(batch, ws);
     }
-    while (ws.snaps.length < count) ws.snaps.push(new Snapshot(this.net, batch));
+    // the phases of one batch share the input layers' arrays (same inputs in every phase)
+    while (ws.snaps.length < count) ws.snaps.push(new Snapshot(this.net, batch, ws.snaps[0]));
     return ws;
   }
 
@@ -145,7 +146,8 @@ export abstract class SettlingRule implements LearningRule {
   protected diffScratch(batch: number): FloatArray {
     let d = this.diffs.get(batch);
     if (d === undefined) {
-      d = this.net.allocate(batch * Math.max(...this.net.layers.map((l) => l.size)));
+      // differences are taken on receiving layers, which are never input layers
+      d = this.net.allocate(batch * Math.max(0, ...this.net.layers.filter((l) => l.role !== "input").map((l) => l.size)));
       this.diffs.set(batch, d);
     }
     return d;

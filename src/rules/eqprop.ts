@@ -47,7 +47,7 @@ export class EquilibriumPropagation extends SettlingRule {
   /** Settles the free and nudged phases; returns the two states to contrast and the 1/β factor. */
   private settlePhases(batch: Batch): { a: Snapshot; b: Snapshot; scale: number; B: number } {
     const B = batchSizeOf(this.net, batch);
-    const { settler, snaps } = this.workspace(B, 3);
+    const { settler, snaps } = this.workspace(B, this.cfg.mode === "symmetric" ? 3 : 2);
     const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B) }, snaps[0]);
     this.lastFree = free;
     let beta = this.cfg.beta;

@@ -7,6 +7,7 @@ import path from "node:path";
 import { arraySpec, batchScript, parseArraySpec } from "../../src/node/sweep/slurm.js";
 import { EbbflowError } from "../../src/errors/index.js";
 import { submitSweep } from "../../src/node/sweep/slurm.js";
+import { runSweepLocally } from "../../src/node/sweep/local.js";
 import { expandSweep } from "../../src/sweep/expand.js";
 import { check } from "../helpers/property.js";
 import { stripExperiment as base } from "./fixtures.js";
@@ -41,11 +42,12 @@ describe("Slurm array specs and the batch script (no cluster needed)", () => {
     expect(r.stdout).toBe(`/opt/my tools/it's/main.js sweep task ${dir} --index 5\n`);
   });
 
-  it("rejects bad batch options before anything is submitted", async () => {
+  it("rejects bad batch options and worker counts before anything runs", async () => {
     const plan = expandSweep({ base, seeds: [1] }, base);
     const out = mkdtempSync(path.join(tmpdir(), "ebbflow-slurm-options-"));
     await expect(submitSweep(plan, out, { cli: "relative/main.js" })).rejects.toThrow(expect.objectContaining({ path: "cli" }));
     await expect(submitSweep(plan, out, { cli: "/x/main.js", time: "ten minutes" })).rejects.toThrow(expect.objectContaining({ path: "time" }));
     await expect(submitSweep(plan, out, { cli: "/x/main.js", throttle: 0 })).rejects.toThrow(EbbflowError);
+    for (const workers of [-1, 1.5, Number.NaN]) await expect(runSweepLocally(plan, { out, workers })).rejects.toThrow(expect.objectContaining({ code: "invalid_parameter", path: "workers" }));
   });
 });

@@ -1,7 +1,7 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
 import { expandSweep, runIdOf, type SweepPlan } from "../../src/sweep/expand.js";
-import { formatConfigPath, parseConfigPath } from "../../src/sweep/paths.js";
+import { formatConfigPath, lookupPath, parseConfigPath, setPath } from "../../src/sweep/paths.js";
 import { parseSweepFile } from "../../src/sweep/schema.js";
 import { EbbflowError, type Issue } from "../../src/errors/index.js";
 import { check } from "../helpers/property.js";
@@ -239,5 +239,31 @@ describe("config paths", () => {
         expect(parseConfigPath(text)).toEqual({ ok: true, segments: segs });
       }),
     );
+  });
+
+  it("a value set at an existing path is found there, and nothing else changes", () => {
+    check(
+      fc.property(fc.jsonValue({ maxDepth: 3 }), fc.nat(), fc.jsonValue({ maxDepth: 1 }), (doc, pick, value) => {
+        // collect the paths that exist in a random document, then set one of them
+        const paths: (string | number)[][] = [];
+        const walk = (v: unknown, at: (string | number)[]) => {
+          if (at.length > 0) paths.push(at);
+          if (Array.isArray(v)) v.forEach((x, i) => walk(x, [...at, i]));
+          else if (v !== null && typeof v === "object") for (const [k, x] of Object.entries(v)) walk(x, [...at, k]);
+        };
+        const root = { doc };
+        walk(root, []);
+        const target = paths[pick % paths.length]!;
+        const copy = JSON.parse(JSON.stringify(root)) as unknown;
+        expect(setPath(copy, target, value)).toBe(true);
+        expect(lookupPath(copy, target)).toEqual({ found: true, value });
+        for (const other of paths) {
+          const related = other.length <= target.length ? target.slice(0, other.length).every((s, i) => s === other[i]) : other.slice(0, target.length).every((s, i) => s === target[i]);
+          if (!related) expect(lookupPath(copy, other)).toEqual(lookupPath(root, other));
+        }
+      }),
+    );
+    expect(lookupPath({ a: [1, 2] }, ["a", 5])).toEqual({ found: false, depth: 1, parentKind: "array", available: ["indices 0 to 1"] });
+    expect(setPath({ a: 1 }, ["b", "c"], 2)).toBe(false);
   });
 });

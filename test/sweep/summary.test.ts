@@ -1,7 +1,10 @@
 import { describe, it, expect } from "vitest";
 import { expandSweep } from "../../src/sweep/expand.js";
 import { formatSummaryTable, summarizeRuns, type RunFinal } from "../../src/sweep/summary.js";
+import fc from "fast-check";
+import { summarizeSample } from "../../src/sweep/stats.js";
 import { expectClose } from "../helpers/tolerance.js";
+import { check } from "../helpers/property.js";
 import { stripExperiment as base } from "./fixtures.js";
 
 const plan = expandSweep({ base, grid: { "rule.rate": [0.5, 1] }, seeds: [1, 2, 3] }, base);
@@ -46,6 +49,24 @@ describe("summaries across seeds", () => {
     // 4 and 6: mean 5, sd √2, half-width t(0.975, 1) · √2/√2 = 12.7062
     expectClose(b.value!.mean, 5, 1e-15, "mean");
     expectClose(b.value!.halfWidth!, 12.7062, 1e-4, "half-width");
+  });
+
+  it("summarises each configuration exactly as the sample summary of its own seeds' values", () => {
+    check(
+      fc.property(fc.array(fc.double({ min: 0, max: 100, noNaN: true }), { minLength: 6, maxLength: 6 }), fc.array(fc.boolean(), { minLength: 6, maxLength: 6 }), (values, present) => {
+        const m = new Map<string, RunFinal>();
+        plan.runs.forEach((r, i) => {
+          if (present[i]) m.set(r.id, { epochs: 5, train: { sse: values[i]! } });
+        });
+        if (m.size === 0) return;
+        const s = summarizeRuns(plan, m, { metric: "sse", split: "train" });
+        s.configurations.forEach((c, ci) => {
+          const mine = [0, 1, 2].map((k) => ci * 3 + k).filter((i) => present[i]).map((i) => values[i]!);
+          expect(c.unfinished).toHaveLength(3 - mine.length);
+          expect(c.value).toEqual(mine.length > 0 ? summarizeSample(mine) : null);
+        });
+      }),
+    );
   });
 
   it("prints a table with one line per configuration", () => {

@@ -13,7 +13,7 @@ import { Trainer, type StopReason } from "../../train/loop.js";
 import type { SweepRun } from "../../sweep/expand.js";
 import { loadCheckpoint, ResultsWriter, saveCheckpoint } from "../checkpoint.js";
 import { saveModel, writeFileAtomic } from "../files.js";
-import { resolveData } from "../../cli/inputs.js";
+import { resolveData } from "../sources.js";
 import { VERSION } from "../../cli/version.js";
 import { readRunProgress, runFiles, type RunFailure } from "./files.js";
 
