@@ -15,11 +15,12 @@ export interface CheckCommandOptions {
   readonly examples?: number;
   readonly reference?: GradientReference;
   readonly json?: boolean;
+  readonly kernels?: "auto" | "typescript" | "wasm";
 }
 
 /** Runs `ebbflow check MODEL.json ...`. */
 export async function checkCommand(modelFile: string, o: CheckCommandOptions): Promise<void> {
-  const { experiment, net } = await readModelArgument(modelFile);
+  const { experiment, net } = await readModelArgument(modelFile, o.kernels ?? "auto");
   const rules = o.rule !== undefined && o.rule.length > 0 ? await Promise.all(o.rule.map((r) => readRuleArgument(r, { rate: o.rate ?? 1, beta: o.beta }))) : experiment.rules;
   if (rules.length === 0) fail("invalid_config", "--rule", "at least one rule (on the command line or in the experiment's rules)", "none");
   const source = o.data ?? experiment.data?.source;

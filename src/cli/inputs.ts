@@ -8,6 +8,7 @@ import { EbbflowError, fail } from "../errors/index.js";
 import { parseExperiment, type Experiment } from "../config/experiment.js";
 import { modelFromData, MODEL_FORMAT } from "../config/modelFile.js";
 import { buildNetwork, type Network } from "../network/network.js";
+import { selectBackend, type BackendChoice } from "../kernels/wasm/loader.js";
 import { parseRule, type RuleConfig } from "../rules/config.js";
 
 /** Reads and parses a JSON file; errors name the file. */
@@ -26,15 +27,16 @@ export async function readJson(file: string): Promise<unknown> {
 }
 
 /** A model argument: an experiment file, a bare network declaration, or a saved model file (with weights). */
-export async function readModelArgument(file: string): Promise<{ experiment: Experiment; net: Network }> {
+export async function readModelArgument(file: string, kernels: BackendChoice = "typescript"): Promise<{ experiment: Experiment; net: Network }> {
+  const backend = selectBackend(kernels);
   const raw = await readJson(file);
   try {
     if (raw !== null && typeof raw === "object" && (raw as { format?: unknown }).format === MODEL_FORMAT) {
-      const net = modelFromData(raw);
+      const net = modelFromData(raw, { backend });
       return { experiment: parseExperiment({ network: net.spec }), net };
     }
     const experiment = parseExperiment(raw);
-    return { experiment, net: buildNetwork(experiment.network) };
+    return { experiment, net: buildNetwork(experiment.network, { backend }) };
   } catch (e) {
     if (e instanceof EbbflowError) throw new EbbflowError(e.issues.map((i) => ({ ...i, path: `${path.basename(file)}: ${i.path}` })));
     throw e;

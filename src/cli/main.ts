@@ -54,6 +54,7 @@ program
   .option("--out <dir>", "output folder (results.jsonl, model.json, checkpoint.json)")
   .option("--checkpoint-every <n>", "epochs between checkpoints", int("--checkpoint-every"))
   .option("--resume", "continue from the output folder's checkpoint")
+  .addOption(new Option("--kernels <kind>", "kernels: auto (WebAssembly SIMD when the engine has it), typescript or wasm").choices(["auto", "typescript", "wasm"]).default("auto"))
   .option("--json", "machine-readable output")
   .action(guard(trainCommand));
 
@@ -67,6 +68,7 @@ program
   .option("--beta <beta>", "nudging strength for eqprop", num("--beta"))
   .option("--examples <n>", "examples in the batch", int("--examples"))
   .addOption(new Option("--reference <kind>", "exact reference").choices(["recurrent", "finite-difference", "feedforward"]))
+  .addOption(new Option("--kernels <kind>", "kernels: auto, typescript or wasm").choices(["auto", "typescript", "wasm"]).default("auto"))
   .option("--json", "machine-readable output")
   .action(guard(checkCommand));
 

@@ -28,13 +28,14 @@ export interface TrainCommandOptions {
   readonly json?: boolean;
   readonly scale?: boolean;
   readonly persistent?: boolean;
+  readonly kernels?: "auto" | "typescript" | "wasm";
 }
 
 const seedOf = (s: string | undefined, fallback: number | string): number | string => (s === undefined ? fallback : /^-?\d+$/.test(s) ? Number(s) : s);
 
 /** Runs `ebbflow train MODEL.json ...`. */
 export async function trainCommand(modelFile: string, o: TrainCommandOptions): Promise<void> {
-  const { experiment, net: built } = await readModelArgument(modelFile);
+  const { experiment, net: built } = await readModelArgument(modelFile, o.kernels ?? "auto");
   const seed = seedOf(o.seed, experiment.network.seed);
   const rule = o.rule !== undefined ? await readRuleArgument(o.rule, { rate: o.rate, beta: o.beta }) : experiment.rules[0];
   if (rule === undefined) fail("invalid_config", "--rule", "a rule (on the command line or in the experiment's rules)", "none");
@@ -57,12 +58,14 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
   let net = built;
   let resumed = null;
   if (o.resume) {
-    try {
-      await fs.access(files.checkpoint);
-      resumed = await loadCheckpoint(files.checkpoint);
+    const exists = await fs.access(files.checkpoint).then(
+      () => true,
+      () => false,
+    );
+    // no checkpoint yet: start from the beginning; a damaged one is an error, never silently ignored
+    if (exists) {
+      resumed = await loadCheckpoint(files.checkpoint, { backend: built.kernels });
       net = resumed.net;
-    } catch {
-      resumed = null;
     }
   }
   const progress = new Progress(training.epochs, "training", o.json === true);

@@ -13,7 +13,7 @@
  * @module
  */
 import { EbbflowError, fail, issueText, describeValue } from "../errors/index.js";
-import { buildNetwork, type Network } from "../network/network.js";
+import { buildNetwork, type BuildOptions, type Network } from "../network/network.js";
 import { safeParseNetwork, type NetworkSpec } from "../network/spec.js";
 import { decodeFloatsInto, encodeFloats } from "./encoding.js";
 
@@ -62,7 +62,7 @@ export function modelToJson(net: Network): string {
  * @throws {@link EbbflowError} `parse_error`, `invalid_config` or `shape_mismatch`.
  * @category Files
  */
-export function modelFromData(data: unknown): Network {
+export function modelFromData(data: unknown, options: BuildOptions = {}): Network {
   let obj = data;
   if (typeof data === "string") {
     try {
@@ -84,7 +84,7 @@ export function modelFromData(data: unknown): Network {
   if (problems.length > 0) throw new EbbflowError(problems);
   if (!parsed.ok || p === undefined) throw new EbbflowError(issueText("parse_error", "", "a model file", "an invalid one"));
   if (p.dtype !== parsed.value.dtype) fail("parse_error", "parameters.dtype", JSON.stringify(parsed.value.dtype), p.dtype);
-  const net = buildNetwork(parsed.value);
+  const net = buildNetwork(parsed.value, options);
   const table = (key: string): Record<string, unknown> => {
     const t = p[key];
     if (t === null || typeof t !== "object") fail("parse_error", `parameters.${key}`, "an object", t);

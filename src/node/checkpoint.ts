@@ -5,7 +5,7 @@
 import { promises as fs } from "node:fs";
 import { fail } from "../errors/index.js";
 import { modelFromData, modelToData, type ModelFile } from "../config/modelFile.js";
-import type { Network } from "../network/network.js";
+import type { BuildOptions, Network } from "../network/network.js";
 import type { EpochRecord, StopReason, Trainer, TrainerState } from "../train/loop.js";
 import { writeFileAtomic } from "./files.js";
 import type { ResultsHeaderLine } from "./plot/results.js";
@@ -29,7 +29,7 @@ export async function saveCheckpoint(file: string, trainer: Trainer, config: unk
 }
 
 /** Reads a checkpoint: the rebuilt network (bit-exact weights), the trainer state and the config. @category Files */
-export async function loadCheckpoint(file: string): Promise<{ net: Network; state: TrainerState; config: unknown }> {
+export async function loadCheckpoint(file: string, options: BuildOptions = {}): Promise<{ net: Network; state: TrainerState; config: unknown }> {
   let text: string;
   try {
     text = await fs.readFile(file, "utf8");
@@ -44,7 +44,7 @@ export async function loadCheckpoint(file: string): Promise<{ net: Network; stat
   }
   if (data.format !== CHECKPOINT_FORMAT) fail("parse_error", `${file}: format`, JSON.stringify(CHECKPOINT_FORMAT), data.format);
   if (data.trainer === undefined || data.model === undefined) fail("parse_error", `${file}: trainer`, "a trainer state and a model", "missing");
-  return { net: modelFromData(data.model), state: data.trainer, config: data.config };
+  return { net: modelFromData(data.model, options), state: data.trainer, config: data.config };
 }
 
 /**
