@@ -13,6 +13,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   settle: () => import("./settle.js"),
   training: () => import("./training.js"),
   agreement: () => import("./agreement.js"),
+  digits: () => import("./digits.js"),
 };
 
 const wanted = process.argv.slice(2);
