@@ -14,7 +14,7 @@ export async function run(): Promise<void> {
   const backend = selectBackend("auto");
   console.log(`digits: ${train.size} training and ${test.size} held-out images; kernels ${backend.name}; ${EPOCHS} epochs`);
   const cases: [string, RuleConfigInput, "rate"][] = [
-    ["EqProp (β = 0.5, symmetric nudging)", { rule: "eqprop", beta: 0.5, rate: 0.1, mode: "symmetric" }, "rate"],
+    ["EqProp (β = 0.5; rate 0.5, 1.5 on image->hidden)", { rule: "eqprop", beta: 0.5, rate: 0.5, rates: { "image->hidden": 1.5 } }, "rate"],
     ["backprop (feedforward pass)", { rule: "backprop", rate: 0.5 }, "rate"],
   ];
   console.log("| rule | epoch | held-out accuracy | training accuracy | seconds per epoch |");
