@@ -95,7 +95,7 @@ export function contrast(k: KernelBackend, out: FloatArray, alpha: number, postA
   if (samePre && scratch !== undefined) {
     const len = batch * n;
     for (let i = 0; i < len; i++) scratch[i] = (postA[i] as number) - (postB[i] as number);
-    outerSum(k, out, alpha, scratch.subarray(0, len), preA, batch, n, m, 0);
+    outerSum(k, out, alpha, scratch, preA, batch, n, m, 0); // kernels read the first B×n entries
     return;
   }
   outerSum(k, out, alpha, postA, preA, batch, n, m, 0);
@@ -209,7 +209,7 @@ export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[],
     if (t.samePre) {
       const len = batch * n;
       for (let i = 0; i < len; i++) scratch[i] = (t.postA[i] as number) - (t.postB[i] as number);
-      outerSum(K, c.weights, t.alpha, scratch.subarray(0, len), t.preA, batch, n, m, 1);
+      outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1); // kernels read the first B×n entries
     } else {
       outerSum(K, c.weights, t.alpha, t.postA, t.preA, batch, n, m, 1);
       outerSum(K, c.weights, -t.alpha, t.postB, t.preB, batch, n, m, 1);
