@@ -6,6 +6,7 @@
 
 import { gemm, gemmWorkspaceBytes } from "./gemm";
 import { gemv, ger } from "./level2";
+import { unitFill32, unitFill64 } from "./units";
 import { addRowVector, allFinite, axpby, axpy, binary, dot, fill, maxAbs, maxAbsDiff, scale, sumRows } from "./vector";
 
 export { gemmWorkspaceBytes };
@@ -117,4 +118,15 @@ export function sumRowsF32(out: usize, a: usize, rows: i32, cols: i32, alpha: f6
 }
 export function sumRowsF64(out: usize, a: usize, rows: i32, cols: i32, alpha: f64, beta: f64): void {
   sumRows<f64>(out, a, rows, cols, alpha, beta);
+}
+
+/**
+ * Unit (activation) function or slope, elementwise: code = kind * 2 + slope
+ * with kind 0 logistic (gain, offset), 1 tanh, 2 relu, 3 hard sigmoid, 4 linear.
+ */
+export function unitFillF32(code: i32, gain: f64, offset: f64, out: usize, x: usize, n: i32): void {
+  unitFill32(code, gain, offset, out, x, n);
+}
+export function unitFillF64(code: i32, gain: f64, offset: f64, out: usize, x: usize, n: i32): void {
+  unitFill64(code, gain, offset, out, x, n);
 }

@@ -6,6 +6,7 @@
  */
 import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
+import { fillUnit } from "../kernels/wasm/units.js";
 import type { Network } from "./network.js";
 
 /** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
@@ -275,11 +276,11 @@ export class Settler {
           // rate dynamics: x += dt (f(eta) - x); nudging adds the current beta (t - x) to the net input,
           // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost
           if (nudge) for (let k = 0; k < len; k++) eta[k] = (eta[k] as number) + beta * ((tgt[k] as number) - (x[k] as number));
-          l.unit.fill(nx, eta, len); // f(eta) first, then the step in place
+          fillUnit(net.kernels, l.unit, false, nx, eta, len); // f(eta) first, then the step in place
           for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) - (x[k] as number));
         } else {
           // energy dynamics: u += dt (rho'(u) eta - u) [+ dt beta (t - u)]  (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24)
-          l.unit.fillSlope(nx, x, len); // rho'(u) first, then the step in place
+          fillUnit(net.kernels, l.unit, true, nx, x, len); // rho'(u) first, then the step in place
           if (nudge) for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) * (eta[k] as number) - (x[k] as number) + beta * ((tgt[k] as number) - (x[k] as number)));
           else for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) * (eta[k] as number) - (x[k] as number));
           if (dyn.clip && Number.isFinite(l.unit.lower) && Number.isFinite(l.unit.upper)) {
@@ -308,7 +309,7 @@ export class Settler {
         const i = l.index;
         if (this.clamped[i]) continue;
         (snap.state[i] as FloatArray).set(this.next[i] as FloatArray);
-        if (energy) l.unit.fill(snap.activity[i] as FloatArray, snap.state[i] as FloatArray);
+        if (energy) fillUnit(net.kernels, l.unit, false, snap.activity[i] as FloatArray, snap.state[i] as FloatArray);
       }
       if (snap.record !== null) snap.record.push(snap.activity.map((a) => a.slice()));
       if (options.onStep !== undefined) options.onStep(snap, step);

@@ -5,6 +5,7 @@
  */
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
+import { fillUnit } from "../kernels/wasm/units.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta, applyDelta } from "./delta.js";
@@ -68,8 +69,8 @@ export function runForward(net: Network, order: readonly number[], batch: Batch,
     const a = pass.netInput[i] as FloatArray;
     for (let p = 0; p < B; p++) a.set(l.bias, p * l.size);
     for (const c of net.incoming[i] ?? []) gemm(a, pass.activity[c.from] as FloatArray, c.weights, B, l.size, net.layers[c.from]!.size, false, true, 1, 1);
-    l.unit.fill(x, a);
-    l.unit.fillSlope(pass.slope[i] as FloatArray, a);
+    fillUnit(net.kernels, l.unit, false, x, a);
+    fillUnit(net.kernels, l.unit, true, pass.slope[i] as FloatArray, a);
   }
 }
 

@@ -96,6 +96,29 @@ export interface KernelBackend {
   readonly addRowVector: typeof addRowVector;
   /** Column sums, as {@link sumRows}. */
   readonly sumRows: typeof sumRows;
+  /**
+   * Optional: a unit (activation) function or its slope, elementwise:
+   * `out[i] = f(x[i])` (or `f'(x[i])` when `slope`) for `i < n`, with the
+   * definitions of the unit functions (`createUnit`): `"logistic"` uses
+   * `gain` and `offset`, the other kinds ignore them. `out` may be `x`.
+   *
+   * Returns `false`, writing nothing, for a case the backend does not handle
+   * (the WASM backends handle only arena views of one dtype, never copy); the
+   * caller then runs the unit's own `fill`/`fillSlope`. The TypeScript
+   * backend does not define it. See `fillUnit` for the accuracy and a
+   * helper that falls back by itself.
+   */
+  readonly unitFill?:
+    | ((
+        kind: "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear",
+        slope: boolean,
+        gain: number,
+        offset: number,
+        out: FloatArray,
+        x: FloatArray,
+        n: number,
+      ) => boolean)
+    | undefined;
 }
 
 /** Validates the arguments of `allocate` (shared by every backend). */

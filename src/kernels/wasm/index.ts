@@ -25,3 +25,4 @@ export {
   wasmSimdSupported,
   type BackendChoice,
 } from "./loader.js";
+export { fillUnit, type UnitFillKind } from "./units.js";

@@ -19,6 +19,7 @@ import * as ts from "../index.js";
 import type { ReadonlyFloatArray } from "../types.js";
 import { checkAllocation, type KernelBackend } from "./backend.js";
 import { MAX_PAGES, PAGE_BYTES, createMemory, instantiate, type WasmBuild, type WasmMemory, type WasmModule } from "./platform.js";
+import { createUnitFill } from "./units.js";
 
 /** The exports of assembly/index.ts (byte offsets and element counts). */
 interface KernelExports {
@@ -53,6 +54,8 @@ interface KernelExports {
   addRowVectorF64(out: number, bias: number, rows: number, cols: number): void;
   sumRowsF32(out: number, a: number, rows: number, cols: number, alpha: number, beta: number): void;
   sumRowsF64(out: number, a: number, rows: number, cols: number, alpha: number, beta: number): void;
+  unitFillF32(code: number, gain: number, offset: number, out: number, x: number, n: number): void;
+  unitFillF64(code: number, gain: number, offset: number, out: number, x: number, n: number): void;
 }
 
 /**
@@ -630,6 +633,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
     sumSquares,
     addRowVector,
     sumRows,
+    unitFill: createUnitFill(X, own),
   };
   return backend;
 }
