@@ -1,5 +1,5 @@
 import { describe, it, expect } from "vitest";
-import { buildNetwork, createRule, randomAssociation, ParameterDelta, EbbflowError, type NetworkSpecInput } from "../../src/index.js";
+import { buildNetwork, createRule, randomAssociation, ParameterDelta, EbbflowError, loadWasmKernelsSync, wasmSimdSupported, type NetworkSpecInput } from "../../src/index.js";
 import { ParallelRule } from "../../src/node/index.js";
 
 const spec: NetworkSpecInput = {
@@ -49,6 +49,31 @@ describe("multi-core training (worker threads, shared parameters)", () => {
     const rule = createRule(single, { rule: "generec", rate: 0.3 });
     for (let i = 0; i < 5; i++) rule.step(batch);
     single.connections[0]!.weights.forEach((v, k) => expect(Math.abs(v - a[k]!)).toBeLessThan(1e-6));
+  });
+
+  it.skipIf(!wasmSimdSupported())("workers on WebAssembly kernels (own memory, parameters refreshed per batch) match one thread", async () => {
+    const net = buildNetwork(spec, { backend: loadWasmKernelsSync({ relaxed: false }) });
+    const one = createRule(net, { rule: "chl", rate: 0.2 }).computeDelta(batch, new ParameterDelta(net));
+    const par = await ParallelRule.create(net, { rule: "chl", rate: 0.2 }, 2);
+    try {
+      expect(par.kernels).toBe("wasm");
+      for (let i = 0; i < 2; i++) {
+        const two = await par.computeDelta(batch);
+        one.weights.forEach((w, j) => w.forEach((v, k) => expect(Math.abs(v - two.weights[j]![k]!)).toBeLessThan(1e-9 * Math.max(1, Math.abs(v)))));
+      }
+      // after a step the workers see the new parameters
+      await par.step(batch);
+      const moved = Array.from(par.net.connections[0]!.weights);
+      const again = await par.computeDelta(batch);
+      const ref = buildNetwork(spec);
+      ref.connections.forEach((c, i) => c.weights.set(par.net.connections[i]!.weights));
+      ref.layers.forEach((l, i) => l.bias.set(par.net.layers[i]!.bias));
+      const expected = createRule(ref, { rule: "chl", rate: 0.2 }).computeDelta(batch, new ParameterDelta(ref));
+      expected.weights[0]!.forEach((v, k) => expect(Math.abs(v - again.weights[0]![k]!)).toBeLessThan(1e-9 * Math.max(1, Math.abs(v))));
+      expect(moved.length).toBeGreaterThan(0);
+    } finally {
+      await par.close();
+    }
   });
 
   it("rules whose state changes per batch are refused with a clear error", async () => {

@@ -42,7 +42,9 @@ function checkRule(rule: RuleConfig): void {
 
 /**
  * A learning rule run on several worker threads. Its {@link ParallelRule.net} holds the parameters in
- * shared memory (a copy of the network given); train that network.
+ * shared memory (a copy of the network given); train that network. With WebAssembly kernels each worker
+ * keeps its own copy of the parameters in its kernels' memory and refreshes it once per batch (no copy
+ * per settling step); with TypeScript kernels the workers compute on the shared parameters directly.
  * @category Training
  * @example
  * ```ts
@@ -66,8 +68,11 @@ export class ParallelRule {
   private readonly delta: ParameterDelta;
   private readonly inputName: string;
   private readonly outputName: string;
+  /** The kernels the workers compute with. */
+  readonly kernels: "typescript" | "wasm";
 
-  private constructor(net: Network, config: RuleConfig, workers: number) {
+  private constructor(net: Network, config: RuleConfig, workers: number, kernels: "typescript" | "wasm") {
+    this.kernels = kernels;
     this.config = config;
     this.workers = workers;
     this.net = buildNetwork(net.spec, { allocate: sharedArray });
@@ -88,11 +93,13 @@ export class ParallelRule {
   }
 
   /** Starts `workers` threads for `rule` on a shared-memory copy of `net`. */
-  static async create(net: Network, rule: RuleConfigInput, workers: number): Promise<ParallelRule> {
+  static async create(net: Network, rule: RuleConfigInput, workers: number, options: { kernels?: "typescript" | "wasm" | undefined } = {}): Promise<ParallelRule> {
     if (!Number.isInteger(workers) || workers < 1) fail("invalid_parameter", "workers", "an integer >= 1", workers);
     const config = parseRule(rule);
     checkRule(config);
-    return new ParallelRule(net, config, workers);
+    // by default the workers use the same kind of kernels as the network they were given
+    const kernels = options.kernels ?? (net.kernels.name === "typescript" ? "typescript" : "wasm");
+    return new ParallelRule(net, config, workers, kernels);
   }
 
   /** The change for `batch` (mean over its patterns), computed on the workers; the network is not changed. */
@@ -117,6 +124,7 @@ export class ParallelRule {
         session: this.session,
         spec: this.net.spec,
         rule: this.config,
+        kernels: this.kernels,
         parameters: this.params,
         deltas: this.slots[i] as SharedArrayBuffer[],
         inputs: this.inputs,

@@ -11,6 +11,8 @@ export interface SliceTask {
   readonly session: number;
   readonly spec: NetworkSpec;
   readonly rule: RuleConfig;
+  /** Kernels the worker computes with: "wasm" builds the network in the worker's own WebAssembly memory and copies the shared parameters in once per batch. */
+  readonly kernels: "typescript" | "wasm";
   /** Parameter arrays' buffers in allocation order (shared, never copied). */
   readonly parameters: readonly SharedArrayBuffer[];
   /** Per slice, the change arrays' buffers in the same order as the parameters (shared). */

@@ -7,12 +7,16 @@
 import { buildNetwork, parameterBuffers, type Network } from "../../network/network.js";
 import { createRule, ParameterDelta, type LearningRule } from "../../rules/index.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
+import { typescriptBackend } from "../../kernels/wasm/backend.js";
+import { selectBackend } from "../../kernels/wasm/loader.js";
 import type { SliceTask } from "./protocol.js";
 
 const view = (dtype: Dtype, buf: SharedArrayBuffer): FloatArray => (dtype === "float32" ? new Float32Array(buf) : new Float64Array(buf));
 
 interface Session {
   readonly net: Network;
+  /** With WebAssembly kernels: the network's own parameter arrays and the shared ones to copy from per batch. */
+  readonly mirror: { own: FloatArray[]; shared: FloatArray[] } | null;
   readonly rule: LearningRule;
   readonly delta: ParameterDelta;
   readonly slots: FloatArray[];
@@ -23,12 +27,19 @@ function session(task: SliceTask): Session {
   let s = sessions.get(task.session);
   if (s === undefined) {
     let k = 0;
-    const net = buildNetwork(task.spec, { allocate: () => view(task.spec.dtype, task.parameters[k++] as SharedArrayBuffer), keepValues: true });
+    let net: Network;
+    let mirror: Session["mirror"] = null;
+    const shared = task.parameters.map((b) => view(task.spec.dtype, b));
+    const backend = task.kernels === "wasm" ? selectBackend("auto") : typescriptBackend;
+    if (backend !== typescriptBackend) {
+      net = buildNetwork(task.spec, { backend });
+      mirror = { own: parameterBuffers(net), shared };
+    } else net = buildNetwork(task.spec, { allocate: () => shared[k++] as FloatArray, keepValues: true });
     const rule = createRule(net, task.rule);
     const delta = new ParameterDelta(net);
     // the change arrays in parameter order (biases of every layer, weights, feedback)
     const slots = parameterBuffers(net).map(() => new Float64Array(0) as FloatArray);
-    s = { net, rule, delta, slots };
+    s = { net, mirror, rule, delta, slots };
     sessions.set(task.session, s);
   }
   return s;
@@ -38,6 +49,8 @@ function session(task: SliceTask): Session {
 export default function runSlice(task: SliceTask): number {
   const s = session(task);
   const { net } = s;
+  // WebAssembly kernels compute in the worker's own memory: bring in the current parameters (once per batch)
+  if (s.mirror !== null) s.mirror.own.forEach((a, i) => a.set(s.mirror!.shared[i] as FloatArray));
   const inputs = new Float64Array(task.inputs).subarray(task.start * task.inputSize, (task.start + task.count) * task.inputSize);
   const targets = new Float64Array(task.targets).subarray(task.start * task.targetSize, (task.start + task.count) * task.targetSize);
   s.rule.computeDelta({ inputs: { [task.inputName]: inputs }, targets: { [task.outputName]: targets } }, s.delta);
