@@ -4,13 +4,13 @@
  * same work measured in the same run. Two naive peers: one with the same clamp-aware algorithm (input
  * drive once per phase), one that recomputes the input drive on every step.
  */
-import { buildNetwork, Settler, type Dtype, type FloatArray } from "../src/index.js";
+import { buildNetwork, Settler, loadWasmKernelsSync, wasmSimdSupported, typescriptBackend, type Dtype, type FloatArray, type KernelBackend } from "../src/index.js";
 import { consume } from "./machine.js";
 
 const SIZES = [784, 256, 10] as const;
 const STEPS = 20;
 
-function network(dtype: Dtype) {
+function network(dtype: Dtype, backend: KernelBackend) {
   return buildNetwork({
     dtype,
     seed: 1,
@@ -24,7 +24,7 @@ function network(dtype: Dtype) {
       { from: "hidden", to: "digit", feedback: { kind: "tied", gain: 1 } },
     ],
     dynamics: { dt: 0.5, maxSteps: STEPS, tolerance: 1e-30 },
-  });
+  }, { backend });
 }
 
 /** Floating-point operations of one free phase of STEPS steps (multiply-add = 2). */
@@ -86,13 +86,15 @@ function time(fn: () => void, minMs = 400): number {
 
 export async function run(): Promise<void> {
   console.log(`784-256-10, ${STEPS} steps of the free phase; figures are medians of 3 timing rounds`);
-  console.log("| dtype | batch | ebbflow phases/s | ebbflow GFLOP/s | naive same algorithm (ratio) | naive recompute-drive (ratio) |");
-  console.log("| --- | --- | --- | --- | --- | --- |");
+  console.log("| kernels | dtype | batch | ebbflow phases/s | ebbflow GFLOP/s | naive same algorithm (ratio) | naive recompute-drive (ratio) |");
+  console.log("| --- | --- | --- | --- | --- | --- | --- |");
+  const backends: KernelBackend[] = [typescriptBackend, ...(wasmSimdSupported() ? [loadWasmKernelsSync({ relaxed: false, arenaBytes: 32 * 2 ** 20 })] : [])];
+  for (const backend of backends)
   for (const dtype of ["float32", "float64"] as const) {
     for (const batch of [1, 64]) {
-      const net = network(dtype);
+      const net = network(dtype, backend);
       const settler = new Settler(net, batch);
-      const x = net.dtype === "float32" ? new Float32Array(batch * SIZES[0]) : new Float64Array(batch * SIZES[0]);
+      const x = net.allocate(batch * SIZES[0]);
       for (let i = 0; i < x.length; i++) x[i] = (i * 7919) % 13 === 0 ? 1 : 0;
       const inputs = { image: x };
       const snap = settler.settle({ phase: "free", inputs });
@@ -107,7 +109,7 @@ export async function run(): Promise<void> {
       const tN = med(() => time(() => (naiveSettle(w1, w2, b1, b2, x, batch, true, buf), consume(buf.o))));
       const tR = med(() => time(() => (naiveSettle(w1, w2, b1, b2, x, batch, false, buf), consume(buf.o))));
       const gflops = flops(batch, true) / tE / 1e9;
-      console.log(`| ${dtype} | ${batch} | ${(1 / tE).toFixed(0)} (${(STEPS / tE).toFixed(0)} steps/s, ${((tE / batch) * 1e6).toFixed(1)} µs/example) | ${gflops.toFixed(2)} | ${(tN / tE).toFixed(2)}× | ${(tR / tE).toFixed(2)}× |`);
+      console.log(`| ${backend.name} | ${dtype} | ${batch} | ${(1 / tE).toFixed(0)} (${(STEPS / tE).toFixed(0)} steps/s, ${((tE / batch) * 1e6).toFixed(1)} µs/example) | ${gflops.toFixed(2)} | ${(tN / tE).toFixed(2)}× | ${(tR / tE).toFixed(2)}× |`);
     }
   }
 }
