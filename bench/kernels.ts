@@ -11,7 +11,8 @@
  * two workers for one case at a time, in turn, so both precisions of a case
  * are measured under similar machine load.
  */
-import { Worker, isMainThread, parentPort, workerData } from "node:worker_threads";
+import { PrecisionWorker } from "./precision-worker.js";
+import { isMainThread, parentPort, workerData } from "node:worker_threads";
 import { gemm, gemv, ger } from "../src/kernels/index.js";
 import { createRandom, fillUniform } from "../src/random/index.js";
 import { allocate, type Dtype, type FloatArray } from "../src/types/index.js";
@@ -182,39 +183,9 @@ function cases(dtype: Dtype): Case[] {
 }
 
 /** A worker thread holding the cases of one precision; runs one case per request. */
-class PrecisionWorker {
-  private readonly worker: Worker;
-  private constructor(worker: Worker) {
-    this.worker = worker;
-  }
-
-  static async start(dtype: Dtype): Promise<{ runner: PrecisionWorker; count: number }> {
-    const worker = new Worker(new URL(import.meta.url), { workerData: { tag: WORKER_TAG, dtype } });
-    const runner = new PrecisionWorker(worker);
-    const count = await runner.next<number>();
-    return { runner, count };
-  }
-
-  private next<R>(): Promise<R> {
-    return new Promise((resolve, reject) => {
-      const onError = (e: Error) => reject(e);
-      this.worker.once("error", onError);
-      this.worker.once("message", (value: R) => {
-        this.worker.off("error", onError);
-        resolve(value);
-      });
-    });
-  }
-
-  run(index: number): Promise<Row> {
-    const reply = this.next<Row>();
-    this.worker.postMessage(index);
-    return reply;
-  }
-
-  stop(): Promise<number> {
-    return this.worker.terminate();
-  }
+/** Starts this file as a worker for one precision. */
+async function start(dtype: Dtype) {
+  return PrecisionWorker.start<Row, number>(new URL(import.meta.url), WORKER_TAG, dtype);
 }
 
 function fmt(x: number, digits = 2): string {
@@ -223,13 +194,13 @@ function fmt(x: number, digits = 2): string {
 
 /** Runs the kernel benchmark and prints one table (GFLOP/s and ratios). */
 export async function run(): Promise<void> {
-  const w64 = await PrecisionWorker.start("float64");
-  const w32 = await PrecisionWorker.start("float32");
+  const w64 = await start("float64");
+  const w32 = await start("float32");
   const f64: Row[] = [];
   const f32: Row[] = [];
   try {
     // the two precisions take turns case by case, so both meet similar machine load
-    for (let q = 0; q < w64.count; q++) {
+    for (let q = 0; q < w64.hello; q++) {
       f64.push(await w64.runner.run(q));
       f32.push(await w32.runner.run(q));
     }

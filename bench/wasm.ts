@@ -20,9 +20,10 @@
  * relaxed-SIMD build is enabled with `v8.setFlagsFromString` before anything
  * is compiled, so both builds are measured in one run.
  */
+import { PrecisionWorker } from "./precision-worker.js";
 import { readFileSync } from "node:fs";
 import { setFlagsFromString } from "node:v8";
-import { Worker, isMainThread, parentPort, workerData } from "node:worker_threads";
+import { isMainThread, parentPort, workerData } from "node:worker_threads";
 import { loadWasmKernelsSync, typescriptBackend, wasmRelaxedSimdSupported, type KernelBackend } from "../src/kernels/wasm/index.js";
 import { createRandom, fillUniform } from "../src/random/index.js";
 import type { Dtype, FloatArray } from "../src/types/index.js";
@@ -144,36 +145,9 @@ function cases(dtype: Dtype): Case[] {
 }
 
 /** A worker thread holding the cases of one precision; runs one case per request. */
-class PrecisionWorker {
-  private constructor(private readonly worker: Worker) {}
-
-  static async start(dtype: Dtype): Promise<{ runner: PrecisionWorker; count: number; names: string[] }> {
-    const worker = new Worker(new URL(import.meta.url), { workerData: { tag: WORKER_TAG, dtype } });
-    const runner = new PrecisionWorker(worker);
-    const hello = await runner.next<{ count: number; names: string[] }>();
-    return { runner, ...hello };
-  }
-
-  private next<R>(): Promise<R> {
-    return new Promise((resolve, reject) => {
-      const onError = (e: Error) => reject(e);
-      this.worker.once("error", onError);
-      this.worker.once("message", (value: R) => {
-        this.worker.off("error", onError);
-        resolve(value);
-      });
-    });
-  }
-
-  run(index: number): Promise<Row> {
-    const reply = this.next<Row>();
-    this.worker.postMessage(index);
-    return reply;
-  }
-
-  stop(): Promise<number> {
-    return this.worker.terminate();
-  }
+/** Starts this file as a worker for one precision. */
+async function start(dtype: Dtype) {
+  return PrecisionWorker.start<Row, { count: number; names: string[] }>(new URL(import.meta.url), WORKER_TAG, dtype);
 }
 
 function fmt(x: number, digits = 2): string {
@@ -183,11 +157,11 @@ function fmt(x: number, digits = 2): string {
 /** Runs the benchmark and prints one table per precision. */
 export async function run(): Promise<void> {
   const peak = estimatePeak();
-  const w64 = await PrecisionWorker.start("float64");
-  const w32 = await PrecisionWorker.start("float32");
+  const w64 = await start("float64");
+  const w32 = await start("float32");
   const rows: Record<Dtype, Row[]> = { float64: [], float32: [] };
   try {
-    for (let q = 0; q < w64.count; q++) {
+    for (let q = 0; q < w64.hello.count; q++) {
       rows.float64.push(await w64.runner.run(q));
       rows.float32.push(await w32.runner.run(q));
     }
@@ -195,7 +169,7 @@ export async function run(): Promise<void> {
     await w64.runner.stop();
     await w32.runner.stop();
   }
-  const names = w64.names;
+  const names = w64.hello.names;
   const wasmNames = names.slice(1);
   const header = ["op", "shape", "dtype", "TS GFLOP/s", ...wasmNames.flatMap((n) => [`${n} GFLOP/s`, "×TS"]), "% peak"];
   const lines: string[][] = [];
