@@ -7,14 +7,14 @@
 import { buildNetwork, Trainer, selectBackend, type RuleConfigInput } from "../src/index.js";
 import { mnistDataset } from "../src/node/index.js";
 
-const EPOCHS = Number(process.env.EBBFLOW_DIGIT_EPOCHS ?? 10);
+const EPOCHS = Number(process.env.EBBFLOW_DIGIT_EPOCHS ?? 12);
 
 export async function run(): Promise<void> {
   const { train, test } = await mnistDataset({ train: 8000, test: 2000 });
   const backend = selectBackend("auto");
-  console.log(`digits: ${train.size} training and ${test.size} held-out images; kernels ${backend.name}; ${EPOCHS} epochs`);
+  console.log(`digits: ${train.size} training and ${test.size} held-out images; kernels ${backend.name}; ${EPOCHS} epochs, batch 10, cosine schedule`);
   const cases: [string, RuleConfigInput, "rate"][] = [
-    ["EqProp (β = 0.5; rate 1, 2 on image->hidden; cosine schedule)", { rule: "eqprop", beta: 0.5, rate: 1, rates: { "image->hidden": 2 } }, "rate"],
+    ["EqProp (β = 0.3; rate 0.7, 1.5 on image->hidden; cosine schedule)", { rule: "eqprop", beta: 0.3, rate: 0.7, rates: { "image->hidden": 1.5 } }, "rate"],
     ["backprop (feedforward pass)", { rule: "backprop", rate: 0.5 }, "rate"],
   ];
   console.log("| rule | epoch | held-out accuracy | training accuracy | seconds per epoch |");
@@ -37,7 +37,7 @@ export async function run(): Promise<void> {
       },
       { backend },
     );
-    const trainer = new Trainer(net, rule, train, { epochs: EPOCHS, batchSize: 20, schedule: { kind: "cosine", epochs: EPOCHS, floor: 0.05 } }, {
+    const trainer = new Trainer(net, rule, train, { epochs: EPOCHS, batchSize: 10, schedule: { kind: "cosine", epochs: EPOCHS, floor: 0.05 } }, {
       test,
       seed: 1,
       hooks: {
