@@ -263,8 +263,9 @@ export class Settler {
         if (this.clamped[i]) continue;
         const n = l.size;
         const len = batch * n;
+        const K = net.kernels;
         const eta = this.netInput[i] as FloatArray;
-        eta.set(this.drive[i] as FloatArray);
+        K.copy(eta, this.drive[i] as FloatArray, len);
         this.accumulate(eta, i, snap.activity, false);
         this.inhibit(eta, i, snap.activity[i] as FloatArray);
         const x = snap.state[i] as FloatArray;
@@ -272,17 +273,28 @@ export class Settler {
         const dt = dyn.dt;
         const nudge = phase === "nudged" && l.role === "output";
         const tgt = this.targetBuf[i] as FloatArray;
+        // every pass below is a kernel call (WebAssembly SIMD on that backend); the arithmetic is
+        // x + dt·(f(η) − x) and x + dt·(ρ'(u)·η − u [+ β(t − u)]), evaluated in that order
         if (!energy) {
           // rate dynamics: x += dt (f(eta) - x); nudging adds the current beta (t - x) to the net input,
           // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost
-          if (nudge) for (let k = 0; k < len; k++) eta[k] = (eta[k] as number) + beta * ((tgt[k] as number) - (x[k] as number));
-          fillUnit(net.kernels, l.unit, false, nx, eta, len); // f(eta) first, then the step in place
-          for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) - (x[k] as number));
+          if (nudge) {
+            K.sub(nx, tgt, x, len);
+            K.axpy(eta, nx, beta, len);
+          }
+          fillUnit(K, l.unit, false, nx, eta, len); // f(eta)
+          K.sub(nx, nx, x, len); // f(eta) - x
+          K.axpby(nx, x, nx, 1, dt, len); // x + dt (f(eta) - x)
         } else {
           // energy dynamics: u += dt (rho'(u) eta - u) [+ dt beta (t - u)]  (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24)
-          fillUnit(net.kernels, l.unit, true, nx, x, len); // rho'(u) first, then the step in place
-          if (nudge) for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) * (eta[k] as number) - (x[k] as number) + beta * ((tgt[k] as number) - (x[k] as number)));
-          else for (let k = 0; k < len; k++) nx[k] = (x[k] as number) + dt * ((nx[k] as number) * (eta[k] as number) - (x[k] as number));
+          fillUnit(K, l.unit, true, nx, x, len); // rho'(u)
+          K.mul(nx, nx, eta, len); // rho'(u) eta
+          K.sub(nx, nx, x, len); // rho'(u) eta - u
+          if (nudge) {
+            K.sub(eta, tgt, x, len); // eta is free now: t - u
+            K.axpy(nx, eta, beta, len);
+          }
+          K.axpby(nx, x, nx, 1, dt, len);
           if (dyn.clip && Number.isFinite(l.unit.lower) && Number.isFinite(l.unit.upper)) {
             const lo = l.unit.lower;
             const hi = l.unit.upper;
@@ -292,23 +304,20 @@ export class Settler {
             }
           }
         }
-        const K = net.kernels;
         if (!K.allFinite(nx, len) || K.maxAbs(nx, len) > bound) {
           const bad = !K.allFinite(nx, len) ? "a non-finite value" : `a value of magnitude ${K.maxAbs(nx, len)}`;
           throw new EbbflowError(
             issueText("divergence", `layers[${i}]`, `settling of layer ${JSON.stringify(l.name)} to stay finite and within ±${bound}`, bad, `phase ${phase}, step ${step}; try a smaller dt or weaker weights`),
           );
         }
-        for (let k = 0; k < len; k++) {
-          const d = Math.abs((nx[k] as number) - (x[k] as number));
-          if (d > change) change = d;
-        }
+        const d = K.maxAbsDiff(nx, x, len);
+        if (d > change) change = d;
       }
       // synchronous update: every layer moved from the previous step's activities
       for (const l of net.layers) {
         const i = l.index;
         if (this.clamped[i]) continue;
-        (snap.state[i] as FloatArray).set(this.next[i] as FloatArray);
+        net.kernels.copy(snap.state[i] as FloatArray, this.next[i] as FloatArray);
         if (energy) fillUnit(net.kernels, l.unit, false, snap.activity[i] as FloatArray, snap.state[i] as FloatArray);
       }
       if (snap.record !== null) snap.record.push(snap.activity.map((a) => a.slice()));

@@ -12,7 +12,9 @@ import { fail } from "../../errors/index.js";
 import { buildNetwork, parameterBuffers, type Network } from "../../network/network.js";
 import { applyDelta, ParameterDelta, parseRule, type RuleConfig, type RuleConfigInput, type Batch } from "../../rules/index.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
-import type { SliceTask } from "./protocol.js";
+import type { SharedArray, SliceTask } from "./protocol.js";
+import { selectBackend } from "../../kernels/wasm/loader.js";
+import type { KernelBackend } from "../../kernels/wasm/backend.js";
 
 let sessions = 0;
 
@@ -60,9 +62,9 @@ export class ParallelRule {
   readonly workers: number;
   private readonly pool: Piscina;
   private readonly session: number;
-  private readonly params: SharedArrayBuffer[];
-  private readonly slots: SharedArrayBuffer[][];
-  private readonly slotViews: Float64Array[][];
+  private readonly params: SharedArray[];
+  private readonly slots: SharedArray[][];
+  private readonly slotViews: FloatArray[][];
   private inputs: SharedArrayBuffer = new SharedArrayBuffer(8);
   private targets: SharedArrayBuffer = new SharedArrayBuffer(8);
   private readonly delta: ParameterDelta;
@@ -75,13 +77,19 @@ export class ParallelRule {
     this.kernels = kernels;
     this.config = config;
     this.workers = workers;
-    this.net = buildNetwork(net.spec, { allocate: sharedArray });
+    // parameters and the slices' change arrays live in shared memory: plain SharedArrayBuffers with the
+    // TypeScript kernels, or the main thread's shared WebAssembly memory with the WebAssembly kernels (so the
+    // reduction and the update below run in WebAssembly too)
+    const main: KernelBackend | null = kernels === "wasm" ? selectBackend("wasm") : null;
+    const alloc = main !== null ? (dtype: Dtype, n: number) => main.allocate(dtype, n) : sharedArray;
+    this.net = main !== null ? buildNetwork(net.spec, { backend: main }) : buildNetwork(net.spec, { allocate: sharedArray });
     const src = parameterBuffers(net);
     const dst = parameterBuffers(this.net);
     dst.forEach((a, i) => a.set(src[i] as FloatArray));
-    this.params = dst.map((a) => a.buffer as SharedArrayBuffer);
-    this.slots = Array.from({ length: workers }, () => dst.map((a) => new SharedArrayBuffer(8 * a.length)));
-    this.slotViews = this.slots.map((s) => s.map((b) => new Float64Array(b)));
+    this.slotViews = Array.from({ length: workers }, () => dst.map((a) => alloc(this.net.dtype, a.length)));
+    const describe = (a: FloatArray): SharedArray => ({ buffer: a.buffer as SharedArrayBuffer, byteOffset: a.byteOffset, length: a.length });
+    this.params = dst.map(describe);
+    this.slots = this.slotViews.map((views) => views.map(describe));
     this.delta = new ParameterDelta(this.net);
     const ins = this.net.inputLayers;
     const outs = this.net.outputLayers;
@@ -126,7 +134,8 @@ export class ParallelRule {
         rule: this.config,
         kernels: this.kernels,
         parameters: this.params,
-        deltas: this.slots[i] as SharedArrayBuffer[],
+        deltas: this.slots[i] as SharedArray[],
+        slice: i,
         inputs: this.inputs,
         targets: this.targets,
         inputName: this.inputName,
@@ -140,19 +149,19 @@ export class ParallelRule {
       tasks.push(this.pool.run(task) as Promise<number>);
     }
     await Promise.all(tasks);
-    // deterministic reduction: slice 0, then slice 1, ...
+    // deterministic reduction: the slices' mean changes weighted by their share of the batch, slice 0 first
     out.clear();
+    const K = this.net.kernels;
     const targetsOut: FloatArray[] = [...out.biases];
     this.net.connections.forEach((c) => {
       targetsOut.push(out.weights[c.index] as FloatArray);
-      targetsOut.push(out.feedback[c.index] ?? new Float64Array(0));
-      if (c.feedback.kind !== "separate") targetsOut.pop();
+      if (c.feedback.kind === "separate") targetsOut.push(out.feedback[c.index] ?? new Float64Array(0));
     });
     for (let i = 0; i < slices; i++) {
-      const views = this.slotViews[i] as Float64Array[];
+      const views = this.slotViews[i] as FloatArray[];
+      const share = (Math.floor(((i + 1) * B) / slices) - Math.floor((i * B) / slices)) / B;
       targetsOut.forEach((dst, p) => {
-        const src = views[p] as Float64Array;
-        for (let k = 0; k < dst.length; k++) dst[k] = (dst[k] as number) + (src[k] as number);
+        if (dst.length > 0) K.axpy(dst, views[p] as FloatArray, share, dst.length);
       });
     }
     return out;

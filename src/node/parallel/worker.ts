@@ -9,9 +9,9 @@ import { createRule, ParameterDelta, type LearningRule } from "../../rules/index
 import type { Dtype, FloatArray } from "../../types/index.js";
 import { typescriptBackend } from "../../kernels/wasm/backend.js";
 import { selectBackend } from "../../kernels/wasm/loader.js";
-import type { SliceTask } from "./protocol.js";
+import type { SharedArray, SliceTask } from "./protocol.js";
 
-const view = (dtype: Dtype, buf: SharedArrayBuffer): FloatArray => (dtype === "float32" ? new Float32Array(buf) : new Float64Array(buf));
+const view = (dtype: Dtype, a: SharedArray): FloatArray => (dtype === "float32" ? new Float32Array(a.buffer, a.byteOffset, a.length) : new Float64Array(a.buffer, a.byteOffset, a.length));
 
 interface Session {
   readonly net: Network;
@@ -19,7 +19,8 @@ interface Session {
   readonly mirror: { own: FloatArray[]; shared: FloatArray[] } | null;
   readonly rule: LearningRule;
   readonly delta: ParameterDelta;
-  readonly slots: FloatArray[];
+  /** This worker's views of each slice's change arrays, by slice index. */
+  readonly slots: Map<number, FloatArray[]>;
 }
 const sessions = new Map<number, Session>();
 
@@ -29,7 +30,7 @@ function session(task: SliceTask): Session {
     let k = 0;
     let net: Network;
     let mirror: Session["mirror"] = null;
-    const shared = task.parameters.map((b) => view(task.spec.dtype, b));
+    const shared = task.parameters.map((a) => view(task.spec.dtype, a));
     const backend = task.kernels === "wasm" ? selectBackend("auto") : typescriptBackend;
     if (backend !== typescriptBackend) {
       net = buildNetwork(task.spec, { backend });
@@ -37,9 +38,7 @@ function session(task: SliceTask): Session {
     } else net = buildNetwork(task.spec, { allocate: () => shared[k++] as FloatArray, keepValues: true });
     const rule = createRule(net, task.rule);
     const delta = new ParameterDelta(net);
-    // the change arrays in parameter order (biases of every layer, weights, feedback)
-    const slots = parameterBuffers(net).map(() => new Float64Array(0) as FloatArray);
-    s = { net, mirror, rule, delta, slots };
+    s = { net, mirror, rule, delta, slots: new Map() };
     sessions.set(task.session, s);
   }
   return s;
@@ -54,16 +53,21 @@ export default function runSlice(task: SliceTask): number {
   const inputs = new Float64Array(task.inputs).subarray(task.start * task.inputSize, (task.start + task.count) * task.inputSize);
   const targets = new Float64Array(task.targets).subarray(task.start * task.targetSize, (task.start + task.count) * task.targetSize);
   s.rule.computeDelta({ inputs: { [task.inputName]: inputs }, targets: { [task.outputName]: targets } }, s.delta);
-  // the rule averaged over this slice; weight it by the slice's share so the slices add up to the batch mean
-  const w = task.count / task.total;
+  // the slice's mean change, written raw; the main thread weights the slices by their share of the batch
+  let slots = s.slots.get(task.slice);
+  if (slots === undefined) {
+    slots = task.deltas.map((a) => view(task.spec.dtype, a));
+    s.slots.set(task.slice, slots);
+  }
   const own: FloatArray[] = [...s.delta.biases];
   net.connections.forEach((c) => {
     own.push(s.delta.weights[c.index] as FloatArray);
     if (c.feedback.kind === "separate") own.push(s.delta.feedback[c.index] ?? new Float64Array(c.feedback.weights.length));
   });
   own.forEach((src, i) => {
-    const dst = new Float64Array(task.deltas[i] as SharedArrayBuffer);
-    for (let k = 0; k < src.length; k++) dst[k] = w * (src[k] as number);
+    const dst = slots[i] as FloatArray;
+    if (src.length === dst.length) dst.set(src);
+    else dst.fill(0); // input layers' biases (no change)
   });
   return task.count;
 }
