@@ -294,9 +294,11 @@ export function formatBench(a: BenchReport, b?: BenchReport): string {
       const p = base(peer, B);
       if (ours !== null && p !== null) lines.push(`  batch ${B}: ${peer} / ebbflow = ${(p / ours).toFixed(2)}`);
     }
-    const one = base("ebbflow-typescript", B, 1);
-    const two = base("ebbflow-typescript", B, 2);
-    if (one !== null && two !== null) lines.push(`  batch ${B}: typescript throughput with 2 workers / 1 worker = ${(one / two).toFixed(2)}`);
+    for (const impl of [...new Set(a.figures.filter((f) => f.implementation.startsWith("ebbflow-")).map((f) => f.implementation))]) {
+      const one = base(impl, B, 1);
+      const two = base(impl, B, 2);
+      if (one !== null && two !== null) lines.push(`  batch ${B}: ${impl} throughput with 2 workers / 1 worker = ${(one / two).toFixed(2)}`);
+    }
   }
   lines.push("", `kernels (peak estimate ${a.peakGflops === null ? "unknown" : `${a.peakGflops.toFixed(0)} GFLOP/s per core, float32`}):`);
   for (const k of a.kernels) lines.push(`  ${k.kernel} ${k.size} ${k.dtype}: ${k.gflops.toFixed(2)} GFLOP/s${k.percentOfPeak === null ? "" : ` (${k.percentOfPeak.toFixed(1)}% of peak)`}`);
