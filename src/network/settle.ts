@@ -149,11 +149,22 @@ export class Settler {
     const alloc = (keep: (role: string) => boolean) => net.layers.map((l) => net.allocate(keep(l.role) ? batch * l.size : 0));
     const free = (role: string) => role !== "input";
     this.drive = alloc(free);
-    this.netInput = alloc(free);
+    // rate dynamics form the net input in the buffer they update; energy dynamics need both at once
+    this.netInput = alloc((role) => free(role) && net.spec.dynamics.kind === "energy");
     this.next = alloc(free);
     this.targetBuf = alloc((role) => role === "output");
     this.scratch = net.allocate(Math.max(...net.layers.map((l) => l.size)));
     this.clamped = net.layers.map(() => false);
+  }
+
+  /**
+   * A B×N working array of a free layer, free for the caller's use between phases (the next phase
+   * overwrites it): rules take phase differences in it instead of allocating their own.
+   */
+  phaseScratch(layer: number): FloatArray {
+    const a = this.next[layer] as FloatArray;
+    if (a.length === 0) fail("invalid_parameter", "layer", "a hidden or output layer (input layers have no working array)", layer);
+    return a;
   }
 
   /** Checks and copies per-layer values (inputs or targets) into `dest`; reports every problem at once. */
@@ -264,25 +275,25 @@ export class Settler {
         const n = l.size;
         const len = batch * n;
         const K = net.kernels;
-        const eta = this.netInput[i] as FloatArray;
+        const x = snap.state[i] as FloatArray;
+        const nx = this.next[i] as FloatArray;
+        const eta = energy ? (this.netInput[i] as FloatArray) : nx;
         K.copy(eta, this.drive[i] as FloatArray, len);
         this.accumulate(eta, i, snap.activity, false);
         this.inhibit(eta, i, snap.activity[i] as FloatArray);
-        const x = snap.state[i] as FloatArray;
-        const nx = this.next[i] as FloatArray;
         const dt = dyn.dt;
         const nudge = phase === "nudged" && l.role === "output";
         const tgt = this.targetBuf[i] as FloatArray;
-        // every pass below is a kernel call (WebAssembly SIMD on that backend); the arithmetic is
-        // x + dt·(f(η) − x) and x + dt·(ρ'(u)·η − u [+ β(t − u)]), evaluated in that order
+        // every pass below is a kernel call (WebAssembly SIMD on that backend): x + dt·(f(η) − x), with
+        // η formed in the buffer being updated, and x + dt·(ρ'(u)·η − u [+ β(t − u)])
         if (!energy) {
           // rate dynamics: x += dt (f(eta) - x); nudging adds the current beta (t - x) to the net input,
           // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost
           if (nudge) {
-            K.sub(nx, tgt, x, len);
-            K.axpy(eta, nx, beta, len);
+            K.axpy(nx, tgt, beta, len); // eta + beta t
+            K.axpy(nx, x, -beta, len); //   - beta x
           }
-          fillUnit(K, l.unit, false, nx, eta, len); // f(eta)
+          fillUnit(K, l.unit, false, nx, nx, len); // f(eta), in place
           K.sub(nx, nx, x, len); // f(eta) - x
           K.axpby(nx, x, nx, 1, dt, len); // x + dt (f(eta) - x)
         } else {

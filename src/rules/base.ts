@@ -89,13 +89,12 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
  * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
  * the outcome-minus-expectation coactivity of a connection. When the sending layer is clamped in both
  * phases (`samePre`: preA and preB hold the same values), it is computed as one product
- * `alpha · (postA − postB)ᵀ pre`, using `scratch` (at least B×n) for the difference.
+ * `alpha · (postA − postB)ᵀ pre`, using `scratch` (B×n, for example the settler's phase scratch) for the difference.
  */
 export function contrast(k: KernelBackend, out: FloatArray, alpha: number, postA: FloatArray, preA: FloatArray, postB: FloatArray, preB: FloatArray, batch: number, n: number, m: number, samePre = false, scratch?: FloatArray): void {
   if (samePre && scratch !== undefined) {
-    const len = batch * n;
-    for (let i = 0; i < len; i++) scratch[i] = (postA[i] as number) - (postB[i] as number);
-    outerSum(k, out, alpha, scratch, preA, batch, n, m, 0); // kernels read the first B×n entries
+    k.sub(scratch, postA, postB, batch * n);
+    outerSum(k, out, alpha, scratch, preA, batch, n, m, 0);
     return;
   }
   outerSum(k, out, alpha, postA, preA, batch, n, m, 0);
@@ -119,7 +118,6 @@ export abstract class SettlingRule implements LearningRule {
   lastFree: Snapshot | null = null;
   freeStart: Snapshot | null = null;
   private readonly settlers = new Map<number, { settler: Settler; snaps: Snapshot[] }>();
-  private readonly diffs = new Map<number, FloatArray>();
   private stepDelta: ParameterDelta | null = null;
 
   constructor(net: Network, config: RuleConfig) {
@@ -142,15 +140,9 @@ export abstract class SettlingRule implements LearningRule {
 
   abstract computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta;
 
-  /** A scratch array of B × (largest layer) for phase differences. */
-  protected diffScratch(batch: number): FloatArray {
-    let d = this.diffs.get(batch);
-    if (d === undefined) {
-      // differences are taken on receiving layers, which are never input layers
-      d = this.net.allocate(batch * Math.max(0, ...this.net.layers.filter((l) => l.role !== "input").map((l) => l.size)));
-      this.diffs.set(batch, d);
-    }
-    return d;
+  /** The settler's working array of `layer` for batch size B (free between phases) for phase differences. */
+  protected phaseScratch(batch: number, layer: number): FloatArray {
+    return this.workspace(batch, 1).settler.phaseScratch(layer);
   }
 
   /** The start of the next free phase: {@link LearningRule.freeStart} when its batch size matches. */
@@ -193,7 +185,7 @@ export interface ContrastTerm {
  * max|y_B|·max|x_B|)). Returns false, changing nothing, when it cannot prove that; the caller then takes
  * the change-matrix path, which reports a non-finite update exactly.
  */
-export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[], batch: number, scratch: FloatArray): boolean {
+export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[], batch: number, scratchFor: (layer: number) => FloatArray): boolean {
   const K = net.kernels;
   const largest = net.dtype === "float32" ? 3.4028234663852886e38 : Number.MAX_VALUE;
   for (const t of terms) {
@@ -207,9 +199,9 @@ export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[],
     const n = net.layers[c.to]!.size;
     const m = net.layers[c.from]!.size;
     if (t.samePre) {
-      const len = batch * n;
-      for (let i = 0; i < len; i++) scratch[i] = (t.postA[i] as number) - (t.postB[i] as number);
-      outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1); // kernels read the first B×n entries
+      const scratch = scratchFor(c.to);
+      K.sub(scratch, t.postA, t.postB, batch * n);
+      outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1);
     } else {
       outerSum(K, c.weights, t.alpha, t.postA, t.preA, batch, n, m, 1);
       outerSum(K, c.weights, -t.alpha, t.postB, t.preB, batch, n, m, 1);

@@ -85,12 +85,12 @@ export class ContrastiveHebbian extends SettlingRule {
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
     const [free, clamped, B] = settleTwoPhases(this, batch);
     this.lastFree = free;
-    return chlFromSnapshots(this.net, this.config, this.factors, free, clamped, B, out, this.diffScratch(B));
+    return chlFromSnapshots(this.net, this.config, this.factors, free, clamped, B, out, (layer) => this.phaseScratch(B, layer));
   }
 }
 
 /** CHL changes from a free and a clamped snapshot (batch-averaged), with per-layer factors. */
-function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly number[], minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, scratch: FloatArray): ParameterDelta {
+function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly number[], minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, scratchFor: (layer: number) => FloatArray): ParameterDelta {
   out.clear();
   for (const c of net.connections) {
     if (c.spec.frozen) continue;
@@ -99,7 +99,7 @@ function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly nu
     const alpha = (connectionRate(config, c) * (factors[c.to] as number)) / B;
     if (alpha === 0) continue;
     const clampedPre = net.layers[c.from]!.role === "input";
-    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m, clampedPre, scratch);
+    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m, clampedPre, scratchFor(c.to));
     transposeInto(out.feedback[c.index] ?? null, out.weights[c.index] as FloatArray, n, m);
   }
   for (const l of net.layers) {

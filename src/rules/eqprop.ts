@@ -80,10 +80,9 @@ export class EquilibriumPropagation extends SettlingRule {
   private fill(ph: { a: Snapshot; b: Snapshot; scale: number; B: number }, out: ParameterDelta): ParameterDelta {
     const net = this.net;
     out.clear();
-    const scratch = this.diffScratch(ph.B);
     for (const t of this.terms(ph, 1)) {
       const c = t.connection;
-      contrast(net.kernels, out.weights[c.index] as FloatArray, t.alpha, t.postA, t.preA, t.postB, t.preB, ph.B, net.layers[c.to]!.size, net.layers[c.from]!.size, t.samePre, scratch);
+      contrast(net.kernels, out.weights[c.index] as FloatArray, t.alpha, t.postA, t.preA, t.postB, t.preB, ph.B, net.layers[c.to]!.size, net.layers[c.from]!.size, t.samePre, this.phaseScratch(ph.B, c.to));
     }
     for (const l of net.layers) {
       if (l.role === "input") continue;
@@ -100,7 +99,7 @@ export class EquilibriumPropagation extends SettlingRule {
   override step(batch: Batch, scale = 1): void {
     const ph = this.settlePhases(batch);
     const biases = this.biasChanges(ph, scale);
-    if (biases !== null && addContrastInPlace(this.net, this.terms(ph, scale), ph.B, this.diffScratch(ph.B))) {
+    if (biases !== null && addContrastInPlace(this.net, this.terms(ph, scale), ph.B, (layer) => this.phaseScratch(ph.B, layer))) {
       addBiases(this.net, biases);
       return;
     }
