@@ -8,10 +8,17 @@ import seedrandom from "seedrandom";
 import type { FloatArray } from "../types/index.js";
 import { requireFinite, requireInteger, requireNonNegative, fail } from "../errors/index.js";
 
+/** The ARC4 generator's state (the key schedule `S` and the two indices), as plain JSON data. @category Random */
+export interface Arc4State {
+  readonly i: number;
+  readonly j: number;
+  readonly S: readonly number[];
+}
+
 /** Saved state of a {@link RandomStream}, for checkpoints. @category Random */
 export interface RandomStreamState {
   readonly name: string;
-  readonly prng: seedrandom.State.Arc4;
+  readonly prng: Arc4State;
   readonly spare: number | null;
 }
 
@@ -26,9 +33,9 @@ export class RandomStream {
   private spare: number | null = null;
 
   /** @internal Use {@link createRandom} or {@link RandomStream.child}. */
-  constructor(name: string, state?: seedrandom.State.Arc4) {
+  constructor(name: string, state?: Arc4State) {
     this.name = name;
-    this.prng = state === undefined ? seedrandom(name, { state: true }) : seedrandom("", { state: state as seedrandom.State.Arc4 });
+    this.prng = state === undefined ? seedrandom(name, { state: true }) : seedrandom("", { state: state as unknown as seedrandom.State.Arc4 });
   }
 
   /** Uniform number in [0, 1) with 53 bits of randomness. */
@@ -105,8 +112,8 @@ export class RandomStream {
   }
 }
 
-function structuredCloneState(state: seedrandom.State.Arc4): seedrandom.State.Arc4 {
-  return JSON.parse(JSON.stringify(state)) as seedrandom.State.Arc4;
+function structuredCloneState(state: Arc4State | seedrandom.State.Arc4): Arc4State {
+  return JSON.parse(JSON.stringify(state)) as Arc4State;
 }
 
 /**
