@@ -315,8 +315,10 @@ export class Settler {
             }
           }
         }
-        if (!K.allFinite(nx, len) || K.maxAbs(nx, len) > bound) {
-          const bad = !K.allFinite(nx, len) ? "a non-finite value" : `a value of magnitude ${K.maxAbs(nx, len)}`;
+        // one pass: maxAbs is NaN when a NaN is present and Infinity for an infinity, so both fail the test
+        const largest = K.maxAbs(nx, len);
+        if (!(largest <= bound)) {
+          const bad = !Number.isFinite(largest) ? "a non-finite value" : `a value of magnitude ${largest}`;
           throw new EbbflowError(
             issueText("divergence", `layers[${i}]`, `settling of layer ${JSON.stringify(l.name)} to stay finite and within ±${bound}`, bad, `phase ${phase}, step ${step}; try a smaller dt or weaker weights`),
           );

@@ -160,10 +160,15 @@ export abstract class SettlingRule implements LearningRule {
 
   step(batch: Batch, scale = 1): void {
     this.stepDelta ??= new ParameterDelta(this.net);
-    this.computeDelta(batch, this.stepDelta);
-    if (scale !== 1) this.stepDelta.scale(scale);
-    applyDelta(this.net, this.stepDelta);
+    computeAndApply(this, this.stepDelta, batch, scale);
   }
+}
+
+/** The plain step of a rule: its change for `batch` into `out`, times `scale`, applied under the constraints. */
+export function computeAndApply(rule: LearningRule, out: ParameterDelta, batch: Batch, scale: number): void {
+  rule.computeDelta(batch, out);
+  if (scale !== 1) out.scale(scale);
+  applyDelta(rule.net, out);
 }
 
 /** One connection's change `alpha · (postAᵀ preA − postBᵀ preB)` (B patterns), as data. */
@@ -208,14 +213,4 @@ export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[],
     }
   }
   return true;
-}
-
-/** Adds bias changes (already checked finite) to every non-input layer whose incoming connections are not all frozen. */
-export function addBiases(net: Network, biases: readonly FloatArray[]): void {
-  for (const l of net.layers) {
-    if (l.role === "input") continue;
-    const into = net.incoming[l.index] ?? [];
-    if (into.length > 0 && into.every((c) => c.spec.frozen)) continue;
-    net.kernels.axpy(l.bias, biases[l.index] as FloatArray, 1);
-  }
 }

@@ -124,10 +124,15 @@ export function applyDelta(net: Network, delta: ParameterDelta): void {
     const f = delta.feedback[c.index];
     if (f && c.feedback.kind === "separate") K.axpy(c.feedback.weights, f, 1);
   }
+  addBiases(net, delta.biases);
+}
+
+/** Adds bias changes (already checked finite) to every non-input layer whose incoming connections are not all frozen. */
+export function addBiases(net: Network, biases: readonly FloatArray[]): void {
   for (const l of net.layers) {
     if (l.role === "input") continue;
     const into = net.incoming[l.index] ?? [];
     if (into.length > 0 && into.every((c) => c.spec.frozen)) continue;
-    K.axpy(l.bias, delta.biases[l.index] as FloatArray, 1);
+    net.kernels.axpy(l.bias, biases[l.index] as FloatArray, 1);
   }
 }

@@ -6,8 +6,8 @@ import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
-import { ParameterDelta, applyDelta } from "./delta.js";
-import { SettlingRule, addBiases, addContrastInPlace, batchSizeOf, connectionRate, contrast, contrastBias, type Batch, type ContrastTerm, type RuleState } from "./base.js";
+import { ParameterDelta, addBiases, applyDelta } from "./delta.js";
+import { SettlingRule, addContrastInPlace, batchSizeOf, connectionRate, contrast, contrastBias, type Batch, type ContrastTerm, type RuleState } from "./base.js";
 import type { RuleConfig } from "./config.js";
 import type { Snapshot } from "../network/settle.js";
 

@@ -8,8 +8,8 @@ import type { FloatArray } from "../types/index.js";
 import { fillUnit } from "../kernels/wasm/units.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
-import { ParameterDelta, applyDelta } from "./delta.js";
-import { batchSizeOf, checkRates, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
+import { ParameterDelta } from "./delta.js";
+import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import type { RuleConfig } from "./config.js";
 import type { Snapshot } from "../network/settle.js";
 
@@ -146,13 +146,8 @@ function backward(net: Network, order: readonly number[], batch: Batch, pass: Fo
   for (const l of net.layers) {
     if (l.role === "input") continue;
     const scale = config === null ? 1 : -config.rate;
-    const b = out.biases[l.index] as FloatArray;
-    const d = pass.delta[l.index] as FloatArray;
-    for (let j = 0; j < l.size; j++) {
-      let s = 0;
-      for (let p = 0; p < B; p++) s += d[p * l.size + j] as number;
-      b[j] = (scale * s) / B;
-    }
+    // bias change: the batch mean of the error signals
+    net.kernels.sumRows(out.biases[l.index] as FloatArray, pass.delta[l.index] as FloatArray, B, l.size, scale / B, 0);
   }
 }
 
@@ -239,8 +234,6 @@ export class FeedforwardRule implements LearningRule {
 
   step(batch: Batch, scale = 1): void {
     this.delta ??= new ParameterDelta(this.net);
-    this.computeDelta(batch, this.delta);
-    if (scale !== 1) this.delta.scale(scale);
-    applyDelta(this.net, this.delta);
+    computeAndApply(this, this.delta, batch, scale);
   }
 }

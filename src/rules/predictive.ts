@@ -6,8 +6,8 @@ import { fail, EbbflowError, issueText } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import type { Snapshot } from "../network/settle.js";
-import { ParameterDelta, applyDelta } from "./delta.js";
-import { batchSizeOf, checkRates, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
+import { ParameterDelta } from "./delta.js";
+import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "./feedforward.js";
 import type { RuleConfig } from "./config.js";
 
@@ -133,21 +133,13 @@ export class PredictiveCoding implements LearningRule {
     }
     for (const l of net.layers) {
       if (l.role === "input") continue;
-      const b = out.biases[l.index] as FloatArray;
-      const e = w.err[l.index] as FloatArray;
-      for (let j = 0; j < l.size; j++) {
-        let s = 0;
-        for (let p = 0; p < B; p++) s += e[p * l.size + j] as number;
-        b[j] = (cfg.rate * cfg.outputVariance * s) / B;
-      }
+      net.kernels.sumRows(out.biases[l.index] as FloatArray, w.err[l.index] as FloatArray, B, l.size, (cfg.rate * cfg.outputVariance) / B, 0);
     }
     return out;
   }
 
   step(batch: Batch, scale = 1): void {
     this.delta ??= new ParameterDelta(this.net);
-    this.computeDelta(batch, this.delta);
-    if (scale !== 1) this.delta.scale(scale);
-    applyDelta(this.net, this.delta);
+    computeAndApply(this, this.delta, batch, scale);
   }
 }
