@@ -10,6 +10,7 @@ import { unitFill32, unitFill64 } from "./units";
 import { addRowVector, allFinite, axpby, axpy, binary, dot, fill, maxAbs, maxAbsDiff, scale, sumRows } from "./vector";
 
 export { gemmWorkspaceBytes };
+export { constantTableAddress, constantTableBytes, writeConstantTable } from "./units";
 
 /** 1 in the build with relaxed-SIMD multiply-adds, 0 in the plain SIMD build. */
 export function relaxed(): i32 {

@@ -62,6 +62,92 @@ const LO32: f32 = -104.0;
 /** tanh(10) rounds to 1 in f32. */
 const TANH_LO32: f32 = -20.0;
 
+
+// ---- constant table ----
+
+/**
+ * Address of the table of vector constants (16 bytes each), written once by
+ * {@link writeConstantTable}; the host keeps [TABLE, TABLE +
+ * constantTableBytes()) for it. The kernels load their constants from it:
+ * V8 rebuilds a v128.const (or a splat made before a loop) at every use
+ * inside a loop, several instructions each, while a load from a fixed
+ * address is one instruction. The optimiser cannot fold loads back into
+ * constants.
+ */
+const TABLE: usize = 64;
+
+/** Where the host must reserve the constant table. */
+export function constantTableAddress(): i32 {
+  return <i32>TABLE;
+}
+
+/** Constant number i of the table. */
+// @ts-ignore: decorator
+@inline
+function K(i: i32): v128 {
+  return v128.load(TABLE + (<usize>i << 4));
+}
+
+/** Bytes of the constant table (50 vectors). */
+export function constantTableBytes(): i32 {
+  return 50 * 16;
+}
+
+/** Writes the constant table at TABLE (call once per memory, before any kernel). */
+export function writeConstantTable(): void {
+  const at = TABLE;
+  v128.store(at + 0, f64x2.splat(-1022.0));
+  v128.store(at + 16, f64x2.splat(MAGIC64 + 1023.0));
+  v128.store(at + 32, f64x2.splat(LO64));
+  v128.store(at + 48, f64x2.splat(LOG2E64));
+  v128.store(at + 64, f64x2.splat(MAGIC64));
+  v128.store(at + 80, f64x2.splat(LN2HI64));
+  v128.store(at + 96, f64x2.splat(LN2LO64));
+  v128.store(at + 112, f64x2.splat(1.0));
+  v128.store(at + 128, f64x2.splat(1.6059043836821613e-10));
+  v128.store(at + 144, f64x2.splat(2.08767569878681e-9));
+  v128.store(at + 160, f64x2.splat(2.505210838544172e-8));
+  v128.store(at + 176, f64x2.splat(2.755731922398589e-7));
+  v128.store(at + 192, f64x2.splat(2.7557319223985893e-6));
+  v128.store(at + 208, f64x2.splat(2.48015873015873e-5));
+  v128.store(at + 224, f64x2.splat(1.984126984126984e-4));
+  v128.store(at + 240, f64x2.splat(1.388888888888889e-3));
+  v128.store(at + 256, f64x2.splat(8.333333333333333e-3));
+  v128.store(at + 272, f64x2.splat(4.1666666666666664e-2));
+  v128.store(at + 288, f64x2.splat(1.6666666666666666e-1));
+  v128.store(at + 304, f64x2.splat(0.5));
+  v128.store(at + 320, f64x2.splat(TANH_LO64));
+  v128.store(at + 336, f64x2.splat(0.0));
+  v128.store(at + 352, f64x2.splat(NaN));
+  v128.store(at + 368, f64x2.splat(-2.0));
+  v128.store(at + 384, f64x2.splat(2.0));
+  v128.store(at + 400, f64x2.splat(-0.0));
+  v128.store(at + 416, f64x2.splat(4.0));
+  v128.store(at + 432, f32x4.splat(P0));
+  v128.store(at + 448, f32x4.splat(P1));
+  v128.store(at + 464, f32x4.splat(P2));
+  v128.store(at + 480, f32x4.splat(P3));
+  v128.store(at + 496, f32x4.splat(P4));
+  v128.store(at + 512, f32x4.splat(P5));
+  v128.store(at + 528, i32x4.splat(127));
+  v128.store(at + 544, f32x4.splat(LO32));
+  v128.store(at + 560, f32x4.splat(LOG2E32));
+  v128.store(at + 576, f32x4.splat(MAGIC32));
+  v128.store(at + 592, f32x4.splat(C1_32));
+  v128.store(at + 608, f32x4.splat(C2_32));
+  v128.store(at + 624, f32x4.splat(1.0));
+  v128.store(at + 640, i32x4.splat(MAGIC32_BITS));
+  v128.store(at + 656, f64x2.splat(<f64>LO32));
+  v128.store(at + 672, f64x2.splat(LN2_64));
+  v128.store(at + 688, f32x4.splat(TANH_LO32));
+  v128.store(at + 704, f32x4.splat(0.0));
+  v128.store(at + 720, f32x4.splat(NaN));
+  v128.store(at + 736, f32x4.splat(-2.0));
+  v128.store(at + 752, f32x4.splat(2.0));
+  v128.store(at + 768, f32x4.splat(-0.0));
+  v128.store(at + 784, f32x4.splat(4.0));
+}
+
 // ======================= f64 lanes =======================
 
 /**
@@ -73,9 +159,9 @@ const TANH_LO32: f32 = -20.0;
 // @ts-ignore: decorator
 @inline
 function scale64(p: v128, kf: v128): v128 {
-  const k1 = f64x2.max(kf, f64x2.splat(-1022.0));
+  const k1 = f64x2.pmax(K(0), kf);
   const k2 = f64x2.sub(kf, k1);
-  const bias = f64x2.splat(MAGIC64 + 1023.0);
+  const bias = K(1);
   const s1 = i64x2.shl(f64x2.add(k1, bias), 52);
   const s2 = i64x2.shl(f64x2.add(k2, bias), 52);
   return f64x2.mul(f64x2.mul(p, s1), s2);
@@ -85,11 +171,11 @@ function scale64(p: v128, kf: v128): v128 {
 // @ts-ignore: decorator
 @inline
 function expNeg64(w0: v128): v128 {
-  const w = f64x2.max(w0, f64x2.splat(LO64));
-  const t = f64x2.add(f64x2.mul(w, f64x2.splat(LOG2E64)), f64x2.splat(MAGIC64));
-  const kf = f64x2.sub(t, f64x2.splat(MAGIC64));
-  const r = f64x2.sub(f64x2.sub(w, f64x2.mul(kf, f64x2.splat(LN2HI64))), f64x2.mul(kf, f64x2.splat(LN2LO64)));
-  const p = taylor64(r, f64x2.splat(1.0));
+  const w = f64x2.pmax(K(2), w0);
+  const t = f64x2.add(f64x2.mul(w, K(3)), K(4));
+  const kf = f64x2.sub(t, K(4));
+  const r = f64x2.sub(f64x2.sub(w, f64x2.mul(kf, K(5))), f64x2.mul(kf, K(6)));
+  const p = taylor64(r, K(7));
   return scale64(p, kf);
 }
 
@@ -97,18 +183,18 @@ function expNeg64(w0: v128): v128 {
 // @ts-ignore: decorator
 @inline
 function taylor64(r: v128, c0: v128): v128 {
-  let q = f64x2.splat(1.6059043836821613e-10); // 1/13!
-  q = vmadd<f64>(q, r, f64x2.splat(2.08767569878681e-9)); // 1/12!
-  q = vmadd<f64>(q, r, f64x2.splat(2.505210838544172e-8)); // 1/11!
-  q = vmadd<f64>(q, r, f64x2.splat(2.755731922398589e-7)); // 1/10!
-  q = vmadd<f64>(q, r, f64x2.splat(2.7557319223985893e-6)); // 1/9!
-  q = vmadd<f64>(q, r, f64x2.splat(2.48015873015873e-5)); // 1/8!
-  q = vmadd<f64>(q, r, f64x2.splat(1.984126984126984e-4)); // 1/7!
-  q = vmadd<f64>(q, r, f64x2.splat(1.388888888888889e-3)); // 1/6!
-  q = vmadd<f64>(q, r, f64x2.splat(8.333333333333333e-3)); // 1/5!
-  q = vmadd<f64>(q, r, f64x2.splat(4.1666666666666664e-2)); // 1/4!
-  q = vmadd<f64>(q, r, f64x2.splat(1.6666666666666666e-1)); // 1/3!
-  q = vmadd<f64>(q, r, f64x2.splat(0.5));
+  let q = K(8); // 1/13!
+  q = vmadd<f64>(q, r, K(9)); // 1/12!
+  q = vmadd<f64>(q, r, K(10)); // 1/11!
+  q = vmadd<f64>(q, r, K(11)); // 1/10!
+  q = vmadd<f64>(q, r, K(12)); // 1/9!
+  q = vmadd<f64>(q, r, K(13)); // 1/8!
+  q = vmadd<f64>(q, r, K(14)); // 1/7!
+  q = vmadd<f64>(q, r, K(15)); // 1/6!
+  q = vmadd<f64>(q, r, K(16)); // 1/5!
+  q = vmadd<f64>(q, r, K(17)); // 1/4!
+  q = vmadd<f64>(q, r, K(18)); // 1/3!
+  q = vmadd<f64>(q, r, K(19));
   // r + r^2 q, then + c0
   const m = vmadd<f64>(f64x2.mul(r, r), q, r);
   return f64x2.add(c0, m);
@@ -118,21 +204,21 @@ function taylor64(r: v128, c0: v128): v128 {
 // @ts-ignore: decorator
 @inline
 function expm1Neg64(w0: v128): v128 {
-  const w = f64x2.max(w0, f64x2.splat(TANH_LO64));
-  const t = f64x2.add(f64x2.mul(w, f64x2.splat(LOG2E64)), f64x2.splat(MAGIC64));
-  const kf = f64x2.sub(t, f64x2.splat(MAGIC64));
-  const r = f64x2.sub(f64x2.sub(w, f64x2.mul(kf, f64x2.splat(LN2HI64))), f64x2.mul(kf, f64x2.splat(LN2LO64)));
-  const q = taylor64(r, f64x2.splat(0.0));
-  const s = i64x2.shl(f64x2.add(kf, f64x2.splat(MAGIC64 + 1023.0)), 52);
-  return f64x2.add(f64x2.mul(s, q), f64x2.sub(s, f64x2.splat(1.0)));
+  const w = f64x2.pmax(K(20), w0);
+  const t = f64x2.add(f64x2.mul(w, K(3)), K(4));
+  const kf = f64x2.sub(t, K(4));
+  const r = f64x2.sub(f64x2.sub(w, f64x2.mul(kf, K(5))), f64x2.mul(kf, K(6)));
+  const q = taylor64(r, K(21));
+  const s = i64x2.shl(f64x2.add(kf, K(1)), 52);
+  return f64x2.add(f64x2.mul(s, q), f64x2.sub(s, K(7)));
 }
 
 // @ts-ignore: decorator
 @inline
-function apply64(code: i32, x: v128, g: v128, o: v128): v128 {
-  const one = f64x2.splat(1.0);
-  const zero = f64x2.splat(0.0);
-  const nan = f64x2.splat(NaN);
+function apply64raw(code: i32, x: v128, g: v128, o: v128): v128 {
+  const one = K(7);
+  const zero = K(21);
+  const nan = K(22);
   if (code == 0 || code == 1) {
     const u = f64x2.mul(g, f64x2.sub(x, o));
     const e = expNeg64(f64x2.neg(f64x2.abs(u)));
@@ -140,13 +226,13 @@ function apply64(code: i32, x: v128, g: v128, o: v128): v128 {
     if (code == 0) return f64x2.div(v128.bitselect(one, e, f64x2.ge(u, zero)), d);
     return f64x2.div(f64x2.mul(g, e), f64x2.mul(d, d));
   } else if (code == 2) {
-    const m = expm1Neg64(f64x2.mul(f64x2.splat(-2.0), f64x2.abs(x)));
-    const y = f64x2.div(f64x2.neg(m), f64x2.add(f64x2.splat(2.0), m));
-    return v128.bitselect(x, y, f64x2.splat(-0.0)); // sign of x, magnitude of y
+    const m = expm1Neg64(f64x2.mul(K(23), f64x2.abs(x)));
+    const y = f64x2.div(f64x2.neg(m), f64x2.add(K(24), m));
+    return v128.bitselect(x, y, K(25)); // sign of x, magnitude of y
   } else if (code == 3) {
-    const e = expNeg64(f64x2.mul(f64x2.splat(-2.0), f64x2.abs(x)));
+    const e = expNeg64(f64x2.mul(K(23), f64x2.abs(x)));
     const d = f64x2.add(one, e);
-    return f64x2.div(f64x2.mul(f64x2.splat(4.0), e), f64x2.mul(d, d));
+    return f64x2.div(f64x2.mul(K(26), e), f64x2.mul(d, d));
   } else if (code == 4) {
     return v128.bitselect(zero, x, f64x2.lt(x, zero));
   } else if (code == 5) {
@@ -161,6 +247,18 @@ function apply64(code: i32, x: v128, g: v128, o: v128): v128 {
   } else {
     return v128.bitselect(one, nan, f64x2.eq(x, x));
   }
+}
+
+/**
+ * apply64raw with NaN passed through: the exp-based forms clamp their argument with pmax (one
+ * instruction; the NaN-propagating max is several), which turns a NaN into the clamp bound, so
+ * NaN lanes of x are put back here.
+ */
+// @ts-ignore: decorator
+@inline
+function apply64(code: i32, x: v128, g: v128, o: v128): v128 {
+  const r = apply64raw(code, x, g, o);
+  return code <= 3 ? v128.bitselect(x, r, f64x2.ne(x, x)) : r;
 }
 
 // @ts-ignore: decorator
@@ -223,12 +321,12 @@ function low32(l: v128, h: v128): v128 {
 // @ts-ignore: decorator
 @inline
 function cephes32(r: v128): v128 {
-  let p = f32x4.splat(P0);
-  p = vmadd<f32>(p, r, f32x4.splat(P1));
-  p = vmadd<f32>(p, r, f32x4.splat(P2));
-  p = vmadd<f32>(p, r, f32x4.splat(P3));
-  p = vmadd<f32>(p, r, f32x4.splat(P4));
-  p = vmadd<f32>(p, r, f32x4.splat(P5));
+  let p = K(27);
+  p = vmadd<f32>(p, r, K(28));
+  p = vmadd<f32>(p, r, K(29));
+  p = vmadd<f32>(p, r, K(30));
+  p = vmadd<f32>(p, r, K(31));
+  p = vmadd<f32>(p, r, K(32));
   return vmadd<f32>(f32x4.mul(r, r), p, r);
 }
 
@@ -238,8 +336,8 @@ function cephes32(r: v128): v128 {
 function scale32(p: v128, k: v128): v128 {
   const k1 = i32x4.shr_s(k, 1);
   const k2 = i32x4.sub(k, k1);
-  const s1 = i32x4.shl(i32x4.add(k1, i32x4.splat(127)), 23);
-  const s2 = i32x4.shl(i32x4.add(k2, i32x4.splat(127)), 23);
+  const s1 = i32x4.shl(i32x4.add(k1, K(33)), 23);
+  const s2 = i32x4.shl(i32x4.add(k2, K(33)), 23);
   return f32x4.mul(f32x4.mul(p, s1), s2);
 }
 
@@ -247,56 +345,56 @@ function scale32(p: v128, k: v128): v128 {
 // @ts-ignore: decorator
 @inline
 function expNeg32(w0: v128): v128 {
-  const w = f32x4.max(w0, f32x4.splat(LO32));
-  const t = f32x4.add(f32x4.mul(w, f32x4.splat(LOG2E32)), f32x4.splat(MAGIC32));
-  const kf = f32x4.sub(t, f32x4.splat(MAGIC32));
-  const r = f32x4.sub(f32x4.sub(w, f32x4.mul(kf, f32x4.splat(C1_32))), f32x4.mul(kf, f32x4.splat(C2_32)));
-  return scale32(f32x4.add(f32x4.splat(1.0), cephes32(r)), i32x4.sub(t, i32x4.splat(MAGIC32_BITS)));
+  const w = f32x4.pmax(K(34), w0);
+  const t = f32x4.add(f32x4.mul(w, K(35)), K(36));
+  const kf = f32x4.sub(t, K(36));
+  const r = f32x4.sub(f32x4.sub(w, f32x4.mul(kf, K(37))), f32x4.mul(kf, K(38)));
+  return scale32(f32x4.add(K(39), cephes32(r)), i32x4.sub(t, K(40)));
 }
 
 /** exp(w) for w <= 0 (or NaN) given in two f64 vectors (the four f32 lanes, low half first). */
 // @ts-ignore: decorator
 @inline
 function expNeg32from64(wl0: v128, wh0: v128): v128 {
-  const LO = f64x2.splat(<f64>LO32);
-  const wl = f64x2.max(wl0, LO);
-  const wh = f64x2.max(wh0, LO);
-  const tl = f64x2.add(f64x2.mul(wl, f64x2.splat(LOG2E64)), f64x2.splat(MAGIC64));
-  const th = f64x2.add(f64x2.mul(wh, f64x2.splat(LOG2E64)), f64x2.splat(MAGIC64));
-  const rl = f64x2.sub(wl, f64x2.mul(f64x2.sub(tl, f64x2.splat(MAGIC64)), f64x2.splat(LN2_64)));
-  const rh = f64x2.sub(wh, f64x2.mul(f64x2.sub(th, f64x2.splat(MAGIC64)), f64x2.splat(LN2_64)));
+  const LO = K(41);
+  const wl = f64x2.pmax(LO, wl0);
+  const wh = f64x2.pmax(LO, wh0);
+  const tl = f64x2.add(f64x2.mul(wl, K(3)), K(4));
+  const th = f64x2.add(f64x2.mul(wh, K(3)), K(4));
+  const rl = f64x2.sub(wl, f64x2.mul(f64x2.sub(tl, K(4)), K(42)));
+  const rh = f64x2.sub(wh, f64x2.mul(f64x2.sub(th, K(4)), K(42)));
   const r = join(rl, rh);
   // the low 32 bits of t are k (two's complement): the low word of MAGIC64 is 0
-  return scale32(f32x4.add(f32x4.splat(1.0), cephes32(r)), low32(tl, th));
+  return scale32(f32x4.add(K(39), cephes32(r)), low32(tl, th));
 }
 
 /** expm1(w) for w in [TANH_LO32, 0] (or NaN), f32 lanes. */
 // @ts-ignore: decorator
 @inline
 function expm1Neg32(w0: v128): v128 {
-  const w = f32x4.max(w0, f32x4.splat(TANH_LO32));
-  const t = f32x4.add(f32x4.mul(w, f32x4.splat(LOG2E32)), f32x4.splat(MAGIC32));
-  const kf = f32x4.sub(t, f32x4.splat(MAGIC32));
-  const r = f32x4.sub(f32x4.sub(w, f32x4.mul(kf, f32x4.splat(C1_32))), f32x4.mul(kf, f32x4.splat(C2_32)));
+  const w = f32x4.pmax(K(43), w0);
+  const t = f32x4.add(f32x4.mul(w, K(35)), K(36));
+  const kf = f32x4.sub(t, K(36));
+  const r = f32x4.sub(f32x4.sub(w, f32x4.mul(kf, K(37))), f32x4.mul(kf, K(38)));
   const q = cephes32(r);
-  const s = i32x4.shl(i32x4.add(i32x4.sub(t, i32x4.splat(MAGIC32_BITS)), i32x4.splat(127)), 23);
-  return f32x4.add(f32x4.mul(s, q), f32x4.sub(s, f32x4.splat(1.0)));
+  const s = i32x4.shl(i32x4.add(i32x4.sub(t, K(40)), K(33)), 23);
+  return f32x4.add(f32x4.mul(s, q), f32x4.sub(s, K(39)));
 }
 
 /** Codes as for f64, plus 10 / 11: logistic / slope with g = 1, o = 0 (argument exact in f32). */
 // @ts-ignore: decorator
 @inline
-function apply32(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
-  const one = f32x4.splat(1.0);
-  const zero = f32x4.splat(0.0);
-  const nan = f32x4.splat(NaN);
+function apply32raw(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
+  const one = K(39);
+  const zero = K(44);
+  const nan = K(45);
   if (code == 0 || code == 1) {
     const ul = f64x2.mul(g, f64x2.sub(lo(x), o));
     const uh = f64x2.mul(g, f64x2.sub(hi(x), o));
     const e = expNeg32from64(f64x2.neg(f64x2.abs(ul)), f64x2.neg(f64x2.abs(uh)));
     const d = f32x4.add(one, e);
     if (code == 0) {
-      const pos = low32(f64x2.ge(ul, f64x2.splat(0.0)), f64x2.ge(uh, f64x2.splat(0.0)));
+      const pos = low32(f64x2.ge(ul, K(21)), f64x2.ge(uh, K(21)));
       return f32x4.div(v128.bitselect(one, e, pos), d);
     }
     return f32x4.div(f32x4.mul(g32, e), f32x4.mul(d, d));
@@ -306,13 +404,13 @@ function apply32(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
     if (code == 10) return f32x4.div(v128.bitselect(one, e, f32x4.ge(x, zero)), d);
     return f32x4.div(e, f32x4.mul(d, d));
   } else if (code == 2) {
-    const m = expm1Neg32(f32x4.mul(f32x4.splat(-2.0), f32x4.abs(x)));
-    const y = f32x4.div(f32x4.neg(m), f32x4.add(f32x4.splat(2.0), m));
-    return v128.bitselect(x, y, f32x4.splat(-0.0));
+    const m = expm1Neg32(f32x4.mul(K(46), f32x4.abs(x)));
+    const y = f32x4.div(f32x4.neg(m), f32x4.add(K(47), m));
+    return v128.bitselect(x, y, K(48));
   } else if (code == 3) {
-    const e = expNeg32(f32x4.mul(f32x4.splat(-2.0), f32x4.abs(x)));
+    const e = expNeg32(f32x4.mul(K(46), f32x4.abs(x)));
     const d = f32x4.add(one, e);
-    return f32x4.div(f32x4.mul(f32x4.splat(4.0), e), f32x4.mul(d, d));
+    return f32x4.div(f32x4.mul(K(49), e), f32x4.mul(d, d));
   } else if (code == 4) {
     return v128.bitselect(zero, x, f32x4.lt(x, zero));
   } else if (code == 5) {
@@ -329,6 +427,14 @@ function apply32(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
   }
 }
 
+/** apply32raw with NaN lanes of x passed through (see apply64). */
+// @ts-ignore: decorator
+@inline
+function apply32(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
+  const r = apply32raw(code, x, g, o, g32);
+  return code <= 3 || code >= 10 ? v128.bitselect(x, r, f32x4.ne(x, x)) : r;
+}
+
 // @ts-ignore: decorator
 @inline
 function run32(code: i32, out: usize, x: usize, n: i32, gain: f64, offset: f64): void {
@@ -336,7 +442,15 @@ function run32(code: i32, out: usize, x: usize, n: i32, gain: f64, offset: f64):
   const o = f64x2.splat(offset);
   const g32 = f32x4.splat(<f32>gain);
   const ve = <usize>(n - n % 4) * 4;
+  const ve2 = <usize>(n - n % 8) * 4;
   let p: usize = 0;
+  // two vectors per iteration: their (long) dependency chains overlap and share the constant loads
+  for (; p < ve2; p += 2 * VBYTES) {
+    const a = apply32(code, v128.load(x + p), g, o, g32);
+    const b = apply32(code, v128.load(x + p, VBYTES), g, o, g32);
+    v128.store(out + p, a);
+    v128.store(out + p, b, VBYTES);
+  }
   for (; p < ve; p += VBYTES) v128.store(out + p, apply32(code, v128.load(x + p), g, o, g32));
   const rem = n % 4;
   if (rem != 0) {
@@ -351,13 +465,22 @@ function run32(code: i32, out: usize, x: usize, n: i32, gain: f64, offset: f64):
   }
 }
 
+/** Codes 10 and 11 as functions of their own, so that the optimiser does not merge the plain and the
+ * general logistic into one loop with the code chosen at run time. */
+function logisticPlain32(out: usize, x: usize, n: i32): void {
+  run32(10, out, x, n, 1.0, 0.0);
+}
+function logisticSlopePlain32(out: usize, x: usize, n: i32): void {
+  run32(11, out, x, n, 1.0, 0.0);
+}
+
 /** The unit kernel `code` on f32 arrays (byte offsets; out may equal x). */
 export function unitFill32(code: i32, gain: f64, offset: f64, out: usize, x: usize, n: i32): void {
   if (n <= 0) return;
   const plain = gain == 1.0 && offset == 0.0;
   switch (code) {
-    case 0: if (plain) run32(10, out, x, n, gain, offset); else run32(0, out, x, n, gain, offset); break;
-    case 1: if (plain) run32(11, out, x, n, gain, offset); else run32(1, out, x, n, gain, offset); break;
+    case 0: if (plain) logisticPlain32(out, x, n); else run32(0, out, x, n, gain, offset); break;
+    case 1: if (plain) logisticSlopePlain32(out, x, n); else run32(1, out, x, n, gain, offset); break;
     case 2: run32(2, out, x, n, gain, offset); break;
     case 3: run32(3, out, x, n, gain, offset); break;
     case 4: run32(4, out, x, n, gain, offset); break;

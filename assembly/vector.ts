@@ -126,38 +126,102 @@ export function fill<T>(out: usize, value: f64, n: i32): void {
   for (; p < e; p += S) store<T>(p, v);
 }
 
-/** max_i |a[i] - b[i]|, NaN as soon as a difference is NaN; differences in f64. */
+/**
+ * max_i |a[i] - b[i]|, NaN if a difference is NaN; differences in f64. Two accumulators with pmax
+ * (one instruction; the NaN-propagating max is several and sits on the loop's dependency chain),
+ * NaN tracked apart: a NaN difference fails d == d.
+ */
 export function maxAbsDiff<T>(a: usize, b: usize, n: i32): f64 {
   const S = sizeof<T>();
   const ve = <usize>(n - n % lanes<T>()) * S;
   const e = <usize>n * S;
-  let best = f64x2.splat(0);
+  let b0 = f64x2.splat(0);
+  let b1 = b0;
+  let nan = b0;
   let o: usize = 0;
   if (S == 4) {
     for (; o < ve; o += VBYTES) {
       const x = v128.load(a + o);
       const y = v128.load(b + o);
-      best = f64x2.max(best, f64x2.abs(f64x2.sub(lo(x), lo(y))));
-      best = f64x2.max(best, f64x2.abs(f64x2.sub(hi(x), hi(y))));
+      const dl = f64x2.abs(f64x2.sub(lo(x), lo(y)));
+      const dh = f64x2.abs(f64x2.sub(hi(x), hi(y)));
+      b0 = f64x2.pmax(b0, dl);
+      b1 = f64x2.pmax(b1, dh);
+      nan = v128.or(nan, v128.or(f64x2.ne(dl, dl), f64x2.ne(dh, dh)));
     }
   } else {
-    for (; o < ve; o += VBYTES) best = f64x2.max(best, f64x2.abs(f64x2.sub(v128.load(a + o), v128.load(b + o))));
+    const v2 = <usize>(n - n % 4) * S;
+    for (; o < v2; o += 2 * VBYTES) {
+      const d0 = f64x2.abs(f64x2.sub(v128.load(a + o), v128.load(b + o)));
+      const d1 = f64x2.abs(f64x2.sub(v128.load(a + o, VBYTES), v128.load(b + o, VBYTES)));
+      b0 = f64x2.pmax(b0, d0);
+      b1 = f64x2.pmax(b1, d1);
+      nan = v128.or(nan, v128.or(f64x2.ne(d0, d0), f64x2.ne(d1, d1)));
+    }
+    for (; o < ve; o += VBYTES) {
+      const d0 = f64x2.abs(f64x2.sub(v128.load(a + o), v128.load(b + o)));
+      b0 = f64x2.pmax(b0, d0);
+      nan = v128.or(nan, f64x2.ne(d0, d0));
+    }
   }
-  let r = hmax<f64>(best);
+  if (v128.any_true(nan)) return NaN;
+  let r = hmax<f64>(f64x2.pmax(b0, b1));
   for (; o < e; o += S) r = max<f64>(r, abs<f64>(<f64>load<T>(a + o) - <f64>load<T>(b + o)));
   return r;
 }
 
-/** max_i |a[i]| (exact in T), NaN if any element is NaN. */
+/**
+ * max_i |a[i]| (exact in T), NaN if any element is NaN. f32: the magnitudes' bit patterns (sign
+ * cleared) order like the values, with every NaN above +Infinity (0x7f800000), so an unsigned
+ * integer max (one instruction) does it; four accumulators. f64: pmax with NaN tracked apart.
+ */
 export function maxAbs<T>(a: usize, n: i32): f64 {
   const S = sizeof<T>();
-  const ve = vend<T>(a, n);
   const e = a + <usize>n * S;
-  let best = v128.splat<T>(0);
   let p = a;
-  for (; p < ve; p += VBYTES) best = v128.max<T>(best, v128.abs<T>(v128.load(p)));
-  let r = <f64>hmax<T>(best);
-  for (; p < e; p += S) r = max<f64>(r, abs<f64>(<f64>load<T>(p)));
+  let r: f64 = 0;
+  if (S == 4) {
+    const mask = i32x4.splat(0x7fffffff);
+    let m0 = i32x4.splat(0);
+    let m1 = m0;
+    let m2 = m0;
+    let m3 = m0;
+    const v4 = a + <usize>(n - n % 16) * 4;
+    for (; p < v4; p += 4 * VBYTES) {
+      m0 = i32x4.max_u(m0, v128.and(v128.load(p), mask));
+      m1 = i32x4.max_u(m1, v128.and(v128.load(p, VBYTES), mask));
+      m2 = i32x4.max_u(m2, v128.and(v128.load(p, 2 * VBYTES), mask));
+      m3 = i32x4.max_u(m3, v128.and(v128.load(p, 3 * VBYTES), mask));
+    }
+    const ve = a + <usize>(n - n % 4) * 4;
+    for (; p < ve; p += VBYTES) m0 = i32x4.max_u(m0, v128.and(v128.load(p), mask));
+    const m = i32x4.max_u(i32x4.max_u(m0, m1), i32x4.max_u(m2, m3));
+    let bits = max<u32>(max<u32>(<u32>i32x4.extract_lane(m, 0), <u32>i32x4.extract_lane(m, 1)), max<u32>(<u32>i32x4.extract_lane(m, 2), <u32>i32x4.extract_lane(m, 3)));
+    for (; p < e; p += 4) bits = max<u32>(bits, load<u32>(p) & 0x7fffffff);
+    if (bits > 0x7f800000) return NaN;
+    r = <f64>reinterpret<f32>(bits);
+  } else {
+    let b0 = f64x2.splat(0);
+    let b1 = b0;
+    let nan = b0;
+    const v2 = a + <usize>(n - n % 4) * 8;
+    for (; p < v2; p += 2 * VBYTES) {
+      const x0 = f64x2.abs(v128.load(p));
+      const x1 = f64x2.abs(v128.load(p, VBYTES));
+      b0 = f64x2.pmax(b0, x0);
+      b1 = f64x2.pmax(b1, x1);
+      nan = v128.or(nan, v128.or(f64x2.ne(x0, x0), f64x2.ne(x1, x1)));
+    }
+    const ve = a + <usize>(n - n % 2) * 8;
+    for (; p < ve; p += VBYTES) {
+      const x0 = f64x2.abs(v128.load(p));
+      b0 = f64x2.pmax(b0, x0);
+      nan = v128.or(nan, f64x2.ne(x0, x0));
+    }
+    if (v128.any_true(nan)) return NaN;
+    r = hmax<f64>(f64x2.pmax(b0, b1));
+    for (; p < e; p += 8) r = max<f64>(r, abs<f64>(load<f64>(p)));
+  }
   return r;
 }
 

@@ -6,7 +6,8 @@
  * Memory layout (byte offsets):
  * ```
  * [0, 64)                      unused (keeps offset 0 out of every array)
- * [64, 64 + workspace)         gemm packing workspace (packed panels of A and B)
+ * [64, work)                   table of vector constants read by the kernels
+ * [work, work + workspace)      gemm packing workspace (packed panels of A and B)
  * [arenaStart, top)            arena: allocate() bumps `top`, 16-byte aligned
  * [top, memory size)           free: room for allocate without growth, and
  *                              scratch of the slow path during one call
@@ -24,6 +25,9 @@ import { createUnitFill } from "./units.js";
 /** The exports of assembly/index.ts (byte offsets and element counts). */
 interface KernelExports {
   gemmWorkspaceBytes(): number;
+  constantTableAddress(): number;
+  constantTableBytes(): number;
+  writeConstantTable(): void;
   relaxed(): number;
   gemmF32(c: number, a: number, b: number, m: number, n: number, k: number, tA: number, tB: number, alpha: number, beta: number, work: number): void;
   gemmF64(c: number, a: number, b: number, m: number, n: number, k: number, tA: number, tB: number, alpha: number, beta: number, work: number): void;
@@ -169,7 +173,9 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   // one page to instantiate on, then grown to the layout before any view exists
   const memory: WasmMemory = createMemory(1, maximumBytes === undefined ? undefined : maxPages);
   const X = instantiate(module, memory) as unknown as KernelExports;
-  const work = GUARD_BYTES;
+  const table = X.constantTableAddress();
+  if (table < GUARD_BYTES) fail("unsupported", "kernels", `a constant table at or above byte ${GUARD_BYTES}`, table);
+  const work = alignUp(table + X.constantTableBytes());
   const arenaStart = alignUp(work + X.gemmWorkspaceBytes());
   const initialPages = Math.ceil((arenaStart + arenaReserve + scratchBytes) / PAGE_BYTES);
   if (initialPages > maxPages) {
@@ -183,6 +189,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   } catch (e) {
     fail("unsupported", "memory", `the engine to provide ${initialPages * PAGE_BYTES} bytes of WebAssembly memory`, String(e));
   }
+  X.writeConstantTable();
 
   let buf = memory.buffer;
   let heap32 = new Float32Array(buf);
