@@ -7,6 +7,7 @@
 import { gemm, gemmWorkspaceBytes } from "./gemm";
 import { gemv, ger } from "./level2";
 import { unitFill32, unitFill64 } from "./units";
+import { rateStep32, rateStep64 } from "./step";
 import { addRowVector, allFinite, axpby, axpy, binary, dot, fill, maxAbs, maxAbsDiff, scale, sumRows } from "./vector";
 
 export { gemmWorkspaceBytes };
@@ -130,4 +131,16 @@ export function unitFillF32(code: i32, gain: f64, offset: f64, out: usize, x: us
 }
 export function unitFillF64(code: i32, gain: f64, offset: f64, out: usize, x: usize, n: i32): void {
   unitFill64(code, gain, offset, out, x, n);
+}
+
+/**
+ * One fused rate-dynamics step of a layer (see step.ts): nx holds the net input on entry and the new
+ * state on return; t = 0 for no nudging. Returns the largest |next - x|, -1 on a NaN or a value
+ * beyond `bound`, -2 for a unit code it does not handle.
+ */
+export function rateStepF32(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return rateStep32(code, gain, offset, x, nx, t, beta, dt, bound, n);
+}
+export function rateStepF64(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return rateStep64(code, gain, offset, x, nx, t, beta, dt, bound, n);
 }

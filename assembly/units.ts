@@ -256,14 +256,14 @@ function apply64raw(code: i32, x: v128, g: v128, o: v128): v128 {
  */
 // @ts-ignore: decorator
 @inline
-function apply64(code: i32, x: v128, g: v128, o: v128): v128 {
+export function apply64(code: i32, x: v128, g: v128, o: v128): v128 {
   const r = apply64raw(code, x, g, o);
   return code <= 3 ? v128.bitselect(x, r, f64x2.ne(x, x)) : r;
 }
 
 // @ts-ignore: decorator
 @inline
-function run64(code: i32, out: usize, x: usize, n: i32, gain: f64, offset: f64): void {
+export function run64(code: i32, out: usize, x: usize, n: i32, gain: f64, offset: f64): void {
   const g = f64x2.splat(gain);
   const o = f64x2.splat(offset);
   const ve = <usize>(n - n % 2) * 8;
@@ -297,17 +297,17 @@ export function unitFill64(code: i32, gain: f64, offset: f64, out: usize, x: usi
 /** The low f64 half / high f64 half of an f32x4 vector, and back. */
 // @ts-ignore: decorator
 @inline
-function lo(v: v128): v128 {
+export function lo(v: v128): v128 {
   return f64x2.promote_low_f32x4(v);
 }
 // @ts-ignore: decorator
 @inline
-function hi(v: v128): v128 {
+export function hi(v: v128): v128 {
   return f64x2.promote_low_f32x4(v128.shuffle<f32>(v, v, 2, 3, 2, 3));
 }
 // @ts-ignore: decorator
 @inline
-function join(l: v128, h: v128): v128 {
+export function join(l: v128, h: v128): v128 {
   return v128.shuffle<f32>(f32x4.demote_f64x2_zero(l), f32x4.demote_f64x2_zero(h), 0, 1, 4, 5);
 }
 /** The low 32 bits of each i64 lane of two vectors, as one i32x4 vector. */
@@ -430,14 +430,14 @@ function apply32raw(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
 /** apply32raw with NaN lanes of x passed through (see apply64). */
 // @ts-ignore: decorator
 @inline
-function apply32(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
+export function apply32(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
   const r = apply32raw(code, x, g, o, g32);
   return code <= 3 || code >= 10 ? v128.bitselect(x, r, f32x4.ne(x, x)) : r;
 }
 
 // @ts-ignore: decorator
 @inline
-function run32(code: i32, out: usize, x: usize, n: i32, gain: f64, offset: f64): void {
+export function run32(code: i32, out: usize, x: usize, n: i32, gain: f64, offset: f64): void {
   const g = f64x2.splat(gain);
   const o = f64x2.splat(offset);
   const g32 = f32x4.splat(<f32>gain);

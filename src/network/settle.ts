@@ -140,6 +140,8 @@ export class Settler {
   private readonly scratch: FloatArray;
   private readonly clamped: boolean[];
   private readonly targetBuf: FloatArray[];
+  /** Per layer: the unit as the fused rate step takes it, or null for units it does not know. */
+  private readonly fusedUnit: ({ kind: "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear"; gain: number; offset: number } | null)[];
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -155,6 +157,12 @@ export class Settler {
     this.targetBuf = alloc((role) => role === "output");
     this.scratch = net.allocate(Math.max(...net.layers.map((l) => l.size)));
     this.clamped = net.layers.map(() => false);
+    this.fusedUnit = net.layers.map((l) => {
+      const u = l.unit.spec;
+      if (u.kind === "logistic") return { kind: "logistic", gain: u.gain ?? 1, offset: u.offset ?? 0 };
+      if (u.kind === "tanh" || u.kind === "relu" || u.kind === "hard-sigmoid" || u.kind === "linear") return { kind: u.kind, gain: 1, offset: 0 };
+      return null;
+    });
   }
 
   /**
@@ -288,7 +296,15 @@ export class Settler {
         // η formed in the buffer being updated, and x + dt·(ρ'(u)·η − u [+ β(t − u)])
         if (!energy) {
           // rate dynamics: x += dt (f(eta) - x); nudging adds the current beta (t - x) to the net input,
-          // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost
+          // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost.
+          // One fused kernel pass when the backend has it (same bits as the separate calls below)
+          const fu = this.fusedUnit[i];
+          const fused = fu !== null && fu !== undefined && K.rateStep !== undefined ? K.rateStep(fu.kind, fu.gain, fu.offset, x, nx, nudge ? tgt : null, beta, dt, bound, len) : null;
+          if (fused !== null) {
+            if (fused < 0) this.diverged(l.index, K.maxAbs(nx, len), bound, phase, step);
+            if (fused > change) change = fused;
+            continue;
+          }
           if (nudge) {
             K.axpy(nx, tgt, beta, len); // eta + beta t
             K.axpy(nx, x, -beta, len); //   - beta x
@@ -317,12 +333,7 @@ export class Settler {
         }
         // one pass: maxAbs is NaN when a NaN is present and Infinity for an infinity, so both fail the test
         const largest = K.maxAbs(nx, len);
-        if (!(largest <= bound)) {
-          const bad = !Number.isFinite(largest) ? "a non-finite value" : `a value of magnitude ${largest}`;
-          throw new EbbflowError(
-            issueText("divergence", `layers[${i}]`, `settling of layer ${JSON.stringify(l.name)} to stay finite and within ±${bound}`, bad, `phase ${phase}, step ${step}; try a smaller dt or weaker weights`),
-          );
-        }
+        if (!(largest <= bound)) this.diverged(i, largest, bound, phase, step);
         const d = K.maxAbsDiff(nx, x, len);
         if (d > change) change = d;
       }
@@ -348,6 +359,15 @@ export class Settler {
       );
     }
     return snap;
+  }
+
+  /** Reports a layer whose state became non-finite or left ±bound. */
+  private diverged(i: number, largest: number, bound: number, phase: Phase, step: number): never {
+    const l = this.net.layers[i]!;
+    const bad = !Number.isFinite(largest) ? "a non-finite value" : `a value of magnitude ${largest}`;
+    throw new EbbflowError(
+      issueText("divergence", `layers[${i}]`, `settling of layer ${JSON.stringify(l.name)} to stay finite and within ±${bound}`, bad, `phase ${phase}, step ${step}; try a smaller dt or weaker weights`),
+    );
   }
 
   /**

@@ -119,6 +119,32 @@ export interface KernelBackend {
         n: number,
       ) => boolean)
     | undefined;
+  /**
+   * Optional: one settling step of rate dynamics for `n` values of a layer, in one pass:
+   * `next ← x + dt·(f(η + β·t − β·x) − x)` (the β terms only when `target` is given), where `next`
+   * holds the net input η on entry and the new state on return, `x` is the state; with the unit
+   * definitions of `unitFill`. The values are bit for bit those of the separate kernels called in the
+   * order `axpy(η, t, β)`, `axpy(η, x, −β)`, unit fill, `sub(η, η, x)`, `axpby(η, x, η, 1, dt)`.
+   *
+   * Returns the largest `|next − x|` (in float64), `-1` when a value of `next` is NaN or has a
+   * magnitude above `bound` (the caller reports it from `next`), or `null`, writing nothing, for a case
+   * the backend does not handle (then the caller runs the separate kernels). The TypeScript backend
+   * does not define it.
+   */
+  readonly rateStep?:
+    | ((
+        kind: "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear",
+        gain: number,
+        offset: number,
+        x: FloatArray,
+        next: FloatArray,
+        target: FloatArray | null,
+        beta: number,
+        dt: number,
+        bound: number,
+        n: number,
+      ) => number | null)
+    | undefined;
 }
 
 /** Validates the arguments of `allocate` (shared by every backend). */

@@ -53,6 +53,35 @@ export function unitFillCode(kind: string, slope: boolean): number {
   return k === undefined ? -1 : k * 2 + (slope ? 1 : 0);
 }
 
+/** The WebAssembly exports of the fused rate step (byte offsets, element count; t = 0: no target). */
+interface RateStepExports {
+  rateStepF32(code: number, gain: number, offset: number, x: number, nx: number, t: number, beta: number, dt: number, bound: number, n: number): number;
+  rateStepF64(code: number, gain: number, offset: number, x: number, nx: number, t: number, beta: number, dt: number, bound: number, n: number): number;
+}
+
+/**
+ * Builds the `rateStep` method of a WASM backend: arena views of one dtype only, `n` within each,
+ * `next` disjoint from `x` and `target`, finite `beta` and `dt`, finite `offset` and finite `gain > 0`;
+ * anything else returns null without writing.
+ * @internal
+ */
+export function createRateStep(X: RateStepExports, own: (b: ArrayBufferLike) => boolean): NonNullable<KernelBackend["rateStep"]> {
+  const disjoint = (a: FloatArray, b: FloatArray, bytes: number) => a.byteOffset + bytes <= b.byteOffset || b.byteOffset + bytes <= a.byteOffset;
+  return (kind, gain, offset, x, next, target, beta, dt, bound, n) => {
+    const code = unitFillCode(kind, false);
+    if (code < 0 || !Number.isInteger(n) || n < 0 || n > x.length || n > next.length || (target !== null && n > target.length)) return null;
+    if (!(gain > 0 && gain < Infinity) || !Number.isFinite(offset) || !Number.isFinite(beta) || !Number.isFinite(dt) || Number.isNaN(bound)) return null;
+    const f32 = next instanceof Float32Array;
+    if (f32 !== x instanceof Float32Array || (target !== null && f32 !== target instanceof Float32Array)) return null;
+    if (!own(next.buffer) || !own(x.buffer) || (target !== null && !own(target.buffer))) return null;
+    const bytes = n * next.BYTES_PER_ELEMENT;
+    if (!disjoint(next, x, bytes) || (target !== null && !disjoint(next, target, bytes))) return null;
+    if (n === 0) return 0;
+    const r = (f32 ? X.rateStepF32 : X.rateStepF64)(code, gain, offset, x.byteOffset, next.byteOffset, target === null ? 0 : target.byteOffset, target === null ? 0 : beta, dt, bound, n);
+    return r === -2 ? null : r;
+  };
+}
+
 /** The two WebAssembly exports a unit fill calls (byte offsets, element count). */
 interface UnitFillExports {
   unitFillF32(code: number, gain: number, offset: number, out: number, x: number, n: number): void;

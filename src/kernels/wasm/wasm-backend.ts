@@ -20,7 +20,7 @@ import * as ts from "../index.js";
 import type { ReadonlyFloatArray } from "../types.js";
 import { checkAllocation, type KernelBackend } from "./backend.js";
 import { MAX_PAGES, PAGE_BYTES, createMemory, instantiate, type WasmBuild, type WasmMemory, type WasmModule } from "./platform.js";
-import { createUnitFill } from "./units.js";
+import { createRateStep, createUnitFill } from "./units.js";
 
 /** The exports of assembly/index.ts (byte offsets and element counts). */
 interface KernelExports {
@@ -60,6 +60,8 @@ interface KernelExports {
   sumRowsF64(out: number, a: number, rows: number, cols: number, alpha: number, beta: number): void;
   unitFillF32(code: number, gain: number, offset: number, out: number, x: number, n: number): void;
   unitFillF64(code: number, gain: number, offset: number, out: number, x: number, n: number): void;
+  rateStepF32(code: number, gain: number, offset: number, x: number, nx: number, t: number, beta: number, dt: number, bound: number, n: number): number;
+  rateStepF64(code: number, gain: number, offset: number, x: number, nx: number, t: number, beta: number, dt: number, bound: number, n: number): number;
 }
 
 /**
@@ -641,6 +643,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
     addRowVector,
     sumRows,
     unitFill: createUnitFill(X, own),
+    rateStep: createRateStep(X, own),
   };
   return backend;
 }

@@ -1,0 +1,223 @@
+// One settling step of rate dynamics for one layer, fused into a single pass:
+//
+//   eta  <- eta + beta t - beta x          (only in a nudged phase; t != 0)
+//   next <- x + dt (f(eta) - x)            (written over eta)
+//
+// and, in the same pass, the largest |next| (the divergence test) and the
+// largest |next - x| (the stop rule). x is the layer's state, `nx` holds the
+// net input on entry and the new state on return.
+//
+// Exactness: the result is, bit for bit, what the separate kernels give when
+// called in the order the settler used before this kernel existed: axpy
+// (eta + beta t), axpy (- beta x), the unit fill, sub (f - x), axpby
+// (1 x + dt d), maxAbs, maxAbsDiff. Each intermediate is rounded to the
+// storage type where those kernels round it (f64 lanes for the scaled sums,
+// as in vector.ts), and the unit function is the same inline code as
+// unitFill (units.ts).
+//
+// Returns the largest |next - x| (computed in f64), or -1 when some |next|
+// exceeds `bound` or some value is NaN (the host then reports the layer with
+// the separate kernels).
+
+import { VBYTES } from "./simd";
+import { hi, join, lo, run32, run64 } from "./units";
+
+// @ts-ignore: decorator
+@inline
+function nudge32(v: v128, tv: v128, xv: v128, vb: v128, vnb: v128): v128 {
+  const a = join(f64x2.add(f64x2.mul(vb, lo(tv)), lo(v)), f64x2.add(f64x2.mul(vb, hi(tv)), hi(v)));
+  return join(f64x2.add(f64x2.mul(vnb, lo(xv)), lo(a)), f64x2.add(f64x2.mul(vnb, hi(xv)), hi(a)));
+}
+
+/** Elements per block: each block is nudged, passed through the unit and updated while it sits in L1. */
+const BLOCK: i32 = 512;
+
+// @ts-ignore: decorator
+@inline
+function step32(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  const vb = f64x2.splat(beta);
+  const vnb = f64x2.splat(-beta);
+  const vdt = f64x2.splat(dt);
+  const one = f64x2.splat(1.0);
+  const mask = i32x4.splat(0x7fffffff);
+  let mag = i32x4.splat(0);
+  let d0 = f64x2.splat(0);
+  let d1 = d0;
+  let nan = d0;
+  // three short passes per block rather than one long loop body: the unit function's dependency
+  // chain is long, and a loop holding it together with the update keeps too few iterations in flight
+  for (let start = 0; start < n; start += BLOCK) {
+    const m = min(BLOCK, n - start);
+    const off = <usize>start * 4;
+    const ve = <usize>(m - m % 4) * 4;
+    const bx = x + off;
+    const bn = nx + off;
+    let p: usize = 0;
+    if (t != 0) {
+      const bt = t + off;
+      for (; p < ve; p += VBYTES) v128.store(bn + p, nudge32(v128.load(bn + p), v128.load(bt + p), v128.load(bx + p), vb, vnb));
+      for (; p < <usize>m * 4; p += 4) {
+        const a = <f32>(beta * <f64>load<f32>(bt + p) + <f64>load<f32>(bn + p));
+        store<f32>(bn + p, <f32>(-beta * <f64>load<f32>(bx + p) + <f64>a));
+      }
+    }
+    run32(code, bn, bn, m, gain, offset);
+    // x + dt d in f64 lanes two values at a time, rounded and stored two values at a time
+    // (store64_lane): no two-vector shuffle, which V8 lowers to several instructions
+    for (p = 0; p < ve; p += VBYTES) {
+      const xa = v128.load(bx + p);
+      const d = f32x4.sub(v128.load(bn + p), xa);
+      const xl = lo(xa);
+      const xh = hi(xa);
+      const rl = f32x4.demote_f64x2_zero(f64x2.add(f64x2.mul(one, xl), f64x2.mul(vdt, lo(d))));
+      const rh = f32x4.demote_f64x2_zero(f64x2.add(f64x2.mul(one, xh), f64x2.mul(vdt, hi(d))));
+      v128.store64_lane(bn + p, rl, 0);
+      v128.store64_lane(bn + p, rh, 0, 8);
+      mag = i32x4.max_u(mag, i32x4.max_u(v128.and(rl, mask), v128.and(rh, mask)));
+      const e0 = f64x2.abs(f64x2.sub(f64x2.promote_low_f32x4(rl), xl));
+      const e1 = f64x2.abs(f64x2.sub(f64x2.promote_low_f32x4(rh), xh));
+      d0 = f64x2.pmax(d0, e0);
+      d1 = f64x2.pmax(d1, e1);
+      nan = v128.or(nan, v128.or(f64x2.ne(e0, e0), f64x2.ne(e1, e1)));
+    }
+    for (; p < <usize>m * 4; p += 4) {
+      const xs = load<f32>(bx + p);
+      const ds = load<f32>(bn + p) - xs;
+      const r = <f32>(1.0 * <f64>xs + dt * <f64>ds);
+      store<f32>(bn + p, r);
+      mag = i32x4.max_u(mag, i32x4.splat(reinterpret<i32>(r) & 0x7fffffff));
+      const e = abs<f64>(<f64>r - <f64>xs);
+      d0 = f64x2.pmax(d0, f64x2.splat(e));
+      if (e != e) nan = f64x2.splat(1.0);
+    }
+  }
+  // lanes 2 and 3 of mag saw only the zeros of the demotions and the splats
+  const bits = max<u32>(<u32>i32x4.extract_lane(mag, 0), <u32>i32x4.extract_lane(mag, 1));
+  // a NaN state has magnitude bits above +Infinity's
+  if (bits > 0x7f800000 || !(<f64>reinterpret<f32>(bits) <= bound) || v128.any_true(nan)) return -1;
+  const dd = f64x2.pmax(d0, d1);
+  return max<f64>(f64x2.extract_lane(dd, 0), f64x2.extract_lane(dd, 1));
+}
+
+// @ts-ignore: decorator
+@inline
+function step64(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  const vb = f64x2.splat(beta);
+  const vnb = f64x2.splat(-beta);
+  const vdt = f64x2.splat(dt);
+  const one = f64x2.splat(1.0);
+  let m0 = f64x2.splat(0);
+  let d0 = m0;
+  let nan = m0;
+  for (let start = 0; start < n; start += BLOCK) {
+    const m = min(BLOCK, n - start);
+    const off = <usize>start * 8;
+    const ve = <usize>(m - m % 2) * 8;
+    const bx = x + off;
+    const bn = nx + off;
+    let p: usize = 0;
+    if (t != 0) {
+      const bt = t + off;
+      for (; p < ve; p += VBYTES) {
+        const a = f64x2.add(f64x2.mul(vb, v128.load(bt + p)), v128.load(bn + p));
+        v128.store(bn + p, f64x2.add(f64x2.mul(vnb, v128.load(bx + p)), a));
+      }
+      if (m % 2 != 0) {
+        const a = beta * load<f64>(bt + p) + load<f64>(bn + p);
+        store<f64>(bn + p, -beta * load<f64>(bx + p) + a);
+      }
+    }
+    run64(code, bn, bn, m, gain, offset);
+    for (p = 0; p < ve; p += VBYTES) {
+      const xa = v128.load(bx + p);
+      const r = f64x2.add(f64x2.mul(one, xa), f64x2.mul(vdt, f64x2.sub(v128.load(bn + p), xa)));
+      v128.store(bn + p, r);
+      const aa = f64x2.abs(r);
+      const e = f64x2.abs(f64x2.sub(r, xa));
+      m0 = f64x2.pmax(m0, aa);
+      d0 = f64x2.pmax(d0, e);
+      nan = v128.or(nan, v128.or(f64x2.ne(aa, aa), f64x2.ne(e, e)));
+    }
+    if (m % 2 != 0) {
+      const xs = load<f64>(bx + p);
+      const r = 1.0 * xs + dt * (load<f64>(bn + p) - xs);
+      store<f64>(bn + p, r);
+      const aa = f64x2.splat(abs<f64>(r));
+      const e = f64x2.splat(abs<f64>(r - xs));
+      m0 = f64x2.pmax(m0, aa);
+      d0 = f64x2.pmax(d0, e);
+      nan = v128.or(nan, v128.or(f64x2.ne(aa, aa), f64x2.ne(e, e)));
+    }
+  }
+  const largest = max<f64>(f64x2.extract_lane(m0, 0), f64x2.extract_lane(m0, 1));
+  if (v128.any_true(nan) || !(largest <= bound)) return -1;
+  return max<f64>(f64x2.extract_lane(d0, 0), f64x2.extract_lane(d0, 1));
+}
+
+// One function per unit code, so that each loop is compiled with its code
+// known (the optimiser would otherwise merge calls that differ only in the
+// code into one loop that tests the code at run time).
+
+function logisticPlain32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step32(10, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+function logistic32(gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step32(0, gain, offset, x, nx, t, beta, dt, bound, n);
+}
+function tanh32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step32(2, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+function relu32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step32(4, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+function hardSigmoid32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step32(6, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+function linear32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step32(8, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+
+function logistic64(gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step64(0, gain, offset, x, nx, t, beta, dt, bound, n);
+}
+function tanh64(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step64(2, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+function relu64(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step64(4, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+function hardSigmoid64(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step64(6, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+function linear64(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  return step64(8, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+}
+
+/**
+ * The fused rate step on f32 arrays (byte offsets; t = 0: no nudging). `code` is the unit kind's
+ * unitFill code (0 logistic, 2 tanh, 4 relu, 6 hard sigmoid, 8 linear); -2 for any other.
+ */
+export function rateStep32(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  if (n <= 0) return 0;
+  switch (code) {
+    case 0: return gain == 1.0 && offset == 0.0 ? logisticPlain32(x, nx, t, beta, dt, bound, n) : logistic32(gain, offset, x, nx, t, beta, dt, bound, n);
+    case 2: return tanh32(x, nx, t, beta, dt, bound, n);
+    case 4: return relu32(x, nx, t, beta, dt, bound, n);
+    case 6: return hardSigmoid32(x, nx, t, beta, dt, bound, n);
+    case 8: return linear32(x, nx, t, beta, dt, bound, n);
+    default: return -2;
+  }
+}
+
+/** The fused rate step on f64 arrays (as rateStep32). */
+export function rateStep64(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
+  if (n <= 0) return 0;
+  switch (code) {
+    case 0: return logistic64(gain, offset, x, nx, t, beta, dt, bound, n);
+    case 2: return tanh64(x, nx, t, beta, dt, bound, n);
+    case 4: return relu64(x, nx, t, beta, dt, bound, n);
+    case 6: return hardSigmoid64(x, nx, t, beta, dt, bound, n);
+    case 8: return linear64(x, nx, t, beta, dt, bound, n);
+    default: return -2;
+  }
+}
