@@ -37,6 +37,16 @@ export interface PhaseOptions {
   readonly requireConvergence?: boolean | undefined;
   /** Called after every step with the snapshot being settled (for traces updated during settling). */
   readonly onStep?: ((snapshot: Snapshot, step: number) => void) | undefined;
+  /**
+   * Reuse the drive (bias plus input from clamped layers) this settler computed in its previous phase:
+   * a promise by the caller that no parameter has changed since that phase. The settler reuses it only
+   * when it can also see that the rest holds: the same batch, the same `inputs` object (and the same
+   * `targets` object when outputs were clamped before), and every layer clamped then is clamped now; it
+   * then adds only the input from layers clamped now but free then. Otherwise it computes the drive
+   * afresh. Rules pass it for the second and later phases of one training step, where the input drive
+   * is the same (Equilibrium Propagation's nudged phases need no new products with the input weights).
+   */
+  readonly reuseDrive?: boolean | undefined;
 }
 
 /**
@@ -140,6 +150,10 @@ export class Settler {
   private readonly scratch: FloatArray;
   private readonly clamped: boolean[];
   private readonly targetBuf: FloatArray[];
+  /** What the drive arrays were last computed from (null before the first phase or after a failed one). */
+  private driveFrom: { inputs: LayerValues; targets: LayerValues | undefined; clamped: boolean[] } | null = null;
+  /** Layers clamped in this phase and free in the previous one (used when the drive is reused). */
+  private readonly newlyClamped: boolean[];
   /** Per layer: the unit as the fused rate step takes it, or null for units it does not know. */
   private readonly fusedUnit: ({ kind: "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear"; gain: number; offset: number } | null)[];
 
@@ -157,6 +171,7 @@ export class Settler {
     this.targetBuf = alloc((role) => role === "output");
     this.scratch = net.allocate(Math.max(...net.layers.map((l) => l.size)));
     this.clamped = net.layers.map(() => false);
+    this.newlyClamped = net.layers.map(() => false);
     this.fusedUnit = net.layers.map((l) => {
       const u = l.unit.spec;
       if (u.kind === "logistic") return { kind: "logistic", gain: u.gain ?? 1, offset: u.offset ?? 0 };
@@ -260,13 +275,27 @@ export class Settler {
       }
     }
 
-    // clamp-aware drive: bias plus everything that comes from clamped layers, computed once per phase
+    // clamp-aware drive: bias plus everything that comes from clamped layers, computed once per phase,
+    // or carried over from the previous phase (adding only what newly clamped layers send)
+    const prev = this.driveFrom;
+    this.driveFrom = null;
+    const reuse =
+      options.reuseDrive === true &&
+      prev !== null &&
+      prev.inputs === options.inputs &&
+      net.layers.every((l) => !prev.clamped[l.index] || (this.clamped[l.index] && (l.role !== "output" || prev.targets === options.targets)));
+    for (const l of net.layers) this.newlyClamped[l.index] = reuse && this.clamped[l.index] === true && prev?.clamped[l.index] !== true;
     for (const l of net.layers) {
       if (this.clamped[l.index]) continue;
       const d = this.drive[l.index] as FloatArray;
-      for (let b = 0; b < batch; b++) d.set(l.bias, b * l.size);
-      this.accumulate(d, l.index, snap.activity, true);
+      if (reuse) {
+        this.accumulate(d, l.index, snap.activity, this.newlyClamped, true);
+      } else {
+        for (let b = 0; b < batch; b++) d.set(l.bias, b * l.size);
+        this.accumulate(d, l.index, snap.activity, this.clamped, true);
+      }
     }
+    this.driveFrom = { inputs: options.inputs, targets: options.targets, clamped: this.clamped.slice() };
 
     snap.record = options.record ? [] : null;
     snap.phase = phase;
@@ -287,7 +316,7 @@ export class Settler {
         const nx = this.next[i] as FloatArray;
         const eta = energy ? (this.netInput[i] as FloatArray) : nx;
         K.copy(eta, this.drive[i] as FloatArray, len);
-        this.accumulate(eta, i, snap.activity, false);
+        this.accumulate(eta, i, snap.activity, this.clamped, false);
         this.inhibit(eta, i, snap.activity[i] as FloatArray);
         const dt = dyn.dt;
         const nudge = phase === "nudged" && l.role === "output";
@@ -372,21 +401,21 @@ export class Settler {
 
   /**
    * Adds to `eta` (layer i's net input, B×N) the contributions of connections
-   * into i and of feedback paths from layers i sends to, taking only sources
-   * that are clamped (`fromClamped`) or only those that are free.
+   * into i and of feedback paths from layers i sends to, taking only the sources
+   * j with `mask[j] === want`.
    */
-  private accumulate(eta: FloatArray, i: number, act: FloatArray[], fromClamped: boolean): void {
+  private accumulate(eta: FloatArray, i: number, act: FloatArray[], mask: readonly boolean[], want: boolean): void {
     const { net, batch } = this;
     const gemm = net.kernels.gemm;
     const n = net.layers[i]!.size;
     for (const c of net.incoming[i] as readonly import("./network.js").Connection[]) {
-      if (this.clamped[c.from] !== fromClamped) continue;
+      if (mask[c.from] !== want) continue;
       const m = net.layers[c.from]!.size;
       // eta (B×n) += X_from (B×m) · Wᵀ (m×n)
       gemm(eta, act[c.from] as FloatArray, c.weights, batch, n, m, false, true, 1, 1);
     }
     for (const c of net.feedbackInto[i] as readonly import("./network.js").Connection[]) {
-      if (this.clamped[c.to] !== fromClamped) continue;
+      if (mask[c.to] !== want) continue;
       const m = net.layers[c.to]!.size;
       if (c.feedback.kind === "tied") {
         // eta (B×n) += gain · X_to (B×m) · W (m×n)

@@ -36,7 +36,7 @@ function settleTwoPhases(rule: SettlingRule & { ws: (b: number) => { settler: im
   const B = batchSizeOf(rule.net, batch);
   const { settler, snaps } = rule.ws(B);
   const free = settler.settle({ phase: "free", inputs: batch.inputs, start: rule.startAt(B) }, snaps[0]);
-  const clamped = settler.settle({ phase: "clamped", inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+  const clamped = settler.settle({ phase: "clamped", reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
   return [free, clamped, B];
 }
 
@@ -274,7 +274,7 @@ export class SlidingThresholdRule extends SettlingRule {
     if (cfg.timing === "phases") {
       const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B) }, snaps[0]);
       this.lastFree = free;
-      const clamped = settler.settle({ phase: "clamped", inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+      const clamped = settler.settle({ phase: "clamped", reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
       fast = clamped.activity;
       slow = free.activity;
     } else {
@@ -307,7 +307,7 @@ export class SlidingThresholdRule extends SettlingRule {
       // fixed phase durations (no early stop), so the traces see a known time course
       const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B), onStep: feed, maxSteps: cfg.freeSteps, tolerance: Number.MIN_VALUE }, snaps[0]);
       this.lastFree = free;
-      settler.settle({ phase: "clamped", inputs: batch.inputs, targets: batch.targets, start: free, onStep: feed, maxSteps: cfg.clampedSteps, tolerance: Number.MIN_VALUE }, snaps[1]);
+      settler.settle({ phase: "clamped", reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free, onStep: feed, maxSteps: cfg.clampedSteps, tolerance: Number.MIN_VALUE }, snaps[1]);
       fast = tf;
       slow = ts;
     }

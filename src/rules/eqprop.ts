@@ -52,12 +52,12 @@ export class EquilibriumPropagation extends SettlingRule {
     this.lastFree = free;
     let beta = this.cfg.beta;
     if (this.cfg.mode === "symmetric") {
-      const a = settler.settle({ phase: "nudged", beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
-      const b = settler.settle({ phase: "nudged", beta: -beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
+      const a = settler.settle({ phase: "nudged", beta, reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+      const b = settler.settle({ phase: "nudged", beta: -beta, reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
       return { a, b, scale: 1 / (2 * beta), B };
     }
     if (this.cfg.mode === "random-sign") beta *= this.signs.sign();
-    const a = settler.settle({ phase: "nudged", beta, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+    const a = settler.settle({ phase: "nudged", beta, reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
     return { a, b: free, scale: 1 / beta, B };
   }
 
