@@ -21,6 +21,7 @@
 // packing would transpose all of B on every call for little reuse.
 
 import { gemmDotNT } from "./gemm-dot";
+import { gemv, ger } from "./level2";
 import { VBYTES, lanes, scaleInPlace, vmadd } from "./simd";
 
 /** Rows of the register tile. */
@@ -318,6 +319,19 @@ export function gemm<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, tr
   const be = <T>beta;
   const one = <T>1;
   const ldc = <usize>n * S;
+  if (m == 1 && !transB) {
+    // one row of C: C = alpha a B + beta C = alpha Bᵀ a + beta C (a is k contiguous values whether or
+    // not A is transposed), a matrix-vector product with no packing
+    gemv<T>(c, b, a, k, n, true, alpha, beta);
+    return;
+  }
+  if (k == 1) {
+    // a sum of one product per entry: C = beta C + alpha a bᵀ (both operands are contiguous vectors),
+    // an outer-product update with no packing
+    scaleInPlace<T>(c, m * n, beta);
+    ger<T>(c, a, b, m, n, alpha);
+    return;
+  }
   if (!transA && transB && useDotPath(m, k)) {
     store<T>(pS, al);
     store<T>(pS, be, S);

@@ -4,8 +4,12 @@ Workload: a 784-256-10 network, logistic units, tied symmetric feedback (gain 1)
 x += dt (f(eta) - x) with dt = 0.5; per mini-batch: a free phase of 20 steps from rest, a nudged phase
 of 4 steps from the free state (beta = 0.5, the current beta (t - y) added to the output net input),
 then the one-sided Equilibrium Propagation update (Scellier & Bengio 2017). The input drive W1 x + b1
-is computed once per phase. float32. Prints one JSON object: microseconds per example per batch size.
+is computed once per training step (the inputs and weights are the same in both phases), as ebbflow
+does. float32. Prints one JSON object: microseconds per example per batch size, and the number of
+BLAS threads NumPy used (set OPENBLAS_NUM_THREADS / OMP_NUM_THREADS to restrict it; ebbflow's
+benchmark runs this script once with the default and once with one thread).
 """
+import os
 import json
 import sys
 import time
@@ -31,8 +35,7 @@ def run(batch, seconds, dtype=np.float32):
     t[np.arange(batch), rng.integers(0, n_out, batch)] = 1
     dt, beta, rate = dtype(0.5), dtype(0.5), dtype(0.01)
 
-    def settle(h, y, steps, nudge):
-        drive = x @ w1.T + b1
+    def settle(drive, h, y, steps, nudge):
         for _ in range(steps):
             eta_h = drive + y @ w2
             eta_y = h @ w2.T + b2
@@ -44,10 +47,11 @@ def run(batch, seconds, dtype=np.float32):
 
     def step():
         nonlocal w1, w2, b1, b2
-        h0, y0 = settle(np.zeros((batch, n_h), dtype), np.zeros((batch, n_out), dtype), 20, False)
-        hb, yb = settle(h0, y0, 4, True)
+        drive = x @ w1.T + b1
+        h0, y0 = settle(drive, np.zeros((batch, n_h), dtype), np.zeros((batch, n_out), dtype), 20, False)
+        hb, yb = settle(drive, h0, y0, 4, True)
         s = rate / (beta * batch)
-        w1 += s * (hb.T @ x - h0.T @ x)
+        w1 += s * ((hb - h0).T @ x)
         w2 += s * (yb.T @ hb - y0.T @ h0)
         b1 += s * (hb - h0).sum(0)
         b2 += s * (yb - y0).sum(0)
@@ -65,5 +69,6 @@ def run(batch, seconds, dtype=np.float32):
 if __name__ == "__main__":
     seconds = float(sys.argv[1]) if len(sys.argv) > 1 else 1.0
     batches = [int(b) for b in sys.argv[2:]] or [1, 64]
-    out = {"implementation": "numpy", "numpy": np.__version__, "results": {str(b): run(b, seconds) for b in batches}}
+    threads = os.environ.get("OPENBLAS_NUM_THREADS") or os.environ.get("OMP_NUM_THREADS") or "default"
+    out = {"implementation": "numpy", "numpy": np.__version__, "threads": threads, "results": {str(b): run(b, seconds) for b in batches}}
     print(json.dumps(out))
