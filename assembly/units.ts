@@ -442,14 +442,18 @@ export function run32(code: i32, out: usize, x: usize, n: i32, gain: f64, offset
   const o = f64x2.splat(offset);
   const g32 = f32x4.splat(<f32>gain);
   const ve = <usize>(n - n % 4) * 4;
-  const ve2 = <usize>(n - n % 8) * 4;
+  const ve4 = <usize>(n - n % 16) * 4;
   let p: usize = 0;
-  // two vectors per iteration: their (long) dependency chains overlap and share the constant loads
-  for (; p < ve2; p += 2 * VBYTES) {
+  // four vectors per iteration: their (long) dependency chains overlap and share the constant loads
+  for (; p < ve4; p += 4 * VBYTES) {
     const a = apply32(code, v128.load(x + p), g, o, g32);
     const b = apply32(code, v128.load(x + p, VBYTES), g, o, g32);
+    const c = apply32(code, v128.load(x + p, 2 * VBYTES), g, o, g32);
+    const d = apply32(code, v128.load(x + p, 3 * VBYTES), g, o, g32);
     v128.store(out + p, a);
     v128.store(out + p, b, VBYTES);
+    v128.store(out + p, c, 2 * VBYTES);
+    v128.store(out + p, d, 3 * VBYTES);
   }
   for (; p < ve; p += VBYTES) v128.store(out + p, apply32(code, v128.load(x + p), g, o, g32));
   const rem = n % 4;

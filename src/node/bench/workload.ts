@@ -1,6 +1,6 @@
 /**
  * The training benchmark: Equilibrium Propagation on a 784-256-10 network (20 free + 4 nudged steps,
- * float32, input drive once per phase), microseconds per example at batch 1 and 64, for ebbflow on one
+ * float32, input drive once per training step), microseconds per example at batch 1 and 64, for ebbflow on one
  * thread and on worker threads, and for peers measured in the same run: a NumPy implementation of the
  * same workload (`bench/peers/numpy_eqprop.py`, when python3 with NumPy is present) and TF.js on its CPU
  * backend (when `@tensorflow/tfjs-core` and `@tensorflow/tfjs-backend-cpu` are installed).
@@ -98,14 +98,31 @@ async function timeIt(fn: () => unknown, seconds: number): Promise<number> {
   return (t - t0) / reps / 1000;
 }
 
+/**
+ * The NumPy peer, run twice: with NumPy's default BLAS threads (every core) and restricted to one
+ * thread (`OPENBLAS_NUM_THREADS=1` and friends), the like-for-like peer of ebbflow on one thread.
+ */
 async function numpyPeer(batches: number[], seconds: number): Promise<BenchFigure[]> {
   const script = fileURLToPath(new URL("../../../bench/peers/numpy_eqprop.py", import.meta.url));
-  const skip = (note: string) => batches.map((b) => ({ implementation: "numpy", batch: b, workers: 1, usPerExample: null, note }));
-  if (!existsSync(script)) return skip(`peer script not found (${script})`);
-  const r = spawnSync("python3", [script, String(seconds), ...batches.map(String)], { encoding: "utf8", timeout: 600_000 });
-  if (r.error !== undefined || r.status !== 0) return skip(`skipped: python3 with NumPy not available (${(r.stderr || r.error?.message || "").trim().split("\n").at(-1) ?? ""})`);
-  const out = JSON.parse(r.stdout) as { numpy: string; results: Record<string, number> };
-  return batches.map((b) => ({ implementation: "numpy", batch: b, workers: 1, usPerExample: out.results[String(b)] ?? null, note: `NumPy ${out.numpy}` }));
+  const out: BenchFigure[] = [];
+  for (const [implementation, env] of [
+    ["numpy", {}],
+    ["numpy-1-thread", { OPENBLAS_NUM_THREADS: "1", OMP_NUM_THREADS: "1", MKL_NUM_THREADS: "1" }],
+  ] as const) {
+    const skip = (note: string) => batches.map((b) => ({ implementation, batch: b, workers: 1, usPerExample: null, note }));
+    if (!existsSync(script)) {
+      out.push(...skip(`peer script not found (${script})`));
+      continue;
+    }
+    const r = spawnSync("python3", [script, String(seconds), ...batches.map(String)], { encoding: "utf8", timeout: 600_000, env: { ...process.env, ...env } });
+    if (r.error !== undefined || r.status !== 0) {
+      out.push(...skip(`skipped: python3 with NumPy not available (${(r.stderr || r.error?.message || "").trim().split("\n").at(-1) ?? ""})`));
+      continue;
+    }
+    const res = JSON.parse(r.stdout) as { numpy: string; threads?: string; results: Record<string, number> };
+    out.push(...batches.map((b) => ({ implementation, batch: b, workers: 1, usPerExample: res.results[String(b)] ?? null, note: `NumPy ${res.numpy}, BLAS threads ${res.threads ?? "default"}` })));
+  }
+  return out;
 }
 
 async function tfjsPeer(batches: number[], seconds: number): Promise<BenchFigure[]> {
@@ -127,8 +144,8 @@ async function tfjsPeer(batches: number[], seconds: number): Promise<BenchFigure
     let w2 = tf.tensor2d(Float32Array.from({ length: 10 * 256 }, () => rng.between(-lim2, lim2)), [10, 256]);
     const x = tf.tensor2d(Float32Array.from({ length: B * 784 }, () => (rng.uniform() < 0.15 ? 1 : 0)), [B, 784]);
     const t = tf.cast(tf.oneHot(tf.tensor1d(Array.from({ length: B }, () => rng.int(10)), "int32"), 10), "float32");
-    const settle = (h: import("@tensorflow/tfjs-core").Tensor2D, y: import("@tensorflow/tfjs-core").Tensor2D, steps: number, nudge: boolean) => {
-      const drive = tf.matMul(x, w1, false, true);
+    // the input drive once per training step, as ebbflow and the NumPy peer compute it
+    const settle = (drive: import("@tensorflow/tfjs-core").Tensor2D, h: import("@tensorflow/tfjs-core").Tensor2D, y: import("@tensorflow/tfjs-core").Tensor2D, steps: number, nudge: boolean) => {
       for (let s = 0; s < steps; s++) {
         const etaH = tf.add(drive, tf.matMul(y, w2));
         let etaY = tf.matMul(h, w2, false, true);
@@ -140,10 +157,11 @@ async function tfjsPeer(batches: number[], seconds: number): Promise<BenchFigure
     };
     const step = () => {
       const [nw1, nw2] = tf.tidy(() => {
-        const [h0, y0] = settle(tf.zeros([B, 256]), tf.zeros([B, 10]), 20, false);
-        const [hb, yb] = settle(h0, y0, 4, true);
+        const drive = tf.matMul(x, w1, false, true) as import("@tensorflow/tfjs-core").Tensor2D;
+        const [h0, y0] = settle(drive, tf.zeros([B, 256]), tf.zeros([B, 10]), 20, false);
+        const [hb, yb] = settle(drive, h0, y0, 4, true);
         const s = 0.01 / (0.5 * B);
-        return [tf.add(w1, tf.mul(s, tf.sub(tf.matMul(hb, x, true), tf.matMul(h0, x, true)))), tf.add(w2, tf.mul(s, tf.sub(tf.matMul(yb, hb, true), tf.matMul(y0, h0, true))))];
+        return [tf.add(w1, tf.mul(s, tf.matMul(tf.sub(hb, h0), x, true))), tf.add(w2, tf.mul(s, tf.sub(tf.matMul(yb, hb, true), tf.matMul(y0, h0, true))))];
       });
       w1.dispose();
       w2.dispose();
@@ -259,7 +277,7 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
     created: new Date().toISOString(),
     machine,
     peakGflops: peak,
-    workload: "EqProp 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per phase",
+    workload: "EqProp 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per training step (shared by both phases)",
     figures,
     kernels,
     memory,
@@ -290,7 +308,7 @@ export function formatBench(a: BenchReport, b?: BenchReport): string {
     const best = ourOptions.sort((x, y) => (x.usPerExample as number) - (y.usPerExample as number))[0];
     const ours = best?.usPerExample ?? null;
     if (best !== undefined) lines.push(`  batch ${B}: fastest ebbflow on one thread: ${best.implementation}`);
-    for (const peer of ["numpy", "tfjs-cpu"]) {
+    for (const peer of ["numpy", "numpy-1-thread", "tfjs-cpu"]) {
       const p = base(peer, B);
       if (ours !== null && p !== null) lines.push(`  batch ${B}: ${peer} / ebbflow = ${(p / ours).toFixed(2)}`);
     }
