@@ -105,6 +105,70 @@ function tile1x4<T>(a0: usize, b0: usize, ldb: usize, k: i32, c0: usize, sc: usi
 }
 
 /**
+ * Tile of 2 rows of A by 2 rows of B (edges of the 2-row loop): four independent accumulators
+ * instead of four calls of tile1x1, whose single accumulator chains every multiply-add. Lanes are
+ * added as in tile1x1, so an entry does not depend on the tile that computed it.
+ */
+function tile2x2<T>(a0: usize, a1: usize, b0: usize, b1: usize, k: i32, c0: usize, ldc: usize, sc: usize, betaZero: bool): void {
+  const S = sizeof<T>();
+  const L = lanes<T>();
+  const zero = v128.splat<T>(0);
+  let s00 = zero, s01 = zero, s10 = zero, s11 = zero;
+  const kv = <usize>(k - k % L) * S;
+  let o: usize = 0;
+  for (; o < kv; o += VBYTES) {
+    const x0 = v128.load(a0 + o);
+    const x1 = v128.load(a1 + o);
+    const y0 = v128.load(b0 + o);
+    const y1 = v128.load(b1 + o);
+    s00 = vmadd<T>(x0, y0, s00);
+    s01 = vmadd<T>(x0, y1, s01);
+    s10 = vmadd<T>(x1, y0, s10);
+    s11 = vmadd<T>(x1, y1, s11);
+  }
+  let r00 = hsum<T>(s00), r01 = hsum<T>(s01), r10 = hsum<T>(s10), r11 = hsum<T>(s11);
+  const ke = <usize>k * S;
+  for (; o < ke; o += S) {
+    const x0 = load<T>(a0 + o);
+    const x1 = load<T>(a1 + o);
+    const y0 = load<T>(b0 + o);
+    const y1 = load<T>(b1 + o);
+    r00 += x0 * y0;
+    r01 += x0 * y1;
+    r10 += x1 * y0;
+    r11 += x1 * y1;
+  }
+  put<T>(c0, r00, sc, betaZero);
+  put<T>(c0 + S, r01, sc, betaZero);
+  put<T>(c0 + ldc, r10, sc, betaZero);
+  put<T>(c0 + ldc + S, r11, sc, betaZero);
+}
+
+/** Tile of 2 rows of A by 1 row of B (the last column of the 2-row loop): two independent accumulators. */
+function tile2x1<T>(a0: usize, a1: usize, b0: usize, k: i32, c0: usize, ldc: usize, sc: usize, betaZero: bool): void {
+  const S = sizeof<T>();
+  const L = lanes<T>();
+  let s0 = v128.splat<T>(0);
+  let s1 = s0;
+  const kv = <usize>(k - k % L) * S;
+  let o: usize = 0;
+  for (; o < kv; o += VBYTES) {
+    const y = v128.load(b0 + o);
+    s0 = vmadd<T>(v128.load(a0 + o), y, s0);
+    s1 = vmadd<T>(v128.load(a1 + o), y, s1);
+  }
+  let r0 = hsum<T>(s0), r1 = hsum<T>(s1);
+  const ke = <usize>k * S;
+  for (; o < ke; o += S) {
+    const y = load<T>(b0 + o);
+    r0 += load<T>(a0 + o) * y;
+    r1 += load<T>(a1 + o) * y;
+  }
+  put<T>(c0, r0, sc, betaZero);
+  put<T>(c0 + ldc, r1, sc, betaZero);
+}
+
+/**
  * One row of A by one row of B (edges). One accumulator, lanes added in the
  * same order as in the larger tiles, so an entry does not depend on the tile
  * that computed it (A Aᵀ comes out exactly symmetric).
@@ -139,10 +203,8 @@ export function gemmDotNT<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i3
       const c0 = c + <usize>i * ldc;
       let j = jc;
       for (; j < j4; j += 4) tile2x4<T>(a0, a0 + rowA, b + <usize>j * rowA, rowA, k, c0 + <usize>j * S, ldc, sc, betaZero);
-      for (; j < je; j++) {
-        tile1x1<T>(a0, b + <usize>j * rowA, k, c0 + <usize>j * S, sc, betaZero);
-        tile1x1<T>(a0 + rowA, b + <usize>j * rowA, k, c0 + ldc + <usize>j * S, sc, betaZero);
-      }
+      for (; j + 2 <= je; j += 2) tile2x2<T>(a0, a0 + rowA, b + <usize>j * rowA, b + <usize>(j + 1) * rowA, k, c0 + <usize>j * S, ldc, sc, betaZero);
+      if (j < je) tile2x1<T>(a0, a0 + rowA, b + <usize>j * rowA, k, c0 + <usize>j * S, ldc, sc, betaZero);
     }
     if (i < m) {
       const a0 = a + <usize>i * rowA;
