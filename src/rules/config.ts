@@ -27,6 +27,10 @@ export const ruleSchema = z.discriminatedUnion(
         rule: z.literal("eqprop"),
         beta: nonZero("a non-zero nudging strength beta"),
         mode: z.enum(["one-sided", "random-sign", "symmetric"], { error: "one of one-sided, random-sign, symmetric" }).default("one-sided"),
+        // settling steps of the free and nudged phases (default: the network's dynamics.maxSteps); the
+        // authors settle fewer nudged than free steps, e.g. 20 and 4 (Scellier & Bengio 2017, from memory)
+        freeSteps: z.number().int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" }).optional(),
+        nudgedSteps: z.number().int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" }).optional(),
         ...common,
       })
       .strict(),

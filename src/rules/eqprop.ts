@@ -21,6 +21,7 @@ type Cfg = Extract<RuleConfig, { rule: "eqprop" }>;
  * `ΔW = (ε/2β)(ρρ^{+β} − ρρ^{−β})`, bias O(β²); Laborieux et al. 2021, Front. Neurosci. 15:633674).
  * Runs on energy dynamics or on rate dynamics (whose nudged fixed point is a stationary point of the
  * continuous-Hopfield energy plus β·cost); the estimate follows the gradient when feedback is tied with gain 1.
+ * `freeSteps` and `nudgedSteps` cap the two phases' settling (default: the network's `dynamics.maxSteps`).
  * @category Rules
  */
 export class EquilibriumPropagation extends SettlingRule {
@@ -48,16 +49,16 @@ export class EquilibriumPropagation extends SettlingRule {
   private settlePhases(batch: Batch): { a: Snapshot; b: Snapshot; scale: number; B: number } {
     const B = batchSizeOf(this.net, batch);
     const { settler, snaps } = this.workspace(B, this.cfg.mode === "symmetric" ? 3 : 2);
-    const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B) }, snaps[0]);
+    const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B), maxSteps: this.cfg.freeSteps }, snaps[0]);
     this.lastFree = free;
     let beta = this.cfg.beta;
     if (this.cfg.mode === "symmetric") {
-      const a = settler.settle({ phase: "nudged", beta, reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
-      const b = settler.settle({ phase: "nudged", beta: -beta, reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
+      const a = settler.settle({ phase: "nudged", beta, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+      const b = settler.settle({ phase: "nudged", beta: -beta, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
       return { a, b, scale: 1 / (2 * beta), B };
     }
     if (this.cfg.mode === "random-sign") beta *= this.signs.sign();
-    const a = settler.settle({ phase: "nudged", beta, reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+    const a = settler.settle({ phase: "nudged", beta, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
     return { a, b: free, scale: 1 / beta, B };
   }
 

@@ -1,6 +1,6 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
-import { buildNetwork, createRule, recurrentGradient, finiteDifferenceGradient, ParameterDelta, EbbflowError, createRandom, type ParameterDelta as PD } from "../../src/index.js";
+import { buildNetwork, createRule, recurrentGradient, finiteDifferenceGradient, ParameterDelta, EbbflowError, createRandom, Settler, type ParameterDelta as PD } from "../../src/index.js";
 import { check } from "../helpers/property.js";
 import { expectClose, relativeError } from "../helpers/tolerance.js";
 
@@ -113,6 +113,65 @@ describe("Equilibrium Propagation", () => {
     };
     expect(signs(3)).toEqual(signs(3));
     expect(new Set(signs(3)).size).toBe(2);
+  });
+
+  it("freeSteps and nudgedSteps cap the phases: the change equals the EqProp formula on phases settled for those step counts (naive loops)", () => {
+    check(
+      fc.property(fc.integer({ min: 1, max: 30 }), fc.integer({ min: 1, max: 8 }), fc.integer({ min: 0, max: 1e6 }), (free, nudged, seed) => {
+        const spec = {
+          seed,
+          layers: [
+            { name: "a", size: 3, role: "input" as const },
+            { name: "b", size: 4, role: "hidden" as const },
+            { name: "c", size: 2, role: "output" as const },
+          ],
+          connections: [
+            { from: "a", to: "b", feedback: { kind: "tied" as const, gain: 1 } },
+            { from: "b", to: "c", feedback: { kind: "tied" as const, gain: 1 } },
+          ],
+          dynamics: { dt: 0.5, maxSteps: 50, tolerance: 1e-300 },
+        };
+        const r = createRandom(seed).child("data");
+        const B = 2;
+        const b = { inputs: { a: Array.from({ length: B * 3 }, () => r.uniform()) }, targets: { c: Array.from({ length: B * 2 }, () => r.uniform()) } };
+        const net = buildNetwork(spec);
+        const beta = 0.4;
+        const d = createRule(net, { rule: "eqprop", beta, rate: 1, freeSteps: free, nudgedSteps: nudged }).computeDelta(b, new ParameterDelta(net));
+        // the phases by hand, and Scellier & Bengio (2017) Eq. 18 (one-sided) with naive loops
+        const s = new Settler(buildNetwork(spec), B);
+        const f = s.settle({ phase: "free", inputs: b.inputs, maxSteps: free });
+        const fAct = f.activity.map((a) => Array.from(a));
+        expect(f.steps).toBe(free);
+        const n = s.settle({ phase: "nudged", beta, inputs: b.inputs, targets: b.targets, start: f, maxSteps: nudged });
+        expect(n.steps).toBe(nudged);
+        const nAct = n.activity.map((a) => Array.from(a));
+        const sizes = [3, 4, 2];
+        for (const [ci, from, to] of [[0, 0, 1], [1, 1, 2]] as const) {
+          for (let i = 0; i < sizes[to]!; i++) {
+            for (let j = 0; j < sizes[from]!; j++) {
+              let sum = 0;
+              for (let p = 0; p < B; p++) sum += nAct[to]![p * sizes[to]! + i]! * nAct[from]![p * sizes[from]! + j]! - fAct[to]![p * sizes[to]! + i]! * fAct[from]![p * sizes[from]! + j]!;
+              expectClose(d.weights[ci]![i * sizes[from]! + j]!, sum / (beta * B), 1e-12, `w${ci}[${i},${j}]`);
+            }
+          }
+        }
+      }),
+      30,
+    );
+  });
+
+  it("freeSteps and nudgedSteps must be integers >= 1 (config path in the error)", () => {
+    for (const bad of [0, 2.5, -1]) {
+      for (const key of ["freeSteps", "nudgedSteps"]) {
+        try {
+          createRule(fixture(), { rule: "eqprop", beta: 0.1, rate: 1, [key]: bad });
+          throw new Error("no error");
+        } catch (e) {
+          expect(e).toBeInstanceOf(EbbflowError);
+          expect((e as EbbflowError).path).toBe(`rule.${key}`);
+        }
+      }
+    }
   });
 
   it("β = 0 is rejected with the config path", () => {
