@@ -209,6 +209,12 @@ export class Settler {
         continue;
       }
       const d = dest[layer.index] as FloatArray;
+      if (ArrayBuffer.isView(v) && !(v instanceof DataView)) {
+        // typed arrays: one conversion copy, then one pass for finiteness (also catches values that
+        // overflow a float32 network's storage); the slow loop below only names the first bad value
+        d.set(v as unknown as ArrayLike<number>);
+        if (Number.isFinite(this.net.kernels.maxAbs(d, want))) continue;
+      }
       for (let i = 0; i < want; i++) {
         const x = v[i] as number;
         if (typeof x !== "number" || !Number.isFinite(x)) {
@@ -216,6 +222,10 @@ export class Settler {
           break;
         }
         d[i] = x;
+        if (!Number.isFinite(d[i] as number)) {
+          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, `a number within the range of ${this.net.dtype}`, String(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
+          break;
+        }
       }
     }
     for (const name of Object.keys(values)) {

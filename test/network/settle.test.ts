@@ -310,6 +310,26 @@ describe("bad input", () => {
     expect(() => new Settler(net, 1).settle({ phase: "free", inputs: { in: [1, Number.NaN] } })).toThrow(/inputs\.in\[1\]/);
   });
 
+  it("typed-array inputs and targets are checked too: NaN, infinities, and values beyond float32's range in a float32 network", () => {
+    const pathOf = (f: () => unknown) => {
+      try {
+        f();
+      } catch (err) {
+        return (err as EbbflowError).issues.map((i) => `${i.path}: ${i.expected}`);
+      }
+      throw new Error("no error");
+    };
+    expect(pathOf(() => new Settler(net, 1).settle({ phase: "free", inputs: { in: Float64Array.of(1, Number.NaN) } }))).toEqual(["inputs.in[1]: a finite number"]);
+    expect(pathOf(() => new Settler(net, 1).settle({ phase: "clamped", inputs: { in: Float32Array.of(1, 0) }, targets: { out: Float64Array.of(-Infinity) } }))).toEqual(["targets.out[0]: a finite number"]);
+    const net32 = buildNetwork({ ...net.spec, dtype: "float32" });
+    // 1e300 is a finite float64 but rounds to Infinity in float32 storage (IEEE 754 binary32 max ≈ 3.4e38)
+    expect(pathOf(() => new Settler(net32, 1).settle({ phase: "free", inputs: { in: Float64Array.of(0.5, 1e300) } }))).toEqual(["inputs.in[1]: a number within the range of float32"]);
+    expect(pathOf(() => new Settler(net32, 1).settle({ phase: "free", inputs: { in: [0.5, 1e300] } }))).toEqual(["inputs.in[1]: a number within the range of float32"]);
+    // the values loaded are the values given
+    const ok = new Settler(net32, 1).settle({ phase: "free", inputs: { in: Float64Array.of(0.25, -3) } });
+    expect(Array.from(ok.activity[0]!)).toEqual([0.25, -3]);
+  });
+
   it("β = 0 in the nudged phase is rejected", () => {
     expect(() => new Settler(net, 1).settle({ phase: "nudged", beta: 0, inputs: { in: [1, 1] }, targets: { out: [1] } })).toThrow(EbbflowError);
   });
