@@ -12,6 +12,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   wasm: () => import("./wasm.js"),
   settle: () => import("./settle.js"),
   training: () => import("./training.js"),
+  parallel: () => import("./parallel.js"),
   agreement: () => import("./agreement.js"),
   digits: () => import("./digits.js"),
 };
