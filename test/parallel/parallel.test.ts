@@ -51,7 +51,7 @@ describe("multi-core training (worker threads, shared parameters)", () => {
     single.connections[0]!.weights.forEach((v, k) => expect(Math.abs(v - a[k]!)).toBeLessThan(1e-6));
   });
 
-  it.skipIf(!wasmSimdSupported())("workers on WebAssembly kernels (own memory, parameters refreshed per batch) match one thread", async () => {
+  it.skipIf(!wasmSimdSupported())("workers on WebAssembly kernels (attached to the main thread's memory, computing on the shared parameters) match one thread", async () => {
     const net = buildNetwork(spec, { backend: loadWasmKernelsSync({ relaxed: false }) });
     const one = createRule(net, { rule: "chl", rate: 0.2 }).computeDelta(batch, new ParameterDelta(net));
     const par = await ParallelRule.create(net, { rule: "chl", rate: 0.2 }, 2);

@@ -15,7 +15,7 @@
  * @module
  */
 export { typescriptBackend, type BackendName, type KernelBackend } from "./backend.js";
-export type { WasmBackendOptions, WasmKernelBackend } from "./wasm-backend.js";
+export type { WasmBackendOptions, WasmKernelBackend, WasmSharedMemory } from "./wasm-backend.js";
 export {
   loadWasmKernels,
   loadWasmKernelsSync,

@@ -56,12 +56,15 @@ function chooseBuild(options: WasmBackendOptions): WasmBuild {
 /**
  * Compiles (once per process) and instantiates the WebAssembly kernels on a
  * new memory, asynchronously: the way to load them on a browser's main
- * thread. Each call returns an independent backend with its own memory.
+ * thread. Each call returns an independent backend with its own memory, or,
+ * with the option `attach`, a backend on the memory another backend shared
+ * (see `WasmKernelBackend.share`).
  * @param options - arena and scratch sizes, relaxed-SIMD choice.
  * @returns the backend (`wasm-relaxed-simd` when available and allowed, else `wasm-simd`).
  * @throws {@link EbbflowError} `unsupported` without WebAssembly SIMD (or
  * without relaxed SIMD when `relaxed: true`); `invalid_parameter` for a bad
- * option (path = the option name).
+ * option (path = the option name; `attach` for a handle that is not one
+ * `share()` returned).
  * @category Kernels
  * @example
  * ```ts

@@ -5,13 +5,27 @@
  *
  * Memory layout (byte offsets):
  * ```
- * [0, 64)                      unused (keeps offset 0 out of every array)
+ * [0, 64)                      header (32-bit words): a tag, the arena's end
+ *                              `top` (advanced atomically), the arena's start,
+ *                              the page limit and the constant table's place
  * [64, work)                   table of vector constants read by the kernels
- * [work, work + workspace)      gemm packing workspace (packed panels of A and B)
+ *                              (written once by the backend that creates the
+ *                              memory, read-only afterwards)
+ * [work, work + workspace)      gemm packing workspace of the creating backend
  * [arenaStart, top)            arena: allocate() bumps `top`, 16-byte aligned
  * [top, memory size)           free: room for allocate without growth, and
- *                              scratch of the slow path during one call
+ *                              scratch of the creating backend's slow path
+ *                              during one call (until it calls share())
  * ```
+ *
+ * Several backends, on several threads, can compute on one memory: `share()`
+ * returns a handle to post to a worker, and a backend created there with the
+ * option `attach` instantiates the kernels on the same memory. Every backend
+ * on the memory allocates from the one arena (the header's `top` is advanced
+ * with a compare-exchange, so concurrent allocations never overlap), and each
+ * keeps its own gemm workspace and slow-path scratch inside the arena (an
+ * attached backend reserves both when it is created; the creating backend
+ * moves its scratch there when it calls `share()`).
  * @module
  */
 import { EbbflowError, fail, issueText, requireInteger } from "../../errors/index.js";
@@ -89,6 +103,29 @@ export interface WasmBackendOptions {
    * throws `unsupported` otherwise).
    */
   readonly relaxed?: boolean | "auto" | undefined;
+  /**
+   * Compute on an existing memory instead of creating one: the handle another
+   * backend's {@link WasmKernelBackend.share} returned (possibly posted from
+   * another thread). The new backend allocates from the same arena, reserves
+   * its own gemm workspace and `scratchBytes` of slow-path scratch there, and
+   * grows the same memory; `arenaBytes` and `maximumBytes` are ignored (the
+   * memory's creator chose them).
+   */
+  readonly attach?: WasmSharedMemory | undefined;
+}
+
+/**
+ * A WASM backend's memory as a handle for other threads: plain data that
+ * survives `postMessage` (a shared `WebAssembly.Memory` is cloned by
+ * reference, so both threads see the same bytes). Pass it as the option
+ * `attach` of `loadWasmKernelsSync` in the worker.
+ * @category Kernels
+ */
+export interface WasmSharedMemory {
+  /** The shared `WebAssembly.Memory` the kernels run on. */
+  readonly memory: object;
+  /** The build of the backend that shared it (`"relaxed"` for relaxed SIMD). */
+  readonly build: "simd" | "relaxed";
 }
 
 /**
@@ -109,12 +146,18 @@ export interface WasmBackendOptions {
  * work).
  *
  * **Growth:** the memory grows only inside `allocate` (when the arena is
- * full) and `reserve`. Growing a WebAssembly memory detaches its old
- * `ArrayBuffer`, so every view handed out before has length 0 afterwards.
- * Either allocate everything up front (size the arena with `arenaBytes` or
- * call `reserve` first), or watch `generation` and re-create views with
- * `refresh` after it changes. Kernels given a detached view throw
+ * full), `reserve` and `share` (here or in a backend attached to the same
+ * memory). The memory is shared, so growth detaches nothing: views handed
+ * out before keep working, `generation` counts the growths this backend has
+ * seen and `refresh` returns a view on the current buffer. Kernels given a
+ * detached view (possible only with an unshared memory) throw
  * `invalid_parameter` naming the argument instead of computing on nothing.
+ *
+ * **Threads:** `share()` returns a handle to post to a worker; there
+ * `loadWasmKernelsSync({ attach: handle })` runs the kernels on the same
+ * memory, and `arrayAt` gives that thread its views of arrays allocated here.
+ * Each backend has its own gemm workspace and scratch, so backends on
+ * different threads may compute at the same time on disjoint outputs.
  * @category Kernels
  */
 export interface WasmKernelBackend extends KernelBackend {
@@ -122,7 +165,7 @@ export interface WasmKernelBackend extends KernelBackend {
   readonly name: "wasm-simd" | "wasm-relaxed-simd";
   /** Number of times the memory has grown; views from an earlier generation are detached. */
   readonly generation: number;
-  /** Bytes handed out by `allocate` so far (with alignment padding). */
+  /** Bytes handed out by `allocate` so far, by every backend on this memory (with alignment padding and the workspaces of attached backends). */
   readonly arenaBytes: number;
   /** Bytes between the end of the arena and the end of the memory. */
   readonly freeBytes: number;
@@ -143,6 +186,25 @@ export interface WasmKernelBackend extends KernelBackend {
    * array that did not come from `allocate`/`refresh` of this backend.
    */
   refresh<T extends FloatArray>(view: T): T;
+  /**
+   * The handle of this backend's memory, to attach backends on other threads
+   * to it (option `attach`). From the first call on, this backend's slow-path
+   * scratch lives in a region of the arena reserved for it (`scratchBytes`),
+   * so that allocations by the other backends never meet its scratch copies.
+   * @throws {@link EbbflowError} `unsupported` when the memory cannot grow to
+   * hold that region.
+   */
+  share(): WasmSharedMemory;
+  /**
+   * A view of `length` elements at `byteOffset` of this memory: how another
+   * thread's backend sees an array allocated on this memory (its
+   * `byteOffset`, `length` and dtype posted to it). The view is an arena view
+   * of this backend (fast path, `refresh` works on it).
+   * @throws {@link EbbflowError} `invalid_parameter` (path `byteOffset`) when
+   * the range is not aligned to the element size or not inside the arena
+   * handed out so far; (paths `dtype`, `n`) as `allocate`.
+   */
+  arrayAt(dtype: Dtype, byteOffset: number, length: number): FloatArray;
 }
 
 /** Where an allocation lives, to re-create its view after growth. */
@@ -165,39 +227,87 @@ function sizeOption(path: string, v: number | undefined, dflt: number): number {
   return requireInteger(path, v, 0);
 }
 
+/** Words of the header in bytes [0, GUARD_BYTES), as a Uint32Array. */
+const HEADER_TAG = 0;
+const HEADER_TOP = 1;
+const HEADER_ARENA = 2;
+const HEADER_PAGES = 3;
+const HEADER_TABLE = 4;
+const HEADER_TABLE_BYTES = 5;
+/** "ebb1": marks a memory laid out by this backend (and the header's version). */
+const TAG = 0x65626231;
+
+/** The memory of an `attach` handle, checked: a shared WebAssembly memory laid out by this backend. */
+function attachedMemory(handle: WasmSharedMemory): WasmMemory {
+  const m = (handle as { memory?: unknown } | null | undefined)?.memory as WasmMemory | undefined;
+  const b: unknown = m !== null && typeof m === "object" ? (m as { buffer?: unknown }).buffer : undefined;
+  if (typeof SharedArrayBuffer === "undefined" || !(b instanceof SharedArrayBuffer) || b.byteLength < GUARD_BYTES || new Uint32Array(b, 0, 1)[0] !== TAG) {
+    fail("invalid_parameter", "attach", "the handle returned by share() of a WebAssembly kernel backend", handle);
+  }
+  return m as WasmMemory;
+}
+
 /** Creates the backend on a compiled build (the loader picks the build). */
 export function createWasmBackend(module: WasmModule, build: WasmBuild, options: WasmBackendOptions = {}): WasmKernelBackend {
-  const arenaReserve = sizeOption("arenaBytes", options.arenaBytes, 4 * MIB);
   const scratchBytes = sizeOption("scratchBytes", options.scratchBytes, 4 * MIB);
-  const maximumBytes = options.maximumBytes === undefined ? undefined : requireInteger("maximumBytes", options.maximumBytes, PAGE_BYTES);
-  const maxPages = maximumBytes === undefined ? MAX_PAGES : Math.min(MAX_PAGES, Math.floor(maximumBytes / PAGE_BYTES));
-
-  // one page to instantiate on, then grown to the layout before any view exists
-  const memory: WasmMemory = createMemory(1, maximumBytes === undefined ? undefined : maxPages);
-  const X = instantiate(module, memory) as unknown as KernelExports;
-  const table = X.constantTableAddress();
-  if (table < GUARD_BYTES) fail("unsupported", "kernels", `a constant table at or above byte ${GUARD_BYTES}`, table);
-  const work = alignUp(table + X.constantTableBytes());
-  const arenaStart = alignUp(work + X.gemmWorkspaceBytes());
-  const initialPages = Math.ceil((arenaStart + arenaReserve + scratchBytes) / PAGE_BYTES);
-  if (initialPages > maxPages) {
-    if (maximumBytes !== undefined) {
-      fail("invalid_parameter", "maximumBytes", `at least ${initialPages * PAGE_BYTES} (workspace + arenaBytes + scratchBytes)`, maximumBytes);
+  const attach = options.attach;
+  let memory: WasmMemory;
+  let X: KernelExports;
+  let maxPages: number;
+  /** This backend's gemm packing workspace. */
+  let work: number;
+  if (attach === undefined) {
+    const arenaReserve = sizeOption("arenaBytes", options.arenaBytes, 4 * MIB);
+    const maximumBytes = options.maximumBytes === undefined ? undefined : requireInteger("maximumBytes", options.maximumBytes, PAGE_BYTES);
+    maxPages = maximumBytes === undefined ? MAX_PAGES : Math.min(MAX_PAGES, Math.floor(maximumBytes / PAGE_BYTES));
+    // one page to instantiate on, then grown to the layout before any view exists
+    memory = createMemory(1, maximumBytes === undefined ? undefined : maxPages);
+    X = instantiate(module, memory) as unknown as KernelExports;
+    const table = X.constantTableAddress();
+    if (table < GUARD_BYTES) fail("unsupported", "kernels", `a constant table at or above byte ${GUARD_BYTES}`, table);
+    work = alignUp(table + X.constantTableBytes());
+    const arenaStart = alignUp(work + X.gemmWorkspaceBytes());
+    const initialPages = Math.ceil((arenaStart + arenaReserve + scratchBytes) / PAGE_BYTES);
+    if (initialPages > maxPages) {
+      if (maximumBytes !== undefined) {
+        fail("invalid_parameter", "maximumBytes", `at least ${initialPages * PAGE_BYTES} (workspace + arenaBytes + scratchBytes)`, maximumBytes);
+      }
+      fail("invalid_parameter", "arenaBytes", `at most ${maxPages * PAGE_BYTES - arenaStart - scratchBytes} (4 GiB of memory minus workspace and scratch)`, arenaReserve);
     }
-    fail("invalid_parameter", "arenaBytes", `at most ${maxPages * PAGE_BYTES - arenaStart - scratchBytes} (4 GiB of memory minus workspace and scratch)`, arenaReserve);
+    try {
+      memory.grow(initialPages - 1);
+    } catch (e) {
+      fail("unsupported", "memory", `the engine to provide ${initialPages * PAGE_BYTES} bytes of WebAssembly memory`, String(e));
+    }
+    X.writeConstantTable();
+    const h = new Uint32Array(memory.buffer, 0, GUARD_BYTES / 4);
+    h[HEADER_TOP] = arenaStart;
+    h[HEADER_ARENA] = arenaStart;
+    h[HEADER_PAGES] = maxPages;
+    h[HEADER_TABLE] = table;
+    h[HEADER_TABLE_BYTES] = X.constantTableBytes();
+    Atomics.store(h, HEADER_TAG, TAG);
+  } else {
+    memory = attachedMemory(attach);
+    X = instantiate(module, memory) as unknown as KernelExports;
+    const h = new Uint32Array(memory.buffer, 0, GUARD_BYTES / 4);
+    // the constant table was written by the memory's creator; these kernels must read it at the same place
+    if (X.constantTableAddress() !== h[HEADER_TABLE] || X.constantTableBytes() !== h[HEADER_TABLE_BYTES]) {
+      fail("unsupported", "attach", `kernels with the constant table at [${h[HEADER_TABLE]}, +${h[HEADER_TABLE_BYTES]})`, `[${X.constantTableAddress()}, +${X.constantTableBytes()})`);
+    }
+    maxPages = h[HEADER_PAGES] as number;
+    work = 0; // reserved in the arena below, once the allocator exists
   }
-  try {
-    memory.grow(initialPages - 1);
-  } catch (e) {
-    fail("unsupported", "memory", `the engine to provide ${initialPages * PAGE_BYTES} bytes of WebAssembly memory`, String(e));
-  }
-  X.writeConstantTable();
 
   let buf = memory.buffer;
   let heap32 = new Float32Array(buf);
   let heap64 = new Float64Array(buf);
+  /** The header; a view on the first buffer stays valid through growth (the memory is shared). */
+  const header = new Uint32Array(buf, 0, GUARD_BYTES / 4);
+  const arenaStart = header[HEADER_ARENA] as number;
   let generation = 0;
-  let top = arenaStart;
+  /** Start of this backend's own scratch region in the arena, or -1 while it stages at the arena's end. */
+  let scratchStart = -1;
   const registry = new WeakMap<object, Allocation>();
   /**
    * Buffers of earlier generations that still alias this memory: with a shared WebAssembly memory,
@@ -206,30 +316,66 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   const earlier = new Set<ArrayBufferLike>();
   const own = (b: ArrayBufferLike): boolean => b === buf || (earlier.size > 0 && earlier.has(b));
 
+  /** Takes the memory's current buffer when it is longer than ours (grown here or by another thread). */
+  function adopt(): void {
+    const cur = memory.buffer;
+    if (cur.byteLength <= buf.byteLength) return;
+    if (typeof SharedArrayBuffer !== "undefined" && buf instanceof SharedArrayBuffer) earlier.add(buf);
+    buf = cur;
+    heap32 = new Float32Array(buf);
+    heap64 = new Float64Array(buf);
+    generation++;
+  }
+
   /** Grows the memory to hold `needEnd` bytes: by at least half its size, so growth stays rare. */
   function grow(needEnd: number): void {
     if (needEnd <= buf.byteLength) return;
-    const have = buf.byteLength / PAGE_BYTES;
+    adopt(); // another backend on this memory may have grown it already
+    if (needEnd <= buf.byteLength) return;
     const need = Math.ceil(needEnd / PAGE_BYTES);
     if (need > maxPages) {
       fail("unsupported", "memory", `at most ${maxPages * PAGE_BYTES} bytes of WebAssembly memory`, `${need * PAGE_BYTES} bytes needed`);
     }
+    const have = buf.byteLength / PAGE_BYTES;
     const target = Math.min(maxPages, Math.max(need, Math.ceil(have * 1.5)));
     try {
       memory.grow(target - have);
     } catch {
-      // the engine may refuse the headroom; try the bare need
+      // the engine may refuse the headroom (or another thread grew the memory meanwhile); try the bare need
       try {
-        memory.grow(need - have);
+        const now = memory.buffer.byteLength / PAGE_BYTES;
+        if (now < need) memory.grow(need - now);
       } catch (e) {
         fail("unsupported", "memory", "the engine to grow the WebAssembly memory", `${need * PAGE_BYTES} bytes refused (${String(e)})`);
       }
     }
-    if (typeof SharedArrayBuffer !== "undefined" && buf instanceof SharedArrayBuffer) earlier.add(buf);
-    buf = memory.buffer;
-    heap32 = new Float32Array(buf);
-    heap64 = new Float64Array(buf);
-    generation++;
+    adopt();
+  }
+
+  /**
+   * Hands out `bytes` of the arena (16-byte aligned) and keeps `keepFree` bytes free beyond them. The
+   * arena's end lives in the header and advances by compare-exchange, so backends on other threads never
+   * receive overlapping ranges. Returns the start.
+   */
+  function bump(bytes: number, keepFree: number): number {
+    for (;;) {
+      const start = Atomics.load(header, HEADER_TOP);
+      const end = alignUp(start + bytes);
+      if (end + keepFree > maxPages * PAGE_BYTES || end >= 2 ** 32) {
+        fail("unsupported", "memory", `at most ${maxPages * PAGE_BYTES} bytes of WebAssembly memory`, `${end + keepFree} bytes needed`);
+      }
+      grow(start + bytes + keepFree);
+      if (Atomics.compareExchange(header, HEADER_TOP, start, end) === start) return start;
+    }
+  }
+
+  /** Bytes of the free space this backend keeps beyond the arena when it grows: its scratch, until it has its own region. */
+  const keepFree = (): number => (scratchStart < 0 ? scratchBytes : 0);
+
+  if (attach !== undefined) {
+    // an attached backend never stages at the arena's end (another thread's allocations go there)
+    work = bump(X.gemmWorkspaceBytes(), 0);
+    scratchStart = bump(scratchBytes, 0);
   }
 
   function viewOf(a: Allocation): FloatArray {
@@ -259,10 +405,19 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
     }
   }
 
+  /** End of the scratch space of the current call. */
+  let scratchEnd = 0;
+
   function begin(): void {
     stagedCount = 0;
     stagedSrc[0] = stagedSrc[1] = stagedSrc[2] = stagedSrc[3] = null;
-    cursor = top;
+    if (scratchStart < 0) {
+      cursor = Atomics.load(header, HEADER_TOP);
+      scratchEnd = buf.byteLength;
+    } else {
+      cursor = scratchStart;
+      scratchEnd = scratchStart + scratchBytes;
+    }
   }
 
   /**
@@ -275,7 +430,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
     for (let q = 0; q < stagedCount; q++) if (stagedSrc[q] === x) return stagedOff[q]!;
     const off = alignUp(cursor);
     const bytes = len * x.BYTES_PER_ELEMENT;
-    if (off + bytes > buf.byteLength) return -1;
+    if (off + bytes > scratchEnd) return -1;
     cursor = off + bytes;
     if (read && len > 0) {
       const src = x.length <= len ? x : x.subarray(0, len);
@@ -596,22 +751,23 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
       return generation;
     },
     get arenaBytes() {
-      return top - arenaStart;
+      return Atomics.load(header, HEADER_TOP) - arenaStart;
     },
     get freeBytes() {
-      return buf.byteLength - top;
+      adopt();
+      return buf.byteLength - Atomics.load(header, HEADER_TOP);
     },
     allocate(dtype: Dtype, n: number): FloatArray {
       checkAllocation(dtype, n);
       const bytes = n * (dtype === "float32" ? 4 : 8);
-      const start = top;
-      grow(start + bytes + scratchBytes);
-      top = alignUp(start + bytes);
+      const start = bump(bytes, keepFree());
+      // the free space may hold slow-path scratch copies of an earlier call: hand out zeros
+      if (bytes > 0) new Uint8Array(buf, start, bytes).fill(0);
       return viewOf({ byteOffset: start, length: n, dtype });
     },
     reserve(bytes: number): void {
       requireInteger("bytes", bytes, 0);
-      grow(top + bytes + scratchBytes);
+      grow(Atomics.load(header, HEADER_TOP) + bytes + keepFree());
     },
     isArenaView(array: ReadonlyFloatArray): boolean {
       return own(array.buffer);
@@ -623,6 +779,21 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
       }
       if (own(view.buffer)) return view;
       return viewOf(a) as T;
+    },
+    share(): WasmSharedMemory {
+      // from now on other threads allocate at the arena's end: move this backend's scratch into its own region
+      if (scratchStart < 0) scratchStart = bump(scratchBytes, 0);
+      return { memory, build };
+    },
+    arrayAt(dtype: Dtype, byteOffset: number, length: number): FloatArray {
+      checkAllocation(dtype, length);
+      const width = dtype === "float32" ? 4 : 8;
+      const end = typeof byteOffset === "number" ? byteOffset + length * width : Number.NaN;
+      if (!Number.isInteger(byteOffset) || byteOffset % width !== 0 || byteOffset < arenaStart || !(end <= Atomics.load(header, HEADER_TOP))) {
+        fail("invalid_parameter", "byteOffset", `a multiple of ${width} with the ${length} elements inside the arena handed out so far [${arenaStart}, ${Atomics.load(header, HEADER_TOP)})`, byteOffset);
+      }
+      if (end > buf.byteLength) adopt(); // allocated after this backend last looked at the memory's size
+      return viewOf({ byteOffset, length, dtype });
     },
     gemm,
     gemv,

@@ -1,40 +1,86 @@
 /**
- * Messages between the main thread and the training workers.
+ * What the main thread and the training workers exchange. Each worker runs one long task (its job loop)
+ * for the life of a `ParallelRule`; batches are signalled through shared memory (see sync.ts), and
+ * the few things that are not numbers (batch layouts, failures) go through a MessagePort per worker.
  * @module
  */
+import type { MessagePort } from "node:worker_threads";
+import type { Issue } from "../../errors/index.js";
 import type { NetworkSpec } from "../../network/spec.js";
 import type { RuleConfig } from "../../rules/config.js";
+import type { WasmSharedMemory } from "../../kernels/wasm/wasm-backend.js";
 
-/** Where an array lives in shared memory: a buffer (a SharedArrayBuffer or a shared WebAssembly memory's buffer), an offset and a length. */
+/**
+ * Where an array lives in shared memory: a SharedArrayBuffer, an offset and a length; without `buffer`
+ * the array lies in the session's shared WebAssembly memory (at `byteOffset` of it).
+ */
 export interface SharedArray {
-  readonly buffer: SharedArrayBuffer;
+  readonly buffer?: SharedArrayBuffer | undefined;
   readonly byteOffset: number;
   readonly length: number;
 }
 
-/** One slice of a mini-batch for one worker. */
-export interface SliceTask {
-  /** Identifies the network and rule (a worker builds them once per session). */
-  readonly session: number;
+/** What a worker needs to build its copy of the network: sent once, with its job loop. */
+export interface SessionSetup {
+  /** The network's declaration, without explicit weight values (the parameters are shared). */
   readonly spec: NetworkSpec;
   readonly rule: RuleConfig;
-  /** Kernels the worker computes with: "wasm" builds the network in the worker's own WebAssembly memory and copies the shared parameters in once per batch. */
+  /** "wasm": the worker attaches WebAssembly kernels to `memory`, where every shared array lives. */
   readonly kernels: "typescript" | "wasm";
-  /** Parameter arrays in allocation order (shared, never copied), of the network's dtype. */
+  readonly memory?: WasmSharedMemory | undefined;
+  /** Parameter arrays in allocation order (see `parameterBuffers`), of the network's dtype. */
   readonly parameters: readonly SharedArray[];
-  /** This slice's change arrays in the same order as the parameters (shared, network's dtype): the slice's mean change. */
-  readonly deltas: readonly SharedArray[];
-  /** Inputs and targets of the whole batch (shared), B×N each, row = pattern. */
-  readonly inputs: SharedArrayBuffer;
-  readonly targets: SharedArrayBuffer;
+  /** Slice split: per worker, its change arrays in the same order as the parameters. */
+  readonly slots: readonly (readonly SharedArray[])[];
+  /** Row split into a change (computeDelta): the change arrays, weights per connection and biases per layer. */
+  readonly delta: { readonly weights: readonly SharedArray[]; readonly biases: readonly SharedArray[] };
   readonly inputName: string;
   readonly outputName: string;
-  readonly inputSize: number;
-  readonly targetSize: number;
-  /** Index of this slice (its change arrays are `deltas`). */
-  readonly slice: number;
-  /** Rows [start, start + count) of the batch belong to this slice, of `total` rows. */
-  readonly start: number;
-  readonly count: number;
-  readonly total: number;
+  /** Number of workers (sizes the control array). */
+  readonly workers: number;
+}
+
+/** Shared arrays of one batch size (the network's dtype unless said otherwise). */
+export interface BatchLayout {
+  /** Identifies the layout in the control word LAYOUT. */
+  readonly id: number;
+  /** Patterns in the batch (B). */
+  readonly batch: number;
+  /** Slices the batch is split into: min(workers, B); worker i takes slice i. */
+  readonly slices: number;
+  /** The input layer's values, B×m. */
+  readonly inputs: SharedArray;
+  /** The output layer's targets, B×n. */
+  readonly targets: SharedArray;
+  /** Row split only: `[phase][layer]` activities B×n of sending layers (else null). */
+  readonly byPattern: readonly (readonly (SharedArray | null)[])[];
+  /** Row split only: `[phase][layer]` activities n×B of every non-input layer (else null). */
+  readonly byUnit: readonly (readonly (SharedArray | null)[])[];
+  /** Row split only: float64 maxima per slice, for the finiteness proof. */
+  readonly stats: SharedArrayBuffer;
+}
+
+/** The one task of a worker: its job loop, until the control word STOP is set. */
+export interface LoopTask {
+  readonly setup: SessionSetup;
+  /** This worker's index: it takes slice `worker` of every batch. */
+  readonly worker: number;
+  /** The control array (see sync.ts). */
+  readonly control: SharedArrayBuffer;
+  /** Layouts arrive here; failures leave from here. */
+  readonly port: MessagePort;
+}
+
+/** Main thread to worker: a new batch layout (posted before the first job that uses it). */
+export interface LayoutMessage {
+  readonly kind: "layout";
+  readonly layout: BatchLayout;
+}
+
+/** Worker to main thread: why job `job` failed (the issues of an EbbflowError, or another error's text). */
+export interface FailureMessage {
+  readonly kind: "failure";
+  readonly job: number;
+  readonly issues?: readonly Issue[] | undefined;
+  readonly message?: string | undefined;
 }

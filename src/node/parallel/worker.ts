@@ -1,73 +1,318 @@
 /**
- * The training worker: computes a rule's change for one slice of a batch, on parameters held in
- * shared memory, and writes it, weighted by the slice's share of the batch, into the slice's own
- * shared change arrays.
+ * The training worker: one job loop per thread for the life of a `ParallelRule`. Its network's
+ * parameters are the main thread's arrays in shared memory (never copied); its settling buffers are its
+ * own (in the shared WebAssembly memory's arena with WebAssembly kernels, which it attaches to, or
+ * ordinary arrays with TypeScript kernels).
+ *
+ * Row split: settles its slice of the batch, publishes the slice's phase activities into the shared
+ * batch arrays, waits for every slice (barrier), then adds the change for its block of rows of every
+ * weight matrix, and its block of biases, into the shared parameters (or writes it into the shared
+ * change arrays). Slice split: computes the rule's change for its slice and writes it into its own
+ * change arrays.
  * @module
  */
-import { buildNetwork, parameterBuffers, type Network } from "../../network/network.js";
+import { receiveMessageOnPort, type MessagePort } from "node:worker_threads";
+import { EbbflowError, fail } from "../../errors/index.js";
+import { buildNetwork, type Network } from "../../network/network.js";
+import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../../network/settle.js";
 import { createRule, ParameterDelta, type LearningRule } from "../../rules/index.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
-import { typescriptBackend } from "../../kernels/wasm/backend.js";
-import { selectBackend } from "../../kernels/wasm/loader.js";
-import type { SharedArray, SliceTask } from "./protocol.js";
+import { typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
+import { loadWasmKernelsSync } from "../../kernels/wasm/loader.js";
+import type { WasmKernelBackend } from "../../kernels/wasm/wasm-backend.js";
+import {
+  ABORTED_JOB,
+  DONE_OK,
+  FAILED,
+  JOB,
+  LAYOUT,
+  MODE,
+  MODE_ROWS_DELTA,
+  MODE_ROWS_PARAMETERS,
+  MODE_SLICES,
+  READY,
+  REFUSED,
+  SLICES,
+  STOP,
+  abortBatch,
+  arrive,
+  controlViews,
+  finish,
+  waitForChange,
+} from "./sync.js";
+import { contrastPlan, contrastRows, provablyFinite, rowBlock, stat, type ContrastPlan, type ContrastScratch, type PhaseArrays } from "./contrast.js";
+import type { BatchLayout, FailureMessage, LayoutMessage, LoopTask, SessionSetup, SharedArray } from "./protocol.js";
 
-const view = (dtype: Dtype, a: SharedArray): FloatArray => (dtype === "float32" ? new Float32Array(a.buffer, a.byteOffset, a.length) : new Float64Array(a.buffer, a.byteOffset, a.length));
+/** Scratch of the worker's own WebAssembly backend for copies of ordinary arrays (rarely used: everything lives in the memory). */
+const WORKER_SCRATCH_BYTES = 1 << 20;
 
-interface Session {
+interface LayoutViews {
+  readonly layout: BatchLayout;
+  readonly inputs: FloatArray;
+  readonly targets: FloatArray;
+  readonly arrays: PhaseArrays;
+  readonly stats: Float64Array;
+}
+
+/** One job: which slice of which batch, and what to do with it. */
+interface Job {
+  readonly number: number;
+  readonly worker: number;
+  readonly layout: LayoutViews;
+  readonly mode: number;
+  readonly scale: number;
+  readonly slices: number;
+  readonly start: number;
+  readonly count: number;
+}
+
+/** The worker's copy of the network and everything it reuses from batch to batch. */
+class Session {
+  readonly setup: SessionSetup;
   readonly net: Network;
-  /** With WebAssembly kernels: the network's own parameter arrays and the shared ones to copy from per batch. */
-  readonly mirror: { own: FloatArray[]; shared: FloatArray[] } | null;
-  readonly rule: LearningRule;
-  readonly delta: ParameterDelta;
-  /** This worker's views of each slice's change arrays, by slice index. */
-  readonly slots: Map<number, FloatArray[]>;
-}
-const sessions = new Map<number, Session>();
+  readonly view: (a: SharedArray, dtype?: Dtype) => FloatArray;
+  readonly plan: ContrastPlan | null;
+  /** Per slice size: the settler and one snapshot per phase. */
+  private readonly settlers = new Map<number, { settler: Settler; snaps: Snapshot[] }>();
+  private readonly layouts = new Map<number, LayoutViews>();
+  /** Per batch size: working arrays of the row split. */
+  private readonly scratch = new Map<number, ContrastScratch>();
+  /** Slice split: the rule, its change and this worker's change arrays, made on first use. */
+  private rule: LearningRule | null = null;
+  private delta: ParameterDelta | null = null;
+  private slots: FloatArray[] | null = null;
+  /** Row split into a change: views of the change arrays. */
+  private deltaArrays: { weights: FloatArray[]; biases: FloatArray[] } | null = null;
 
-function session(task: SliceTask): Session {
-  let s = sessions.get(task.session);
-  if (s === undefined) {
+  constructor(setup: SessionSetup) {
+    this.setup = setup;
+    const dtype = setup.spec.dtype;
+    let backend: KernelBackend = typescriptBackend;
+    if (setup.kernels === "wasm" && setup.memory !== undefined) {
+      // the same memory as the main thread: parameters and batch arrays are read where they are
+      const wasm: WasmKernelBackend = loadWasmKernelsSync({ attach: setup.memory, relaxed: setup.memory.build === "relaxed" ? "auto" : false, scratchBytes: WORKER_SCRATCH_BYTES });
+      backend = wasm;
+      this.view = (a, d = dtype) => wasm.arrayAt(d, a.byteOffset, a.length);
+    } else {
+      this.view = (a, d = dtype) => (d === "float32" ? new Float32Array(a.buffer!, a.byteOffset, a.length) : new Float64Array(a.buffer!, a.byteOffset, a.length));
+    }
+    const params = setup.parameters.map((a) => this.view(a));
     let k = 0;
-    let net: Network;
-    let mirror: Session["mirror"] = null;
-    const shared = task.parameters.map((a) => view(task.spec.dtype, a));
-    const backend = task.kernels === "wasm" ? selectBackend("auto") : typescriptBackend;
-    if (backend !== typescriptBackend) {
-      net = buildNetwork(task.spec, { backend });
-      mirror = { own: parameterBuffers(net), shared };
-    } else net = buildNetwork(task.spec, { allocate: () => shared[k++] as FloatArray, keepValues: true });
-    const rule = createRule(net, task.rule);
-    const delta = new ParameterDelta(net);
-    s = { net, mirror, rule, delta, slots: new Map() };
-    sessions.set(task.session, s);
+    this.net = buildNetwork(setup.spec, { backend, allocate: () => params[k++] as FloatArray, keepValues: true });
+    this.plan = contrastPlan(this.net, setup.rule);
   }
-  return s;
+
+  /** The views of a layout, reading the layouts posted on `port` until it is there. */
+  layoutFor(id: number, port: MessagePort): LayoutViews {
+    let v = this.layouts.get(id);
+    while (v === undefined) {
+      const m = receiveMessageOnPort(port);
+      if (m === undefined) fail("unsupported", "layout", `the layout ${id} posted before its first job`, "no such layout");
+      const layout = (m.message as LayoutMessage).layout;
+      const grid = (g: readonly (readonly (SharedArray | null)[])[]) => g.map((row) => row.map((a) => (a === null ? null : this.view(a))));
+      const inputs = this.view(layout.inputs);
+      this.layouts.set(layout.id, {
+        layout,
+        inputs,
+        targets: this.view(layout.targets),
+        arrays: { batch: layout.batch, input: inputs, byPattern: grid(layout.byPattern), byUnit: grid(layout.byUnit) },
+        stats: new Float64Array(layout.stats),
+      });
+      v = this.layouts.get(id);
+    }
+    return v;
+  }
+
+  settlerFor(count: number, phases: number): { settler: Settler; snaps: Snapshot[] } {
+    let w = this.settlers.get(count);
+    if (w === undefined) {
+      w = { settler: new Settler(this.net, count), snaps: [] };
+      this.settlers.set(count, w);
+    }
+    // the phases share the input layers' arrays (same inputs in every phase)
+    while (w.snaps.length < phases) w.snaps.push(new Snapshot(this.net, count, w.snaps[0]));
+    return w;
+  }
+
+  scratchFor(B: number): ContrastScratch {
+    let sc = this.scratch.get(B);
+    if (sc === undefined) {
+      const largest = Math.max(...this.net.layers.map((l) => l.size));
+      sc = { post: this.net.allocate(largest * B), pre: this.net.allocate(largest * B) };
+      this.scratch.set(B, sc);
+    }
+    return sc;
+  }
+
+  /** The slice's inputs and targets: views of the shared batch arrays. */
+  sliceValues(job: Job): { inputs: LayerValues; targets: LayerValues } {
+    const v = job.layout;
+    const nIn = v.inputs.length / v.arrays.batch;
+    const nOut = v.targets.length / v.arrays.batch;
+    return {
+      inputs: { [this.setup.inputName]: v.inputs.subarray(job.start * nIn, (job.start + job.count) * nIn) },
+      targets: { [this.setup.outputName]: v.targets.subarray(job.start * nOut, (job.start + job.count) * nOut) },
+    };
+  }
+
+  /** Row split, before the barrier: settles the slice, publishes its activities and its maxima. */
+  settleAndPublish(plan: ContrastPlan, job: Job): void {
+    const { net } = this;
+    const K = net.kernels;
+    const { start, count } = job;
+    const v = job.layout;
+    const B = v.arrays.batch;
+    const values = this.sliceValues(job);
+    const { settler, snaps } = this.settlerFor(count, plan.phases.length);
+    let free: Snapshot | undefined;
+    plan.phases.forEach((ph, p) => {
+      // the options the rule passes for this phase (a settler ignores options it does not know)
+      const options: PhaseOptions & { readonly reuseDrive?: boolean | undefined } = {
+        phase: ph.phase,
+        beta: ph.beta,
+        maxSteps: ph.maxSteps,
+        reuseDrive: ph.reuseDrive,
+        inputs: values.inputs,
+        targets: p === 0 ? undefined : values.targets,
+        start: free,
+      };
+      const snap = settler.settle(options, snaps[p]);
+      if (p === 0) free = snap;
+    });
+    const L = net.layers.length;
+    const stats = v.stats.subarray(job.worker * plan.statsStride, (job.worker + 1) * plan.statsStride);
+    for (let p = 0; p < plan.phases.length; p++) {
+      const act = snaps[p]!.activity;
+      for (const l of net.layers) {
+        if (l.role === "input") continue;
+        const n = l.size;
+        const a = act[l.index] as FloatArray;
+        const byUnit = v.arrays.byUnit[p]![l.index];
+        if (byUnit) {
+          // unit-major: row j holds unit j's activity for every pattern; this slice fills columns [start, start + count)
+          for (let j = 0; j < n; j++) {
+            const row = j * B + start;
+            for (let r = 0; r < count; r++) byUnit[row + r] = a[r * n + j] as number;
+          }
+        }
+        const byPattern = v.arrays.byPattern[p]![l.index];
+        if (byPattern) K.copy(byPattern.subarray(start * n, (start + count) * n), a, count * n);
+        stats[stat.phase(L, p, l.index)] = K.maxAbs(a, count * n);
+      }
+    }
+    const inputSize = v.inputs.length / B;
+    stats[stat.input(plan, L)] = K.maxAbs(v.inputs.subarray(start * inputSize, (start + count) * inputSize));
+    if (job.mode === MODE_ROWS_PARAMETERS) {
+      // this worker's blocks of the parameters (nobody writes them before the barrier)
+      for (const cp of plan.connections) {
+        const [r0, r1] = rowBlock(cp.n, job.worker, job.slices);
+        stats[stat.connection(plan, L, cp.index)] = K.maxAbs(net.connections[cp.index]!.weights.subarray(r0 * cp.m, r1 * cp.m));
+      }
+      for (const bp of plan.biases) {
+        const [j0, j1] = rowBlock(bp.n, job.worker, job.slices);
+        stats[stat.bias(plan, L, net.connections.length, bp.layer)] = K.maxAbs(net.layers[bp.layer]!.bias.subarray(j0, j1));
+      }
+    }
+  }
+
+  /** Row split: returns the worker's status. */
+  rows(plan: ContrastPlan, job: Job, words: Int32Array): number {
+    this.settleAndPublish(plan, job);
+    if (!arrive(words, job.slices)) return ABORTED_JOB;
+    const { net } = this;
+    const float32 = net.dtype === "float32";
+    const scratch = this.scratchFor(job.layout.arrays.batch);
+    if (job.mode === MODE_ROWS_DELTA) {
+      this.deltaArrays ??= { weights: this.setup.delta.weights.map((a) => this.view(a)), biases: this.setup.delta.biases.map((a) => this.view(a)) };
+      const d = this.deltaArrays;
+      contrastRows(net.kernels, plan, job.layout.arrays, { weights: d.weights, biases: d.biases, add: false }, job.worker, job.slices, job.scale, scratch, float32);
+      return DONE_OK;
+    }
+    // every worker reaches the same verdict from the same maxima: all write, or none does
+    if (!provablyFinite(plan, job.layout.stats, job.slices, net.layers.length, net.connections.length, job.scale, float32)) return REFUSED;
+    const target = { weights: net.connections.map((c) => c.weights), biases: net.layers.map((l) => l.bias), add: true };
+    contrastRows(net.kernels, plan, job.layout.arrays, target, job.worker, job.slices, job.scale, scratch, float32);
+    return DONE_OK;
+  }
+
+  /** Slice split: the rule's mean change for the slice, written raw into this worker's change arrays. */
+  slice(job: Job): number {
+    const { net } = this;
+    this.rule ??= createRule(net, this.setup.rule);
+    const delta = (this.delta ??= new ParameterDelta(net));
+    this.slots ??= (this.setup.slots[job.worker] as SharedArray[]).map((a) => this.view(a));
+    this.rule.computeDelta(this.sliceValues(job), delta);
+    const own: FloatArray[] = [...delta.biases];
+    net.connections.forEach((c) => {
+      own.push(delta.weights[c.index] as FloatArray);
+      if (c.feedback.kind === "separate") own.push(delta.feedback[c.index] ?? new Float64Array(0));
+    });
+    own.forEach((src, i) => {
+      const dst = this.slots![i] as FloatArray;
+      if (src.length === dst.length) net.kernels.copy(dst, src);
+      else dst.fill(0); // input layers' biases, fixed feedback matrices (no change)
+    });
+    return DONE_OK;
+  }
 }
 
-/** Runs one slice; returns the number of rows processed. */
-export default function runSlice(task: SliceTask): number {
-  const s = session(task);
-  const { net } = s;
-  // WebAssembly kernels compute in the worker's own memory: bring in the current parameters (once per batch)
-  if (s.mirror !== null) s.mirror.own.forEach((a, i) => a.set(s.mirror!.shared[i] as FloatArray));
-  const inputs = new Float64Array(task.inputs).subarray(task.start * task.inputSize, (task.start + task.count) * task.inputSize);
-  const targets = new Float64Array(task.targets).subarray(task.start * task.targetSize, (task.start + task.count) * task.targetSize);
-  s.rule.computeDelta({ inputs: { [task.inputName]: inputs }, targets: { [task.outputName]: targets } }, s.delta);
-  // the slice's mean change, written raw; the main thread weights the slices by their share of the batch
-  let slots = s.slots.get(task.slice);
-  if (slots === undefined) {
-    slots = task.deltas.map((a) => view(task.spec.dtype, a));
-    s.slots.set(task.slice, slots);
+/** Runs one job; returns the status, after posting the reason of a failure on `port`. */
+function runJob(s: Session, job: Job, words: Int32Array, port: MessagePort): number {
+  try {
+    if (job.mode === MODE_SLICES) return s.slice(job);
+    // the main thread chose the row split from the same plan (same declaration and rule)
+    if (s.plan === null) fail("unsupported", "rule", "a rule with a contrast plan for the row split", s.setup.rule.rule);
+    return s.rows(s.plan, job, words);
+  } catch (e) {
+    // release the other slices waiting at the barrier (they report "aborted")
+    abortBatch(words);
+    // an EbbflowError crosses back as its issues, so the main thread throws it with its code and path
+    const failure: FailureMessage =
+      e instanceof EbbflowError ? { kind: "failure", job: job.number, issues: e.issues } : { kind: "failure", job: job.number, message: e instanceof Error ? (e.stack ?? e.message) : String(e) };
+    port.postMessage(failure);
+    return FAILED;
   }
-  const own: FloatArray[] = [...s.delta.biases];
-  net.connections.forEach((c) => {
-    own.push(s.delta.weights[c.index] as FloatArray);
-    if (c.feedback.kind === "separate") own.push(s.delta.feedback[c.index] ?? new Float64Array(c.feedback.weights.length));
-  });
-  own.forEach((src, i) => {
-    const dst = slots[i] as FloatArray;
-    if (src.length === dst.length) dst.set(src);
-    else dst.fill(0); // input layers' biases (no change)
-  });
-  return task.count;
+}
+
+/**
+ * The job loop: builds the session, reports ready, then runs slice `worker` of every job until the
+ * control word STOP is set.
+ */
+export default function jobLoop(task: LoopTask): { readonly stopped: true } {
+  const { words, scale } = controlViews(task.control, task.setup.workers);
+  const s = new Session(task.setup);
+  Atomics.add(words, READY, 1);
+  Atomics.notify(words, READY);
+  let seen = 0;
+  for (;;) {
+    seen = waitForChange(words, JOB, seen);
+    if (Atomics.load(words, STOP) !== 0) {
+      task.port.close();
+      return { stopped: true };
+    }
+    const slices = Atomics.load(words, SLICES);
+    if (task.worker >= slices) continue;
+    let layout: LayoutViews;
+    try {
+      layout = s.layoutFor(Atomics.load(words, LAYOUT), task.port);
+    } catch (e) {
+      abortBatch(words);
+      task.port.postMessage({ kind: "failure", job: seen, message: String(e) } satisfies FailureMessage);
+      finish(words, task.worker, FAILED, seen, slices);
+      continue;
+    }
+    const B = layout.arrays.batch;
+    const start = Math.floor((task.worker * B) / slices);
+    const job: Job = {
+      number: seen,
+      worker: task.worker,
+      layout,
+      mode: Atomics.load(words, MODE),
+      scale: scale[0] as number,
+      slices,
+      start,
+      count: Math.floor(((task.worker + 1) * B) / slices) - start,
+    };
+    finish(words, task.worker, runJob(s, job, words, task.port), seen, slices);
+  }
 }
