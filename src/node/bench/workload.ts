@@ -213,6 +213,8 @@ export interface BenchOptions {
   readonly workers?: readonly number[] | undefined;
   readonly seconds?: number | undefined;
   readonly peers?: boolean | undefined;
+  /** Rounds in which every ebbflow contender of a batch size and backend is timed in turn (median taken; default 3). */
+  readonly rounds?: number | undefined;
   readonly log?: ((line: string) => void) | undefined;
 }
 
@@ -228,40 +230,50 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
   const figures: BenchFigure[] = [];
   const memory: { batch: number; parameterBytes: number; stateBytes: number; measuredBytes: number }[] = [];
   const backends = availableBackends();
+  const rounds = Math.max(1, Math.floor(options.rounds ?? 3));
+  // the peers' workload: 20 free steps (the network's maxSteps) and 4 nudged steps
+  const rule = { rule: "eqprop" as const, beta: 0.5, rate: 0.01, nudgedSteps: 4 };
   for (const B of batches) {
     for (const be of backends) {
-      for (const w of workers) {
-        // the relaxed build is not loaded in worker threads (Node needs a flag); workers use plain SIMD
-        if (w > 1 && be.name === "wasm-relaxed-simd") continue;
-        const data = batchOf(buildNetwork(spec), B);
-        // count every array the network, its settler, snapshots and the rule allocate
-        let allocated = 0;
-        const counted: KernelBackend = { ...be, allocate: (dtype, n) => ((allocated += n * (dtype === "float32" ? 4 : 8)), be.allocate(dtype, n)) };
-        const net = buildNetwork({ ...spec, dynamics: { ...spec.dynamics, maxSteps: 20, tolerance: 1e-30 } }, { backend: w === 1 && be === typescriptBackend ? counted : be });
-        // the peers' workload: 20 free steps (the network's maxSteps) and 4 nudged steps
-        const rule = { rule: "eqprop" as const, beta: 0.5, rate: 0.01, nudgedSteps: 4 };
-        let sec: number;
-        if (w === 1) {
-          const r = createRule(net, rule);
-          r.step(data);
-          if (be === typescriptBackend) {
-            const width = net.dtype === "float32" ? 4 : 8;
-            const parameterBytes = [...net.layers.map((l) => (l.role === "input" ? 0 : l.bias.byteLength)), ...net.connections.map((c) => c.weights.byteLength)].reduce((x, y) => x + y, 0);
-            memory.push({ batch: B, parameterBytes, stateBytes: B * net.layers.reduce((x, l) => x + l.size, 0) * width, measuredBytes: allocated });
-          }
-          sec = await timeIt(() => r.step(data), seconds);
-        } else {
-          if (B < w) continue;
-          const par = await ParallelRule.create(net, rule, w);
-          try {
-            sec = await timeIt(() => par.step(data), seconds);
-          } finally {
-            await par.close();
+      // one contender per worker count, set up first, then timed in turn for `rounds` rounds (medians):
+      // the machine's drift then falls on every contender alike, and the worker ratios compare like with like
+      const contenders: { w: number; step: () => unknown; close: () => Promise<void>; times: number[] }[] = [];
+      try {
+        for (const w of workers) {
+          // the relaxed build is not loaded in worker threads (Node needs a flag); workers use plain SIMD
+          if (w > 1 && be.name === "wasm-relaxed-simd") continue;
+          if (w > 1 && B < w) continue;
+          const data = batchOf(buildNetwork(spec), B);
+          // count every array the network, its settler, snapshots and the rule allocate
+          let allocated = 0;
+          const counted: KernelBackend = { ...be, allocate: (dtype, n) => ((allocated += n * (dtype === "float32" ? 4 : 8)), be.allocate(dtype, n)) };
+          const net = buildNetwork({ ...spec, dynamics: { ...spec.dynamics, maxSteps: 20, tolerance: 1e-30 } }, { backend: w === 1 && be === typescriptBackend ? counted : be });
+          if (w === 1) {
+            const r = createRule(net, rule);
+            r.step(data);
+            if (be === typescriptBackend) {
+              const width = net.dtype === "float32" ? 4 : 8;
+              const parameterBytes = [...net.layers.map((l) => (l.role === "input" ? 0 : l.bias.byteLength)), ...net.connections.map((c) => c.weights.byteLength)].reduce((x, y) => x + y, 0);
+              memory.push({ batch: B, parameterBytes, stateBytes: B * net.layers.reduce((x, l) => x + l.size, 0) * width, measuredBytes: allocated });
+            }
+            contenders.push({ w, step: () => r.step(data), close: async () => undefined, times: [] });
+          } else {
+            const par = await ParallelRule.create(net, rule, w);
+            contenders.push({ w, step: () => par.step(data), close: () => par.close(), times: [] });
           }
         }
-        const fig = { implementation: `ebbflow-${be.name}`, batch: B, workers: w, usPerExample: (sec / B) * 1e6 };
+        for (let round = 0; round < rounds; round++) {
+          for (const c of contenders) c.times.push(await timeIt(c.step, seconds / rounds));
+        }
+      } finally {
+        for (const c of contenders) await c.close();
+      }
+      for (const c of contenders) {
+        const sorted = [...c.times].sort((x, y) => x - y);
+        const sec = sorted[Math.floor(sorted.length / 2)] as number;
+        const fig = { implementation: `ebbflow-${be.name}`, batch: B, workers: c.w, usPerExample: (sec / B) * 1e6 };
         figures.push(fig);
-        log(`${fig.implementation} batch ${B} workers ${w}: ${fig.usPerExample.toFixed(1)} µs/example`);
+        log(`${fig.implementation} batch ${B} workers ${c.w}: ${fig.usPerExample.toFixed(1)} µs/example (median of ${rounds} rounds)`);
       }
     }
   }
