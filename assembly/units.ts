@@ -88,9 +88,9 @@ function K(i: i32): v128 {
   return v128.load(TABLE + (<usize>i << 4));
 }
 
-/** Bytes of the constant table (50 vectors). */
+/** Bytes of the constant table (52 vectors). */
 export function constantTableBytes(): i32 {
-  return 50 * 16;
+  return 52 * 16;
 }
 
 /** Writes the constant table at TABLE (call once per memory, before any kernel). */
@@ -146,6 +146,8 @@ export function writeConstantTable(): void {
   v128.store(at + 752, f32x4.splat(2.0));
   v128.store(at + 768, f32x4.splat(-0.0));
   v128.store(at + 784, f32x4.splat(4.0));
+  v128.store(at + 800, i32x4.splat(0x80000000)); // 50: f32 sign bits
+  v128.store(at + 816, i64x2.splat(0x8000000000000000)); // 51: f64 sign bits
 }
 
 // ======================= f64 lanes =======================
@@ -221,16 +223,16 @@ function apply64raw(code: i32, x: v128, g: v128, o: v128): v128 {
   const nan = K(22);
   if (code == 0 || code == 1) {
     const u = f64x2.mul(g, f64x2.sub(x, o));
-    const e = expNeg64(f64x2.neg(f64x2.abs(u)));
+    const e = expNeg64(v128.or(u, K(51))); // -|u|: the sign bit set
     const d = f64x2.add(one, e);
     if (code == 0) return f64x2.div(v128.bitselect(one, e, f64x2.ge(u, zero)), d);
     return f64x2.div(f64x2.mul(g, e), f64x2.mul(d, d));
   } else if (code == 2) {
-    const m = expm1Neg64(f64x2.mul(K(23), f64x2.abs(x)));
+    const m = expm1Neg64(f64x2.add(v128.or(x, K(51)), v128.or(x, K(51)))); // -2|x|, exactly
     const y = f64x2.div(f64x2.neg(m), f64x2.add(K(24), m));
     return v128.bitselect(x, y, K(25)); // sign of x, magnitude of y
   } else if (code == 3) {
-    const e = expNeg64(f64x2.mul(K(23), f64x2.abs(x)));
+    const e = expNeg64(f64x2.add(v128.or(x, K(51)), v128.or(x, K(51)))); // -2|x|, exactly
     const d = f64x2.add(one, e);
     return f64x2.div(f64x2.mul(K(26), e), f64x2.mul(d, d));
   } else if (code == 4) {
@@ -391,7 +393,7 @@ function apply32raw(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
   if (code == 0 || code == 1) {
     const ul = f64x2.mul(g, f64x2.sub(lo(x), o));
     const uh = f64x2.mul(g, f64x2.sub(hi(x), o));
-    const e = expNeg32from64(f64x2.neg(f64x2.abs(ul)), f64x2.neg(f64x2.abs(uh)));
+    const e = expNeg32from64(v128.or(ul, K(51)), v128.or(uh, K(51)));
     const d = f32x4.add(one, e);
     if (code == 0) {
       const pos = low32(f64x2.ge(ul, K(21)), f64x2.ge(uh, K(21)));
@@ -399,16 +401,16 @@ function apply32raw(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
     }
     return f32x4.div(f32x4.mul(g32, e), f32x4.mul(d, d));
   } else if (code == 10 || code == 11) {
-    const e = expNeg32(f32x4.neg(f32x4.abs(x)));
+    const e = expNeg32(v128.or(x, K(50))); // -|x|: the sign bit set
     const d = f32x4.add(one, e);
     if (code == 10) return f32x4.div(v128.bitselect(one, e, f32x4.ge(x, zero)), d);
     return f32x4.div(e, f32x4.mul(d, d));
   } else if (code == 2) {
-    const m = expm1Neg32(f32x4.mul(K(46), f32x4.abs(x)));
+    const m = expm1Neg32(f32x4.add(v128.or(x, K(50)), v128.or(x, K(50)))); // -2|x|, exactly
     const y = f32x4.div(f32x4.neg(m), f32x4.add(K(47), m));
     return v128.bitselect(x, y, K(48));
   } else if (code == 3) {
-    const e = expNeg32(f32x4.mul(K(46), f32x4.abs(x)));
+    const e = expNeg32(f32x4.add(v128.or(x, K(50)), v128.or(x, K(50)))); // -2|x|, exactly
     const d = f32x4.add(one, e);
     return f32x4.div(f32x4.mul(K(49), e), f32x4.mul(d, d));
   } else if (code == 4) {
