@@ -84,13 +84,13 @@ export function constantTableAddress(): i32 {
 /** Constant number i of the table. */
 // @ts-ignore: decorator
 @inline
-function K(i: i32): v128 {
+export function K(i: i32): v128 {
   return v128.load(TABLE + (<usize>i << 4));
 }
 
-/** Bytes of the constant table (52 vectors). */
+/** Bytes of the constant table (54 vectors). */
 export function constantTableBytes(): i32 {
-  return 52 * 16;
+  return 54 * 16;
 }
 
 /** Writes the constant table at TABLE (call once per memory, before any kernel). */
@@ -148,6 +148,8 @@ export function writeConstantTable(): void {
   v128.store(at + 784, f32x4.splat(4.0));
   v128.store(at + 800, i32x4.splat(0x80000000)); // 50: f32 sign bits
   v128.store(at + 816, i64x2.splat(0x8000000000000000)); // 51: f64 sign bits
+  v128.store(at + 832, i32x4.splat(0x7fffffff)); // 52: f32 magnitude bits
+  v128.store(at + 848, i64x2.splat(0x7fffffffffffffff)); // 53: f64 magnitude bits
 }
 
 // ======================= f64 lanes =======================
