@@ -12,6 +12,11 @@
 // demoted once).
 
 import { VBYTES, hmax, lanes, vmadd } from "./simd";
+import { K } from "./units";
+
+/** Magnitude masks in the constant table (units.ts): V8 rebuilds the mask of f64x2.abs at every use. */
+const ABS32: i32 = 52;
+const ABS64: i32 = 53;
 
 // @ts-ignore: decorator
 @inline
@@ -143,8 +148,8 @@ export function maxAbsDiff<T>(a: usize, b: usize, n: i32): f64 {
     for (; o < ve; o += VBYTES) {
       const x = v128.load(a + o);
       const y = v128.load(b + o);
-      const dl = f64x2.abs(f64x2.sub(lo(x), lo(y)));
-      const dh = f64x2.abs(f64x2.sub(hi(x), hi(y)));
+      const dl = v128.and(f64x2.sub(lo(x), lo(y)), K(ABS64));
+      const dh = v128.and(f64x2.sub(hi(x), hi(y)), K(ABS64));
       b0 = f64x2.pmax(b0, dl);
       b1 = f64x2.pmax(b1, dh);
       nan = v128.or(nan, v128.or(f64x2.ne(dl, dl), f64x2.ne(dh, dh)));
@@ -152,14 +157,14 @@ export function maxAbsDiff<T>(a: usize, b: usize, n: i32): f64 {
   } else {
     const v2 = <usize>(n - n % 4) * S;
     for (; o < v2; o += 2 * VBYTES) {
-      const d0 = f64x2.abs(f64x2.sub(v128.load(a + o), v128.load(b + o)));
-      const d1 = f64x2.abs(f64x2.sub(v128.load(a + o, VBYTES), v128.load(b + o, VBYTES)));
+      const d0 = v128.and(f64x2.sub(v128.load(a + o), v128.load(b + o)), K(ABS64));
+      const d1 = v128.and(f64x2.sub(v128.load(a + o, VBYTES), v128.load(b + o, VBYTES)), K(ABS64));
       b0 = f64x2.pmax(b0, d0);
       b1 = f64x2.pmax(b1, d1);
       nan = v128.or(nan, v128.or(f64x2.ne(d0, d0), f64x2.ne(d1, d1)));
     }
     for (; o < ve; o += VBYTES) {
-      const d0 = f64x2.abs(f64x2.sub(v128.load(a + o), v128.load(b + o)));
+      const d0 = v128.and(f64x2.sub(v128.load(a + o), v128.load(b + o)), K(ABS64));
       b0 = f64x2.pmax(b0, d0);
       nan = v128.or(nan, f64x2.ne(d0, d0));
     }
@@ -181,7 +186,7 @@ export function maxAbs<T>(a: usize, n: i32): f64 {
   let p = a;
   let r: f64 = 0;
   if (S == 4) {
-    const mask = i32x4.splat(0x7fffffff);
+    const mask = K(ABS32);
     let m0 = i32x4.splat(0);
     let m1 = m0;
     let m2 = m0;
@@ -206,15 +211,15 @@ export function maxAbs<T>(a: usize, n: i32): f64 {
     let nan = b0;
     const v2 = a + <usize>(n - n % 4) * 8;
     for (; p < v2; p += 2 * VBYTES) {
-      const x0 = f64x2.abs(v128.load(p));
-      const x1 = f64x2.abs(v128.load(p, VBYTES));
+      const x0 = v128.and(v128.load(p), K(ABS64));
+      const x1 = v128.and(v128.load(p, VBYTES), K(ABS64));
       b0 = f64x2.pmax(b0, x0);
       b1 = f64x2.pmax(b1, x1);
       nan = v128.or(nan, v128.or(f64x2.ne(x0, x0), f64x2.ne(x1, x1)));
     }
     const ve = a + <usize>(n - n % 2) * 8;
     for (; p < ve; p += VBYTES) {
-      const x0 = f64x2.abs(v128.load(p));
+      const x0 = v128.and(v128.load(p), K(ABS64));
       b0 = f64x2.pmax(b0, x0);
       nan = v128.or(nan, f64x2.ne(x0, x0));
     }
