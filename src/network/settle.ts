@@ -41,7 +41,8 @@ export interface PhaseOptions {
    * Reuse the drive (bias plus input from clamped layers) this settler computed in its previous phase:
    * a promise by the caller that no parameter has changed since that phase. The settler reuses it only
    * when it can also see that the rest holds: the same batch, the same `inputs` object (and the same
-   * `targets` object when outputs were clamped before), and every layer clamped then is clamped now; it
+   * `targets` object when outputs were clamped before; their arrays must still hold the same values),
+   * and every layer clamped then is clamped now; it
    * then adds only the input from layers clamped now but free then. Otherwise it computes the drive
    * afresh. Rules pass it for the second and later phases of one training step, where the input drive
    * is the same (Equilibrium Propagation's nudged phases need no new products with the input weights).
@@ -209,7 +210,7 @@ export class Settler {
         continue;
       }
       const d = dest[layer.index] as FloatArray;
-      if (ArrayBuffer.isView(v) && !(v instanceof DataView)) {
+      if (ArrayBuffer.isView(v) && !(v instanceof DataView) && !(v instanceof BigInt64Array) && !(v instanceof BigUint64Array)) {
         // typed arrays: one conversion copy, then one pass for finiteness (also catches values that
         // overflow a float32 network's storage); the slow loop below only names the first bad value
         d.set(v as unknown as ArrayLike<number>);

@@ -325,6 +325,8 @@ describe("bad input", () => {
     // 1e300 is a finite float64 but rounds to Infinity in float32 storage (IEEE 754 binary32 max ≈ 3.4e38)
     expect(pathOf(() => new Settler(net32, 1).settle({ phase: "free", inputs: { in: Float64Array.of(0.5, 1e300) } }))).toEqual(["inputs.in[1]: a number within the range of float32"]);
     expect(pathOf(() => new Settler(net32, 1).settle({ phase: "free", inputs: { in: [0.5, 1e300] } }))).toEqual(["inputs.in[1]: a number within the range of float32"]);
+    // arrays of another element type are refused by value, not by a crash
+    expect(pathOf(() => new Settler(net, 1).settle({ phase: "free", inputs: { in: BigInt64Array.of(1n, 2n) as unknown as ArrayLike<number> } }))).toEqual(["inputs.in[0]: a finite number"]);
     // the values loaded are the values given
     const ok = new Settler(net32, 1).settle({ phase: "free", inputs: { in: Float64Array.of(0.25, -3) } });
     expect(Array.from(ok.activity[0]!)).toEqual([0.25, -3]);
