@@ -67,3 +67,24 @@ export function scaleInPlace<T>(c: usize, len: i32, beta: f64): void {
   for (; p < vend; p += VBYTES) v128.store(p, v128.mul<T>(vb, v128.load(p)));
   for (; p < end; p += sizeof<T>()) store<T>(p, b * load<T>(p));
 }
+
+/** The low f64 half of an f32x4 vector (lanes 0 and 1, exact). */
+// @ts-ignore: decorator
+@inline
+export function lo(v: v128): v128 {
+  return f64x2.promote_low_f32x4(v);
+}
+
+/** The high f64 half of an f32x4 vector (lanes 2 and 3, exact). */
+// @ts-ignore: decorator
+@inline
+export function hi(v: v128): v128 {
+  return f64x2.promote_low_f32x4(v128.shuffle<f32>(v, v, 2, 3, 2, 3));
+}
+
+/** Rounds two f64x2 vectors to one f32x4 vector (lo lanes first). */
+// @ts-ignore: decorator
+@inline
+export function join(l: v128, h: v128): v128 {
+  return v128.shuffle<f32>(f32x4.demote_f64x2_zero(l), f32x4.demote_f64x2_zero(h), 0, 1, 4, 5);
+}

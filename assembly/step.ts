@@ -21,8 +21,8 @@
 // exceeds `bound` or some value is NaN (the host then reports the layer with
 // the separate kernels).
 
-import { VBYTES } from "./simd";
-import { K, hi, join, lo, run32, run64 } from "./units";
+import { VBYTES, hi, join, lo } from "./simd";
+import { ABS32, ABS64, K, run32, run64 } from "./units";
 
 // @ts-ignore: decorator
 @inline
@@ -74,9 +74,9 @@ function step32(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize
       const rh = f32x4.demote_f64x2_zero(f64x2.add(f64x2.mul(one, xh), f64x2.mul(vdt, hi(d))));
       v128.store64_lane(bn + p, rl, 0);
       v128.store64_lane(bn + p, rh, 0, 8);
-      mag = i32x4.max_u(mag, i32x4.max_u(v128.and(rl, K(52)), v128.and(rh, K(52))));
-      const e0 = v128.and(f64x2.sub(f64x2.promote_low_f32x4(rl), xl), K(53));
-      const e1 = v128.and(f64x2.sub(f64x2.promote_low_f32x4(rh), xh), K(53));
+      mag = i32x4.max_u(mag, i32x4.max_u(v128.and(rl, K(ABS32)), v128.and(rh, K(ABS32))));
+      const e0 = v128.and(f64x2.sub(f64x2.promote_low_f32x4(rl), xl), K(ABS64));
+      const e1 = v128.and(f64x2.sub(f64x2.promote_low_f32x4(rh), xh), K(ABS64));
       d0 = f64x2.pmax(d0, e0);
       d1 = f64x2.pmax(d1, e1);
       nan = v128.or(nan, v128.or(f64x2.ne(e0, e0), f64x2.ne(e1, e1)));
@@ -133,8 +133,8 @@ function step64(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize
       const xa = v128.load(bx + p);
       const r = f64x2.add(f64x2.mul(one, xa), f64x2.mul(vdt, f64x2.sub(v128.load(bn + p), xa)));
       v128.store(bn + p, r);
-      const aa = v128.and(r, K(53));
-      const e = v128.and(f64x2.sub(r, xa), K(53));
+      const aa = v128.and(r, K(ABS64));
+      const e = v128.and(f64x2.sub(r, xa), K(ABS64));
       m0 = f64x2.pmax(m0, aa);
       d0 = f64x2.pmax(d0, e);
       nan = v128.or(nan, v128.or(f64x2.ne(aa, aa), f64x2.ne(e, e)));

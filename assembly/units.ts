@@ -30,7 +30,7 @@
 //   to f32 (a relative error |u| 2^-24 in exp) never enters.
 // NaN in gives NaN out (wasm min/max propagate NaN); +-Infinity saturates.
 
-import { VBYTES, vmadd } from "./simd";
+import { VBYTES, hi, join, lo, vmadd } from "./simd";
 
 // ---- f64 constants ----
 const LOG2E64: f64 = 1.4426950408889634;
@@ -81,6 +81,12 @@ export function constantTableAddress(): i32 {
   return <i32>TABLE;
 }
 
+/** Slots of the sign and magnitude masks (V8 rebuilds the masks of abs and neg at every use). */
+export const SIGN32: i32 = 48;
+export const SIGN64: i32 = 49;
+export const ABS32: i32 = 50;
+export const ABS64: i32 = 51;
+
 /** Constant number i of the table. */
 // @ts-ignore: decorator
 @inline
@@ -88,9 +94,9 @@ export function K(i: i32): v128 {
   return v128.load(TABLE + (<usize>i << 4));
 }
 
-/** Bytes of the constant table (54 vectors). */
+/** Bytes of the constant table (52 vectors). */
 export function constantTableBytes(): i32 {
-  return 54 * 16;
+  return 52 * 16;
 }
 
 /** Writes the constant table at TABLE (call once per memory, before any kernel). */
@@ -119,37 +125,35 @@ export function writeConstantTable(): void {
   v128.store(at + 320, f64x2.splat(TANH_LO64));
   v128.store(at + 336, f64x2.splat(0.0));
   v128.store(at + 352, f64x2.splat(NaN));
-  v128.store(at + 368, f64x2.splat(-2.0));
-  v128.store(at + 384, f64x2.splat(2.0));
-  v128.store(at + 400, f64x2.splat(-0.0));
-  v128.store(at + 416, f64x2.splat(4.0));
-  v128.store(at + 432, f32x4.splat(P0));
-  v128.store(at + 448, f32x4.splat(P1));
-  v128.store(at + 464, f32x4.splat(P2));
-  v128.store(at + 480, f32x4.splat(P3));
-  v128.store(at + 496, f32x4.splat(P4));
-  v128.store(at + 512, f32x4.splat(P5));
-  v128.store(at + 528, i32x4.splat(127));
-  v128.store(at + 544, f32x4.splat(LO32));
-  v128.store(at + 560, f32x4.splat(LOG2E32));
-  v128.store(at + 576, f32x4.splat(MAGIC32));
-  v128.store(at + 592, f32x4.splat(C1_32));
-  v128.store(at + 608, f32x4.splat(C2_32));
-  v128.store(at + 624, f32x4.splat(1.0));
-  v128.store(at + 640, i32x4.splat(MAGIC32_BITS));
-  v128.store(at + 656, f64x2.splat(<f64>LO32));
-  v128.store(at + 672, f64x2.splat(LN2_64));
-  v128.store(at + 688, f32x4.splat(TANH_LO32));
-  v128.store(at + 704, f32x4.splat(0.0));
-  v128.store(at + 720, f32x4.splat(NaN));
-  v128.store(at + 736, f32x4.splat(-2.0));
-  v128.store(at + 752, f32x4.splat(2.0));
-  v128.store(at + 768, f32x4.splat(-0.0));
-  v128.store(at + 784, f32x4.splat(4.0));
-  v128.store(at + 800, i32x4.splat(0x80000000)); // 50: f32 sign bits
-  v128.store(at + 816, i64x2.splat(0x8000000000000000)); // 51: f64 sign bits
-  v128.store(at + 832, i32x4.splat(0x7fffffff)); // 52: f32 magnitude bits
-  v128.store(at + 848, i64x2.splat(0x7fffffffffffffff)); // 53: f64 magnitude bits
+  v128.store(at + 368, f64x2.splat(2.0));
+  v128.store(at + 384, f64x2.splat(-0.0));
+  v128.store(at + 400, f64x2.splat(4.0));
+  v128.store(at + 416, f32x4.splat(P0));
+  v128.store(at + 432, f32x4.splat(P1));
+  v128.store(at + 448, f32x4.splat(P2));
+  v128.store(at + 464, f32x4.splat(P3));
+  v128.store(at + 480, f32x4.splat(P4));
+  v128.store(at + 496, f32x4.splat(P5));
+  v128.store(at + 512, i32x4.splat(127));
+  v128.store(at + 528, f32x4.splat(LO32));
+  v128.store(at + 544, f32x4.splat(LOG2E32));
+  v128.store(at + 560, f32x4.splat(MAGIC32));
+  v128.store(at + 576, f32x4.splat(C1_32));
+  v128.store(at + 592, f32x4.splat(C2_32));
+  v128.store(at + 608, f32x4.splat(1.0));
+  v128.store(at + 624, i32x4.splat(MAGIC32_BITS));
+  v128.store(at + 640, f64x2.splat(<f64>LO32));
+  v128.store(at + 656, f64x2.splat(LN2_64));
+  v128.store(at + 672, f32x4.splat(TANH_LO32));
+  v128.store(at + 688, f32x4.splat(0.0));
+  v128.store(at + 704, f32x4.splat(NaN));
+  v128.store(at + 720, f32x4.splat(2.0));
+  v128.store(at + 736, f32x4.splat(-0.0));
+  v128.store(at + 752, f32x4.splat(4.0));
+  v128.store(at + 768, i32x4.splat(0x80000000)); // 48: f32 sign bits
+  v128.store(at + 784, i64x2.splat(0x8000000000000000)); // 49: f64 sign bits
+  v128.store(at + 800, i32x4.splat(0x7fffffff)); // 50: f32 magnitude bits
+  v128.store(at + 816, i64x2.splat(0x7fffffffffffffff)); // 51: f64 magnitude bits
 }
 
 // ======================= f64 lanes =======================
@@ -225,18 +229,18 @@ function apply64raw(code: i32, x: v128, g: v128, o: v128): v128 {
   const nan = K(22);
   if (code == 0 || code == 1) {
     const u = f64x2.mul(g, f64x2.sub(x, o));
-    const e = expNeg64(v128.or(u, K(51))); // -|u|: the sign bit set
+    const e = expNeg64(v128.or(u, K(SIGN64))); // -|u|: the sign bit set
     const d = f64x2.add(one, e);
     if (code == 0) return f64x2.div(v128.bitselect(one, e, f64x2.ge(u, zero)), d);
     return f64x2.div(f64x2.mul(g, e), f64x2.mul(d, d));
   } else if (code == 2) {
-    const m = expm1Neg64(f64x2.add(v128.or(x, K(51)), v128.or(x, K(51)))); // -2|x|, exactly
-    const y = f64x2.div(f64x2.neg(m), f64x2.add(K(24), m));
-    return v128.bitselect(x, y, K(25)); // sign of x, magnitude of y
+    const m = expm1Neg64(f64x2.add(v128.or(x, K(SIGN64)), v128.or(x, K(SIGN64)))); // -2|x|, exactly
+    const y = f64x2.div(f64x2.neg(m), f64x2.add(K(23), m));
+    return v128.bitselect(x, y, K(24)); // sign of x, magnitude of y
   } else if (code == 3) {
-    const e = expNeg64(f64x2.add(v128.or(x, K(51)), v128.or(x, K(51)))); // -2|x|, exactly
+    const e = expNeg64(f64x2.add(v128.or(x, K(SIGN64)), v128.or(x, K(SIGN64)))); // -2|x|, exactly
     const d = f64x2.add(one, e);
-    return f64x2.div(f64x2.mul(K(26), e), f64x2.mul(d, d));
+    return f64x2.div(f64x2.mul(K(25), e), f64x2.mul(d, d));
   } else if (code == 4) {
     return v128.bitselect(zero, x, f64x2.lt(x, zero));
   } else if (code == 5) {
@@ -298,22 +302,6 @@ export function unitFill64(code: i32, gain: f64, offset: f64, out: usize, x: usi
 
 // ======================= f32 lanes =======================
 
-/** The low f64 half / high f64 half of an f32x4 vector, and back. */
-// @ts-ignore: decorator
-@inline
-export function lo(v: v128): v128 {
-  return f64x2.promote_low_f32x4(v);
-}
-// @ts-ignore: decorator
-@inline
-export function hi(v: v128): v128 {
-  return f64x2.promote_low_f32x4(v128.shuffle<f32>(v, v, 2, 3, 2, 3));
-}
-// @ts-ignore: decorator
-@inline
-export function join(l: v128, h: v128): v128 {
-  return v128.shuffle<f32>(f32x4.demote_f64x2_zero(l), f32x4.demote_f64x2_zero(h), 0, 1, 4, 5);
-}
 /** The low 32 bits of each i64 lane of two vectors, as one i32x4 vector. */
 // @ts-ignore: decorator
 @inline
@@ -325,12 +313,12 @@ function low32(l: v128, h: v128): v128 {
 // @ts-ignore: decorator
 @inline
 function cephes32(r: v128): v128 {
-  let p = K(27);
+  let p = K(26);
+  p = vmadd<f32>(p, r, K(27));
   p = vmadd<f32>(p, r, K(28));
   p = vmadd<f32>(p, r, K(29));
   p = vmadd<f32>(p, r, K(30));
   p = vmadd<f32>(p, r, K(31));
-  p = vmadd<f32>(p, r, K(32));
   return vmadd<f32>(f32x4.mul(r, r), p, r);
 }
 
@@ -340,8 +328,8 @@ function cephes32(r: v128): v128 {
 function scale32(p: v128, k: v128): v128 {
   const k1 = i32x4.shr_s(k, 1);
   const k2 = i32x4.sub(k, k1);
-  const s1 = i32x4.shl(i32x4.add(k1, K(33)), 23);
-  const s2 = i32x4.shl(i32x4.add(k2, K(33)), 23);
+  const s1 = i32x4.shl(i32x4.add(k1, K(32)), 23);
+  const s2 = i32x4.shl(i32x4.add(k2, K(32)), 23);
   return f32x4.mul(f32x4.mul(p, s1), s2);
 }
 
@@ -349,53 +337,53 @@ function scale32(p: v128, k: v128): v128 {
 // @ts-ignore: decorator
 @inline
 function expNeg32(w0: v128): v128 {
-  const w = f32x4.pmax(K(34), w0);
-  const t = f32x4.add(f32x4.mul(w, K(35)), K(36));
-  const kf = f32x4.sub(t, K(36));
-  const r = f32x4.sub(f32x4.sub(w, f32x4.mul(kf, K(37))), f32x4.mul(kf, K(38)));
-  return scale32(f32x4.add(K(39), cephes32(r)), i32x4.sub(t, K(40)));
+  const w = f32x4.pmax(K(33), w0);
+  const t = f32x4.add(f32x4.mul(w, K(34)), K(35));
+  const kf = f32x4.sub(t, K(35));
+  const r = f32x4.sub(f32x4.sub(w, f32x4.mul(kf, K(36))), f32x4.mul(kf, K(37)));
+  return scale32(f32x4.add(K(38), cephes32(r)), i32x4.sub(t, K(39)));
 }
 
 /** exp(w) for w <= 0 (or NaN) given in two f64 vectors (the four f32 lanes, low half first). */
 // @ts-ignore: decorator
 @inline
 function expNeg32from64(wl0: v128, wh0: v128): v128 {
-  const LO = K(41);
+  const LO = K(40);
   const wl = f64x2.pmax(LO, wl0);
   const wh = f64x2.pmax(LO, wh0);
   const tl = f64x2.add(f64x2.mul(wl, K(3)), K(4));
   const th = f64x2.add(f64x2.mul(wh, K(3)), K(4));
-  const rl = f64x2.sub(wl, f64x2.mul(f64x2.sub(tl, K(4)), K(42)));
-  const rh = f64x2.sub(wh, f64x2.mul(f64x2.sub(th, K(4)), K(42)));
+  const rl = f64x2.sub(wl, f64x2.mul(f64x2.sub(tl, K(4)), K(41)));
+  const rh = f64x2.sub(wh, f64x2.mul(f64x2.sub(th, K(4)), K(41)));
   const r = join(rl, rh);
   // the low 32 bits of t are k (two's complement): the low word of MAGIC64 is 0
-  return scale32(f32x4.add(K(39), cephes32(r)), low32(tl, th));
+  return scale32(f32x4.add(K(38), cephes32(r)), low32(tl, th));
 }
 
 /** expm1(w) for w in [TANH_LO32, 0] (or NaN), f32 lanes. */
 // @ts-ignore: decorator
 @inline
 function expm1Neg32(w0: v128): v128 {
-  const w = f32x4.pmax(K(43), w0);
-  const t = f32x4.add(f32x4.mul(w, K(35)), K(36));
-  const kf = f32x4.sub(t, K(36));
-  const r = f32x4.sub(f32x4.sub(w, f32x4.mul(kf, K(37))), f32x4.mul(kf, K(38)));
+  const w = f32x4.pmax(K(42), w0);
+  const t = f32x4.add(f32x4.mul(w, K(34)), K(35));
+  const kf = f32x4.sub(t, K(35));
+  const r = f32x4.sub(f32x4.sub(w, f32x4.mul(kf, K(36))), f32x4.mul(kf, K(37)));
   const q = cephes32(r);
-  const s = i32x4.shl(i32x4.add(i32x4.sub(t, K(40)), K(33)), 23);
-  return f32x4.add(f32x4.mul(s, q), f32x4.sub(s, K(39)));
+  const s = i32x4.shl(i32x4.add(i32x4.sub(t, K(39)), K(32)), 23);
+  return f32x4.add(f32x4.mul(s, q), f32x4.sub(s, K(38)));
 }
 
 /** Codes as for f64, plus 10 / 11: logistic / slope with g = 1, o = 0 (argument exact in f32). */
 // @ts-ignore: decorator
 @inline
 function apply32raw(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
-  const one = K(39);
-  const zero = K(44);
-  const nan = K(45);
+  const one = K(38);
+  const zero = K(43);
+  const nan = K(44);
   if (code == 0 || code == 1) {
     const ul = f64x2.mul(g, f64x2.sub(lo(x), o));
     const uh = f64x2.mul(g, f64x2.sub(hi(x), o));
-    const e = expNeg32from64(v128.or(ul, K(51)), v128.or(uh, K(51)));
+    const e = expNeg32from64(v128.or(ul, K(SIGN64)), v128.or(uh, K(SIGN64)));
     const d = f32x4.add(one, e);
     if (code == 0) {
       const pos = low32(f64x2.ge(ul, K(21)), f64x2.ge(uh, K(21)));
@@ -403,18 +391,18 @@ function apply32raw(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
     }
     return f32x4.div(f32x4.mul(g32, e), f32x4.mul(d, d));
   } else if (code == 10 || code == 11) {
-    const e = expNeg32(v128.or(x, K(50))); // -|x|: the sign bit set
+    const e = expNeg32(v128.or(x, K(SIGN32))); // -|x|: the sign bit set
     const d = f32x4.add(one, e);
     if (code == 10) return f32x4.div(v128.bitselect(one, e, f32x4.ge(x, zero)), d);
     return f32x4.div(e, f32x4.mul(d, d));
   } else if (code == 2) {
-    const m = expm1Neg32(f32x4.add(v128.or(x, K(50)), v128.or(x, K(50)))); // -2|x|, exactly
-    const y = f32x4.div(f32x4.neg(m), f32x4.add(K(47), m));
-    return v128.bitselect(x, y, K(48));
+    const m = expm1Neg32(f32x4.add(v128.or(x, K(SIGN32)), v128.or(x, K(SIGN32)))); // -2|x|, exactly
+    const y = f32x4.div(f32x4.neg(m), f32x4.add(K(45), m));
+    return v128.bitselect(x, y, K(46));
   } else if (code == 3) {
-    const e = expNeg32(f32x4.add(v128.or(x, K(50)), v128.or(x, K(50)))); // -2|x|, exactly
+    const e = expNeg32(f32x4.add(v128.or(x, K(SIGN32)), v128.or(x, K(SIGN32)))); // -2|x|, exactly
     const d = f32x4.add(one, e);
-    return f32x4.div(f32x4.mul(K(49), e), f32x4.mul(d, d));
+    return f32x4.div(f32x4.mul(K(47), e), f32x4.mul(d, d));
   } else if (code == 4) {
     return v128.bitselect(zero, x, f32x4.lt(x, zero));
   } else if (code == 5) {

@@ -11,35 +11,13 @@
 // differences of maxAbsDiff run in f64 lanes (f32 data promoted, the result
 // demoted once).
 
-import { VBYTES, hmax, lanes, vmadd } from "./simd";
-import { K } from "./units";
-
-/** Magnitude masks in the constant table (units.ts): V8 rebuilds the mask of f64x2.abs at every use. */
-const ABS32: i32 = 52;
-const ABS64: i32 = 53;
+import { VBYTES, hi, hmax, join, lanes, lo, vmadd } from "./simd";
+import { ABS32, ABS64, K } from "./units";
 
 // @ts-ignore: decorator
 @inline
 function vend<T>(p: usize, n: i32): usize {
   return p + <usize>(n - n % lanes<T>()) * sizeof<T>();
-}
-
-/** The two f64 halves of an f32x4 vector. */
-// @ts-ignore: decorator
-@inline
-function lo(v: v128): v128 {
-  return f64x2.promote_low_f32x4(v);
-}
-// @ts-ignore: decorator
-@inline
-function hi(v: v128): v128 {
-  return f64x2.promote_low_f32x4(v128.shuffle<f32>(v, v, 2, 3, 2, 3));
-}
-/** Rounds two f64x2 vectors to one f32x4 vector (lo lanes first). */
-// @ts-ignore: decorator
-@inline
-function join(l: v128, h: v128): v128 {
-  return v128.shuffle<f32>(f32x4.demote_f64x2_zero(l), f32x4.demote_f64x2_zero(h), 0, 1, 4, 5);
 }
 
 /** op 0: add, 1: sub, 2: mul; out[i] = a[i] op b[i]. */

@@ -6,7 +6,7 @@
  */
 import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import { fillUnit } from "../kernels/wasm/units.js";
+import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
 import type { Network } from "./network.js";
 
 /** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
@@ -156,7 +156,7 @@ export class Settler {
   /** Layers clamped in this phase and free in the previous one (used when the drive is reused). */
   private readonly newlyClamped: boolean[];
   /** Per layer: the unit as the fused rate step takes it, or null for units it does not know. */
-  private readonly fusedUnit: ({ kind: "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear"; gain: number; offset: number } | null)[];
+  private readonly fusedUnit: ReturnType<typeof unitKernelArgs>[];
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -173,12 +173,7 @@ export class Settler {
     this.scratch = net.allocate(Math.max(...net.layers.map((l) => l.size)));
     this.clamped = net.layers.map(() => false);
     this.newlyClamped = net.layers.map(() => false);
-    this.fusedUnit = net.layers.map((l) => {
-      const u = l.unit.spec;
-      if (u.kind === "logistic") return { kind: "logistic", gain: u.gain ?? 1, offset: u.offset ?? 0 };
-      if (u.kind === "tanh" || u.kind === "relu" || u.kind === "hard-sigmoid" || u.kind === "linear") return { kind: u.kind, gain: 1, offset: 0 };
-      return null;
-    });
+    this.fusedUnit = net.layers.map((l) => unitKernelArgs(l.unit));
   }
 
   /**

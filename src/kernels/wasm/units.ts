@@ -145,21 +145,28 @@ export function fillUnit<T extends FloatArray>(backend: KernelBackend, unit: Uni
   const run = backend.unitFill;
   // with n absent the unit requires out.length >= x.length: leave that error to it
   if (run !== undefined && (n !== undefined || out.length >= x.length)) {
-    const spec = unit.spec;
-    const count = n ?? x.length;
-    switch (spec.kind) {
-      case "logistic":
-        if (run("logistic", slope, spec.gain ?? 1, spec.offset ?? 0, out, x, count)) return out;
-        break;
-      case "tanh":
-      case "relu":
-      case "hard-sigmoid":
-      case "linear":
-        if (run(spec.kind, slope, 1, 0, out, x, count)) return out;
-        break;
-      default:
-        break;
-    }
+    const k = unitKernelArgs(unit);
+    if (k !== null && run(k.kind, slope, k.gain, k.offset, out, x, n ?? x.length)) return out;
   }
   return slope ? unit.fillSlope(out, x, n) : unit.fill(out, x, n);
+}
+
+/**
+ * How the SIMD kernels (`unitFill`, `rateStep`) take a unit: its kind with the logistic's gain and
+ * offset (1 and 0 for the other kinds), or null for a unit they do not evaluate.
+ * @internal
+ */
+export function unitKernelArgs(unit: UnitFunction): { kind: UnitFillKind; gain: number; offset: number } | null {
+  const spec = unit.spec;
+  switch (spec.kind) {
+    case "logistic":
+      return { kind: "logistic", gain: spec.gain ?? 1, offset: spec.offset ?? 0 };
+    case "tanh":
+    case "relu":
+    case "hard-sigmoid":
+    case "linear":
+      return { kind: spec.kind, gain: 1, offset: 0 };
+    default:
+      return null;
+  }
 }
