@@ -39,6 +39,13 @@ export const FAILED = 4;
 const ABORT_JUMP = 1 << 20;
 /** How long a worker spins before sleeping (ms). */
 const SPIN_MS = 0.5;
+/**
+ * Longest sleep before a waiter looks at the word again (ms). Every wait is re-checked at least this
+ * often, so a wake-up that is lost (a notify the engine does not deliver) costs at most this long
+ * instead of hanging the batch. (One CI run timed out in a multi-worker test while these waits had no
+ * bound; the cause was not reproduced.)
+ */
+const RECHECK_MS = 20;
 
 /** Bytes of the control array for `workers` workers, with the job's scale (a float64) after the words. */
 export function controlBytes(workers: number): number {
@@ -61,7 +68,7 @@ export function waitForChange(words: Int32Array, index: number, seen: number): n
     }
   } while (performance.now() < until);
   for (;;) {
-    Atomics.wait(words, index, seen);
+    Atomics.wait(words, index, seen, RECHECK_MS);
     const v = Atomics.load(words, index);
     if (v !== seen) return v;
   }
@@ -91,7 +98,7 @@ export function arrive(words: Int32Array, parties: number): boolean {
   for (;;) {
     if (Atomics.load(words, ABORTED) !== 0) return false;
     if (seen >= parties) return true;
-    Atomics.wait(words, ARRIVED, seen, 50);
+    Atomics.wait(words, ARRIVED, seen, RECHECK_MS);
     seen = Atomics.load(words, ARRIVED);
   }
 }
@@ -106,7 +113,7 @@ export function finish(words: Int32Array, worker: number, status: number, job: n
 }
 
 interface AtomicsWithWaitAsync {
-  waitAsync(array: Int32Array, index: number, value: number): { async: false; value: string } | { async: true; value: Promise<string> };
+  waitAsync(array: Int32Array, index: number, value: number, timeout?: number): { async: false; value: string } | { async: true; value: Promise<string> };
 }
 
 /**
@@ -118,7 +125,7 @@ export async function whenEqual(words: Int32Array, index: number, target: number
   for (;;) {
     const v = Atomics.load(words, index);
     if (v === target) return;
-    const w = A.waitAsync(words, index, v);
+    const w = A.waitAsync(words, index, v, RECHECK_MS);
     if (w.async) await Promise.race([w.value, failed]);
   }
 }
