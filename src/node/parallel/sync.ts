@@ -74,6 +74,31 @@ export function waitForChange(words: Int32Array, index: number, seen: number): n
   }
 }
 
+/** The words of one job as a worker reads them. */
+export interface JobWords {
+  readonly slices: number;
+  readonly layout: number;
+  readonly mode: number;
+  readonly scale: number;
+}
+
+/**
+ * The words of job `job` (the value a worker last saw in JOB), or null when that job is already done:
+ * the main thread rewrites the words for the next job once a job is done, so words read after that
+ * belong to the next job. They are read first and DONE last: if DONE was not yet `job` then, they were
+ * read while the job ran and are its own. (A worker that sits out a job, having fewer slices than
+ * workers, may wake only after the next job's words were written; taking them for this job would make
+ * it run the next job twice.)
+ */
+export function readJob(words: Int32Array, scale: Float64Array, job: number): JobWords | null {
+  const slices = Atomics.load(words, SLICES);
+  const layout = Atomics.load(words, LAYOUT);
+  const mode = Atomics.load(words, MODE);
+  const s = scale[0] as number;
+  if (Atomics.load(words, DONE) === job) return null;
+  return { slices, layout, mode, scale: s };
+}
+
 /** Releases every worker waiting in {@link arrive}: they return false. Safe from any thread, at any time. */
 export function abortBatch(words: Int32Array): void {
   Atomics.store(words, ABORTED, 1);

@@ -25,19 +25,17 @@ import {
   DONE_OK,
   FAILED,
   JOB,
-  LAYOUT,
-  MODE,
   MODE_ROWS_DELTA,
   MODE_ROWS_PARAMETERS,
   MODE_SLICES,
   READY,
   REFUSED,
-  SLICES,
   STOP,
   abortBatch,
   arrive,
   controlViews,
   finish,
+  readJob,
   waitForChange,
 } from "./sync.js";
 import { contrastPlan, contrastRows, provablyFinite, rowBlock, stat, type ContrastPlan, type ContrastScratch, type PhaseArrays } from "./contrast.js";
@@ -290,11 +288,13 @@ export default function jobLoop(task: LoopTask): { readonly stopped: true } {
       task.port.close();
       return { stopped: true };
     }
-    const slices = Atomics.load(words, SLICES);
+    const current = readJob(words, scale, seen);
+    if (current === null) continue;
+    const { slices, layout: layoutId, mode, scale: jobScale } = current;
     if (task.worker >= slices) continue;
     let layout: LayoutViews;
     try {
-      layout = s.layoutFor(Atomics.load(words, LAYOUT), task.port);
+      layout = s.layoutFor(layoutId, task.port);
     } catch (e) {
       abortBatch(words);
       task.port.postMessage({ kind: "failure", job: seen, message: String(e) } satisfies FailureMessage);
@@ -307,8 +307,8 @@ export default function jobLoop(task: LoopTask): { readonly stopped: true } {
       number: seen,
       worker: task.worker,
       layout,
-      mode: Atomics.load(words, MODE),
-      scale: scale[0] as number,
+      mode,
+      scale: jobScale,
       slices,
       start,
       count: Math.floor(((task.worker + 1) * B) / slices) - start,
