@@ -6,10 +6,12 @@
  */
 import { promises as fs } from "node:fs";
 import path from "node:path";
+import { EbbflowError } from "../errors/index.js";
 import { DEMO_RULES, demoAgreement, demoRun, type DemoRun } from "../demo/run.js";
 import { TOUCH_PATTERNS, touchStripDataset } from "../demo/touchStrip.js";
 import { formatAgreement } from "../verify/agreement.js";
 import { learningCurveSvg, writeSvg } from "../node/plot.js";
+import { loadPlotStack } from "../node/plot/render.js";
 import { VERSION } from "./version.js";
 
 /** Options of `ebbflow demo`. */
@@ -66,9 +68,16 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
   const reports = demoAgreement(4, 1);
   for (const r of reports) say(formatAgreement(r).split("\n").map((l) => "   " + l).join("\n") + "\n");
 
-  await fs.mkdir(out, { recursive: true });
   const written: string[] = [];
-  for (const rule of DEMO_RULES) {
+  let plotSkipped: string | undefined;
+  try {
+    await loadPlotStack(); // the optional plotting packages; the demo runs without them, minus the curves
+  } catch (e) {
+    if (!(e instanceof EbbflowError)) throw e;
+    plotSkipped = e.message;
+  }
+  if (plotSkipped === undefined) await fs.mkdir(out, { recursive: true });
+  for (const rule of plotSkipped === undefined ? DEMO_RULES : []) {
     const runs = hidden[rule.label] ?? [];
     const svg = await learningCurveSvg(
       runs.map((r) => ({ label: `seed ${r.seed}`, results: { source: `${rule.label} seed ${r.seed}`, header: { kind: "header" as const, ebbflow: VERSION, seed: r.seed, config: { rule: rule.config }, started: new Date(0).toISOString() }, epochs: r.history } })),
@@ -78,8 +87,10 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
     await writeSvg(file, svg);
     written.push(file);
   }
-  say(`4. Learning curves written to ${path.resolve(out)}:`);
-  for (const w of written) say(`   ${path.basename(w)}`);
+  if (plotSkipped === undefined) {
+    say(`4. Learning curves written to ${path.resolve(out)}:`);
+    for (const w of written) say(`   ${path.basename(w)}`);
+  } else say(`4. Learning curves not drawn: ${plotSkipped}`);
   say(`\nDone in ${((Date.now() - t0) / 1000).toFixed(1)} s.`);
   if (o.json) {
     process.stdout.write(

@@ -155,7 +155,8 @@ async function summarizeCommand(dir: string, o: { metric?: string; split?: "trai
   out(r.table);
   const missing = r.summary.configurations.reduce((n, c) => n + c.unfinished.length, 0);
   if (missing > 0) out(`(${missing} unfinished run${missing === 1 ? "" : "s"} left out)\n`);
-  if (r.files) out(`wrote ${r.files.json} and ${r.files.svg}\n`);
+  if (r.files) out(r.files.svg !== undefined ? `wrote ${r.files.json} and ${r.files.svg}\n` : `wrote ${r.files.json}\n`);
+  if (r.plotSkipped !== undefined) out(`no chart: ${r.plotSkipped}\n`);
 }
 
 async function listCommand(file: string, o: { json?: boolean }): Promise<void> {

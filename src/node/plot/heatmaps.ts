@@ -3,10 +3,9 @@
  * (receptive fields), coloured on a diverging scale centred on 0.
  * @module
  */
-import type { TopLevelSpec } from "vega-lite";
 import { fail, requireInteger, requirePositive } from "../../errors/index.js";
 import type { FloatArray } from "../../types/index.js";
-import { VEGA_LITE_SCHEMA, choice, pixels, renderSvg, titleText } from "./render.js";
+import { type ChartSpec, VEGA_LITE_SCHEMA, choice, pixels, renderSvg, titleText } from "./render.js";
 
 /** Diverging colour scheme: blue for negative, light grey-white at 0, orange for positive. */
 const SCHEME = "blueorange";
@@ -124,7 +123,7 @@ function options0<T>(options: T | undefined): Partial<T> {
  * @throws EbbflowError as {@link weightMatrixSvg}.
  * @category Plots
  */
-export function weightMatrixSpec(weights: FloatArray, rows: number, cols: number, options?: WeightMatrixOptions): TopLevelSpec {
+export function weightMatrixSpec(weights: FloatArray, rows: number, cols: number, options?: WeightMatrixOptions): ChartSpec {
   checkMatrix(weights, rows, cols);
   const o = options0(options);
   const title = titleText("options.title", o.title, "weights");
@@ -215,7 +214,7 @@ export function receptiveFieldsSpec(
   imageWidth: number,
   imageHeight: number,
   options?: ReceptiveFieldOptions,
-): TopLevelSpec {
+): ChartSpec {
   checkMatrix(weights, rows, cols);
   requireInteger("imageWidth", imageWidth, 1);
   requireInteger("imageHeight", imageHeight, 1);

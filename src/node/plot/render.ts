@@ -1,12 +1,57 @@
 /**
  * Rendering of chart specifications to SVG text (vega-lite compiled to vega,
  * drawn by vega's headless SVG renderer) and writing SVG files atomically.
+ *
+ * vega and vega-lite are optional peer dependencies: they are imported on the
+ * first render (a dynamic `import()`), never when `ebbflow/node` is imported,
+ * and their absence is reported as a typed error naming the install command.
+ * The chart specifications are typed here as plain JSON ({@link ChartSpec}),
+ * so that ebbflow's declaration files never refer to vega-lite's.
  * @module
  */
-import * as vega from "vega";
-import { compile, type TopLevelSpec } from "vega-lite";
+import type { TopLevelSpec } from "vega-lite";
 import { fail, requireInteger } from "../../errors/index.js";
 import { writeFileAtomic } from "../files.js";
+
+/**
+ * A vega-lite chart specification as plain JSON (https://vega.github.io/vega-lite/docs/spec.html):
+ * what the `...Spec` functions return and {@link renderSvg} draws.
+ * @category Plots
+ */
+export type ChartSpec = { readonly [key: string]: unknown };
+
+/** The install command of the plotting packages (optional peer dependencies; these versions run on Node 20 and later). */
+export const PLOT_INSTALL = "npm install vega@6.4.0 vega-lite@6.4.1";
+
+/** The two plotting modules, as far as rendering uses them. */
+interface PlotStack {
+  compile(spec: TopLevelSpec): { spec: unknown };
+  View: new (runtime: unknown, options: { renderer: "none" }) => { toSVG(): Promise<string>; finalize(): void };
+  parse(spec: never): unknown;
+}
+
+let stack: Promise<PlotStack> | undefined;
+
+/**
+ * Imports vega and vega-lite on first use (once per process).
+ * @throws EbbflowError `unsupported` (path `vega` or `vega-lite`) naming the install command when either is missing.
+ */
+export function loadPlotStack(): Promise<PlotStack> {
+  stack ??= (async () => {
+    const load = async (name: "vega" | "vega-lite"): Promise<Record<string, unknown>> => {
+      try {
+        return (await import(name)) as Record<string, unknown>;
+      } catch (e) {
+        stack = undefined; // a later call may find the package installed
+        return fail("unsupported", name, `the optional plotting packages vega and vega-lite installed (${PLOT_INSTALL})`, (e as Error).message ?? e);
+      }
+    };
+    const vega = await load("vega");
+    const lite = await load("vega-lite");
+    return { compile: lite.compile, View: vega.View, parse: vega.parse } as PlotStack;
+  })();
+  return stack;
+}
 
 /** JSON Schema address of the chart specifications built here. */
 export const VEGA_LITE_SCHEMA = "https://vega.github.io/schema/vega-lite/v6.json";
@@ -16,6 +61,7 @@ export const VEGA_LITE_SCHEMA = "https://vega.github.io/schema/vega-lite/v6.json
  * to vega, parsed, and drawn headless (no browser, no canvas).
  * @param spec - A vega-lite specification with inline data.
  * @returns The SVG document as text (starts with `<svg`).
+ * @throws EbbflowError `unsupported` (path `vega` or `vega-lite`) when the optional plotting packages are not installed.
  * @category Plots
  * @example
  * ```ts
@@ -24,9 +70,10 @@ export const VEGA_LITE_SCHEMA = "https://vega.github.io/schema/vega-lite/v6.json
  * svg.startsWith("<svg"); // true
  * ```
  */
-export async function renderSvg(spec: TopLevelSpec): Promise<string> {
-  const compiled = compile(spec);
-  const view = new vega.View(vega.parse(compiled.spec), { renderer: "none" });
+export async function renderSvg(spec: ChartSpec): Promise<string> {
+  const { compile, View, parse } = await loadPlotStack();
+  const compiled = compile(spec as unknown as TopLevelSpec);
+  const view = new View(parse(compiled.spec as never), { renderer: "none" });
   try {
     return await view.toSVG();
   } finally {

@@ -6,7 +6,7 @@
  */
 import { promises as fs } from "node:fs";
 import path from "node:path";
-import { fail } from "../../errors/index.js";
+import { EbbflowError, fail } from "../../errors/index.js";
 import { formatSummaryTable, summarizeRuns, type RunFinal, type SweepSummary } from "../../sweep/summary.js";
 import { bandCurveSvg, type BandKind, type RunGroup } from "../plot/curves.js";
 import type { Results } from "../plot/results.js";
@@ -32,10 +32,12 @@ export interface SweepFolderSummary {
   readonly summary: SweepSummary;
   /** The text table. */
   readonly table: string;
-  /** The learning curves with bands, as SVG text. */
-  readonly svg: string;
-  /** Files written (absent when `write` is false). */
-  readonly files?: { readonly json: string; readonly svg: string } | undefined;
+  /** The learning curves with bands, as SVG text; absent when the optional plotting packages are not installed (see `plotSkipped`). */
+  readonly svg?: string | undefined;
+  /** Why no SVG was drawn: the message naming the install command of the plotting packages. */
+  readonly plotSkipped?: string | undefined;
+  /** Files written (absent when `write` is false; `svg` absent when no SVG was drawn). */
+  readonly files?: { readonly json: string; readonly svg?: string | undefined } | undefined;
 }
 
 /**
@@ -74,12 +76,21 @@ export async function summarizeSweepFolder(dir: string, options: SummarizeOption
     used.add(label);
     groups.push({ label, runs });
   }
-  const svg = await bandCurveSvg(groups, { metric, split, band: options.band ?? "range", title: `${plan.name}: ${metric} (${split}) across seeds${plan.paths.length > 0 ? ` — ${plan.paths.join(" · ")}` : ""}` });
-  if (options.write === false) return { summary, table, svg };
+  let svg: string | undefined;
+  let plotSkipped: string | undefined;
+  try {
+    svg = await bandCurveSvg(groups, { metric, split, band: options.band ?? "range", title: `${plan.name}: ${metric} (${split}) across seeds${plan.paths.length > 0 ? ` — ${plan.paths.join(" · ")}` : ""}` });
+  } catch (e) {
+    // the summary does not need the optional plotting packages; only the chart does
+    if (!(e instanceof EbbflowError && e.code === "unsupported" && (e.path === "vega" || e.path === "vega-lite"))) throw e;
+    plotSkipped = e.message;
+  }
+  if (options.write === false) return { summary, table, svg, plotSkipped };
   const json = path.join(f.dir, "summary.json");
+  await writeFileAtomic(json, JSON.stringify(summary, null, 1) + "\n");
+  if (svg === undefined) return { summary, table, plotSkipped, files: { json } };
   const svgFile = path.join(f.dir, "plots", `${metric}-${split}.svg`);
   await fs.mkdir(path.dirname(svgFile), { recursive: true });
-  await writeFileAtomic(json, JSON.stringify(summary, null, 1) + "\n");
   await writeFileAtomic(svgFile, svg);
   return { summary, table, svg, files: { json, svg: svgFile } };
 }
