@@ -18,3 +18,4 @@ export * from "./train/index.js";
 export { touchStripDataset, TOUCH_PATTERNS } from "./demo/touchStrip.js";
 export * from "./kernels/wasm/index.js";
 export * from "./sweep/index.js";
+export * from "./interop/index.js";

@@ -8,6 +8,7 @@ import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePo
 import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
 import type { Network } from "./network.js";
+import { flatLayerValues, type LayerInputs } from "../interop/ndarray.js";
 
 /** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
@@ -19,10 +20,10 @@ export type LayerValues = Readonly<Record<string, ArrayLike<number>>>;
 export interface PhaseOptions {
   /** Which phase to settle. */
   readonly phase: Phase;
-  /** Values of every input layer, B×N each. */
-  readonly inputs: LayerValues;
-  /** Targets of every output layer (clamped and nudged phases). */
-  readonly targets?: LayerValues | undefined;
+  /** Values of every input layer, B×N each (flat row-major, or `ndarray`-like of shape [B, N]: read without a copy when contiguous). */
+  readonly inputs: LayerInputs;
+  /** Targets of every output layer (clamped and nudged phases), as `inputs`. */
+  readonly targets?: LayerInputs | undefined;
   /** Nudging strength (nudged phase; may be negative, not 0). */
   readonly beta?: number | undefined;
   /** Start from this state (for example the free fixed point); default: rest (zero). */
@@ -152,11 +153,13 @@ export class Settler {
   private readonly clamped: boolean[];
   private readonly targetBuf: FloatArray[];
   /** What the drive arrays were last computed from (null before the first phase or after a failed one). */
-  private driveFrom: { inputs: LayerValues; targets: LayerValues | undefined; clamped: boolean[] } | null = null;
+  private driveFrom: { inputs: LayerInputs; targets: LayerInputs | undefined; clamped: boolean[] } | null = null;
   /** Layers clamped in this phase and free in the previous one (used when the drive is reused). */
   private readonly newlyClamped: boolean[];
   /** Per layer: the unit as the fused rate step takes it, or null for units it does not know. */
   private readonly fusedUnit: ReturnType<typeof unitKernelArgs>[];
+  /** Size of each layer by name (to read ndarray-like values of shape [batch, size]). */
+  private readonly layerSizes: ReadonlyMap<string, number>;
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -174,6 +177,7 @@ export class Settler {
     this.clamped = net.layers.map(() => false);
     this.newlyClamped = net.layers.map(() => false);
     this.fusedUnit = net.layers.map((l) => unitKernelArgs(l.unit));
+    this.layerSizes = new Map(net.layers.map((l) => [l.name, l.size] as const));
   }
 
   /**
@@ -187,13 +191,16 @@ export class Settler {
   }
 
   /** Checks and copies per-layer values (inputs or targets) into `dest`; reports every problem at once. */
-  private loadValues(values: LayerValues | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[]): Issue[] {
-    const problems: Issue[] = [];
-    if (values === undefined || values === null || typeof values !== "object") {
-      return [issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, String(values))];
+  private loadValues(given: LayerInputs | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[]): Issue[] {
+    if (given === undefined || given === null || typeof given !== "object") {
+      return [issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, String(given))];
     }
+    // ndarray-like entries as flat row-major values (a view when contiguous)
+    const flat = flatLayerValues(given, this.layerSizes, this.batch, what);
+    const problems: Issue[] = flat.issues;
+    const values = flat.values;
     for (const layer of this.net.layers) {
-      if (layer.role !== role) continue;
+      if (layer.role !== role || flat.failed.has(layer.name)) continue;
       const v = values[layer.name];
       const want = this.batch * layer.size;
       if (v === undefined) {

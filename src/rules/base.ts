@@ -9,6 +9,7 @@ import type { Connection, Network } from "../network/network.js";
 import { Settler, Snapshot, type LayerValues } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";
 import type { RuleConfig } from "./config.js";
+import { flatBatch, type BatchInput } from "../interop/ndarray.js";
 
 /** A batch of patterns: values per input layer and targets per output layer, B×N flat. @category Rules */
 export interface Batch {
@@ -32,8 +33,9 @@ export interface LearningRule {
    * Computes the change for `batch`, multiplied by `scale` (default 1; a learning-rate schedule's factor),
    * and applies it (all-or-nothing; see applyDelta). Rules may add the change straight into the weights
    * when that is provably safe (no constraint applies and the change is bounded), skipping the change matrix.
+   * The batch's values may be `ndarray`-like (`[batch, units]`), read without a copy when contiguous.
    */
-  step(batch: Batch, scale?: number): void;
+  step(batch: BatchInput, scale?: number): void;
   /** The free-phase snapshot of the last batch, if the rule settles one. */
   readonly lastFree: Snapshot | null;
   /**
@@ -158,15 +160,15 @@ export abstract class SettlingRule implements LearningRule {
     // stateless by default
   }
 
-  step(batch: Batch, scale = 1): void {
+  step(batch: BatchInput, scale = 1): void {
     this.stepDelta ??= new ParameterDelta(this.net);
     computeAndApply(this, this.stepDelta, batch, scale);
   }
 }
 
 /** The plain step of a rule: its change for `batch` into `out`, times `scale`, applied under the constraints. */
-export function computeAndApply(rule: LearningRule, out: ParameterDelta, batch: Batch, scale: number): void {
-  rule.computeDelta(batch, out);
+export function computeAndApply(rule: LearningRule, out: ParameterDelta, batch: BatchInput, scale: number): void {
+  rule.computeDelta(flatBatch(rule.net, batch), out);
   if (scale !== 1) out.scale(scale);
   applyDelta(rule.net, out);
 }

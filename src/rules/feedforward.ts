@@ -11,6 +11,7 @@ import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta } from "./delta.js";
 import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import type { RuleConfig } from "./config.js";
+import type { BatchInput } from "../interop/ndarray.js";
 import type { Snapshot } from "../network/settle.js";
 
 /** Layers in an order where every forward connection goes from an earlier to a later layer. @category Rules */
@@ -232,7 +233,7 @@ export class FeedforwardRule implements LearningRule {
     return out;
   }
 
-  step(batch: Batch, scale = 1): void {
+  step(batch: BatchInput, scale = 1): void {
     this.delta ??= new ParameterDelta(this.net);
     computeAndApply(this, this.delta, batch, scale);
   }

@@ -10,6 +10,7 @@ import { ParameterDelta } from "./delta.js";
 import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "./feedforward.js";
 import type { RuleConfig } from "./config.js";
+import type { BatchInput } from "../interop/ndarray.js";
 
 type Cfg = Extract<RuleConfig, { rule: "predictive-coding" }>;
 
@@ -138,7 +139,7 @@ export class PredictiveCoding implements LearningRule {
     return out;
   }
 
-  step(batch: Batch, scale = 1): void {
+  step(batch: BatchInput, scale = 1): void {
     this.delta ??= new ParameterDelta(this.net);
     computeAndApply(this, this.delta, batch, scale);
   }

@@ -133,7 +133,7 @@ async function tfjsPeer(batches: number[], seconds: number): Promise<BenchFigure
     tf.env().set("IS_TEST", true);
     await tf.setBackend("cpu");
   } catch {
-    return batches.map((b) => ({ implementation: "tfjs-cpu", batch: b, workers: 1, usPerExample: null, note: "skipped: @tensorflow/tfjs-core and tfjs-backend-cpu not installed" }));
+    return batches.map((b) => ({ implementation: "tfjs-cpu", batch: b, workers: 1, usPerExample: null, note: "skipped: the optional peers are not installed (npm install @tensorflow/tfjs-core@4.22.0 @tensorflow/tfjs-backend-cpu@4.22.0)" }));
   }
   const out: BenchFigure[] = [];
   for (const B of batches) {

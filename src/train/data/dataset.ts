@@ -4,6 +4,7 @@
  * @module
  */
 import { describeValue, fail, requireInteger } from "../../errors/index.js";
+import { isNdArrayLike, rowMajorValues, type NdArrayLike } from "../../interop/ndarray.js";
 
 /**
  * A set of examples: `size` rows of `inputSize` inputs and `targetSize` targets.
@@ -119,7 +120,7 @@ function flattenRows(
 }
 
 /** Copies a flat array, checking its length against the width and finiteness. */
-function copyFlat(values: Float64Array, what: "inputs" | "targets", width: number | undefined): { flat: Float64Array; width: number } {
+function copyFlat(values: ArrayLike<number>, what: "inputs" | "targets", width: number | undefined): { flat: Float64Array; width: number } {
   if (width === undefined) fail("invalid_parameter", `${what}Size`, `an integer >= 1 (needed when ${what} is a flat Float64Array)`, width);
   if (values.length % width !== 0) {
     fail("shape_mismatch", what, `a length that is a multiple of ${what}Size (${width})`, `length ${values.length}`);
@@ -129,6 +130,13 @@ function copyFlat(values: Float64Array, what: "inputs" | "targets", width: numbe
     if (!Number.isFinite(v)) fail("invalid_parameter", `${what}[${Math.floor(i / width)}][${i % width}]`, "a finite number", v);
   }
   return { flat: Float64Array.from(values), width };
+}
+
+/** Copies an `ndarray`-like matrix (shape [n, width]; read in row-major order, one copy), checking it as `copyFlat`. */
+function copyMatrix(values: NdArrayLike, what: "inputs" | "targets", width: number | undefined): { flat: Float64Array; width: number } {
+  const w = values.shape[1];
+  const flat = rowMajorValues(values, what, values.shape.length === 2 && w !== undefined ? [[values.shape[0] as number, width ?? w]] : [[values.shape[0] ?? 0, width ?? 1]]);
+  return copyFlat(flat, what, width ?? w);
 }
 
 /** Checks a list of distinct non-empty names of the given length. */
@@ -179,16 +187,18 @@ export function checkLabels(
 
 /**
  * Builds a validated {@link Dataset} from rows (`number[][]`, one row per
- * example) or from flat row-major `Float64Array`s (then `inputSize` and
- * `targetSize` are required). The values are copied.
+ * example), from flat row-major `Float64Array`s (then `inputSize` and
+ * `targetSize` are required) or from `ndarray`-like matrices of shape
+ * `[examples, width]` (any strides; see {@link NdArrayLike}). The values are
+ * copied, once.
  *
  * Checks: inputs and targets have the same number of examples, every row has
  * the width of the first (or the given width), every value is a finite number,
  * labels (if any) fit the targets, names have the right lengths.
  * @category Data
  * @param name - Name of the set (non-empty).
- * @param inputs - Input rows or a flat n × inputSize array.
- * @param targets - Target rows or a flat n × targetSize array.
+ * @param inputs - Input rows, a flat n × inputSize array or an `ndarray`-like [n, inputSize] matrix.
+ * @param targets - Target rows, a flat n × targetSize array or an `ndarray`-like [n, targetSize] matrix.
  * @param options - Widths for flat arrays, labels, class and input names.
  * @returns A frozen data set.
  * @throws {@link EbbflowError} `invalid_parameter` naming the value, e.g. path `inputs[3][2]` (row 3, column 2, from 0)
@@ -203,15 +213,15 @@ export function checkLabels(
  */
 export function createDataset(
   name: string,
-  inputs: readonly (readonly number[])[] | Float64Array,
-  targets: readonly (readonly number[])[] | Float64Array,
+  inputs: readonly (readonly number[])[] | Float64Array | NdArrayLike,
+  targets: readonly (readonly number[])[] | Float64Array | NdArrayLike,
   options: DatasetOptions = {},
 ): Dataset {
   if (typeof name !== "string" || name === "") fail("invalid_parameter", "name", "a non-empty string", name);
   if (options.inputSize !== undefined) requireInteger("inputSize", options.inputSize, 1);
   if (options.targetSize !== undefined) requireInteger("targetSize", options.targetSize, 1);
-  const x = inputs instanceof Float64Array ? copyFlat(inputs, "inputs", options.inputSize) : flattenRows(inputs, "inputs", options.inputSize);
-  const y = targets instanceof Float64Array ? copyFlat(targets, "targets", options.targetSize) : flattenRows(targets, "targets", options.targetSize);
+  const x = isNdArrayLike(inputs) ? copyMatrix(inputs, "inputs", options.inputSize) : inputs instanceof Float64Array ? copyFlat(inputs, "inputs", options.inputSize) : flattenRows(inputs, "inputs", options.inputSize);
+  const y = isNdArrayLike(targets) ? copyMatrix(targets, "targets", options.targetSize) : targets instanceof Float64Array ? copyFlat(targets, "targets", options.targetSize) : flattenRows(targets, "targets", options.targetSize);
   const n = x.flat.length / x.width;
   const m = y.flat.length / y.width;
   if (n !== m) fail("shape_mismatch", "targets", `${n} examples (as many as inputs)`, `${m} examples`);
