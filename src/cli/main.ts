@@ -12,6 +12,7 @@ import { demoCommand } from "./demo.js";
 import { benchCommand } from "./bench.js";
 import { VERSION } from "./version.js";
 import { registerSweep } from "./sweep.js";
+import { registerExport } from "./export.js";
 
 const int = (name: string) => (v: string) => {
   const n = Number(v);
@@ -111,5 +112,6 @@ program
   .action(guard(benchCommand));
 
 registerSweep(program);
+registerExport(program);
 
 await program.parseAsync(process.argv);
