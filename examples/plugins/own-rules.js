@@ -4,10 +4,12 @@
  *
  * - `reward-hebbian`: a reward-gated Hebbian rule with weight normalisation. After the free phase the
  *   network's choice is scored: reward +1 when its most active output unit is the target's, −1 otherwise.
- *   Each synapse changes by ε (r − r̄) y x, the product of pre- and postsynaptic activity gated by how much
- *   better than usual the trial went (a three-factor rule in the sense of Frémaux & Gerstner 2016,
- *   Front. Neural Circuits 9:85; reward minus a running baseline as in Williams 1992, Machine Learning
- *   8:229), and every receiving unit's incoming weight vector is then rescaled to a fixed length
+ *   Each synapse changes by ε (r − r̄)(y − ȳ) x: presynaptic activity times the receiving unit's activity
+ *   relative to its layer's mean, gated by how much better than usual the trial went (a three-factor rule
+ *   in the sense of Frémaux & Gerstner 2016, Front. Neural Circuits 9:85; reward minus a running baseline
+ *   as in Williams 1992, Machine Learning 8:229; the centred postsynaptic term makes the chosen unit gain
+ *   on reward and lose on penalty, as in associative reward-penalty learning, Barto & Anandan 1985,
+ *   IEEE Trans. SMC 15:360), and every receiving unit's incoming weight vector is then rescaled to a fixed length
  *   (multiplicative normalisation, after von der Malsburg 1973, Kybernetik 14:85). The baseline r̄ is a
  *   running average of the reward over batches: the rule keeps state, saved in checkpoints.
  * - `blended-contrast`: declared by its contrast form alone, a blend λ·CHL + (1 − λ)·GeneRec (basic) of
@@ -87,10 +89,23 @@ class RewardHebbian extends SettlingRule {
       const alpha = connectionRate(this.cfg, c) / B;
       for (let b = 0; b < B; b++) {
         const gate = alpha * (r[b] - baseline);
+        let mean = 0;
+        for (let i = 0; i < n; i++) mean += y[b * n + i] / n;
         for (let i = 0; i < n; i++) {
-          const gi = gate * y[b * n + i];
+          const gi = gate * (y[b * n + i] - mean);
           for (let j = 0; j < m; j++) w[i * m + j] += gi * x[b * m + j];
         }
+      }
+    }
+    // biases alike, with a sending activity of 1
+    for (const l of net.layers) {
+      if (l.role === "input") continue;
+      const y = free.activity[l.index];
+      const d = out.biases[l.index];
+      for (let b = 0; b < B; b++) {
+        let mean = 0;
+        for (let i = 0; i < l.size; i++) mean += y[b * l.size + i] / l.size;
+        for (let i = 0; i < l.size; i++) d[i] += (this.cfg.rate / B) * (r[b] - baseline) * (y[b * l.size + i] - mean);
       }
     }
     // the baseline follows the batch's mean reward (the first batch sets it)
@@ -138,7 +153,7 @@ class RewardHebbian extends SettlingRule {
 /** The reward-gated Hebbian rule. */
 export const rewardHebbian = defineRule({
   name: "reward-hebbian",
-  summary: "reward-gated Hebbian rule, ε (r − r̄) y xᵀ with rows rescaled to a fixed length (three-factor rule; Frémaux & Gerstner 2016)",
+  summary: "reward-gated Hebbian rule, ε (r − r̄)(y − ȳ) xᵀ with rows rescaled to a fixed length (three-factor rule; Frémaux & Gerstner 2016)",
   schema: rewardSchema,
   phases: () => ["free"],
   label: (c) => c.rule,

@@ -63,8 +63,16 @@ export async function loadPlugins(specifiers: readonly string[], options: { base
       problems.push(issueText("io_error", at, `an importable module (${href})`, (e as Error)?.message ?? String(e)));
       continue;
     }
+    let additions: RegistryAdditions;
     try {
-      registry = registry.with({ ...additionsOf(mod, at), plugins: [href] });
+      additions = additionsOf(mod, at);
+    } catch (e) {
+      if (!(e instanceof EbbflowError)) throw e;
+      problems.push(...e.issues);
+      continue;
+    }
+    try {
+      registry = registry.with({ ...additions, plugins: [href] });
     } catch (e) {
       if (!(e instanceof EbbflowError)) throw e;
       problems.push(...e.issues.map((x) => ({ ...x, path: `${at} (${spec}): ${x.path}` })));
