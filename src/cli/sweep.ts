@@ -116,7 +116,7 @@ async function runCommand(file: string, o: RunOptions): Promise<void> {
 async function taskCommand(dir: string, o: { index: number; json?: boolean }): Promise<void> {
   const plan = await readSweepPlan(dir);
   const run = runAt(plan, o.index);
-  const outcome = await executeRun({ dir: path.resolve(dir), run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery });
+  const outcome = await executeRun({ dir: path.resolve(dir), run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery, plugins: plan.plugins });
   if (o.json) out(JSON.stringify(outcome) + "\n");
   else out(`run #${run.index} ${run.id} (${run.label}, seed ${run.seed}): ${outcome.status}${outcome.status === "failed" ? "" : `, ${outcome.epochs} epochs${outcome.resumedFrom > 0 ? `, resumed from epoch ${outcome.resumedFrom}` : ""}`}\n`);
   if (outcome.status === "failed") {

@@ -109,17 +109,21 @@ describe("ndarray-like inputs", () => {
     );
   });
 
-  it("rule.step takes ndarray batches: the same update as with flat arrays, bit for bit", () => {
-    const a = strip(3);
-    const b = strip(3);
-    const ra = createRule(a, { rule: "chl", rate: 0.2 });
-    const rb = createRule(b, { rule: "chl", rate: 0.2 });
-    for (let epoch = 0; epoch < 5; epoch++) {
-      ra.step({ inputs: { touch: XOR_IN }, targets: { texture: XOR_OUT } });
-      rb.step({ inputs: { touch: ndarray(Float32Array.from(XOR_IN), [4, 2]) }, targets: { texture: ndView(Float64Array.from(XOR_OUT), [4, 1]) } });
+  it("rule.step takes ndarray batches: the same update as with flat arrays, bit for bit (CHL, GeneRec, EqProp, backprop)", () => {
+    const configs = [{ rule: "chl", rate: 0.2 }, { rule: "generec", rate: 0.2 }, { rule: "eqprop", beta: 0.1, rate: 0.5 }, { rule: "backprop", rate: 0.2 }] as const;
+    for (const config of configs) {
+      const a = strip(3);
+      const b = strip(3);
+      const ra = createRule(a, config);
+      const rb = createRule(b, config);
+      for (let epoch = 0; epoch < 5; epoch++) {
+        ra.step({ inputs: { touch: XOR_IN }, targets: { texture: XOR_OUT } });
+        rb.step({ inputs: { touch: ndarray(Float32Array.from(XOR_IN), [4, 2]) }, targets: { texture: ndView(Float64Array.from(XOR_OUT), [4, 1]) } });
+      }
+      for (let k = 0; k < a.connections.length; k++) expect(Array.from(b.connections[k]!.weights), config.rule).toEqual(Array.from(a.connections[k]!.weights));
+      expect(Array.from(b.layer("hidden").bias), config.rule).toEqual(Array.from(a.layer("hidden").bias));
+      expect(Array.from(a.connections[0]!.weights)).not.toEqual(Array.from(strip(3).connections[0]!.weights)); // it learned
     }
-    for (let k = 0; k < a.connections.length; k++) expect(Array.from(b.connections[k]!.weights)).toEqual(Array.from(a.connections[k]!.weights));
-    expect(Array.from(b.layer("hidden").bias)).toEqual(Array.from(a.layer("hidden").bias));
   });
 
   it("createDataset takes [examples, width] ndarrays (any strides) and equals the row-list form", () => {
