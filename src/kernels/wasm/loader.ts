@@ -1,9 +1,11 @@
 /**
  * Loading the WebAssembly kernels and choosing a backend.
  *
- * The module bytes are embedded in the package (base64 in a generated
- * module), so loading needs neither the file system nor the network and works
- * the same in Node, in browsers and in workers.
+ * The module bytes are embedded in the package (base64, one generated module
+ * per build), so loading needs neither the file system nor a fetch of a
+ * `.wasm` file and works the same in Node, in browsers and in workers. The
+ * asynchronous loaders import only the build they use (in a bundle, a chunk
+ * of its own, fetched on demand); the synchronous loaders refer to both.
  *
  * Synchronous versus asynchronous compilation: Chrome refuses synchronous
  * compilation (`new WebAssembly.Module`) of modules larger than 4 KB on the
@@ -18,9 +20,10 @@ import { buildValidates, compileAsync, compileSync, wasmGlobal, type WasmBuild }
 import { createWasmBackend, type WasmBackendOptions, type WasmKernelBackend } from "./wasm-backend.js";
 
 /**
- * Whether this engine runs the 128-bit SIMD build of the kernels (checked by
- * validating the actual module bytes, once).
- * @returns `true` when `WebAssembly` exists and validates the SIMD module.
+ * Whether this engine runs the 128-bit SIMD build of the kernels (checked
+ * once, by validating a probe module with the build's features: 128-bit SIMD
+ * and shared memory).
+ * @returns `true` when `WebAssembly` exists and validates the probe.
  * @category Kernels
  */
 export function wasmSimdSupported(): boolean {
@@ -31,7 +34,7 @@ export function wasmSimdSupported(): boolean {
  * Whether this engine runs the relaxed-SIMD build (fused multiply-adds).
  * Node 20 needs the flag `--experimental-wasm-relaxed-simd`; Node 22 and
  * current Chrome and Firefox enable relaxed SIMD by default.
- * @returns `true` when the relaxed-SIMD module validates.
+ * @returns `true` when the relaxed-SIMD probe module (and the SIMD one) validates.
  * @category Kernels
  */
 export function wasmRelaxedSimdSupported(): boolean {
@@ -76,7 +79,13 @@ function chooseBuild(options: WasmBackendOptions): WasmBuild {
 export async function loadWasmKernels(options: WasmBackendOptions = {}): Promise<WasmKernelBackend> {
   checkOptions(options);
   const build = chooseBuild(options);
-  return createWasmBackend(await compileAsync(build), build, options);
+  let module;
+  try {
+    module = await compileAsync(build);
+  } catch (e) {
+    return fail("unsupported", "backend", `an engine that compiles the ${build} build of the kernels`, String(e));
+  }
+  return createWasmBackend(module, build, options);
 }
 
 /**

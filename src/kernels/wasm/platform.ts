@@ -3,9 +3,18 @@
  * locally: the project compiles against lib ES2022 without the DOM, which
  * declares no `WebAssembly` namespace. The global is looked up at call time,
  * so importing this module never fails where WebAssembly is absent.
+ *
+ * Which build an engine runs is decided by two probe modules of a few dozen
+ * bytes (below), not by the builds' own bytes, so the decision needs neither
+ * build. The builds live in two generated modules: the asynchronous loaders
+ * import the chosen one with a dynamic `import()` (a bundler makes each a
+ * chunk of its own, and a page fetches only the build it runs); the
+ * synchronous loaders (Node, workers) refer to both statically.
  * @module
  */
-import { SIMD_WASM_BASE64, RELAXED_WASM_BASE64 } from "./generated/bytes.js";
+import { fail } from "../../errors/index.js";
+import { SIMD_WASM_BASE64 } from "./generated/simd.js";
+import { RELAXED_WASM_BASE64 } from "./generated/relaxed.js";
 
 /** A WebAssembly.Memory as far as the arena uses it. */
 export interface WasmMemory {
@@ -68,6 +77,17 @@ export function decodeBase64(text: string): Uint8Array {
 /** Which build of the kernels: plain 128-bit SIMD, or SIMD with relaxed-SIMD multiply-adds. */
 export type WasmBuild = "simd" | "relaxed";
 
+/**
+ * Probe modules (WebAssembly binary format, Core Specification section 5): the features each build needs.
+ * `simd`: imports a shared memory (`(import "env" "memory" (memory 1 1 shared))`, threads) and returns
+ * `i32x4.splat (i32.const 0)` (128-bit SIMD, opcode 0xFD 17). `relaxed`: returns
+ * `f32x4.relaxed_madd` of its three v128 parameters (relaxed SIMD, opcode 0xFD 0x105).
+ */
+const PROBES: Record<WasmBuild, readonly number[]> = {
+  simd: [0x00, 0x61, 0x73, 0x6d, 1, 0, 0, 0, 1, 5, 1, 0x60, 0, 1, 0x7b, 2, 16, 1, 3, 0x65, 0x6e, 0x76, 6, 0x6d, 0x65, 0x6d, 0x6f, 0x72, 0x79, 2, 3, 1, 1, 3, 2, 1, 0, 10, 8, 1, 6, 0, 0x41, 0, 0xfd, 0x11, 0x0b],
+  relaxed: [0x00, 0x61, 0x73, 0x6d, 1, 0, 0, 0, 1, 8, 1, 0x60, 3, 0x7b, 0x7b, 0x7b, 1, 0x7b, 3, 2, 1, 0, 10, 13, 1, 11, 0, 0x20, 0, 0x20, 1, 0x20, 2, 0xfd, 0x85, 2, 0x0b],
+};
+
 const bytesCache: Partial<Record<WasmBuild, Uint8Array>> = {};
 
 /** Validation results and compiled modules, per WebAssembly namespace (so a replaced global is asked afresh). */
@@ -86,7 +106,7 @@ function engineCache(wa: WasmNamespace): EngineCache {
   return c;
 }
 
-/** The module bytes of a build (decoded once). */
+/** The module bytes of a build (decoded once), from the statically imported generated modules. */
 export function moduleBytes(build: WasmBuild): Uint8Array {
   let b = bytesCache[build];
   if (b === undefined) {
@@ -96,7 +116,20 @@ export function moduleBytes(build: WasmBuild): Uint8Array {
   return b;
 }
 
-/** Whether this engine validates the module of a build (checked once per build and engine). */
+/** The module bytes of a build, imported on demand (a separate chunk in a bundle; decoded once). */
+export async function loadModuleBytes(build: WasmBuild): Promise<Uint8Array> {
+  let b = bytesCache[build];
+  if (b === undefined) {
+    const text = build === "simd" ? (await import("./generated/simd.js")).SIMD_WASM_BASE64 : (await import("./generated/relaxed.js")).RELAXED_WASM_BASE64;
+    b = bytesCache[build] ??= decodeBase64(text);
+  }
+  return b;
+}
+
+/**
+ * Whether this engine has the features of a build (checked once per build and engine, with the
+ * build's probe module; the relaxed build also needs what the SIMD build needs).
+ */
 export function buildValidates(build: WasmBuild): boolean {
   const wa = wasmGlobal();
   if (wa === undefined) return false;
@@ -104,7 +137,7 @@ export function buildValidates(build: WasmBuild): boolean {
   let v = cache[build];
   if (v === undefined) {
     try {
-      v = wa.validate(moduleBytes(build));
+      v = wa.validate(Uint8Array.from(PROBES[build])) && (build === "simd" || buildValidates("simd"));
     } catch {
       v = false;
     }
@@ -125,13 +158,13 @@ export function compileSync(build: WasmBuild): WasmModule {
   return m;
 }
 
-/** Compiles a build asynchronously (cached). */
+/** Compiles a build asynchronously (cached), importing its bytes on demand. */
 export async function compileAsync(build: WasmBuild): Promise<WasmModule> {
   const wa = wasmGlobal()!;
   const cache = engineCache(wa).modules;
   let m = cache[build];
   if (m === undefined) {
-    m = await wa.compile(moduleBytes(build));
+    m = await wa.compile(await loadModuleBytes(build));
     cache[build] = m;
   }
   return m;
@@ -143,9 +176,25 @@ export function instantiate(module: WasmModule, memory: WasmMemory): Record<stri
   return new wa.Instance(module, { env: { memory } }).exports;
 }
 
-/** Creates a memory of `pages` pages (optionally bounded). */
+/**
+ * Creates a shared memory of `pages` pages (optionally bounded).
+ * @throws {@link EbbflowError} `unsupported` (path `memory`) when the engine refuses shared memory (some
+ *   engines do on pages that are not cross-origin isolated) or the size.
+ */
 export function createMemory(pages: number, maximumPages: number | undefined): WasmMemory {
   const wa = wasmGlobal()!;
   // shared memory: growth keeps earlier views valid (the kernels' module declares its memory shared)
-  return new wa.Memory({ initial: pages, maximum: maximumPages ?? MAX_PAGES, shared: true });
+  try {
+    return new wa.Memory({ initial: pages, maximum: maximumPages ?? MAX_PAGES, shared: true });
+  } catch (e) {
+    return fail("unsupported", "memory", "shared WebAssembly memory (in browsers, some engines grant it only to cross-origin isolated pages: serve with COOP/COEP headers)", String(e));
+  }
+}
+
+/**
+ * Whether a buffer is a SharedArrayBuffer, judged by its built-in tag: on a page that is not cross-origin
+ * isolated the `SharedArrayBuffer` global is hidden although a shared WebAssembly memory's buffer is one.
+ */
+export function isSharedBuffer(buffer: unknown): boolean {
+  return Object.prototype.toString.call(buffer) === "[object SharedArrayBuffer]";
 }

@@ -33,7 +33,7 @@ import type { Dtype, FloatArray } from "../../types/index.js";
 import * as ts from "../index.js";
 import type { ReadonlyFloatArray } from "../types.js";
 import { checkAllocation, type KernelBackend } from "./backend.js";
-import { MAX_PAGES, PAGE_BYTES, createMemory, instantiate, type WasmBuild, type WasmMemory, type WasmModule } from "./platform.js";
+import { MAX_PAGES, PAGE_BYTES, createMemory, instantiate, isSharedBuffer, type WasmBuild, type WasmMemory, type WasmModule } from "./platform.js";
 import { createRateStep, createUnitFill } from "./units.js";
 
 /** The exports of assembly/index.ts (byte offsets and element counts). */
@@ -241,7 +241,7 @@ const TAG = 0x65626231;
 function attachedMemory(handle: WasmSharedMemory): WasmMemory {
   const m = (handle as { memory?: unknown } | null | undefined)?.memory as WasmMemory | undefined;
   const b: unknown = m !== null && typeof m === "object" ? (m as { buffer?: unknown }).buffer : undefined;
-  if (typeof SharedArrayBuffer === "undefined" || !(b instanceof SharedArrayBuffer) || b.byteLength < GUARD_BYTES || new Uint32Array(b, 0, 1)[0] !== TAG) {
+  if (!isSharedBuffer(b) || (b as ArrayBufferLike).byteLength < GUARD_BYTES || new Uint32Array(b as ArrayBufferLike, 0, 1)[0] !== TAG) {
     fail("invalid_parameter", "attach", "the handle returned by share() of a WebAssembly kernel backend", handle);
   }
   return m as WasmMemory;
@@ -320,7 +320,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
   function adopt(): void {
     const cur = memory.buffer;
     if (cur.byteLength <= buf.byteLength) return;
-    if (typeof SharedArrayBuffer !== "undefined" && buf instanceof SharedArrayBuffer) earlier.add(buf);
+    if (isSharedBuffer(buf)) earlier.add(buf); // by tag: the SharedArrayBuffer global is hidden on pages without cross-origin isolation
     buf = cur;
     heap32 = new Float32Array(buf);
     heap64 = new Float64Array(buf);
