@@ -50,7 +50,7 @@ describe("the kernels' WebAssembly platform", () => {
   it('a refused shared memory is the documented unsupported error for "wasm", and "auto" falls back to TypeScript', async () => {
     const refusing = Object.create(realWebAssembly) as Record<string, unknown>;
     refusing.validate = (b: Uint8Array) => realWebAssembly.validate(b);
-    refusing.Memory = function Memory(d: { shared?: boolean }) {
+    refusing.Memory = function Memory(d: { initial: number; maximum?: number; shared?: boolean }) {
       if (d.shared === true) throw new TypeError("WebAssembly.Memory(): shared memory is not allowed here");
       return new realWebAssembly.Memory(d);
     };

@@ -9,12 +9,15 @@
  * build. The builds live in two generated modules: the asynchronous loaders
  * import the chosen one with a dynamic `import()` (a bundler makes each a
  * chunk of its own, and a page fetches only the build it runs); the
- * synchronous loaders (Node, workers) refer to both statically.
+ * synchronous loaders use the builds `#kernel-builds` gives — both in Node
+ * (`static-builds.ts`), none in a browser bundle (`no-static-builds.ts`, by
+ * the "browser" condition of package.json "imports") — and any build an
+ * asynchronous load has brought in.
  * @module
  */
 import { fail } from "../../errors/index.js";
-import { SIMD_WASM_BASE64 } from "./generated/simd.js";
-import { RELAXED_WASM_BASE64 } from "./generated/relaxed.js";
+// both builds in Node and workers; none in browser bundles (package.json "imports", "browser" condition)
+import { STATIC_BUILDS } from "#kernel-builds";
 
 /** A WebAssembly.Memory as far as the arena uses it. */
 export interface WasmMemory {
@@ -106,12 +109,19 @@ function engineCache(wa: WasmNamespace): EngineCache {
   return c;
 }
 
-/** The module bytes of a build (decoded once), from the statically imported generated modules. */
+/**
+ * The module bytes of a build (decoded once), without waiting: from the builds `#kernel-builds` gives, or
+ * one an asynchronous load has brought in.
+ * @throws {@link EbbflowError} `unsupported` (path `backend`) in a browser bundle before any asynchronous load of the build.
+ */
 export function moduleBytes(build: WasmBuild): Uint8Array {
   let b = bytesCache[build];
   if (b === undefined) {
-    b = decodeBase64(build === "simd" ? SIMD_WASM_BASE64 : RELAXED_WASM_BASE64);
-    bytesCache[build] = b;
+    const text = STATIC_BUILDS[build];
+    if (text === undefined) {
+      return fail("unsupported", "backend", `the ${build} build of the kernels loaded (in a browser bundle, load it once with await loadWasmKernels() or selectBackendAsync() before the synchronous loaders)`, "not loaded yet");
+    }
+    b = bytesCache[build] = decodeBase64(text);
   }
   return b;
 }
