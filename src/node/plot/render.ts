@@ -9,7 +9,6 @@
  * so that ebbflow's declaration files never refer to vega-lite's.
  * @module
  */
-import type { TopLevelSpec } from "vega-lite";
 import { fail, requireInteger } from "../../errors/index.js";
 import { writeFileAtomic } from "../files.js";
 
@@ -23,9 +22,9 @@ export type ChartSpec = { readonly [key: string]: unknown };
 /** The install command of the plotting packages (optional peer dependencies; these versions run on Node 20 and later). */
 export const PLOT_INSTALL = "npm install vega@6.4.0 vega-lite@6.4.1";
 
-/** The two plotting modules, as far as rendering uses them. */
-interface PlotStack {
-  compile(spec: TopLevelSpec): { spec: unknown };
+/** The two plotting modules, as far as rendering uses them (typed here, so that no declaration refers to theirs). */
+export interface PlotStack {
+  compile(spec: ChartSpec): { spec: unknown };
   View: new (runtime: unknown, options: { renderer: "none" }) => { toSVG(): Promise<string>; finalize(): void };
   parse(spec: never): unknown;
 }
@@ -72,7 +71,7 @@ export const VEGA_LITE_SCHEMA = "https://vega.github.io/schema/vega-lite/v6.json
  */
 export async function renderSvg(spec: ChartSpec): Promise<string> {
   const { compile, View, parse } = await loadPlotStack();
-  const compiled = compile(spec as unknown as TopLevelSpec);
+  const compiled = compile(spec);
   const view = new View(parse(compiled.spec as never), { renderer: "none" });
   try {
     return await view.toSVG();
