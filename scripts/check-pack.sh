@@ -89,7 +89,11 @@ const core = await import("ebbflow"); const n = await import("ebbflow/node");
 if (typeof core.buildNetwork !== "function" || typeof n.irisDataset !== "function") process.exit(1);
 require.resolve("ebbflow/schema/network.schema.json"); require.resolve("ebbflow/schema/sweep.schema.json"); require.resolve("ebbflow/data/iris.csv");
 if (require("ebbflow/package.json").name !== "ebbflow") process.exit(1);
-if ((await n.irisDataset()).size !== 150) process.exit(1);' || fail "imports and exports of the installed package"
+if ((await n.irisDataset()).size !== 150) process.exit(1);
+// relaxed SIMD is on by default from Node 22 (V8 12): the relaxed build must be the one chosen there
+const want = Number(process.versions.node.split(".")[0]) >= 22 ? "wasm-relaxed-simd" : "wasm-simd";
+const got = [core.selectBackend("auto").name, (await core.selectBackendAsync("auto")).name];
+if (got.some((g) => g !== want)) { console.error(`kernels ${got} on Node ${process.version}, expected ${want}`); process.exit(1); }' || fail "imports, exports and kernels of the installed package"
     cp "$work/embedding.mjs" embedding.mjs
     node embedding.mjs >embedding.out || fail "README embedding example"
 

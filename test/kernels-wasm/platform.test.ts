@@ -5,7 +5,7 @@
  */
 import { afterEach, describe, expect, it } from "vitest";
 import { EbbflowError } from "../../src/errors/index.js";
-import { loadWasmKernels, loadWasmKernelsSync, selectBackendAsync, typescriptBackend, wasmRelaxedSimdSupported, wasmSimdSupported } from "../../src/kernels/wasm/index.js";
+import { loadWasmKernels, loadWasmKernelsSync, selectBackend, selectBackendAsync, typescriptBackend, wasmRelaxedSimdSupported, wasmSimdSupported } from "../../src/kernels/wasm/index.js";
 import { isSharedBuffer, loadModuleBytes, moduleBytes } from "../../src/kernels/wasm/platform.js";
 
 type WasmGlobal = { validate(b: Uint8Array): boolean; Memory: new (d: { initial: number; maximum?: number; shared?: boolean }) => { buffer: ArrayBuffer } };
@@ -27,7 +27,10 @@ describe("the kernels' WebAssembly platform", () => {
     expect(wasmRelaxedSimdSupported()).toBe(realWebAssembly.validate(moduleBytes("relaxed")));
     // Node 20 validates relaxed SIMD only with --experimental-wasm-relaxed-simd; V8 12 (Node 22 and later) by default
     const major = Number(process.versions.node.split(".")[0]);
-    if (major >= 22) expect(wasmRelaxedSimdSupported()).toBe(true);
+    if (major >= 22) {
+      expect(wasmRelaxedSimdSupported()).toBe(true);
+      expect([selectBackend("auto").name, (await selectBackendAsync("auto")).name]).toEqual(["wasm-relaxed-simd", "wasm-relaxed-simd"]);
+    }
     for (const build of ["simd", "relaxed"] as const) expect(await loadModuleBytes(build)).toEqual(moduleBytes(build));
   });
 
