@@ -15,9 +15,9 @@ export {
 export {
   slowTraceThreshold,
   bcmThreshold,
-  mixedThreshold,
+  blendedThreshold,
   type SlidingThreshold,
-  type MixedThreshold,
-  type MixedThresholdOptions,
-  type MixedThresholdState,
+  type BlendedThreshold,
+  type BlendedThresholdOptions,
+  type BlendedThresholdState,
 } from "./thresholds.js";

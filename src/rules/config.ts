@@ -14,6 +14,8 @@ const common = { rate, rates };
 const nonZero = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v !== 0, { error: what });
 const positive = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
 const nonNegative = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v >= 0, { error: what });
+/** A key that was renamed: refused with a message naming its new spelling (it is never read). */
+const renamed = (was: string, now: string) => z.never({ error: `the key ${now} (${was} was renamed ${now})` }).optional();
 
 /** Schema of every rule config. @category Rules */
 export const ruleSchema = z.discriminatedUnion(
@@ -38,8 +40,12 @@ export const ruleSchema = z.discriminatedUnion(
       .object({
         rule: z.literal("calcium"),
         trough: z.number().refine((v) => v > 0 && v < 1, { error: "a trough position in the open interval (0, 1)" }).default(0.05),
-        threshold: z.enum(["error", "bcm", "mix"], { error: "one of error, bcm, mix" }).default("error"),
-        mix: z.number().refine((v) => v >= 0 && v <= 1, { error: "a mix weight in [0, 1]" }).default(0.9),
+        threshold: z
+          .enum(["error", "bcm", "blend"], { error: (i) => (i.input === "mix" ? 'one of error, bcm, blend ("mix" was renamed "blend")' : "one of error, bcm, blend") })
+          .default("error"),
+        // share of the error-driven threshold in a blend, in [0, 1]
+        errorShare: z.number().refine((v) => v >= 0 && v <= 1, { error: "an error-driven share in [0, 1]" }).default(0.9),
+        mix: renamed("mix", "errorShare"),
         timing: z.enum(["phases", "continuous"], { error: "one of phases, continuous" }).default("phases"),
         fastTau: positive("a time constant > 0 (settling steps)").default(1),
         slowTau: positive("a time constant > 0 (settling steps)").default(20),

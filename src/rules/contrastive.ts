@@ -203,7 +203,7 @@ export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus
  *   region the change is outcome minus expectation (CHL);
  * - `bcm`: the receiving unit's long-term average activity times the sending activity
  *   (self-organising, after Bienenstock, Cooper & Munro 1982, J. Neurosci. 2:32);
- * - `mix`: `mix·θ_error + (1 − mix)·θ_bcm`.
+ * - `blend`: `errorShare·θ_error + (1 − errorShare)·θ_bcm`.
  *
  * With `timing: "phases"` the fast coactivity is the clamped-phase product and the slower one the
  * free-phase product. With `timing: "continuous"` per-unit traces are updated on every settling step of
@@ -319,7 +319,7 @@ export class SlidingThresholdRule extends SettlingRule {
       for (const l of net.layers) meanRows(this.averages[l.index] as FloatArray, slow[l.index] as FloatArray, B, l.size, 1);
       this.averagesStarted = true;
     }
-    const wErr = cfg.threshold === "error" ? 1 : cfg.threshold === "bcm" ? 0 : cfg.mix;
+    const wErr = cfg.threshold === "error" ? 1 : cfg.threshold === "bcm" ? 0 : cfg.errorShare;
     for (const c of net.connections) {
       if (c.spec.frozen) continue;
       const n = net.layers[c.to]!.size;

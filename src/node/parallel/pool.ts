@@ -79,7 +79,7 @@ function checkRule(rule: RuleConfig): void {
     rule.rule === "bcm" ||
     (rule.rule === "calcium" && rule.threshold !== "error") ||
     (rule.rule === "eqprop" && rule.mode === "random-sign");
-  if (stateful) fail("unsupported", "rule", "a rule without state that changes per batch for multi-core training (not bcm, calcium with a bcm or mix threshold, or eqprop random-sign)", rule.rule);
+  if (stateful) fail("unsupported", "rule", "a rule without state that changes per batch for multi-core training (not bcm, calcium with a bcm or blend threshold, or eqprop random-sign)", rule.rule);
 }
 
 /** The declaration without explicit weight values: the workers take the parameters from shared memory. */
