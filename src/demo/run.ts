@@ -14,7 +14,7 @@ import { touchStripDataset } from "./touchStrip.js";
 export interface DemoRule {
   readonly label: string;
   readonly config: RuleConfigInput;
-  /** Target activity for "off" (the calcium curve cannot depress from an outcome of exactly 0). */
+  /** Target activity for "off" (the calcium curve cannot depress when the clamped activity is exactly 0). */
   readonly low: number;
 }
 

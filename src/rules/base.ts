@@ -87,7 +87,7 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 
 /**
  * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
- * the outcome-minus-expectation coactivity of a connection. When the sending layer is clamped in both
+ * the coactivity of state A minus that of state B (e.g. clamped minus free) of a connection. When the sending layer is clamped in both
  * phases (`samePre`: preA and preB hold the same values), it is computed as one product
  * `alpha · (postA − postB)ᵀ pre`, using `scratch` (B×n, for example the settler's phase scratch) for the difference.
  */

@@ -1,6 +1,6 @@
 /**
- * Phase-difference rules on two settled states, the expectation (free) and
- * the outcome (clamped): CHL, GeneRec and its variants, Xie–Seung scaled CHL,
+ * Phase-difference rules on two settled states, the prediction (free) and
+ * the target-driven state (clamped): CHL, GeneRec and its variants, Xie–Seung scaled CHL,
  * and the sliding-threshold calcium rule.
  * @module
  */
@@ -198,9 +198,10 @@ export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus
 
 /**
  * The sliding-threshold calcium rule: `ΔW_ij = ε · curve(fast coactivity, θ_ij)` with the
- * piecewise-linear calcium curve (after Shouval, Bear & Cooper 2002, PNAS 99:10831) and θ from
- * - `error`: a slower trace of the same coactivity (the expectation), so in the curve's linear
- *   region the change is outcome minus expectation (CHL);
+ * piecewise-linear form of the calcium-control curve (see {@link calciumCurve} for its sources:
+ * Lisman 1989; Artola, Bröcher & Singer 1990; Shouval, Bear & Cooper 2002) and θ from
+ * - `error`: a slower trace of the same coactivity (led by the free state, the prediction), so in
+ *   the curve's linear region the change is clamped minus free (CHL);
  * - `bcm`: the receiving unit's long-term average activity times the sending activity
  *   (self-organising, after Bienenstock, Cooper & Munro 1982, J. Neurosci. 2:32);
  * - `blend`: `errorShare·θ_error + (1 − errorShare)·θ_bcm`.
@@ -315,7 +316,7 @@ export class SlidingThresholdRule extends SettlingRule {
     const { co, th, ch } = buf;
     const useAvg = cfg.threshold !== "error";
     if (useAvg && !this.averagesStarted) {
-      // start the long-term averages at the first batch's expectation
+      // start the long-term averages at the first batch's slow (free-state) activity
       for (const l of net.layers) meanRows(this.averages[l.index] as FloatArray, slow[l.index] as FloatArray, B, l.size, 1);
       this.averagesStarted = true;
     }

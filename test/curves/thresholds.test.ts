@@ -24,7 +24,7 @@ describe("slowTraceThreshold (error-driven)", () => {
     );
   });
 
-  it("turns the calcium curve into 'outcome minus expectation': curve(fast, slow) = fast - slow in the linear region", () => {
+  it("turns the calcium curve into 'clamped minus free': curve(fast, slow) = fast - slow in the linear region", () => {
     // design contract of calciumCurve + methods.md item 13 traces
     check(
       fc.property(rowsArb(30, 4), fc.double({ min: 0.05, max: 0.95, noNaN: true }), (rows, trough) => {
