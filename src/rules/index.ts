@@ -12,6 +12,7 @@ import { BcmRule } from "./bcm.js";
 import { PredictiveCoding } from "./predictive.js";
 
 export * from "./config.js";
+export * from "./names.js";
 export * from "./delta.js";
 export * from "./base.js";
 export { ContrastiveHebbian, GeneRec, SlidingThresholdRule, generecFromSnapshots, layerDepths } from "./contrastive.js";

@@ -6,6 +6,7 @@
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { createRule } from "../rules/index.js";
+import { ruleDisplayName } from "../rules/names.js";
 import { ParameterDelta } from "../rules/delta.js";
 import { connectionRate, type Batch } from "../rules/base.js";
 import type { RuleConfigInput } from "../rules/config.js";
@@ -32,6 +33,7 @@ export interface AgreementRow {
 
 /** A gradient-agreement report. @category Verification */
 export interface AgreementReport {
+  /** The rule's display name ({@link ruleDisplayName}: id, with variant or mode). */
   readonly rule: string;
   readonly reference: GradientReference;
   readonly rows: readonly AgreementRow[];
@@ -93,7 +95,7 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput, batch: Ba
       gAll.push(g[k] as number);
     }
   });
-  return { rule: r.config.rule + ("variant" in r.config ? ` (${r.config.variant})` : "mode" in r.config ? ` (${r.config.mode})` : ""), reference, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
+  return { rule: ruleDisplayName(r.config), reference, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
 }
 
 /** Renders a report as a fixed-width text table. @category Verification */
