@@ -1,42 +1,29 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
-import { buildNetwork, createRule, parseExperiment, parseRule, ruleJsonSchema, EbbflowError, ParameterDelta, type RuleConfigInput } from "../../src/index.js";
+import { buildNetwork, createRule, parseExperiment, parseRule, ruleJsonSchema, ParameterDelta, type RuleConfigInput } from "../../src/index.js";
 import { check } from "../helpers/property.js";
-
-function errorOf(f: () => unknown): EbbflowError {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof EbbflowError) return e;
-    throw e;
-  }
-  throw new Error("expected an EbbflowError");
-}
+import { expectEbbflowError } from "../traces/expect-error.js";
 
 describe("calcium rule config: renamed options", () => {
   it("the old weight key `mix` is refused with invalid_config, and the message names errorShare", () => {
-    const e = errorOf(() => parseRule({ rule: "calcium", rate: 1, threshold: "blend", mix: 0.9 }));
-    expect(e.code).toBe("invalid_config");
-    expect(e.path).toBe("rule.mix");
+    const e = expectEbbflowError(() => parseRule({ rule: "calcium", rate: 1, threshold: "blend", mix: 0.9 }), "invalid_config", "rule.mix");
     expect(e.message).toContain("errorShare");
     expect(e.received).toBe("0.9");
   });
 
   it('the old threshold value "mix" is refused with invalid_config, and the message names "blend"', () => {
-    const e = errorOf(() => parseRule({ rule: "calcium", rate: 1, threshold: "mix" }));
-    expect(e.code).toBe("invalid_config");
-    expect(e.path).toBe("rule.threshold");
+    const e = expectEbbflowError(() => parseRule({ rule: "calcium", rate: 1, threshold: "mix" }), "invalid_config", "rule.threshold");
     expect(e.message).toContain("blend");
     // any other wrong value gets the plain list
-    expect(errorOf(() => parseRule({ rule: "calcium", rate: 1, threshold: "mixed" })).expected).toBe("one of error, bcm, blend");
+    expect(expectEbbflowError(() => parseRule({ rule: "calcium", rate: 1, threshold: "mixed" }), "invalid_config", "rule.threshold").expected).toBe("one of error, bcm, blend");
   });
 
   it("both old spellings together are reported at once, also through createRule and inside an experiment file", () => {
     const old = { rule: "calcium", rate: 1, threshold: "mix", mix: 0.5 };
-    expect(errorOf(() => parseRule(old)).issues.map((i) => i.path).sort()).toEqual(["rule.mix", "rule.threshold"]);
+    expect(expectEbbflowError(() => parseRule(old), "invalid_config", "rule.threshold").issues.map((i) => i.path).sort()).toEqual(["rule.mix", "rule.threshold"]);
     const net = buildNetwork({ layers: [{ name: "in", size: 2, role: "input" }, { name: "out", size: 1, role: "output" }], connections: [{ from: "in", to: "out" }] });
-    expect(errorOf(() => createRule(net, old as never)).code).toBe("invalid_config");
-    const inFile = errorOf(() => parseExperiment({ network: { layers: [{ name: "in", size: 2, role: "input" }, { name: "out", size: 1, role: "output" }], connections: [{ from: "in", to: "out" }] }, rules: [old] }));
+    expectEbbflowError(() => createRule(net, old as never), "invalid_config", "rule.threshold");
+    const inFile = expectEbbflowError(() => parseExperiment({ network: { layers: [{ name: "in", size: 2, role: "input" }, { name: "out", size: 1, role: "output" }], connections: [{ from: "in", to: "out" }] }, rules: [old] }), "invalid_config", "rules[0].threshold");
     expect(inFile.issues.map((i) => i.path).sort()).toEqual(["rules[0].mix", "rules[0].threshold"]);
     expect(inFile.message).toContain("errorShare");
   });
@@ -44,8 +31,8 @@ describe("calcium rule config: renamed options", () => {
   it("the new names parse, with errorShare defaulting to 0.9 and refused outside [0, 1]", () => {
     const c = parseRule({ rule: "calcium", rate: 1, threshold: "blend" });
     expect(c).toMatchObject({ threshold: "blend", errorShare: 0.9 });
-    expect(errorOf(() => parseRule({ rule: "calcium", rate: 1, errorShare: 1.5 })).path).toBe("rule.errorShare");
-    expect(errorOf(() => parseRule({ rule: "calcium", rate: 1, errorShare: -0.1 })).path).toBe("rule.errorShare");
+    expectEbbflowError(() => parseRule({ rule: "calcium", rate: 1, errorShare: 1.5 }), "invalid_config", "rule.errorShare");
+    expectEbbflowError(() => parseRule({ rule: "calcium", rate: 1, errorShare: -0.1 }), "invalid_config", "rule.errorShare");
   });
 
   it("the JSON Schema offers blend and errorShare and forbids mix", () => {
