@@ -116,7 +116,7 @@ async function runCommand(file: string, o: RunOptions): Promise<void> {
 async function taskCommand(dir: string, o: { index: number; json?: boolean }): Promise<void> {
   const plan = await readSweepPlan(dir);
   const run = runAt(plan, o.index);
-  const runReport = await executeRun({ dir: path.resolve(dir), run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery });
+  const runReport = await executeRun({ dir: path.resolve(dir), run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery, plugins: plan.plugins });
   if (o.json) out(JSON.stringify(runReport) + "\n");
   else out(`run #${run.index} ${run.id} (${run.label}, seed ${run.seed}): ${runReport.status}${runReport.status === "failed" ? "" : `, ${runReport.epochs} epochs${runReport.resumedFrom > 0 ? `, resumed from epoch ${runReport.resumedFrom}` : ""}`}\n`);
   if (runReport.status === "failed") {

@@ -2,15 +2,17 @@
  * The one name each rule is shown by in output.
  * @module
  */
-import { parseRule, type RuleConfig, type RuleConfigInput } from "./config.js";
+import { builtinRegistry, type Registry } from "./registry.js";
 
 /**
  * The name a rule config is shown by in output (the demo, gradient-agreement reports, learning-curve
- * titles, benchmark tables): its id, followed by its `variant` (generec) or `mode` (eqprop) in
- * parentheses. Defaults are filled in first.
+ * titles, benchmark tables): its descriptor's `label` — for the built-in rules the rule id, followed by
+ * its `variant` (generec) or `mode` (eqprop) in parentheses. Defaults are filled in first.
  * @param config - a rule config (defaults may be omitted)
+ * @param registry - where the rule is looked up (default: the built-in rules)
  * @returns e.g. `"chl"`, `"generec (basic)"`, `"eqprop (symmetric)"`, `"calcium"`
- * @throws {@link EbbflowError} `invalid_config` if `config` is not a valid rule config
+ * @throws {@link EbbflowError} `invalid_config` if `config` is not a valid rule config, `unknown_name`
+ *   for a rule that is not registered
  * @category Rules
  * @example
  * ```ts
@@ -18,7 +20,7 @@ import { parseRule, type RuleConfig, type RuleConfigInput } from "./config.js";
  * ruleDisplayName({ rule: "calcium", rate: 1, threshold: "blend" }); // "calcium"
  * ```
  */
-export function ruleDisplayName(config: RuleConfigInput | RuleConfig): string {
-  const c = parseRule(config);
-  return c.rule + ("variant" in c ? ` (${c.variant})` : "mode" in c ? ` (${c.mode})` : "");
+export function ruleDisplayName(config: unknown, registry: Registry = builtinRegistry): string {
+  const c = registry.parseRule(config);
+  return registry.rule(c.rule).label(c);
 }

@@ -5,10 +5,10 @@
  */
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
-import { createRule } from "../rules/index.js";
-import { ruleDisplayName } from "../rules/names.js";
+import { fail } from "../errors/index.js";
+import { builtinRegistry, type Registry } from "../rules/registry.js";
 import { ParameterDelta } from "../rules/delta.js";
-import { connectionRate, type Batch } from "../rules/base.js";
+import { connectionRate, type Batch, type LearningRule } from "../rules/base.js";
 import type { RuleConfigInput } from "../rules/config.js";
 import { feedforwardGradient } from "../rules/feedforward.js";
 import { finiteDifferenceGradient, parameterArrays, recurrentGradient, type VerifySettling } from "./gradient.js";
@@ -64,10 +64,22 @@ function measures(u: FloatArray | Float64Array, g: FloatArray | Float64Array, sc
   };
 }
 
+/** Options of {@link gradientAgreement}. @category Verification */
+export interface AgreementOptions extends VerifySettling {
+  /** The exact reference (default `"recurrent"`). */
+  readonly reference?: GradientReference | undefined;
+  /** Where the rule is looked up by name (default: the built-in rules). */
+  readonly registry?: Registry | undefined;
+}
+
+const AGREEMENT_OPTIONS = ["reference", "registry", "tolerance", "maxSteps"];
+
 /**
  * Compares a rule's update on `batch` with the exact negative gradient of the squared error at
  * the free fixed point, per connection (and per learned feedback matrix and bias), and overall.
  * The network is not changed. Rules whose rate differs per connection are divided by that rate.
+ * `rule` is a config (looked up in `options.registry`) or a rule instance bound to `net`.
+ * @throws {@link EbbflowError} `invalid_parameter` for an option it does not know.
  * @category Verification
  * @example
  * ```ts
@@ -75,9 +87,14 @@ function measures(u: FloatArray | Float64Array, g: FloatArray | Float64Array, sc
  * console.log(formatAgreement(report));
  * ```
  */
-export function gradientAgreement(net: Network, rule: RuleConfigInput, batch: Batch, options: VerifySettling & { readonly reference?: GradientReference | undefined } = {}): AgreementReport {
+export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>> | LearningRule, batch: Batch, options: AgreementOptions = {}): AgreementReport {
+  for (const key of Object.keys(options)) if (!AGREEMENT_OPTIONS.includes(key)) fail("invalid_parameter", `options.${key}`, `one of the options ${AGREEMENT_OPTIONS.join(", ")}`, key);
   const reference = options.reference ?? "recurrent";
-  const r = createRule(net, rule);
+  if (!(["recurrent", "finite-difference", "feedforward"] as unknown[]).includes(reference)) fail("invalid_parameter", "options.reference", "recurrent, finite-difference or feedforward", reference);
+  const registry = options.registry ?? builtinRegistry;
+  const r = typeof (rule as LearningRule).computeDelta === "function" ? (rule as LearningRule) : registry.createRule(net, rule);
+  if (r.net !== net) fail("invalid_config", "rule", "a rule bound to the network checked", "a rule bound to another network");
+  const descriptor = registry.rules.get(r.config.rule);
   const update = r.computeDelta(batch, new ParameterDelta(net));
   const grad = reference === "recurrent" ? recurrentGradient(net, batch, options) : reference === "finite-difference" ? finiteDifferenceGradient(net, batch, options) : feedforwardGradient(net, batch);
   const rows: AgreementRow[] = [];
@@ -95,7 +112,7 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput, batch: Ba
       gAll.push(g[k] as number);
     }
   });
-  return { rule: ruleDisplayName(r.config), reference, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
+  return { rule: descriptor?.label(r.config) ?? r.config.rule, reference, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
 }
 
 /** Renders a report as a fixed-width text table. @category Verification */

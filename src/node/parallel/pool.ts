@@ -24,7 +24,7 @@ import { Piscina } from "piscina";
 import { EbbflowError, fail, requireFinite } from "../../errors/index.js";
 import { buildNetwork, parameterBuffers, type Network } from "../../network/network.js";
 import type { NetworkSpec } from "../../network/spec.js";
-import { applyDelta, ParameterDelta, parseRule, type RuleConfig, type RuleConfigInput, type Batch } from "../../rules/index.js";
+import { applyDelta, builtinRegistry, contrastRows, ParameterDelta, type AnyRuleConfig, type Batch, type ContrastPlan, type ContrastScratch, type PhaseArrays, type Registry, type RuleConfigInput } from "../../rules/index.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
 import { checkAllocation, typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
 import { loadWasmKernelsSync } from "../../kernels/wasm/loader.js";
@@ -51,7 +51,7 @@ import {
   controlViews,
   whenEqual,
 } from "./sync.js";
-import { contrastPlan, contrastRows, type ContrastPlan, type ContrastScratch, type PhaseArrays } from "./contrast.js";
+import { rowPlan } from "./contrast.js";
 import type { BatchLayout, FailureMessage, LayoutMessage, LoopTask, SessionSetup, SharedArray } from "./protocol.js";
 
 /** The TypeScript kernels allocating in SharedArrayBuffers, so the workers see every array of the network. */
@@ -73,13 +73,11 @@ function workerFile(): string {
   return built;
 }
 
-/** Rules whose internal state changes from batch to batch cannot be split across workers. */
-function checkRule(rule: RuleConfig): void {
-  const stateful =
-    rule.rule === "bcm" ||
-    (rule.rule === "calcium" && rule.threshold !== "error") ||
-    (rule.rule === "eqprop" && rule.mode === "random-sign");
-  if (stateful) fail("unsupported", "rule", "a rule without state that changes per batch for multi-core training (not bcm, calcium with a bcm or blend threshold, or eqprop random-sign)", rule.rule);
+/** Rules whose internal state changes from batch to batch cannot be split across workers (their descriptor says so). */
+function checkRule(net: Network, rule: AnyRuleConfig, registry: Registry): void {
+  const d = registry.rule(rule.rule);
+  if (!registry.portable(rule.rule)) fail("unsupported", "rule", `a rule the worker threads can import: register ${JSON.stringify(rule.rule)} from its module with loadPlugins (a descriptor added in code only is not seen by other threads)`, rule.rule);
+  if ((d.split?.(rule, net) ?? "none") === "none") fail("unsupported", "rule", `a rule without state that changes per batch for multi-core training (this config of ${d.label(rule)} keeps such state: its descriptor's split is "none")`, rule.rule);
 }
 
 /** The declaration without explicit weight values: the workers take the parameters from shared memory. */
@@ -116,7 +114,7 @@ export class ParallelRule {
   /** The network whose parameters live in shared memory. */
   readonly net: Network;
   /** The rule, with its defaults filled in. */
-  readonly config: RuleConfig;
+  readonly config: AnyRuleConfig;
   /** Number of worker threads. */
   readonly workers: number;
   /** The kernels the workers compute with. */
@@ -154,7 +152,7 @@ export class ParallelRule {
   private current: Promise<unknown> | null = null;
   private closed = false;
 
-  private constructor(net: Network, config: RuleConfig, workers: number, kernels: "typescript" | "wasm") {
+  private constructor(net: Network, config: AnyRuleConfig, workers: number, kernels: "typescript" | "wasm", registry: Registry) {
     this.kernels = kernels;
     this.config = config;
     this.workers = workers;
@@ -180,13 +178,14 @@ export class ParallelRule {
     const src = parameterBuffers(net);
     const dst = parameterBuffers(this.net);
     dst.forEach((a, i) => a.set(src[i] as FloatArray));
-    this.plan = contrastPlan(this.net, config);
+    this.plan = rowPlan(this.net, config, registry);
     this.split = this.plan === null ? "slices" : "rows";
     this.slotViews = this.split === "slices" ? Array.from({ length: workers }, () => dst.map((a) => this.net.allocate(a.length))) : [];
     this.delta = new ParameterDelta(this.net);
     this.setup = {
       spec: withoutWeights(this.net.spec),
       rule: config,
+      plugins: registry.plugins,
       kernels,
       memory,
       parameters: dst.map(this.describe),
@@ -234,18 +233,21 @@ export class ParallelRule {
 
   /**
    * Starts `workers` threads for `rule` on a shared-memory copy of `net`.
-   * @param options - `kernels`: the kernels of the workers (default: the kind `net` uses).
+   * @param options - `kernels`: the kernels of the workers (default: the kind `net` uses); `registry`: where
+   * the rule is looked up (default: the built-in rules). A rule of your own must come from a module
+   * recorded in the registry (`loadPlugins`), which every worker imports.
    * @throws EbbflowError `invalid_parameter` (path `workers`) for a count that is not an integer
-   * >= 1; `unsupported` for a rule whose state changes per batch or a network without exactly one input
-   * and one output layer; `invalid_config` for a bad rule.
+   * >= 1; `unsupported` for a rule whose state changes per batch (its descriptor's split is "none") or a
+   * network without exactly one input and one output layer; `invalid_config` for a bad rule.
    */
-  static async create(net: Network, rule: RuleConfigInput, workers: number, options: { kernels?: "typescript" | "wasm" | undefined } = {}): Promise<ParallelRule> {
+  static async create(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>>, workers: number, options: { kernels?: "typescript" | "wasm" | undefined; registry?: Registry | undefined } = {}): Promise<ParallelRule> {
     if (!Number.isInteger(workers) || workers < 1) fail("invalid_parameter", "workers", "an integer >= 1", workers);
-    const config = parseRule(rule);
-    checkRule(config);
+    const registry = options.registry ?? builtinRegistry;
+    const config = registry.parseRule(rule);
+    checkRule(net, config, registry);
     // by default the workers use the same kind of kernels as the network they were given
     const kernels = options.kernels ?? (net.kernels.name === "typescript" ? "typescript" : "wasm");
-    const par = new ParallelRule(net, config, workers, kernels);
+    const par = new ParallelRule(net, config, workers, kernels, registry);
     await par.start();
     return par;
   }

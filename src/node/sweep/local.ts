@@ -63,7 +63,7 @@ export async function runSweepLocally(plan: SweepPlan, options: LocalSweepOption
   for (const run of plan.runs) {
     const progress = await readRunProgress(out, run);
     if (progress.finished) reports.push({ index: run.index, id: run.id, status: "skipped", resumedFrom: 0, epochs: progress.epochs, stopped: progress.results?.end?.stopped });
-    else pending.push({ dir: out, run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery });
+    else pending.push({ dir: out, run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery, plugins: plan.plugins });
   }
   const total = plan.runs.length;
   const note = (o: RunReport) => {
