@@ -250,38 +250,29 @@ export class FeedforwardRule implements LearningRule {
   }
 }
 
+/** The descriptor of a rule on the feedforward pass: stateless, read out on the pass, split by slices. */
+function feedforwardDescriptor<C extends FeedforwardConfig>(name: C["rule"], summary: string, schema: z.ZodType<C, unknown>) {
+  return defineRule<C>({
+    name,
+    summary,
+    schema,
+    phases: () => ["forward", "backward"],
+    label: (c) => c.rule,
+    readout: "forward",
+    split: () => "slices",
+    create: (net, c) => new FeedforwardRule(net, c),
+  });
+}
+
 /** Backprop on the feedforward pass (the reference). @category Rules */
-export const backpropRule = defineRule({
-  name: "backprop",
-  summary: "backprop on the feedforward pass, −ε ∂J/∂W (Rumelhart, Hinton & Williams 1986)",
-  schema: backpropSchema,
-  phases: () => ["forward", "backward"],
-  label: (c) => c.rule,
-  readout: "forward",
-  split: () => "slices",
-  create: (net, c) => new FeedforwardRule(net, c),
-});
+export const backpropRule = feedforwardDescriptor("backprop", "backprop on the feedforward pass, −ε ∂J/∂W (Rumelhart, Hinton & Williams 1986)", backpropSchema);
 
 /** Feedback alignment. @category Rules */
-export const feedbackAlignmentRule = defineRule({
-  name: "feedback-alignment",
-  summary: "feedback alignment: backprop's error carried by fixed random feedback matrices (Lillicrap et al. 2016)",
-  schema: feedbackAlignmentSchema,
-  phases: () => ["forward", "backward"],
-  label: (c) => c.rule,
-  readout: "forward",
-  split: () => "slices",
-  create: (net, c) => new FeedforwardRule(net, c),
-});
+export const feedbackAlignmentRule = feedforwardDescriptor("feedback-alignment", "feedback alignment: backprop's error carried by fixed random feedback matrices (Lillicrap et al. 2016)", feedbackAlignmentSchema);
 
 /** Direct feedback alignment. @category Rules */
-export const directFeedbackAlignmentRule = defineRule({
-  name: "direct-feedback-alignment",
-  summary: "direct feedback alignment: the output error sent to every hidden layer through a fixed random matrix (Nøkland 2016)",
-  schema: directFeedbackAlignmentSchema,
-  phases: () => ["forward", "backward"],
-  label: (c) => c.rule,
-  readout: "forward",
-  split: () => "slices",
-  create: (net, c) => new FeedforwardRule(net, c),
-});
+export const directFeedbackAlignmentRule = feedforwardDescriptor(
+  "direct-feedback-alignment",
+  "direct feedback alignment: the output error sent to every hidden layer through a fixed random matrix (Nøkland 2016)",
+  directFeedbackAlignmentSchema,
+);

@@ -119,6 +119,16 @@ describe("rules of a user's own, by name", () => {
     expect(blend.ruleLabel).toBe("blended-contrast (λ=0.3)");
   });
 
+  it("the Trainer also takes a rule instance (bound to its network), labelled with its own config's name", async () => {
+    const registry = await loadPlugins([pluginFile]);
+    const net = buildNetwork(declaration(7));
+    const instance = registry.createRule(net, { rule: "reward-hebbian", rate: 0.1 });
+    const trainer = new Trainer(net, instance, flowers(), { epochs: 1, batchSize: 4 }, { registry });
+    expect(trainer.rule).toBe(instance);
+    expect(trainer.ruleLabel).toBe("reward-hebbian");
+    expect(() => new Trainer(buildNetwork(declaration(7)), instance, flowers(), { epochs: 1 })).toThrow(expect.objectContaining({ code: "invalid_config", path: "rule" }));
+  });
+
   it("resume from a checkpoint is bit-identical, with the rule's own state restored", async () => {
     const registry = await loadPlugins([pluginFile]);
     const data = flowers();
