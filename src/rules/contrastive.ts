@@ -142,7 +142,7 @@ export class ContrastiveHebbian extends SettlingRule {
 }
 
 /** CHL changes from a free and a clamped snapshot (batch-averaged), with per-layer factors. */
-function chlFromSnapshots(net: Network, config: Cfg<"chl"> | Cfg<"xie-seung">, factors: readonly number[], minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, scratchFor: (layer: number) => FloatArray): ParameterDelta {
+function chlFromSnapshots(net: Network, config: Cfg<"chl"> | Cfg<"xie-seung">, factors: readonly number[], free: Snapshot, clamped: Snapshot, B: number, out: ParameterDelta, scratchFor: (layer: number) => FloatArray): ParameterDelta {
   out.clear();
   for (const c of net.connections) {
     if (c.spec.frozen) continue;
@@ -151,12 +151,12 @@ function chlFromSnapshots(net: Network, config: Cfg<"chl"> | Cfg<"xie-seung">, f
     const alpha = (connectionRate(config, c) * (factors[c.to] as number)) / B;
     if (alpha === 0) continue;
     const clampedPre = net.layers[c.from]!.role === "input";
-    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m, clampedPre, scratchFor(c.to));
+    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, clamped.activity[c.to] as FloatArray, clamped.activity[c.from] as FloatArray, free.activity[c.to] as FloatArray, free.activity[c.from] as FloatArray, B, n, m, clampedPre, scratchFor(c.to));
     transposeInto(out.feedback[c.index] ?? null, out.weights[c.index] as FloatArray, n, m);
   }
   for (const l of net.layers) {
     if (l.role === "input") continue;
-    contrastBias(out.biases[l.index] as FloatArray, (config.rate * (factors[l.index] as number)) / B, plus.activity[l.index] as FloatArray, minus.activity[l.index] as FloatArray, B, l.size);
+    contrastBias(out.biases[l.index] as FloatArray, (config.rate * (factors[l.index] as number)) / B, clamped.activity[l.index] as FloatArray, free.activity[l.index] as FloatArray, B, l.size);
   }
   return out;
 }
@@ -214,11 +214,11 @@ export class GeneRec extends SettlingRule {
 }
 
 /** GeneRec changes from snapshots (exported for the arithmetic checks). */
-export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, diff: FloatArray[], mid: FloatArray[]): ParameterDelta {
+export function generecFromSnapshots(net: Network, config: Cfg<"generec">, free: Snapshot, clamped: Snapshot, B: number, out: ParameterDelta, diff: FloatArray[], mid: FloatArray[]): ParameterDelta {
   out.clear();
   for (const l of net.layers) {
-    const a = plus.activity[l.index] as FloatArray;
-    const b = minus.activity[l.index] as FloatArray;
+    const a = clamped.activity[l.index] as FloatArray;
+    const b = free.activity[l.index] as FloatArray;
     const d = diff[l.index] as FloatArray;
     const h = mid[l.index] as FloatArray;
     for (let k = 0; k < d.length; k++) {
@@ -236,15 +236,15 @@ export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus
     const w = out.weights[c.index] as FloatArray;
     const dy = diff[c.to] as FloatArray;
     const dx = diff[c.from] as FloatArray;
-    if (variant === "basic" || variant === "symmetric") gemm(w, dy, minus.activity[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
+    if (variant === "basic" || variant === "symmetric") gemm(w, dy, free.activity[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
     else gemm(w, dy, mid[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
-    if (variant === "symmetric") gemm(w, minus.activity[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
+    if (variant === "symmetric") gemm(w, free.activity[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
     else if (variant === "symmetric-midpoint") gemm(w, mid[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
     transposeInto(out.feedback[c.index] ?? null, w, n, m);
   }
   for (const l of net.layers) {
     if (l.role === "input") continue;
-    contrastBias(out.biases[l.index] as FloatArray, config.rate / B, plus.activity[l.index] as FloatArray, minus.activity[l.index] as FloatArray, B, l.size);
+    contrastBias(out.biases[l.index] as FloatArray, config.rate / B, clamped.activity[l.index] as FloatArray, free.activity[l.index] as FloatArray, B, l.size);
   }
   return out;
 }
@@ -448,24 +448,24 @@ function learnsSeparateFeedback(net: Network): boolean {
 /** The phases of CHL and GeneRec: free, then clamped from the free state with its drive carried over. */
 const FREE_CLAMPED: ContrastForm["phases"] = [{ phase: "free" }, { phase: "clamped", reuseDrive: true }];
 
-/** `k · (P_plusᵀ Q_plus − P_minusᵀ Q_minus)`, or `k · (P_plus − P_minus)ᵀ X` for an input sender. */
-export function phaseContrast(plus: number, minus: number): (k: number, input: boolean) => Product[] {
+/** `k · (P_addᵀ Q_add − P_subtractᵀ Q_subtract)` between two phases, or `k · (P_add − P_subtract)ᵀ X` for an input sender. */
+export function phaseContrast(add: number, subtract: number): (k: number, input: boolean) => Product[] {
   const diff: Combination = [
-    [plus, 1],
-    [minus, -1],
+    [add, 1],
+    [subtract, -1],
   ];
   return (k, input) =>
     input
       ? [{ perPattern: k, post: diff, pre: "input" }]
       : [
-          { perPattern: k, post: [[plus, 1]], pre: [[plus, 1]] },
-          { perPattern: -k, post: [[minus, 1]], pre: [[minus, 1]] },
+          { perPattern: k, post: [[add, 1]], pre: [[add, 1]] },
+          { perPattern: -k, post: [[subtract, 1]], pre: [[subtract, 1]] },
         ];
 }
 
 /** CHL (and Xie–Seung) as a contrast form: phase 0 free, phase 1 clamped. */
 function chlForm(layerFactors?: readonly number[]): ContrastForm {
-  return { phases: FREE_CLAMPED, products: phaseContrast(1, 0), scale: 1, bias: { plus: 1, minus: 0 }, layerFactors };
+  return { phases: FREE_CLAMPED, products: phaseContrast(1, 0), scale: 1, bias: { add: 1, subtract: 0 }, layerFactors };
 }
 
 /** Contrastive Hebbian learning. @category Rules */
@@ -523,7 +523,7 @@ export const generecRule = defineRule({
       if (!input && v === "symmetric-midpoint") out.push({ perPattern: k, post: mid, pre: diff });
       return out;
     };
-    return { phases: FREE_CLAMPED, products, scale: 1, bias: { plus: 1, minus: 0 } };
+    return { phases: FREE_CLAMPED, products, scale: 1, bias: { add: 1, subtract: 0 } };
   },
   create: (net, c) => new GeneRec(net, c),
 });
