@@ -22,7 +22,12 @@ const directFeedbackAlignmentSchema = z
     ...commonRuleFields,
   })
   .strict();
-type FeedforwardConfig = z.output<typeof backpropSchema> | z.output<typeof feedbackAlignmentSchema> | z.output<typeof directFeedbackAlignmentSchema>;
+/** The config of a rule on the feedforward pass (backprop, feedback alignment, direct feedback alignment). @category Rules */
+export interface FeedforwardConfig extends RuleConfigBase {
+  readonly rule: "backprop" | "feedback-alignment" | "direct-feedback-alignment";
+  /** Direct feedback alignment: scale of the fixed random feedback matrices. */
+  readonly scale?: number | undefined;
+}
 import type { BatchInput } from "../interop/ndarray.js";
 import type { Snapshot } from "../network/settle.js";
 
@@ -216,7 +221,7 @@ export class FeedforwardRule implements LearningRule {
     const root = createRandom(net.spec.seed);
     this.direct = net.layers.map((l) => {
       if (this.carrier !== "direct" || l.role !== "hidden") return null;
-      const scale = config.rule === "direct-feedback-alignment" ? config.scale : 1;
+      const scale = config.rule === "direct-feedback-alignment" ? (config.scale ?? 1) : 1;
       return fillNormal(net.allocate(l.size * total), root.child(`direct-feedback/${l.name}`), 0, scale / Math.sqrt(total));
     });
     // feedback alignment: each connection's own separate feedback matrix, or else a fixed random one of the rule's
@@ -251,38 +256,29 @@ export class FeedforwardRule implements LearningRule {
   }
 }
 
+/** The descriptor of a rule on the feedforward pass: stateless, read out on the pass, split by slices. */
+function feedforwardDescriptor<C extends FeedforwardConfig>(name: C["rule"], summary: string, schema: z.ZodType<C, unknown>) {
+  return defineRule<C>({
+    name,
+    summary,
+    schema,
+    phases: () => ["forward", "backward"],
+    label: (c) => c.rule,
+    readout: "forward",
+    split: () => "slices",
+    create: (net, c) => new FeedforwardRule(net, c),
+  });
+}
+
 /** Backprop on the feedforward pass (the reference). @category Rules */
-export const backpropRule = defineRule({
-  name: "backprop",
-  summary: "backprop on the feedforward pass, −ε ∂J/∂W (Rumelhart, Hinton & Williams 1986)",
-  schema: backpropSchema,
-  phases: () => ["forward", "backward"],
-  label: (c) => c.rule,
-  readout: "forward",
-  split: () => "slices",
-  create: (net, c) => new FeedforwardRule(net, c),
-});
+export const backpropRule = feedforwardDescriptor("backprop", "backprop on the feedforward pass, −ε ∂J/∂W (Rumelhart, Hinton & Williams 1986)", backpropSchema);
 
 /** Feedback alignment. @category Rules */
-export const feedbackAlignmentRule = defineRule({
-  name: "feedback-alignment",
-  summary: "feedback alignment: backprop's error carried by fixed random feedback matrices (Lillicrap et al. 2016)",
-  schema: feedbackAlignmentSchema,
-  phases: () => ["forward", "backward"],
-  label: (c) => c.rule,
-  readout: "forward",
-  split: () => "slices",
-  create: (net, c) => new FeedforwardRule(net, c),
-});
+export const feedbackAlignmentRule = feedforwardDescriptor("feedback-alignment", "feedback alignment: backprop's error carried by fixed random feedback matrices (Lillicrap et al. 2016)", feedbackAlignmentSchema);
 
 /** Direct feedback alignment. @category Rules */
-export const directFeedbackAlignmentRule = defineRule({
-  name: "direct-feedback-alignment",
-  summary: "direct feedback alignment: the output error sent to every hidden layer through a fixed random matrix (Nøkland 2016)",
-  schema: directFeedbackAlignmentSchema,
-  phases: () => ["forward", "backward"],
-  label: (c) => c.rule,
-  readout: "forward",
-  split: () => "slices",
-  create: (net, c) => new FeedforwardRule(net, c),
-});
+export const directFeedbackAlignmentRule = feedforwardDescriptor(
+  "direct-feedback-alignment",
+  "direct feedback alignment: the output error sent to every hidden layer through a fixed random matrix (Nøkland 2016)",
+  directFeedbackAlignmentSchema,
+);

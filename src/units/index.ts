@@ -7,7 +7,7 @@
 export { conductanceRate, conductanceRateSlope, createConductanceRate, effectiveTimeConstant, steadyStatePotential, thresholdExcitatoryConductance } from "./conductance.js";
 export type { ConductanceRate, ConductanceRateParams, MembraneConductances, ThresholdConductanceParams } from "./conductance.js";
 export { createUnit } from "./createUnit.js";
-export { gaussianExpectation } from "./gaussian.js";
+export { gaussianAverage } from "./gaussian.js";
 export type { SmoothingFeature } from "./gaussian.js";
 export { hardSigmoid, hardSigmoidSlope } from "./hardSigmoid.js";
 export { lifRate, lifRateSlope } from "./lif.js";

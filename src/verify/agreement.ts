@@ -33,6 +33,7 @@ export interface AgreementRow {
 
 /** A gradient-agreement report. @category Verification */
 export interface AgreementReport {
+  /** The rule's display name ({@link ruleDisplayName}: id, with variant or mode). */
   readonly rule: string;
   readonly reference: GradientReference;
   readonly rows: readonly AgreementRow[];

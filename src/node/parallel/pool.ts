@@ -22,7 +22,7 @@ import { existsSync } from "node:fs";
 import { MessageChannel, receiveMessageOnPort, type MessagePort } from "node:worker_threads";
 import { Piscina } from "piscina";
 import { EbbflowError, fail, requireFinite } from "../../errors/index.js";
-import { buildNetwork, parameterBuffers, type Network } from "../../network/network.js";
+import { buildNetwork, parameterBuffers, parameterSlots, slotArray, type Network } from "../../network/network.js";
 import type { NetworkSpec } from "../../network/spec.js";
 import { applyDelta, builtinRegistry, contrastRows, ParameterDelta, type AnyRuleConfig, type Batch, type ContrastPlan, type ContrastScratch, type PhaseArrays, type Registry, type RuleConfigInput } from "../../rules/index.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
@@ -356,11 +356,8 @@ export class ParallelRule {
   private reduceSlices(L: MainLayout, out: ParameterDelta): void {
     out.clear();
     const K = this.net.kernels;
-    const targetsOut: FloatArray[] = [...out.biases];
-    this.net.connections.forEach((c) => {
-      targetsOut.push(out.weights[c.index] as FloatArray);
-      if (c.feedback.kind === "separate") targetsOut.push(out.feedback[c.index] ?? new Float64Array(0));
-    });
+    // the slices' change arrays follow the parameters' order (parameterSlots); fixed feedback has no change
+    const targetsOut = parameterSlots(this.net).map((slot) => slotArray(out, slot) ?? new Float64Array(0));
     const { batch: B, slices } = L.layout;
     for (let i = 0; i < slices; i++) {
       const views = this.slotViews[i] as FloatArray[];

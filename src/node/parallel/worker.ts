@@ -13,7 +13,7 @@
  */
 import { receiveMessageOnPort, type MessagePort } from "node:worker_threads";
 import { EbbflowError, fail } from "../../errors/index.js";
-import { buildNetwork, type Network } from "../../network/network.js";
+import { buildNetwork, parameterSlots, slotArray, type Network } from "../../network/network.js";
 import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../../network/settle.js";
 import { contrastRows, ParameterDelta, provablyFinite, publishParameterMaxima, publishPhases, settlePlanPhases, type ContrastPlan, type ContrastScratch, type LearningRule, type PhaseArrays, type Registry } from "../../rules/index.js";
 import { loadPlugins } from "../plugins.js";
@@ -198,11 +198,8 @@ class Session {
     const delta = (this.delta ??= new ParameterDelta(net));
     this.slots ??= (this.setup.slots[job.worker] as SharedArray[]).map((a) => this.view(a));
     this.rule.computeDelta(this.sliceValues(job), delta);
-    const own: FloatArray[] = [...delta.biases];
-    net.connections.forEach((c) => {
-      own.push(delta.weights[c.index] as FloatArray);
-      if (c.feedback.kind === "separate") own.push(delta.feedback[c.index] ?? new Float64Array(0));
-    });
+    // in the parameters' order (parameterSlots), as the main thread reads the slots
+    const own = parameterSlots(net).map((slot) => slotArray(delta, slot) ?? new Float64Array(0));
     own.forEach((src, i) => {
       const dst = this.slots![i] as FloatArray;
       if (src.length === dst.length) net.kernels.copy(dst, src);
