@@ -37,4 +37,10 @@ describe("package entry points", () => {
     expect(pkg.license).toBe("MIT");
     expect(readFileSync(path.join(root, "LICENSE"), "utf8")).toMatch(/^MIT License\n/);
   });
+
+  it("examples/iris.json (shipped) is the experiment file the command-line guide prints", () => {
+    const guide = readFileSync(path.join(root, "docs/guide/cli.md"), "utf8");
+    const printed = /```json\n([\s\S]*?)```/.exec(guide)![1]!;
+    expect(JSON.parse(readFileSync(path.join(root, "examples/iris.json"), "utf8"))).toEqual(JSON.parse(printed));
+  });
 });

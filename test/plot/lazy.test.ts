@@ -5,11 +5,12 @@
  * they were not installed).
  */
 import { spawnSync } from "node:child_process";
-import { mkdtempSync, writeFileSync } from "node:fs";
+import { existsSync, mkdtempSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import path from "node:path";
 import { pathToFileURL } from "node:url";
 import { describe, expect, it } from "vitest";
+import { stripExperiment } from "../sweep/fixtures.js";
 
 const root = path.resolve(import.meta.dirname, "../..");
 
@@ -50,6 +51,23 @@ try {
       path: "vega",
       expected: "the optional plotting packages vega and vega-lite installed (npm install vega@6.4.0 vega-lite@6.4.1)",
     });
+  });
+
+  it("without vega the demo and sweep summaries still run, leaving out their charts with the install command", () => {
+    const cli = (args: string[]) =>
+      spawnSync(process.execPath, ["--import", pathToFileURL(path.join(dir, "register.mjs")).href, path.join(root, "dist", "cli", "main.js"), ...args], { encoding: "utf8", cwd: dir });
+    const demo = cli(["demo", "--seeds", "1", "--epochs", "20", "--out", "demo-out"]);
+    expect(demo.status, demo.stderr).toBe(0);
+    expect(demo.stdout).toContain("4. Learning curves not drawn: vega: expected the optional plotting packages vega and vega-lite installed (npm install vega@6.4.0 vega-lite@6.4.1)");
+    expect(existsSync(path.join(dir, "demo-out"))).toBe(false);
+    writeFileSync(path.join(dir, "strip.json"), JSON.stringify({ ...stripExperiment, training: { epochs: 2, batchSize: 2 } }));
+    writeFileSync(path.join(dir, "strip.sweep.json"), JSON.stringify({ base: "strip.json", seeds: [1] }));
+    expect(cli(["sweep", "run", "strip.sweep.json", "--workers", "1", "--out", "sweep"]).status).toBe(0);
+    const summary = cli(["sweep", "summarize", "sweep"]);
+    expect(summary.status, summary.stderr).toBe(0);
+    expect(summary.stdout).toContain(`wrote ${path.join(dir, "sweep", "summary.json")}\n`);
+    expect(summary.stdout).toContain("no chart: vega: expected the optional plotting packages");
+    expect(existsSync(path.join(dir, "sweep", "plots"))).toBe(false);
   });
 
   it("with vega installed (this repository's dev dependencies) the same call renders", () => {
