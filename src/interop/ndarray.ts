@@ -224,13 +224,13 @@ export function flatLayerValues(
   sizes: ReadonlyMap<string, number>,
   batch: number | undefined,
   path: string,
-): { values: Readonly<Record<string, ArrayLike<number>>>; issues: Issue[]; failed: Set<string> } {
+): { values: Readonly<Record<string, ArrayLike<number>>>; issues: readonly Issue[]; failed: ReadonlySet<string> } {
   let out: Record<string, ArrayLike<number> | NdArrayLike> | undefined;
-  const issues: Issue[] = [];
-  const failed = new Set<string>();
-  for (const key of Object.keys(values)) {
+  let issues: Issue[] | undefined;
+  let failed: Set<string> | undefined;
+  for (const key in values) {
     const v = values[key];
-    if (!isNdArrayLike(v)) continue;
+    if (!Object.hasOwn(values, key) || !isNdArrayLike(v)) continue;
     out ??= { ...values };
     const size = sizes.get(key);
     const first = v.shape[0];
@@ -238,11 +238,28 @@ export function flatLayerValues(
     const shapes = size === undefined || b === undefined || !Number.isInteger(b) ? undefined : [[b, size], [b * size]];
     const r = tryRowMajor(v, `${path}.${key}`, shapes);
     if (isIssue(r)) {
-      issues.push(r);
-      failed.add(key);
+      (issues ??= []).push(r);
+      (failed ??= new Set()).add(key);
     } else out[key] = r;
   }
-  return { values: (out ?? values) as Readonly<Record<string, ArrayLike<number>>>, issues, failed };
+  // the common case (no ndarray-like entry) allocates nothing
+  return { values: (out ?? values) as Readonly<Record<string, ArrayLike<number>>>, issues: issues ?? NO_ISSUES, failed: failed ?? NO_KEYS };
+}
+
+const NO_ISSUES: readonly Issue[] = Object.freeze([]);
+const NO_KEYS: ReadonlySet<string> = new Set();
+
+/** Layer sizes by name, per network (for flatBatch, once per network). */
+const layerSizes = new WeakMap<Network, ReadonlyMap<string, number>>();
+
+/** Each layer's size by layer name. @internal */
+export function sizesByName(net: Network): ReadonlyMap<string, number> {
+  let m = layerSizes.get(net);
+  if (m === undefined) {
+    m = new Map(net.layers.map((l) => [l.name, l.size] as const));
+    layerSizes.set(net, m);
+  }
+  return m;
 }
 
 function isIssue(r: ArrayLike<number> | Issue): r is Issue {
@@ -267,7 +284,7 @@ export interface BatchInput {
  */
 export function flatBatch(net: Network, batch: BatchInput): { readonly inputs: Readonly<Record<string, ArrayLike<number>>>; readonly targets: Readonly<Record<string, ArrayLike<number>>> } {
   if (batch === null || typeof batch !== "object") return fail("invalid_parameter", "batch", "an object with inputs and targets", batch);
-  const sizes = new Map(net.layers.map((l) => [l.name, l.size] as const));
+  const sizes = sizesByName(net);
   const inputs = batch.inputs !== null && typeof batch.inputs === "object" ? flatLayerValues(batch.inputs, sizes, undefined, "inputs") : undefined;
   const targets = batch.targets !== null && typeof batch.targets === "object" ? flatLayerValues(batch.targets, sizes, undefined, "targets") : undefined;
   const issues = [...(inputs?.issues ?? []), ...(targets?.issues ?? [])];

@@ -8,7 +8,7 @@ import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePo
 import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
 import type { Network } from "./network.js";
-import { flatLayerValues, type LayerInputs } from "../interop/ndarray.js";
+import { flatLayerValues, sizesByName, type LayerInputs } from "../interop/ndarray.js";
 
 /** The three phases: free (the prediction: only inputs clamped), clamped and nudged (target-driven states: outputs clamped to, or pulled toward, the targets). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
@@ -177,7 +177,7 @@ export class Settler {
     this.clamped = net.layers.map(() => false);
     this.newlyClamped = net.layers.map(() => false);
     this.fusedUnit = net.layers.map((l) => unitKernelArgs(l.unit));
-    this.layerSizes = new Map(net.layers.map((l) => [l.name, l.size] as const));
+    this.layerSizes = sizesByName(net);
   }
 
   /**
@@ -197,7 +197,7 @@ export class Settler {
     }
     // ndarray-like entries as flat row-major values (a view when contiguous)
     const flat = flatLayerValues(given, this.layerSizes, this.batch, what);
-    const problems: Issue[] = flat.issues;
+    const problems: Issue[] = flat.issues.slice();
     const values = flat.values;
     for (const layer of this.net.layers) {
       if (layer.role !== role || flat.failed.has(layer.name)) continue;
