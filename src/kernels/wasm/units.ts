@@ -24,15 +24,15 @@
  * @module
  */
 import type { FloatArray } from "../../types/index.js";
-import type { UnitFunction } from "../../units/spec.js";
+import type { UnitFunction, UnitKernelCall, UnitKernelKind } from "../../units/spec.js";
 import type { KernelBackend } from "./backend.js";
 
 /**
- * Unit kinds the SIMD kernels evaluate (the kinds of `UnitSpec` with a
- * closed form; softplus, saturating and noisy units are not among them).
+ * Unit kinds the SIMD kernels evaluate (the built-in kinds whose descriptor names a kernel;
+ * softplus, saturating, noisy and users' kinds are not among them).
  * @category Kernels
  */
-export type UnitFillKind = "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear";
+export type UnitFillKind = UnitKernelKind;
 
 /** Kind index of the WebAssembly export (code = index * 2 + slope). */
 const KIND_INDEX: Readonly<Record<UnitFillKind, number>> = Object.freeze({
@@ -118,8 +118,8 @@ export function createUnitFill(
 /**
  * `out[i] = f(x[i])` (or `f'(x[i])` when `slope`) for `i < n`: on the
  * backend's SIMD kernels when it has a `unitFill` that handles the call
- * (a logistic, tanh, relu, hard-sigmoid or linear unit on arena views), else
- * with the unit's own `fill`/`fillSlope`. Allocates nothing. Accuracy: see
+ * (a unit whose `kernel` names one: logistic, tanh, relu, hard-sigmoid or
+ * linear, on arena views), else with the unit's own `fill`/`fillSlope`. Allocates nothing. Accuracy: see
  * the module notes (bit-identical for the piecewise-linear units; within
  * 1e-14 relative in float64 and 6 float32 ulps in float32 for logistic and tanh).
  * @param backend The kernel backend (the TypeScript backend always falls back).
@@ -152,21 +152,11 @@ export function fillUnit<T extends FloatArray>(backend: KernelBackend, unit: Uni
 }
 
 /**
- * How the SIMD kernels (`unitFill`, `rateStep`) take a unit: its kind with the logistic's gain and
- * offset (1 and 0 for the other kinds), or null for a unit they do not evaluate.
+ * How the SIMD kernels (`unitFill`, `rateStep`) take a unit: the kernel its descriptor names,
+ * with the logistic's gain and offset (1 and 0 for the other kinds), or null for a unit without
+ * one (a kind with no SIMD kernel, or any user's kind): that unit runs its own fill.
  * @internal
  */
-export function unitKernelArgs(unit: UnitFunction): { kind: UnitFillKind; gain: number; offset: number } | null {
-  const spec = unit.spec;
-  switch (spec.kind) {
-    case "logistic":
-      return { kind: "logistic", gain: spec.gain ?? 1, offset: spec.offset ?? 0 };
-    case "tanh":
-    case "relu":
-    case "hard-sigmoid":
-    case "linear":
-      return { kind: spec.kind, gain: 1, offset: 0 };
-    default:
-      return null;
-  }
+export function unitKernelArgs(unit: UnitFunction): UnitKernelCall | null {
+  return unit.kernel ?? null;
 }
