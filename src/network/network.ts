@@ -9,7 +9,8 @@ import type { UnitRegistry } from "../units/registry.js";
 import type { UnitFunction } from "../units/spec.js";
 import { createRandom, initialise, type InitSpec } from "../random/index.js";
 import { type Dtype, type FloatArray } from "../types/index.js";
-import { typescriptBackend, type KernelBackend } from "../kernels/wasm/backend.js";
+import type { KernelBackend } from "../kernels/backend.js";
+import { typescriptBackend } from "../kernels/typescript-backend.js";
 import { fail } from "../errors/index.js";
 import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
 

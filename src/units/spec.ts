@@ -3,6 +3,7 @@
  * and the unit-function interface every kind implements.
  * @module
  */
+import type { UnitKernelKind as GeneratedUnitKernelKind } from "../kernels/wasm/generated/layout.js";
 import type { FloatArray } from "../types/index.js";
 import type { builtinUnitDescriptors } from "./builtins.js";
 import type { SmoothingFeature } from "./gaussian.js";
@@ -36,11 +37,8 @@ export type UnitKind = UnitSpec["kind"];
 /** The spec of one built-in kind, e.g. `SpecOf<"logistic">`. @category Units */
 export type SpecOf<K extends UnitKind> = Extract<UnitSpec, { readonly kind: K }>;
 
-/**
- * The unit kinds the WebAssembly SIMD unit kernels evaluate.
- * @category Units
- */
-export type UnitKernelKind = "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear";
+/** The unit kinds the WebAssembly SIMD unit kernels evaluate (declared in assembly/layout.mjs). @category Units */
+export type UnitKernelKind = GeneratedUnitKernelKind;
 
 /**
  * How the SIMD kernels (`unitFill`, `rateStep`) evaluate a unit: the kernel's kind with the

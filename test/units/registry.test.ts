@@ -23,6 +23,7 @@ import {
   type UnitSpecInput,
 } from "../../src/units/index.js";
 import { arctanClassUnit, arctanRate, arctanSlope, arctanUnit } from "../helpers/arctan-unit.js";
+import { UNIT_KERNEL_KINDS } from "../../src/kernels/wasm/generated/layout.js";
 import { check } from "../helpers/property.js";
 import { EPS64, expectClose } from "../helpers/tolerance.js";
 import { thrown } from "../helpers/errors.js";
@@ -61,6 +62,8 @@ describe("builtinUnits", () => {
       expect(unit.kernel?.kind).toBe(d.kernel);
     }
     expect(builtinUnits.kinds.filter((k) => builtinUnits.get(k).kernel !== undefined)).toEqual(["logistic", "tanh", "linear", "relu", "hard-sigmoid"]);
+    // every unit kernel the declaration (assembly/layout.mjs) lists is named by exactly one built-in descriptor
+    expect(builtinUnits.kinds.map((k) => builtinUnits.get(k).kernel).filter((k) => k !== undefined).sort()).toEqual([...UNIT_KERNEL_KINDS].sort());
     expect(builtinUnits.create({ kind: "logistic", gain: 3, offset: 0.5 }).kernel).toEqual({ kind: "logistic", gain: 3, offset: 0.5 });
   });
 

@@ -14,7 +14,7 @@
  * @module
  */
 import type { FloatArray } from "../../types/index.js";
-import type { KernelBackend } from "../../kernels/wasm/backend.js";
+import type { KernelBackend } from "../../kernels/backend.js";
 import type { Network } from "../../network/network.js";
 import type { Phase } from "../../network/settle.js";
 import { connectionRate, type RuleConfig } from "../../rules/index.js";

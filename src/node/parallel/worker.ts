@@ -17,7 +17,8 @@ import { buildNetwork, type Network } from "../../network/network.js";
 import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../../network/settle.js";
 import { createRule, ParameterDelta, type LearningRule } from "../../rules/index.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
-import { typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
+import type { KernelBackend } from "../../kernels/backend.js";
+import { typescriptBackend } from "../../kernels/typescript-backend.js";
 import { loadWasmKernelsSync } from "../../kernels/wasm/loader.js";
 import type { WasmKernelBackend } from "../../kernels/wasm/wasm-backend.js";
 import {
