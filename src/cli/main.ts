@@ -44,7 +44,7 @@ program
   .option("--data <source>", "touch-strip, xor, parity:N, iris, digits[:N] or a .csv/.json file")
   .option("--rule <rule>", "rule name, inline JSON or a JSON file (default: the experiment's first rule)")
   .option("--rate <rate>", "learning rate (with a bare rule name)", num("--rate"))
-  .option("--beta <beta>", "nudging strength for eqprop (with a bare rule name)", num("--beta"))
+  .option("--beta <beta>", "nudging strength, for rules that have one (with a bare rule name)", num("--beta"))
   .option("--epochs <n>", "number of epochs", int("--epochs"))
   .option("--batch-size <n>", "mini-batch size", int("--batch-size"))
   .option("--seed <seed>", "seed for shuffling and the split (default: the network's seed)")
@@ -55,6 +55,7 @@ program
   .option("--checkpoint-every <n>", "epochs between checkpoints", int("--checkpoint-every"))
   .option("--resume", "continue from the output folder's checkpoint")
   .addOption(new Option("--kernels <kind>", "kernels: auto (WebAssembly SIMD when the engine has it), typescript or wasm").choices(["auto", "typescript", "wasm"]).default("auto"))
+  .option("--plugin <module>", "a module defining rules of your own (repeatable; also `plugins` in the experiment file)", collect)
   .option("--json", "machine-readable output")
   .action(guard(trainCommand));
 
@@ -69,6 +70,7 @@ program
   .option("--examples <n>", "examples in the batch", int("--examples"))
   .addOption(new Option("--reference <kind>", "exact reference").choices(["recurrent", "finite-difference", "feedforward"]))
   .addOption(new Option("--kernels <kind>", "kernels: auto, typescript or wasm").choices(["auto", "typescript", "wasm"]).default("auto"))
+  .option("--plugin <module>", "a module defining rules of your own (repeatable; also `plugins` in the experiment file)", collect)
   .option("--json", "machine-readable output")
   .action(guard(checkCommand));
 

@@ -29,15 +29,17 @@ export interface TrainCommandOptions {
   readonly scale?: boolean;
   readonly persistent?: boolean;
   readonly kernels?: "auto" | "typescript" | "wasm";
+  /** Modules defining rules of the user's own. */
+  readonly plugin?: string[];
 }
 
 const seedOf = (s: string | undefined, fallback: number | string): number | string => (s === undefined ? fallback : /^-?\d+$/.test(s) ? Number(s) : s);
 
 /** Runs `ebbflow train MODEL.json ...`. */
 export async function trainCommand(modelFile: string, o: TrainCommandOptions): Promise<void> {
-  const { experiment, net: built } = await readModelArgument(modelFile, o.kernels ?? "auto");
+  const { experiment, net: built, registry } = await readModelArgument(modelFile, o.kernels ?? "auto", o.plugin ?? []);
   const seed = seedOf(o.seed, experiment.network.seed);
-  const rule = o.rule !== undefined ? await readRuleArgument(o.rule, { rate: o.rate, beta: o.beta }) : experiment.rules[0];
+  const rule = o.rule !== undefined ? await readRuleArgument(o.rule, { rate: o.rate, beta: o.beta }, registry) : experiment.rules[0];
   if (rule === undefined) fail("invalid_config", "--rule", "a rule (on the command line or in the experiment's rules)", "none");
   const source = o.data ?? experiment.data?.source;
   if (source === undefined) fail("invalid_config", "--data", "a data source (on the command line or in the experiment's data)", "none");
@@ -53,7 +55,7 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
   const out = o.out ?? path.join("runs", `${experiment.name ?? path.basename(modelFile, ".json")}-${rule.rule}-${seed}`);
   await fs.mkdir(out, { recursive: true });
   const files = { results: path.join(out, "results.jsonl"), model: path.join(out, "model.json"), checkpoint: path.join(out, "checkpoint.json") };
-  const config: Record<string, unknown> = { network: experiment.network, rule, training, data: { source, testFraction }, seed };
+  const config: Record<string, unknown> = { network: experiment.network, rule, training, data: { source, testFraction }, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
 
   let net = built;
   let resumed = null;
@@ -69,7 +71,7 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
     }
   }
   const progress = new Progress(training.epochs, "training", o.json === true);
-  const trainer = new Trainer(net, rule, train, training, { test, seed });
+  const trainer = new Trainer(net, rule, train, training, { test, seed, registry });
   if (resumed !== null) trainer.loadState(resumed.state);
   const writer = new ResultsWriter(files.results, { kind: "header", ebbflow: VERSION, seed, config, started: new Date().toISOString() }, trainer.history);
   const every = o.checkpointEvery ?? 10;

@@ -188,14 +188,48 @@ export interface BuildOptions {
   readonly units?: UnitRegistry | undefined;
 }
 
-/** Every parameter array of a network in allocation order (see {@link BuildOptions.allocate}). @category Network */
-export function parameterBuffers(net: Network): FloatArray[] {
-  const out: FloatArray[] = net.layers.map((l) => l.bias);
+/**
+ * One parameter array of a network: a layer's biases, a connection's weights, or a connection's separate
+ * feedback matrix. `index` is the layer's or the connection's index.
+ * @category Network
+ */
+export interface ParameterSlot {
+  readonly kind: "bias" | "weights" | "feedback";
+  readonly index: number;
+  /** `layer bias`, `from->to`, or `from->to feedback`. */
+  readonly name: string;
+}
+
+/**
+ * Every parameter array of a network, in the one order the library uses everywhere: the allocation order
+ * of {@link buildNetwork} (every layer's biases, then each connection's weights and, for a separate
+ * feedback path, its matrix). Shared parameters, worker threads, gradients and reports all follow it.
+ * @category Network
+ */
+export function parameterSlots(net: Network): ParameterSlot[] {
+  const out: ParameterSlot[] = net.layers.map((l) => ({ kind: "bias", index: l.index, name: `${l.name} bias` }));
   for (const c of net.connections) {
-    out.push(c.weights);
-    if (c.feedback.kind === "separate") out.push(c.feedback.weights);
+    out.push({ kind: "weights", index: c.index, name: c.label });
+    if (c.feedback.kind === "separate") out.push({ kind: "feedback", index: c.index, name: `${c.label} feedback` });
   }
   return out;
+}
+
+/** The array of `slot` in a set of parameter-shaped arrays (the network's own, a change, a gradient); null where it has none. @category Network */
+export function slotArray(arrays: { readonly weights: readonly (FloatArray | null | undefined)[]; readonly feedback: readonly (FloatArray | null | undefined)[]; readonly biases: readonly (FloatArray | null | undefined)[] }, slot: ParameterSlot): FloatArray | null {
+  const a = slot.kind === "bias" ? arrays.biases[slot.index] : slot.kind === "weights" ? arrays.weights[slot.index] : arrays.feedback[slot.index];
+  return a ?? null;
+}
+
+/** The network's own parameter arrays by kind (for {@link slotArray}). @category Network */
+export function parameterArraysOf(net: Network): { weights: FloatArray[]; feedback: (FloatArray | null)[]; biases: FloatArray[] } {
+  return { weights: net.connections.map((c) => c.weights), feedback: net.connections.map((c) => (c.feedback.kind === "separate" ? c.feedback.weights : null)), biases: net.layers.map((l) => l.bias) };
+}
+
+/** Every parameter array of a network in allocation order (see {@link parameterSlots}). @category Network */
+export function parameterBuffers(net: Network): FloatArray[] {
+  const own = parameterArraysOf(net);
+  return parameterSlots(net).map((s) => slotArray(own, s) as FloatArray);
 }
 
 /**

@@ -5,6 +5,7 @@
  * @module
  */
 import seedrandom from "seedrandom";
+import { z } from "zod";
 import type { FloatArray } from "../types/index.js";
 import { requireFinite, requireInteger, requireNonNegative, fail } from "../errors/index.js";
 
@@ -14,6 +15,30 @@ export interface Arc4State {
   readonly j: number;
   readonly S: readonly number[];
 }
+
+const byte = z.number().int({ error: "an integer in [0, 255]" }).min(0, { error: "an integer in [0, 255]" }).max(255, { error: "an integer in [0, 255]" });
+
+/**
+ * Schema of a saved {@link RandomStreamState}: the ARC4 key schedule must be a permutation of 0..255 (every
+ * state the generator reaches is one), the indices bytes, the spare normal deviate finite or null.
+ * @category Random
+ */
+export const randomStreamStateSchema = z
+  .object({
+    name: z.string(),
+    prng: z
+      .object({
+        i: byte,
+        j: byte,
+        S: z
+          .array(byte)
+          .length(256, { error: "256 entries" })
+          .refine((s) => new Set(s).size === 256, { error: "a permutation of 0..255 (an ARC4 key schedule)" }),
+      })
+      .strict(),
+    spare: z.number().refine(Number.isFinite, { error: "a finite number" }).nullable(),
+  })
+  .strict();
 
 /** Saved state of a {@link RandomStream}, for checkpoints. @category Random */
 export interface RandomStreamState {

@@ -8,7 +8,7 @@ import type { KernelBackend } from "../kernels/backend.js";
 import type { Connection, Network } from "../network/network.js";
 import { Settler, Snapshot, type LayerValues } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";
-import type { RuleConfig } from "./config.js";
+import type { RuleConfigBase } from "./descriptor.js";
 
 /** A batch of patterns: values per input layer and targets per output layer, B×N flat. @category Rules */
 export interface Batch {
@@ -22,7 +22,8 @@ export interface Batch {
  * @category Rules
  */
 export interface LearningRule {
-  readonly config: RuleConfig;
+  /** The rule's config with defaults filled in (`config.rule` names its descriptor). */
+  readonly config: RuleConfigBase;
   readonly net: Network;
   /** The phases the rule settles (for reports). */
   readonly phases: readonly string[];
@@ -62,13 +63,13 @@ export function batchSizeOf(net: Network, batch: Batch): number {
 }
 
 /** Learning rate of a connection: the rule's per-connection override or its rate, times the connection's own multiplier. @category Rules */
-export function connectionRate(config: RuleConfig, c: Connection): number {
+export function connectionRate(config: RuleConfigBase, c: Connection): number {
   const base = config.rates?.[c.label] ?? config.rate;
   return base * (c.spec.rate ?? 1);
 }
 
 /** Checks that every key of `rates` names a connection. */
-export function checkRates(net: Network, config: RuleConfig): void {
+export function checkRates(net: Network, config: RuleConfigBase): void {
   for (const key of Object.keys(config.rates ?? {})) {
     if (!net.connections.some((c) => c.label === key)) fail("unknown_name", `rule.rates["${key}"]`, `a connection label (${net.connections.map((c) => c.label).join(", ")})`, key);
   }
@@ -87,7 +88,7 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 
 /**
  * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
- * the outcome-minus-expectation coactivity of a connection. When the sending layer is clamped in both
+ * the clamped-minus-free coactivity of a connection. When the sending layer is clamped in both
  * phases (`samePre`: preA and preB hold the same values), it is computed as one product
  * `alpha · (postA − postB)ᵀ pre`, using `scratch` (B×n, for example the settler's phase scratch) for the difference.
  */
@@ -113,14 +114,14 @@ export function contrastBias(out: FloatArray, alpha: number, a: FloatArray, b: F
 /** Shared machinery of rules that settle phases: one Settler and snapshots per batch size. */
 export abstract class SettlingRule implements LearningRule {
   abstract readonly phases: readonly string[];
-  readonly config: RuleConfig;
+  readonly config: RuleConfigBase;
   readonly net: Network;
   lastFree: Snapshot | null = null;
   freeStart: Snapshot | null = null;
   private readonly settlers = new Map<number, { settler: Settler; snaps: Snapshot[] }>();
   private stepDelta: ParameterDelta | null = null;
 
-  constructor(net: Network, config: RuleConfig) {
+  constructor(net: Network, config: RuleConfigBase) {
     this.net = net;
     this.config = config;
     checkRates(net, config);

@@ -10,7 +10,7 @@ export { builtinUnitDescriptors, builtinUnits } from "./builtins.js";
 export { conductanceRate, conductanceRateSlope, createConductanceRate, effectiveTimeConstant, steadyStatePotential, thresholdExcitatoryConductance } from "./conductance.js";
 export type { ConductanceRate, ConductanceRateParams, MembraneConductances, ThresholdConductanceParams } from "./conductance.js";
 export { createUnit, normaliseUnitSpec, tabulateNoisyRate, unitKinds } from "./createUnit.js";
-export { gaussianExpectation } from "./gaussian.js";
+export { gaussianAverage } from "./gaussian.js";
 export type { SmoothingFeature } from "./gaussian.js";
 export { hardSigmoid, hardSigmoidSlope, hardSigmoidUnit } from "./hardSigmoid.js";
 export { lifRate, lifRateSlope } from "./lif.js";

@@ -13,7 +13,7 @@ import {
   builtinUnits,
   createUnit,
   defineUnit,
-  gaussianExpectation,
+  gaussianAverage,
   logisticUnit,
   noisyRate,
   tabulateNoisyRate,
@@ -197,7 +197,7 @@ describe("a user's unit kind (scaled arctangent)", () => {
     const noisy = units.create({ kind: "noisy", base: { kind: "arctan", gain: 2 }, sigma: 0.5, range: [-12, 12], resolution: 2048 });
     for (const x of [-3, -0.4, 0, 0.25, 1.5, 8]) {
       // independent check: the same average by direct quadrature (gaussian.ts), no table
-      expectClose(noisy.value(x), gaussianExpectation((t) => arctanRate(t, 2), x, 0.5), 1e-8, `x=${x}`);
+      expectClose(noisy.value(x), gaussianAverage((t) => arctanRate(t, 2), x, 0.5), 1e-8, `x=${x}`);
     }
     const table = tabulateNoisyRate({ kind: "noisy", base: { kind: "arctan", gain: 2 }, sigma: 0.5, range: [-12, 12], resolution: 2048 }, units);
     expect(noisyRate(table, 0.25)).toBe(noisy.value(0.25));

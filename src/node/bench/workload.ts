@@ -294,7 +294,7 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
     created: new Date().toISOString(),
     machine,
     peakGflops: peak,
-    workload: "EqProp 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per training step (shared by both phases)",
+    workload: "eqprop (one-sided) on 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per training step (shared by both phases)",
     figures,
     kernels,
     memory,

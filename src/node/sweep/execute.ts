@@ -15,6 +15,7 @@ import { loadCheckpoint, ResultsWriter, saveCheckpoint } from "../checkpoint.js"
 import { saveModel, writeFileAtomic } from "../files.js";
 import { resolveData } from "../sources.js";
 import { VERSION } from "../../cli/version.js";
+import { loadPlugins } from "../plugins.js";
 import { readRunProgress, runFiles, type RunFailure } from "./files.js";
 
 /** One run to execute (plain data, so it can be sent to a worker thread). @category Sweeps */
@@ -26,10 +27,12 @@ export interface RunTask {
   readonly baseDir: string;
   /** Epochs between checkpoints. */
   readonly checkpointEvery: number;
+  /** Modules defining rules of the user's own (the plan's `plugins`), imported before the run. */
+  readonly plugins?: readonly string[] | undefined;
 }
 
 /** What became of a run. @category Sweeps */
-export interface RunOutcome {
+export interface RunReport {
   readonly index: number;
   readonly id: string;
   /** `finished` now, `skipped` because it had finished before, or `failed`. */
@@ -56,12 +59,12 @@ interface CheckpointNote {
 
 /**
  * Executes one run of a sweep (see the module notes). Errors do not throw: they are returned in the
- * outcome and recorded in the run's `failure.json`.
+ * report and recorded in the run's `failure.json`.
  * @param task - The run, the sweep folder, the data folder and the checkpoint interval.
- * @returns The outcome.
+ * @returns The run's report.
  * @category Sweeps
  */
-export async function executeRun(task: RunTask): Promise<RunOutcome> {
+export async function executeRun(task: RunTask): Promise<RunReport> {
   const { run } = task;
   const files = runFiles(task.dir, run.id);
   let resumedFrom = 0;
@@ -92,7 +95,8 @@ export async function executeRun(task: RunTask): Promise<RunOutcome> {
         resumedFrom = saved.state.epoch;
       }
     }
-    const trainer = new Trainer(net, config.rule, train, config.training, { test, seed });
+    const registry = await loadPlugins(task.plugins ?? []);
+    const trainer = new Trainer(net, config.rule, train, config.training, { test, seed, registry });
     if (state !== null) trainer.loadState(state);
     const header = { kind: "header" as const, ebbflow: VERSION, seed, config: { ...config, sweepRun: { id: run.id, configuration: run.configuration, index: run.index } }, started: new Date().toISOString() };
     const writer = new ResultsWriter(files.results, header, trainer.history);

@@ -10,6 +10,7 @@ import { expandSweep, SWEEP_PLAN_FORMAT, type SweepPlan, type SweepRun } from ".
 import { parseSweepFile } from "../../sweep/schema.js";
 import { readResults, type Results } from "../plot/results.js";
 import { writeFileAtomic } from "../files.js";
+import { loadPlugins, resolvePlugin } from "../plugins.js";
 
 async function readJsonFile(file: string, what: string): Promise<unknown> {
   let text: string;
@@ -49,14 +50,24 @@ export async function loadSweepFile(file: string): Promise<SweepPlan> {
   }
   let base: unknown = sweep.base;
   let where = "base";
+  let pluginDir = baseDir;
   if (typeof sweep.base === "string") {
     const baseFile = path.resolve(baseDir, sweep.base);
     base = await readJsonFile(baseFile, "base experiment (base)");
     where = path.basename(baseFile);
+    pluginDir = path.dirname(baseFile);
+  }
+  // the base experiment's plugins (paths relative to its file) define rules of the user's own
+  const specs = base !== null && typeof base === "object" && Array.isArray((base as { plugins?: unknown }).plugins) ? ((base as { plugins: unknown[] }).plugins as string[]) : [];
+  let registry;
+  try {
+    registry = await loadPlugins(specs, { baseDir: pluginDir });
+  } catch (e) {
+    return prefixed(e, where);
   }
   try {
-    const plan = expandSweep(sweep, base, { where, name: name.replace(/(\.sweep)?\.json$/i, "") });
-    return { ...plan, baseDir };
+    const plan = expandSweep(sweep, base, { where, name: name.replace(/(\.sweep)?\.json$/i, ""), registry });
+    return { ...plan, baseDir, ...(specs.length > 0 ? { plugins: specs.map((p) => resolvePlugin(p, pluginDir)) } : {}) };
   } catch (e) {
     return prefixed(e, name);
   }
