@@ -13,8 +13,8 @@ const node = (args: string[]) => spawnSync(process.execPath, args, { encoding: "
 const pkg = JSON.parse(readFileSync(path.join(root, "package.json"), "utf8")) as { version: string; license: string; engines: { node: string } };
 
 describe("package entry points", () => {
-  it('require("ebbflow") and require("ebbflow/node") throw the ESM-only message (ERR_REQUIRE_ESM), naming import()', () => {
-    for (const id of ["ebbflow", "ebbflow/node"]) {
+  it('require("ebbflow"), require("ebbflow/node") and require("ebbflow/kernels") throw the ESM-only message (ERR_REQUIRE_ESM), naming import()', () => {
+    for (const id of ["ebbflow", "ebbflow/node", "ebbflow/kernels"]) {
       const r = node(["-e", `try { require(${JSON.stringify(id)}); console.log("loaded"); } catch (e) { console.log(e.code + " " + e.message); }`]);
       expect(r.stdout.trim()).toMatch(/^ERR_REQUIRE_ESM ebbflow is an ES module package and cannot be loaded with require\(\)\..*await import\("ebbflow"\)/);
     }

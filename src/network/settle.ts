@@ -6,7 +6,7 @@
  */
 import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
+import { fillUnit, unitKernelArgs } from "../kernels/units.js";
 import type { Network } from "./network.js";
 import { flatLayerValues, sizesByName, type LayerInputs } from "../interop/ndarray.js";
 

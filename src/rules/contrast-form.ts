@@ -13,7 +13,7 @@
  * @module
  */
 import type { FloatArray } from "../types/index.js";
-import type { KernelBackend } from "../kernels/wasm/backend.js";
+import type { KernelBackend } from "../kernels/backend.js";
 import type { Network } from "../network/network.js";
 import type { Phase, PhaseOptions, Snapshot } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";

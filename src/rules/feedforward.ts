@@ -6,7 +6,7 @@
 import { z } from "zod";
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import { fillUnit } from "../kernels/wasm/units.js";
+import { fillUnit } from "../kernels/units.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta } from "./delta.js";

@@ -5,7 +5,8 @@
  */
 import { afterEach, describe, expect, it } from "vitest";
 import { EbbflowError } from "../../src/errors/index.js";
-import { loadWasmKernels, loadWasmKernelsSync, selectBackend, selectBackendAsync, typescriptBackend, wasmRelaxedSimdSupported, wasmSimdSupported } from "../../src/kernels/wasm/index.js";
+import { typescriptBackend } from "../../src/kernels/typescript-backend.js";
+import { loadWasmKernels, loadWasmKernelsSync, selectBackend, selectBackendAsync, wasmRelaxedSimdSupported, wasmSimdSupported } from "../../src/kernels/wasm/index.js";
 import { isSharedBuffer, loadModuleBytes, moduleBytes } from "../../src/kernels/wasm/platform.js";
 
 type WasmGlobal = { validate(b: Uint8Array): boolean; Memory: new (d: { initial: number; maximum?: number; shared?: boolean }) => { buffer: ArrayBuffer } };

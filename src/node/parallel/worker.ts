@@ -18,7 +18,8 @@ import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../../ne
 import { contrastRows, ParameterDelta, provablyFinite, publishParameterMaxima, publishPhases, settlePlanPhases, type ContrastPlan, type ContrastScratch, type LearningRule, type PhaseArrays, type Registry } from "../../rules/index.js";
 import { loadPlugins } from "../plugins.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
-import { typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
+import type { KernelBackend } from "../../kernels/backend.js";
+import { typescriptBackend } from "../../kernels/typescript-backend.js";
 import { loadWasmKernelsSync } from "../../kernels/wasm/loader.js";
 import type { WasmKernelBackend } from "../../kernels/wasm/wasm-backend.js";
 import {
@@ -100,7 +101,7 @@ class Session {
     }
     const params = setup.parameters.map((a) => this.view(a));
     let k = 0;
-    this.net = buildNetwork(setup.spec, { backend, allocate: () => params[k++] as FloatArray, keepValues: true });
+    this.net = buildNetwork(setup.spec, { backend, allocate: () => params[k++] as FloatArray, keepValues: true, units: registry.units });
     this.plan = rowPlan(this.net, setup.rule, registry);
   }
 
