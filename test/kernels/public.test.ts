@@ -6,7 +6,7 @@ import * as kernels from "../../src/kernels/public.js";
 describe("ebbflow/kernels", () => {
   it("is in the package's export map, with its types, built from src/kernels/public.ts", () => {
     const pkg = JSON.parse(readFileSync(new URL("../../package.json", import.meta.url), "utf8")) as { exports: Record<string, { types: string; import: string }> };
-    expect(pkg.exports["./kernels"]).toEqual({ types: "./dist/kernels/public.d.ts", import: "./dist/kernels/public.js" });
+    expect(pkg.exports["./kernels"]).toEqual({ types: "./dist/kernels/public.d.ts", import: "./dist/kernels/public.js", require: "./require.cjs" });
   });
 
   it("exports the BLAS-style kernels, the backends and backend selection", () => {
