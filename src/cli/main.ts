@@ -79,7 +79,7 @@ program
   .description("write SVG learning curves from results files, and weight matrices or receptive fields from a saved model")
   .argument("[results...]", "RESULTS.jsonl files")
   .option("--out <file>", "SVG file to write")
-  .option("--metric <name>", "sse, crossEntropy, accuracy or cosine", "sse")
+  .option("--metric <name>", "sse, loss, binaryCrossEntropy, softmaxCrossEntropy, accuracy or cosine", "sse")
   .addOption(new Option("--split <split>", "which evaluation").choices(["train", "test", "both"]))
   .option("--weights <model>", "a saved model file: plot a weight matrix")
   .option("--connection <label>", "connection to plot (from->to)")

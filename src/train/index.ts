@@ -4,5 +4,6 @@
  */
 export * from "./data/index.js";
 export * from "./metrics.js";
+export * from "./loss.js";
 export * from "./schedule.js";
 export * from "./loop.js";

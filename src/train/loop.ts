@@ -15,15 +15,20 @@ import { builtinRegistry, type AnyRuleDescriptor, type LearningRule, type Regist
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "../rules/feedforward.js";
 import type { Dataset } from "./data/index.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
+import { lossNameSchema } from "./loss.js";
+import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
 import { scheduleFactor, scheduleSchema } from "./schedule.js";
 
-const metricName = z.enum(["sse", "crossEntropy", "accuracy", "cosine"], { error: "one of sse, crossEntropy, accuracy, cosine" });
+const METRIC_NAMES = ["sse", "loss", "binaryCrossEntropy", "softmaxCrossEntropy", "accuracy", "cosine"] as const;
+const metricName = z.enum(METRIC_NAMES, { error: `one of ${METRIC_NAMES.join(", ")}` });
 
 /** Schema of the training options. @category Training */
 export const trainingSchema = z
   .object({
     epochs: z.number({ error: "an integer >= 1" }).int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" }),
     batchSize: z.number().int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" }).default(16),
+    // the loss of the output layers: the `loss` metric, and the loss of rules that follow one (EqProp, backprop, ...)
+    loss: lossNameSchema.default("squared-error"),
     shuffle: z.boolean().default(true),
     schedule: scheduleSchema.default({ kind: "constant" }),
     earlyStopping: z
@@ -150,8 +155,12 @@ export class Trainer {
     if (isRuleInstance(rule)) {
       if (rule.net !== net) fail("invalid_config", "rule", "a rule bound to the network being trained", "a rule bound to another network");
       this.rule = rule;
-    } else this.rule = this.registry.createRule(net, rule);
+    } else this.rule = this.registry.createRule(net, configWithLoss(this.registry, rule, this.options.loss));
     this.descriptor = this.registry.rules.get(this.rule.config.rule) ?? null;
+    if (this.descriptor?.objective !== undefined) {
+      const followed = ruleObjective(this.registry, this.rule.config, this.options.loss).loss;
+      if (followed !== this.options.loss) fail("invalid_config", "rule.loss", `the loss of the training config, ${JSON.stringify(this.options.loss)}`, followed);
+    }
     this.train = train;
     this.test = extras.test;
     this.hooks = extras.hooks ?? {};
@@ -185,7 +194,7 @@ export class Trainer {
 
   /** Evaluates the network (free phase, or the feedforward pass) on a data set. */
   evaluate(ds: Dataset): Metrics {
-    const sums = new MetricSums();
+    const sums = new MetricSums(this.options.loss);
     const chunk = Math.min(256, ds.size);
     const k = ds.targetSize;
     for (let start = 0; start < ds.size; start += chunk) {

@@ -3,13 +3,18 @@
  * @module
  */
 import type { FloatArray } from "../types/index.js";
+import { patternLoss, requireLoss, type LossName } from "./loss.js";
 
 /** Metrics of one evaluation. @category Training */
 export type Metrics = {
   /** Sum over examples and output units of (y − t)². */
   readonly sse: number;
-  /** Mean over examples of −Σ [t ln y + (1 − t) ln(1 − y)], y clipped to [1e-12, 1 − 1e-12] (outputs read as probabilities). */
-  readonly crossEntropy: number;
+  /** Mean over examples of the training loss (`training.loss`, see {@link LossName}) on the read-out. */
+  readonly loss: number;
+  /** Mean over examples of −Σ [t ln y + (1 − t) ln(1 − y)], y clipped to [1e-12, 1 − 1e-12] (each output read as a probability). */
+  readonly binaryCrossEntropy: number;
+  /** Mean over examples of −Σ t ln softmax(y)_k (the outputs read as logits of one categorical prediction). */
+  readonly softmaxCrossEntropy: number;
   /** Fraction of examples classified correctly (see {@link accumulateMetrics} for the readout). */
   readonly accuracy: number;
   /** Mean cosine between output and target vectors (0 for a zero vector). */
@@ -22,17 +27,35 @@ export type Metrics = {
 
 /** Running sums of {@link Metrics}. @category Training */
 export class MetricSums {
+  /** The loss summed into `loss`. */
+  readonly lossName: LossName;
   sse = 0;
-  crossEntropy = 0;
+  loss = 0;
+  binaryCrossEntropy = 0;
+  softmaxCrossEntropy = 0;
   correct = 0;
   cosine = 0;
   ties = 0;
   examples = 0;
 
+  /** Sums for the training loss `loss` (default the squared error). */
+  constructor(loss: LossName = "squared-error") {
+    this.lossName = requireLoss("loss", loss);
+  }
+
   /** The averaged metrics. */
   result(): Metrics {
     const n = Math.max(1, this.examples);
-    return { sse: this.sse, crossEntropy: this.crossEntropy / n, accuracy: this.correct / n, cosine: this.cosine / n, ties: this.ties, examples: this.examples };
+    return {
+      sse: this.sse,
+      loss: this.loss / n,
+      binaryCrossEntropy: this.binaryCrossEntropy / n,
+      softmaxCrossEntropy: this.softmaxCrossEntropy / n,
+      accuracy: this.correct / n,
+      cosine: this.cosine / n,
+      ties: this.ties,
+      examples: this.examples,
+    };
   }
 }
 
@@ -46,7 +69,6 @@ export class MetricSums {
 export function accumulateMetrics(sums: MetricSums, y: FloatArray, t: ArrayLike<number>, batch: number, k: number): void {
   for (let p = 0; p < batch; p++) {
     let sse = 0;
-    let ce = 0;
     let yy = 0;
     let tt = 0;
     let yt = 0;
@@ -59,8 +81,6 @@ export function accumulateMetrics(sums: MetricSums, y: FloatArray, t: ArrayLike<
       const a = y[p * k + j] as number;
       const b = t[p * k + j] as number;
       sse += (a - b) ** 2;
-      const c = Math.min(1 - 1e-12, Math.max(1e-12, a));
-      ce -= b * Math.log(c) + (1 - b) * Math.log(1 - c);
       yy += a * a;
       tt += b * b;
       yt += a * b;
@@ -74,8 +94,13 @@ export function accumulateMetrics(sums: MetricSums, y: FloatArray, t: ArrayLike<
         tAt = j;
       }
     }
+    const off = p * k;
     sums.sse += sse;
-    sums.crossEntropy += ce;
+    const bce = patternLoss("binary-cross-entropy", y, t, off, k);
+    const sce = patternLoss("softmax-cross-entropy", y, t, off, k);
+    sums.binaryCrossEntropy += bce;
+    sums.softmaxCrossEntropy += sce;
+    sums.loss += sums.lossName === "squared-error" ? 0.5 * sse : sums.lossName === "binary-cross-entropy" ? bce : sce;
     sums.cosine += yy > 0 && tt > 0 ? yt / Math.sqrt(yy * tt) : 0;
     if (k === 1) {
       if ((best > 0.5) === (tBest > 0.5)) sums.correct++;

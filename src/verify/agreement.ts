@@ -12,6 +12,8 @@ import { connectionRate, type Batch, type LearningRule } from "../rules/base.js"
 import type { RuleConfigInput } from "../rules/config.js";
 import { feedforwardGradient } from "../rules/feedforward.js";
 import { finiteDifferenceGradient, parameterArrays, recurrentGradient, type VerifySettling } from "./gradient.js";
+import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
+import { requireLoss, type LossName, type Objective } from "../train/loss.js";
 
 /** The exact reference a rule is compared against. @category Verification */
 export type GradientReference = "recurrent" | "finite-difference" | "feedforward";
@@ -35,6 +37,8 @@ export interface AgreementRow {
 export interface AgreementReport {
   readonly rule: string;
   readonly reference: GradientReference;
+  /** The loss whose gradient is the reference (the rule's own for rules that take a loss). */
+  readonly loss: Objective;
   readonly rows: readonly AgreementRow[];
   /** The same measures over all parameters together. */
   readonly overall: Omit<AgreementRow, "parameter" | "kind">;
@@ -69,13 +73,19 @@ export interface AgreementOptions extends VerifySettling {
   readonly reference?: GradientReference | undefined;
   /** Where the rule is looked up by name (default: the built-in rules). */
   readonly registry?: Registry | undefined;
+  /**
+   * The loss (default: the squared error). A rule that takes a loss (EqProp, backprop, the feedback
+   * alignments) is configured with it and compared with the gradient of its own cost (EqProp's `cost`
+   * and `squaredHalf` included); for the others the reference is this loss on the output state.
+   */
+  readonly loss?: LossName | undefined;
 }
 
-const AGREEMENT_OPTIONS = ["reference", "registry", "tolerance", "maxSteps"];
+const AGREEMENT_OPTIONS = ["reference", "registry", "tolerance", "maxSteps", "loss"];
 
 /**
- * Compares a rule's update on `batch` with the exact negative gradient of the squared error at
- * the free fixed point, per connection (and per learned feedback matrix and bias), and overall.
+ * Compares a rule's update on `batch` with the exact negative gradient of the loss (`options.loss`,
+ * default the squared error; see {@link AgreementOptions.loss}) at the free fixed point, per connection (and per learned feedback matrix and bias), and overall.
  * The network is not changed. Rules whose rate differs per connection are divided by that rate.
  * `rule` is a config (looked up in `options.registry`) or a rule instance bound to `net`.
  * @throws {@link EbbflowError} `invalid_parameter` for an option it does not know.
@@ -91,11 +101,15 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly
   const reference = options.reference ?? "recurrent";
   if (!(["recurrent", "finite-difference", "feedforward"] as unknown[]).includes(reference)) fail("invalid_parameter", "options.reference", "recurrent, finite-difference or feedforward", reference);
   const registry = options.registry ?? builtinRegistry;
-  const r = typeof (rule as LearningRule).computeDelta === "function" ? (rule as LearningRule) : registry.createRule(net, rule);
+  const lossName = options.loss === undefined ? undefined : requireLoss("options.loss", options.loss);
+  const r = typeof (rule as LearningRule).computeDelta === "function" ? (rule as LearningRule) : registry.createRule(net, configWithLoss(registry, rule, lossName));
   if (r.net !== net) fail("invalid_config", "rule", "a rule bound to the network checked", "a rule bound to another network");
   const descriptor = registry.rules.get(r.config.rule);
+  const loss = ruleObjective(registry, r.config, lossName);
+  if (lossName !== undefined && loss.loss !== lossName) fail("invalid_config", "rule.loss", `a rule following the loss ${lossName} (options.loss)`, loss.loss);
   const update = r.computeDelta(batch, new ParameterDelta(net));
-  const grad = reference === "recurrent" ? recurrentGradient(net, batch, options) : reference === "finite-difference" ? finiteDifferenceGradient(net, batch, options) : feedforwardGradient(net, batch);
+  const settling = { tolerance: options.tolerance, maxSteps: options.maxSteps, loss };
+  const grad = reference === "recurrent" ? recurrentGradient(net, batch, settling) : reference === "finite-difference" ? finiteDifferenceGradient(net, batch, settling) : feedforwardGradient(net, batch, undefined, loss.loss);
   const rows: AgreementRow[] = [];
   const uAll: number[] = [];
   const gAll: number[] = [];
@@ -111,7 +125,7 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly
       gAll.push(g[k] as number);
     }
   });
-  return { rule: descriptor?.label(r.config) ?? r.config.rule, reference, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
+  return { rule: descriptor?.label(r.config) ?? r.config.rule, reference, loss, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
 }
 
 /** Renders a report as a fixed-width text table. @category Verification */

@@ -24,7 +24,11 @@ import { EbbflowError, fail, issueText, describeValue, type Issue } from "../../
 export interface ResultsMetrics {
   /** Sum of squared errors over the split (>= 0). */
   readonly sse?: number;
-  /** Cross-entropy over the split (>= 0). */
+  /** Binary cross-entropy over the split (>= 0). */
+  readonly binaryCrossEntropy?: number;
+  /** Softmax (categorical) cross-entropy over the split (>= 0). */
+  readonly softmaxCrossEntropy?: number;
+  /** Binary cross-entropy, as files written before the binary and softmax forms were told apart name it (>= 0). */
   readonly crossEntropy?: number;
   /** Fraction of patterns classified correctly, in [0, 1]. */
   readonly accuracy?: number;
@@ -124,6 +128,8 @@ function readNumber(line: LineIssues, obj: Obj, field: string, prefix: string, m
 function metricRange(name: string): [number, number, string] {
   switch (name) {
     case "sse":
+    case "binaryCrossEntropy":
+    case "softmaxCrossEntropy":
     case "crossEntropy":
       return [0, Infinity, "a finite number >= 0"];
     case "accuracy":
