@@ -8,6 +8,7 @@ import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePo
 import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
 import type { Network } from "./network.js";
+import { clippedLayers } from "./clip.js";
 import { batchLoss, batchLossGradient, requireObjective, type Objective } from "../train/loss.js";
 
 /** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
@@ -158,6 +159,8 @@ export class Settler {
   private readonly scratch: FloatArray;
   private readonly clamped: boolean[];
   private readonly targetBuf: FloatArray[];
+  /** Per layer: clip its state to the unit's range (see clippedLayers). */
+  private readonly clip: boolean[];
   /** Nudging force per output layer (B×N), for costs other than the default. */
   private readonly force: FloatArray[];
   /** What the drive arrays were last computed from (null before the first phase or after a failed one). */
@@ -180,6 +183,7 @@ export class Settler {
     this.next = alloc(free);
     this.targetBuf = alloc((role) => role === "output");
     this.force = alloc((role) => role === "output");
+    this.clip = clippedLayers(net);
     this.scratch = net.allocate(Math.max(...net.layers.map((l) => l.size)));
     this.clamped = net.layers.map(() => false);
     this.newlyClamped = net.layers.map(() => false);
@@ -393,7 +397,7 @@ export class Settler {
             K.axpy(nx, eta, beta, len);
           }
           K.axpby(nx, x, nx, 1, dt, len);
-          if (dyn.clip && Number.isFinite(l.unit.lower) && Number.isFinite(l.unit.upper)) {
+          if (this.clip[i]) {
             const lo = l.unit.lower;
             const hi = l.unit.upper;
             for (let k = 0; k < len; k++) {

@@ -115,7 +115,8 @@ const dynamicsSchema = z
     maxSteps: positiveInt().default(500),
     tolerance: positive("a tolerance > 0").default(1e-6),
     bound: positive("a divergence bound > 0").default(1e6),
-    clip: z.boolean().default(false),
+    // clip energy-dynamics states to the unit's range: "auto" where that changes no fixed point (see clippedLayers)
+    clip: z.union([z.boolean(), z.literal("auto")], { error: 'true, false or "auto"' }).default("auto"),
   })
   .strict();
 
@@ -127,7 +128,7 @@ export const networkSchema = z
     seed: z.union([finite(), z.string()], { error: "a number or a string" }).default(0),
     layers: z.array(layerSchema, { error: "an array of layers" }).min(1, { error: "at least one layer" }),
     connections: z.array(connectionSchema, { error: "an array of connections" }),
-    dynamics: dynamicsSchema.default({ kind: "rate", dt: 0.2, maxSteps: 500, tolerance: 1e-6, bound: 1e6, clip: false }),
+    dynamics: dynamicsSchema.default({ kind: "rate", dt: 0.2, maxSteps: 500, tolerance: 1e-6, bound: 1e6, clip: "auto" }),
   })
   .strict();
 
