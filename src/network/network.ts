@@ -4,6 +4,7 @@
  * dtype; a connection's matrix is |to|×|from| row-major (row = receiving unit).
  * @module
  */
+import { refuseUnknownOptions } from "../errors/options.js";
 import { createUnit, type UnitFunction } from "../units/index.js";
 import { createRandom, initialise, type InitSpec } from "../random/index.js";
 import { type Dtype, type FloatArray } from "../types/index.js";
@@ -236,6 +237,7 @@ export function parameterBuffers(net: Network): FloatArray[] {
  * ```
  */
 export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: BuildOptions = {}): Network {
+  refuseUnknownOptions(options, ["allocate", "keepValues", "backend"]);
   const spec = parseNetwork(input);
   const root = createRandom(spec.seed);
   const kernels = options.backend ?? typescriptBackend;

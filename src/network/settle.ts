@@ -9,6 +9,10 @@ import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
 import type { Network } from "./network.js";
 import { clippedLayers } from "./clip.js";
+import { refuseUnknownOptions } from "../errors/options.js";
+
+/** The keys of {@link PhaseOptions} (others are refused). */
+const PHASE_OPTIONS = ["phase", "inputs", "targets", "beta", "cost", "start", "maxSteps", "tolerance", "record", "requireConvergence", "onStep", "reuseDrive"];
 import { batchLoss, batchLossGradient, requireObjective, type Objective } from "../train/loss.js";
 
 /** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
@@ -254,6 +258,7 @@ export class Settler {
   settle(options: PhaseOptions, out?: Snapshot): Snapshot {
     const { net, batch } = this;
     const dyn = net.spec.dynamics;
+    refuseUnknownOptions(options, PHASE_OPTIONS);
     const phase = options.phase;
     if (phase !== "free" && phase !== "clamped" && phase !== "nudged") fail("invalid_parameter", "phase", "free, clamped or nudged", phase);
     const maxSteps = options.maxSteps === undefined ? dyn.maxSteps : requireInteger("maxSteps", options.maxSteps, 1);

@@ -4,6 +4,7 @@
  * and a complete state for checkpoints (resuming gives bit-identical results).
  * @module
  */
+import { refuseUnknownOptions } from "../errors/options.js";
 import { z } from "zod";
 import { EbbflowError, fail, issueText } from "../errors/index.js";
 import { allocate, type FloatArray } from "../types/index.js";
@@ -150,6 +151,7 @@ export class Trainer {
 
   constructor(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>> | LearningRule, train: Dataset, options: TrainingOptionsInput, extras: TrainerExtras = {}) {
     this.net = net;
+    refuseUnknownOptions(extras, ["test", "seed", "hooks", "registry"], "extras");
     this.options = parseTraining(options);
     this.registry = extras.registry ?? builtinRegistry;
     if (isRuleInstance(rule)) {

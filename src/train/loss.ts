@@ -135,13 +135,3 @@ export function batchLoss(loss: LossName, v: ArrayLike<number>, t: ArrayLike<num
 export function batchLossGradient(loss: LossName, v: ArrayLike<number>, t: ArrayLike<number>, B: number, n: number, out: { [k: number]: number }): void {
   for (let p = 0; p < B; p++) patternLossGradient(loss, v, t, p * n, n, out);
 }
-
-/**
- * Refuses keys of an options object that a function does not know (a typo must not be silently
- * ignored). @throws {@link EbbflowError} `invalid_parameter` naming the key.
- * @category Errors
- */
-export function refuseUnknownOptions(options: object | undefined, known: readonly string[], path = "options"): void {
-  if (options === undefined || options === null) return;
-  for (const key of Object.keys(options)) if (!known.includes(key)) fail("invalid_parameter", `${path}.${key}`, `one of the options ${known.join(", ")}`, key);
-}

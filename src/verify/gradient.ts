@@ -10,7 +10,8 @@ import { Settler, type Snapshot, type LayerValues } from "../network/settle.js";
 import { ParameterDelta } from "../rules/delta.js";
 import { batchSizeOf, type Batch } from "../rules/base.js";
 import { solveInPlace } from "./linalg.js";
-import { batchLoss, DEFAULT_OBJECTIVE, patternLossGradient, refuseUnknownOptions, requireObjective, type LossName, type Objective } from "../train/loss.js";
+import { refuseUnknownOptions } from "../errors/options.js";
+import { batchLoss, DEFAULT_OBJECTIVE, patternLossGradient, requireObjective, type LossName, type Objective } from "../train/loss.js";
 
 /** Settling overrides used by the verification routines (tight by default). @category Verification */
 export interface VerifySettling {
