@@ -48,6 +48,10 @@ export const trainingSchema = z
     persistentStates: z.boolean().default(false),
     readout: z.enum(["auto", "settle", "forward"], { error: "one of auto, settle, forward" }).default("auto"),
     evaluateTrain: z.boolean().default(true),
+    // how the arg-max read-out scores an example whose largest output is tied (see TiePolicy)
+    ties: z.enum(["wrong", "first", "random"], { error: "one of wrong, first, random" }).default("wrong"),
+    // stop with a named reason when the loss is not finite or every example's outputs tie
+    guard: z.boolean().default(true),
   })
   .strict();
 
@@ -75,7 +79,7 @@ export interface EpochRecord {
 }
 
 /** Why training ended. @category Training */
-export type StopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback";
+export type StopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback" | "non-finite-loss" | "outputs-tied";
 
 /** Everything needed to resume training bit for bit (weights are saved separately in the model file). @category Training */
 export interface TrainerState {
@@ -137,6 +141,8 @@ export class Trainer {
   epoch = 0;
   readonly history: EpochRecord[] = [];
   private shuffleStream: RandomStream;
+  /** The seed of the training streams (shuffling, random tie-breaking). */
+  private readonly seed: number | string;
   private best: number | null = null;
   private sinceBest = 0;
   private readonly inputName: string;
@@ -183,7 +189,8 @@ export class Trainer {
     }
     if (problems.length > 0) throw new EbbflowError(problems);
     if (this.options.earlyStopping?.split === "test" && this.test === undefined) fail("invalid_config", "training.earlyStopping.split", '"train" (no test set was given)', "test");
-    this.shuffleStream = createRandom(extras.seed ?? net.spec.seed).child("train/shuffle");
+    this.seed = extras.seed ?? net.spec.seed;
+    this.shuffleStream = createRandom(this.seed).child("train/shuffle");
     this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && this.descriptor?.readout === "forward");
     this.order = this.forward ? forwardOrder(net) : [];
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
@@ -196,7 +203,9 @@ export class Trainer {
 
   /** Evaluates the network (free phase, or the feedforward pass) on a data set. */
   evaluate(ds: Dataset): Metrics {
-    const sums = new MetricSums(this.options.loss);
+    // random tie-breaking draws from a stream fixed by the seed, the data set's name and the epoch (no state to save)
+    const ties = this.options.ties === "random" ? createRandom(this.seed).child(`train/ties/${ds.name}/${this.epoch}`) : null;
+    const sums = new MetricSums(this.options.loss, this.options.ties, ties === null ? null : () => ties.uniform());
     const chunk = Math.min(256, ds.size);
     const k = ds.targetSize;
     for (let start = 0; start < ds.size; start += chunk) {
@@ -303,11 +312,19 @@ export class Trainer {
   }
 
   /**
-   * Checks the stop conditions after an epoch (target reached, early stopping, epoch limit) and updates
+   * Checks the stop conditions after an epoch (the guard, target reached, early stopping, epoch limit) and updates
    * the early-stopping state; returns the reason to stop, or null to go on. Call once per epoch.
    */
   stopAfter(record: EpochRecord): StopReason | null {
     const o = this.options;
+    if (o.guard) {
+      // the guard: training that has broken down stops with a name, never "successfully"
+      const m = record.train ?? record.test;
+      if (m !== undefined) {
+        if (!Number.isFinite(m.loss) || !Number.isFinite(m.sse)) return "non-finite-loss";
+        if (m.examples > 0 && m.ties === m.examples) return "outputs-tied";
+      }
+    }
     if (o.stopWhen !== undefined) {
       const m = record[o.stopWhen.split];
       if (m !== undefined) {

@@ -4,6 +4,7 @@
  */
 import type { FloatArray } from "../types/index.js";
 import { patternLoss, requireLoss, type LossName } from "./loss.js";
+import { fail } from "../errors/index.js";
 
 /** Metrics of one evaluation. @category Training */
 export type Metrics = {
@@ -19,16 +20,28 @@ export type Metrics = {
   readonly accuracy: number;
   /** Mean cosine between output and target vectors (0 for a zero vector). */
   readonly cosine: number;
-  /** Examples whose largest output was shared by two or more units (counted as wrong). */
+  /** Examples whose largest output was shared by two or more units (scored by the tie policy, see {@link TiePolicy}). */
   readonly ties: number;
   /** Number of examples. */
   readonly examples: number;
 };
 
+/**
+ * How the arg-max read-out scores an example whose largest output is shared by several units:
+ * `"wrong"` (default) counts it as wrong; `"first"` takes the first of the tied units (lowest index);
+ * `"random"` takes one of them uniformly at random from a seeded stream.
+ * @category Training
+ */
+export type TiePolicy = "wrong" | "first" | "random";
+
 /** Running sums of {@link Metrics}. @category Training */
 export class MetricSums {
   /** The loss summed into `loss`. */
   readonly lossName: LossName;
+  /** How ties for the largest output are scored. */
+  readonly tiePolicy: TiePolicy;
+  /** Uniform numbers in [0, 1) for the `"random"` tie policy. */
+  readonly uniform: (() => number) | null;
   sse = 0;
   loss = 0;
   binaryCrossEntropy = 0;
@@ -38,9 +51,16 @@ export class MetricSums {
   ties = 0;
   examples = 0;
 
-  /** Sums for the training loss `loss` (default the squared error). */
-  constructor(loss: LossName = "squared-error") {
+  /**
+   * Sums for the training loss `loss` (default the squared error) and a tie policy (default `"wrong"`;
+   * `"random"` needs `uniform`, a seeded source of numbers in [0, 1)).
+   */
+  constructor(loss: LossName = "squared-error", ties: TiePolicy = "wrong", uniform: (() => number) | null = null) {
     this.lossName = requireLoss("loss", loss);
+    if (ties !== "wrong" && ties !== "first" && ties !== "random") fail("invalid_parameter", "ties", "wrong, first or random", ties);
+    if (ties === "random" && uniform === null) fail("invalid_parameter", "uniform", "a seeded source of uniform numbers for the random tie policy", uniform);
+    this.tiePolicy = ties;
+    this.uniform = uniform;
   }
 
   /** The averaged metrics. */
@@ -63,7 +83,8 @@ export class MetricSums {
  * Adds a batch of outputs (B×K) against targets (B×K) to `sums`.
  * Readout (common practice): with one output unit, the class is `y > 0.5` against `t > 0.5`; with
  * several, the arg-max of the outputs against the arg-max of the targets. When the largest output is
- * shared by two or more units (saturated outputs tie), the example counts as wrong and as a tie.
+ * shared by two or more units (saturated outputs tie), the example counts as a tie and is scored by the
+ * sums' tie policy ({@link TiePolicy}; by default as wrong).
  * @category Training
  */
 export function accumulateMetrics(sums: MetricSums, y: FloatArray, t: ArrayLike<number>, batch: number, k: number): void {
@@ -75,6 +96,7 @@ export function accumulateMetrics(sums: MetricSums, y: FloatArray, t: ArrayLike<
     let best = Number.NEGATIVE_INFINITY;
     let bestAt = -1;
     let tied = false;
+    let count = 1;
     let tBest = Number.NEGATIVE_INFINITY;
     let tAt = -1;
     for (let j = 0; j < k; j++) {
@@ -88,7 +110,11 @@ export function accumulateMetrics(sums: MetricSums, y: FloatArray, t: ArrayLike<
         best = a;
         bestAt = j;
         tied = false;
-      } else if (a === best) tied = true;
+        count = 1;
+      } else if (a === best) {
+        tied = true;
+        count++;
+      }
       if (b > tBest) {
         tBest = b;
         tAt = j;
@@ -104,8 +130,24 @@ export function accumulateMetrics(sums: MetricSums, y: FloatArray, t: ArrayLike<
     sums.cosine += yy > 0 && tt > 0 ? yt / Math.sqrt(yy * tt) : 0;
     if (k === 1) {
       if ((best > 0.5) === (tBest > 0.5)) sums.correct++;
-    } else if (tied) sums.ties++;
-    else if (bestAt === tAt) sums.correct++;
+    } else if (tied) {
+      sums.ties++;
+      if (sums.tiePolicy === "first") {
+        if (bestAt === tAt) sums.correct++;
+      } else if (sums.tiePolicy === "random") {
+        // the r-th of the tied units, r uniform in 0 .. count−1
+        let r = Math.min(count - 1, Math.floor((sums.uniform as () => number)() * count));
+        let pick = bestAt;
+        for (let j = bestAt; j < k; j++) {
+          if ((y[p * k + j] as number) !== best) continue;
+          if (r-- === 0) {
+            pick = j;
+            break;
+          }
+        }
+        if (pick === tAt) sums.correct++;
+      }
+    } else if (bestAt === tAt) sums.correct++;
     sums.examples++;
   }
 }

@@ -67,7 +67,7 @@ export interface ResultsEpochLine {
 }
 
 /** Why a run stopped. @category Plots */
-export type ResultsStopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback";
+export type ResultsStopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback" | "non-finite-loss" | "outputs-tied";
 
 /** Optional last line of a results file. @category Plots */
 export interface ResultsEndLine {
@@ -91,7 +91,7 @@ export interface Results {
   readonly end?: ResultsEndLine | undefined;
 }
 
-const STOP_REASONS: readonly ResultsStopReason[] = ["max-epochs", "early-stopping", "target-reached", "callback"];
+const STOP_REASONS: readonly ResultsStopReason[] = ["max-epochs", "early-stopping", "target-reached", "callback", "non-finite-loss", "outputs-tied"];
 const ISO_DATE = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}(:\d{2}(\.\d+)?)?(Z|[+-]\d{2}:\d{2})$/;
 /** Slack on the bounds of accuracy and cosine, for rounding in the writer. */
 const BOUND_SLACK = 1e-9;
