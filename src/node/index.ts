@@ -11,3 +11,4 @@ export * from "./bench/index.js";
 export * from "./sweep/index.js";
 export * from "./sources.js";
 export { loadPlugins, resolvePlugin } from "./plugins.js";
+export * from "./fixed-split.js";
