@@ -197,7 +197,7 @@ function blendForm(c) {
             { perPattern: -c.lambda * k, post: [[0, 1]], pre: [[0, 1]] },
           ],
     scale: 1,
-    bias: { plus: 1, minus: 0 },
+    bias: { add: 1, subtract: 0 },
   };
 }
 

@@ -20,3 +20,6 @@ export { add, sub, mul, axpy, axpby, scale, fill, copy } from "./elementwise.js"
 export { maxAbsDiff, allFinite, maxAbs, dot, sumSquares } from "./reductions.js";
 export { addRowVector, sumRows } from "./rows.js";
 export { checkGemm, checkGemv, checkGer, kernelsChecked } from "./checked.js";
+export type { BackendName, KernelBackend } from "./backend.js";
+export { typescriptBackend } from "./typescript-backend.js";
+export { fillUnit, type UnitFillKind } from "./units.js";

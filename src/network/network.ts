@@ -5,10 +5,13 @@
  * @module
  */
 import { refuseUnknownOptions } from "../errors/options.js";
-import { createUnit, type UnitFunction } from "../units/index.js";
+import { builtinUnits } from "../units/builtins.js";
+import type { UnitRegistry } from "../units/registry.js";
+import type { UnitFunction } from "../units/spec.js";
 import { createRandom, initialise, type InitSpec } from "../random/index.js";
 import { type Dtype, type FloatArray } from "../types/index.js";
-import { typescriptBackend, type KernelBackend } from "../kernels/wasm/backend.js";
+import type { KernelBackend } from "../kernels/backend.js";
+import { typescriptBackend } from "../kernels/typescript-backend.js";
 import { fail } from "../errors/index.js";
 import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
 
@@ -81,11 +84,14 @@ export class Network {
   readonly feedbackInto: readonly (readonly Connection[])[];
   /** The kernels that settle and train this network; its arrays live where these kernels read them. */
   readonly kernels: KernelBackend;
+  /** The unit kinds its declaration was validated with (a copy or a rebuild of the network uses the same). */
+  readonly units: UnitRegistry;
 
   /** @internal Use {@link buildNetwork}. */
-  constructor(spec: NetworkSpec, layers: Layer[], connections: Connection[], kernels: KernelBackend = typescriptBackend) {
+  constructor(spec: NetworkSpec, layers: Layer[], connections: Connection[], kernels: KernelBackend = typescriptBackend, units: UnitRegistry = builtinUnits) {
     this.spec = spec;
     this.kernels = kernels;
+    this.units = units;
     this.dtype = spec.dtype;
     this.layers = layers;
     this.connections = connections;
@@ -138,7 +144,7 @@ export class Network {
   /** A deep copy whose settling dynamics are changed by `patch` (same parameters, bit for bit). */
   withDynamics(patch: Partial<NetworkSpec["dynamics"]>): Network {
     const copy = this.clone();
-    return new Network(parseNetwork({ ...this.spec, dynamics: { ...this.spec.dynamics, ...patch } }), copy.layers as Layer[], copy.connections as Connection[], this.kernels);
+    return new Network(parseNetwork({ ...this.spec, dynamics: { ...this.spec.dynamics, ...patch } }, this.units), copy.layers as Layer[], copy.connections as Connection[], this.kernels, this.units);
   }
 
   /** A deep copy (same spec, copied parameter arrays). */
@@ -154,7 +160,7 @@ export class Network {
       weights: dup(c.weights),
       feedback: c.feedback.kind === "separate" ? { ...c.feedback, weights: dup(c.feedback.weights) } : c.feedback,
     }));
-    return new Network(this.spec, layers, connections, this.kernels);
+    return new Network(this.spec, layers, connections, this.kernels, this.units);
   }
 }
 
@@ -174,6 +180,13 @@ export interface BuildOptions {
    * computes on them in place with no copy per settling step.
    */
   readonly backend?: KernelBackend | undefined;
+  /**
+   * The unit kinds layers may name (default: the built-in kinds, `builtinUnits`). A layer naming
+   * a kind the registry does not know is refused (`unknown_name` at `layers[i].unit.kind`);
+   * add a kind with `builtinUnits.with(descriptor)`. Model files and checkpoints that name a
+   * user's kind load only with a registry that has it.
+   */
+  readonly units?: UnitRegistry | undefined;
 }
 
 /**
@@ -225,7 +238,8 @@ export function parameterBuffers(net: Network): FloatArray[] {
  * Weights come from the declaration's `weights` array when given, otherwise
  * from its initialiser drawing on the sub-stream `weights/<from>-><to>` of
  * the seed, so adding a connection never changes another's weights.
- * @throws {@link EbbflowError} `invalid_config` listing every problem.
+ * @throws {@link EbbflowError} `invalid_config` listing every problem; `unknown_name` for a
+ *   unit kind that `options.units` does not know.
  * @category Network
  * @example
  * ```ts
@@ -237,8 +251,9 @@ export function parameterBuffers(net: Network): FloatArray[] {
  * ```
  */
 export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: BuildOptions = {}): Network {
-  refuseUnknownOptions(options, ["allocate", "keepValues", "backend"]);
-  const spec = parseNetwork(input);
+  refuseUnknownOptions(options, ["allocate", "keepValues", "backend", "units"]);
+  const units = options.units ?? builtinUnits;
+  const spec = parseNetwork(input, units);
   const root = createRandom(spec.seed);
   const kernels = options.backend ?? typescriptBackend;
   const alloc = options.allocate ?? ((dtype: Dtype, n: number) => kernels.allocate(dtype, n));
@@ -248,13 +263,7 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
       // values come with the allocator's arrays
     } else if (Array.isArray(ls.bias)) bias.set(ls.bias);
     else bias.fill(ls.bias);
-    let unit: UnitFunction;
-    try {
-      unit = createUnit(ls.unit);
-    } catch (e) {
-      const err = e as { path?: string };
-      return fail("invalid_config", `layers[${index}].unit${err.path ? `.${err.path}` : ""}`, "valid unit parameters", ls.unit, String((e as Error).message));
-    }
+    const unit: UnitFunction = units.create(ls.unit, `layers[${index}].unit`);
     return { index, name: ls.name, size: ls.size, role: ls.role, unit, bias, inhibition: ls.inhibition, spec: ls };
   });
   const byName = new Map(layers.map((l) => [l.name, l]));
@@ -278,5 +287,5 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
     } else feedback = cs.feedback;
     return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label };
   });
-  return new Network(spec, layers, connections, kernels);
+  return new Network(spec, layers, connections, kernels, units);
 }

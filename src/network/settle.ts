@@ -6,7 +6,7 @@
  */
 import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
+import { fillUnit, unitKernelArgs } from "../kernels/units.js";
 import type { Network } from "./network.js";
 import { clippedLayers } from "./clip.js";
 import { refuseUnknownOptions } from "../errors/options.js";
@@ -15,7 +15,7 @@ import { refuseUnknownOptions } from "../errors/options.js";
 const PHASE_OPTIONS = ["phase", "inputs", "targets", "beta", "cost", "start", "maxSteps", "tolerance", "record", "requireConvergence", "onStep", "reuseDrive"];
 import { batchLoss, batchLossGradient, requireObjective, type Objective } from "../train/loss.js";
 
-/** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
+/** The three phases: free (the prediction: only inputs clamped), clamped and nudged (target-driven states: outputs clamped to, or pulled toward, the targets). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
 
 /** Per-layer values for a batch: layer name → B×N flat array (row = pattern). @category Settling */

@@ -36,7 +36,7 @@ function additionsOf(mod: Record<string, unknown>, at: string): RegistryAddition
  * Imports plugin modules and returns `base` (default: the built-in rules) with their rules added; the
  * resolved module addresses are recorded in {@link Registry.plugins} so that worker threads import the same
  * modules. Relative paths are resolved against `baseDir` (default: the working directory).
- * @throws {@link EbbflowError} `io_error` for a module that cannot be imported (naming it), `invalid_config`
+ * @throws EbbflowError `io_error` for a module that cannot be imported (naming it), `invalid_config`
  *   for a module without `rules` or with a malformed or duplicate rule (all problems at once).
  * @category Files
  * @example

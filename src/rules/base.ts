@@ -4,7 +4,7 @@
  */
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import type { KernelBackend } from "../kernels/wasm/backend.js";
+import type { KernelBackend } from "../kernels/backend.js";
 import type { Connection, Network } from "../network/network.js";
 import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";

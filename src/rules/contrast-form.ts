@@ -2,7 +2,7 @@
  * Contrast forms: a rule's change for a whole batch written as sums of products of phase activities,
  * `ΔW = Σ_k (c_k / B) · P_kᵀ Q_k`, where each `P_k` (receiving side) and `Q_k` (sending side) is a linear
  * combination of one layer's activities in the settled phases, and biases change by
- * `(c / B) · Σ_patterns (a_plus − a_minus)`. Contrastive Hebbian learning, GeneRec, the Xie–Seung scaling
+ * `(c / B) · Σ_patterns (activity[add] − activity[subtract])`. Contrastive Hebbian learning, GeneRec, the Xie–Seung scaling
  * and Equilibrium Propagation all have this form (their descriptors say how); a user's rule may be
  * declared by its form alone ({@link FormRule}).
  *
@@ -14,7 +14,7 @@
  */
 import type { Objective } from "../train/loss.js";
 import type { FloatArray } from "../types/index.js";
-import type { KernelBackend } from "../kernels/wasm/backend.js";
+import type { KernelBackend } from "../kernels/backend.js";
 import type { Network } from "../network/network.js";
 import type { Phase, PhaseOptions, Snapshot } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";
@@ -71,8 +71,8 @@ export interface ContrastForm {
   products(k: number, input: boolean): readonly Product[];
   /** Factor on every learning rate (EqProp's 1/β; 1 for CHL and GeneRec). */
   readonly scale: number;
-  /** The bias change of a layer is `(rate · scale · factor / B) Σ (activity[plus] − activity[minus])`. */
-  readonly bias: { readonly plus: number; readonly minus: number };
+  /** The bias change of a layer is `(rate · scale · factor / B) Σ (activity[add] − activity[subtract])` (phase indices). */
+  readonly bias: { readonly add: number; readonly subtract: number };
   /** Factors on the rates of each receiving layer, by layer index (the Xie–Seung γ^(k−L)); default 1. */
   readonly layerFactors?: readonly number[] | undefined;
 }
@@ -89,13 +89,15 @@ export interface ConnectionPlan {
   readonly products: readonly Product[];
 }
 
-/** The change of one layer's biases: `(perPattern / B) · Σ_patterns (a_plus − a_minus)`. @category Rules */
+/** The change of one layer's biases: `(perPattern / B) · Σ_patterns (activity[add] − activity[subtract])`. @category Rules */
 export interface BiasPlan {
   readonly layer: number;
   readonly n: number;
   readonly perPattern: number;
-  readonly plus: number;
-  readonly minus: number;
+  /** Phase whose activity is added. */
+  readonly add: number;
+  /** Phase whose activity is subtracted. */
+  readonly subtract: number;
   /** False when every connection into the layer is frozen: its biases do not change (the change is still reported). */
   readonly trained: boolean;
 }
@@ -136,7 +138,7 @@ export function contrastPlan(net: Network, config: RuleConfigBase, form: Contras
     .filter((l) => l.role !== "input")
     .map((l) => {
       const into = net.incoming[l.index] ?? [];
-      return { layer: l.index, n: l.size, perPattern: config.rate * form.scale * factor(l.index), plus: form.bias.plus, minus: form.bias.minus, trained: !(into.length > 0 && into.every((c) => c.spec.frozen)) };
+      return { layer: l.index, n: l.size, perPattern: config.rate * form.scale * factor(l.index), add: form.bias.add, subtract: form.bias.subtract, trained: !(into.length > 0 && into.every((c) => c.spec.frozen)) };
     });
   const L = net.layers.length;
   return { phases: form.phases, connections, biases, senders, statsStride: form.phases.length * L + 1 + net.connections.length + L };
@@ -209,8 +211,8 @@ export function contrastRows(k: KernelBackend, plan: ContrastPlan, arrays: Phase
   for (const bp of plan.biases) {
     if (target.add && !bp.trained) continue;
     const [j0, j1] = rowBlock(bp.n, part, parts);
-    const a = arrays.byUnit[bp.plus]![bp.layer] as FloatArray;
-    const b = arrays.byUnit[bp.minus]![bp.layer] as FloatArray;
+    const a = arrays.byUnit[bp.add]![bp.layer] as FloatArray;
+    const b = arrays.byUnit[bp.subtract]![bp.layer] as FloatArray;
     const out = target.biases[bp.layer] as FloatArray;
     const alpha = (scale * bp.perPattern) / B;
     for (let j = j0; j < j1; j++) {
@@ -256,7 +258,7 @@ export function provablyFinite(plan: ContrastPlan, stats: Float64Array, slices: 
   }
   for (const bp of plan.biases) {
     if (!bp.trained) continue;
-    const bound = Math.abs(scale * bp.perPattern) * (max(stat.phase(L, bp.plus, bp.layer)) + max(stat.phase(L, bp.minus, bp.layer)));
+    const bound = Math.abs(scale * bp.perPattern) * (max(stat.phase(L, bp.add, bp.layer)) + max(stat.phase(L, bp.subtract, bp.layer)));
     if (!Number.isFinite(bound) || !(max(stat.bias(plan, L, C, bp.layer)) + bound < largest)) return false;
   }
   return true;

@@ -1,6 +1,6 @@
 /**
- * Phase-difference rules on two settled states, the expectation (free) and
- * the outcome (clamped): CHL, GeneRec and its variants, Xie–Seung scaled CHL,
+ * Phase-difference rules on two settled states, the prediction (free) and
+ * the target-driven state (clamped): CHL, GeneRec and its variants, Xie–Seung scaled CHL,
  * and the sliding-threshold calcium rule.
  * @module
  */
@@ -20,6 +20,8 @@ import { layerArraysSchema, layerArraysState } from "./state.js";
 
 const positive = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
 const nonNegative = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v >= 0, { error: what });
+/** A key that was renamed: refused with a message naming its new spelling (it is never read). */
+const renamed = (was: string, now: string) => z.never({ error: `the key ${now} (${was} was renamed ${now})` }).optional();
 
 const chlSchema = z.object({ rule: z.literal("chl"), ...commonRuleFields }).strict();
 const xieSeungSchema = z.object({ rule: z.literal("xie-seung"), gamma: nonNegative("a feedback gain gamma >= 0").optional(), ...commonRuleFields }).strict();
@@ -34,8 +36,12 @@ const calciumSchema = z
   .object({
     rule: z.literal("calcium"),
     trough: z.number().refine((v) => v > 0 && v < 1, { error: "a trough position in the open interval (0, 1)" }).default(0.05),
-    threshold: z.enum(["error", "bcm", "mix"], { error: "one of error, bcm, mix" }).default("error"),
-    mix: z.number().refine((v) => v >= 0 && v <= 1, { error: "a mix weight in [0, 1]" }).default(0.9),
+    threshold: z
+      .enum(["error", "bcm", "blend"], { error: (i) => (i.input === "mix" ? 'one of error, bcm, blend ("mix" was renamed "blend")' : "one of error, bcm, blend") })
+      .default("error"),
+    // share of the error-driven threshold in a blend, in [0, 1]
+    errorShare: z.number().refine((v) => v >= 0 && v <= 1, { error: "an error-driven share in [0, 1]" }).default(0.9),
+    mix: renamed("mix", "errorShare"),
     timing: z.enum(["phases", "continuous"], { error: "one of phases, continuous" }).default("phases"),
     fastTau: positive("a time constant > 0 (settling steps)").default(1),
     slowTau: positive("a time constant > 0 (settling steps)").default(20),
@@ -136,7 +142,7 @@ export class ContrastiveHebbian extends SettlingRule {
 }
 
 /** CHL changes from a free and a clamped snapshot (batch-averaged), with per-layer factors. */
-function chlFromSnapshots(net: Network, config: Cfg<"chl"> | Cfg<"xie-seung">, factors: readonly number[], minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, scratchFor: (layer: number) => FloatArray): ParameterDelta {
+function chlFromSnapshots(net: Network, config: Cfg<"chl"> | Cfg<"xie-seung">, factors: readonly number[], free: Snapshot, clamped: Snapshot, B: number, out: ParameterDelta, scratchFor: (layer: number) => FloatArray): ParameterDelta {
   out.clear();
   for (const c of net.connections) {
     if (c.spec.frozen) continue;
@@ -145,12 +151,12 @@ function chlFromSnapshots(net: Network, config: Cfg<"chl"> | Cfg<"xie-seung">, f
     const alpha = (connectionRate(config, c) * (factors[c.to] as number)) / B;
     if (alpha === 0) continue;
     const clampedPre = net.layers[c.from]!.role === "input";
-    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m, clampedPre, scratchFor(c.to));
+    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, clamped.activity[c.to] as FloatArray, clamped.activity[c.from] as FloatArray, free.activity[c.to] as FloatArray, free.activity[c.from] as FloatArray, B, n, m, clampedPre, scratchFor(c.to));
     transposeInto(out.feedback[c.index] ?? null, out.weights[c.index] as FloatArray, n, m);
   }
   for (const l of net.layers) {
     if (l.role === "input") continue;
-    contrastBias(out.biases[l.index] as FloatArray, (config.rate * (factors[l.index] as number)) / B, plus.activity[l.index] as FloatArray, minus.activity[l.index] as FloatArray, B, l.size);
+    contrastBias(out.biases[l.index] as FloatArray, (config.rate * (factors[l.index] as number)) / B, clamped.activity[l.index] as FloatArray, free.activity[l.index] as FloatArray, B, l.size);
   }
   return out;
 }
@@ -208,11 +214,11 @@ export class GeneRec extends SettlingRule {
 }
 
 /** GeneRec changes from snapshots (exported for the arithmetic checks). */
-export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, diff: FloatArray[], mid: FloatArray[]): ParameterDelta {
+export function generecFromSnapshots(net: Network, config: Cfg<"generec">, free: Snapshot, clamped: Snapshot, B: number, out: ParameterDelta, diff: FloatArray[], mid: FloatArray[]): ParameterDelta {
   out.clear();
   for (const l of net.layers) {
-    const a = plus.activity[l.index] as FloatArray;
-    const b = minus.activity[l.index] as FloatArray;
+    const a = clamped.activity[l.index] as FloatArray;
+    const b = free.activity[l.index] as FloatArray;
     const d = diff[l.index] as FloatArray;
     const h = mid[l.index] as FloatArray;
     for (let k = 0; k < d.length; k++) {
@@ -230,27 +236,28 @@ export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus
     const w = out.weights[c.index] as FloatArray;
     const dy = diff[c.to] as FloatArray;
     const dx = diff[c.from] as FloatArray;
-    if (variant === "basic" || variant === "symmetric") gemm(w, dy, minus.activity[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
+    if (variant === "basic" || variant === "symmetric") gemm(w, dy, free.activity[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
     else gemm(w, dy, mid[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
-    if (variant === "symmetric") gemm(w, minus.activity[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
+    if (variant === "symmetric") gemm(w, free.activity[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
     else if (variant === "symmetric-midpoint") gemm(w, mid[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
     transposeInto(out.feedback[c.index] ?? null, w, n, m);
   }
   for (const l of net.layers) {
     if (l.role === "input") continue;
-    contrastBias(out.biases[l.index] as FloatArray, config.rate / B, plus.activity[l.index] as FloatArray, minus.activity[l.index] as FloatArray, B, l.size);
+    contrastBias(out.biases[l.index] as FloatArray, config.rate / B, clamped.activity[l.index] as FloatArray, free.activity[l.index] as FloatArray, B, l.size);
   }
   return out;
 }
 
 /**
  * The sliding-threshold calcium rule: `ΔW_ij = ε · curve(fast coactivity, θ_ij)` with the
- * piecewise-linear calcium curve (after Shouval, Bear & Cooper 2002, PNAS 99:10831) and θ from
- * - `error`: a slower trace of the same coactivity (the expectation), so in the curve's linear
- *   region the change is outcome minus expectation (CHL);
+ * piecewise-linear form of the calcium-control curve (see {@link calciumCurve} for its sources:
+ * Lisman 1989; Artola, Bröcher & Singer 1990; Shouval, Bear & Cooper 2002) and θ from
+ * - `error`: a slower trace of the same coactivity (led by the free state, the prediction), so in
+ *   the curve's linear region the change is clamped minus free (CHL);
  * - `bcm`: the receiving unit's long-term average activity times the sending activity
  *   (self-organising, after Bienenstock, Cooper & Munro 1982, J. Neurosci. 2:32);
- * - `mix`: `mix·θ_error + (1 − mix)·θ_bcm`.
+ * - `blend`: `errorShare·θ_error + (1 − errorShare)·θ_bcm`.
  *
  * With `timing: "phases"` the fast coactivity is the clamped-phase product and the slower one the
  * free-phase product. With `timing: "continuous"` per-unit traces are updated on every settling step of
@@ -368,7 +375,7 @@ export class SlidingThresholdRule extends SettlingRule {
       for (const l of net.layers) (this.averageTraces[l.index] as VectorTrace).value.set(meanRows(this.means[l.index] as Float64Array, slow[l.index] as FloatArray, B, l.size));
       this.averagesStarted = true;
     }
-    const wErr = cfg.threshold === "error" ? 1 : cfg.threshold === "bcm" ? 0 : cfg.mix;
+    const wErr = cfg.threshold === "error" ? 1 : cfg.threshold === "bcm" ? 0 : cfg.errorShare;
     for (const c of net.connections) {
       if (c.spec.frozen) continue;
       const n = net.layers[c.to]!.size;
@@ -441,24 +448,24 @@ function learnsSeparateFeedback(net: Network): boolean {
 /** The phases of CHL and GeneRec: free, then clamped from the free state with its drive carried over. */
 const FREE_CLAMPED: ContrastForm["phases"] = [{ phase: "free" }, { phase: "clamped", reuseDrive: true }];
 
-/** `k · (P_plusᵀ Q_plus − P_minusᵀ Q_minus)`, or `k · (P_plus − P_minus)ᵀ X` for an input sender. */
-export function phaseContrast(plus: number, minus: number): (k: number, input: boolean) => Product[] {
+/** `k · (P_addᵀ Q_add − P_subtractᵀ Q_subtract)` between two phases, or `k · (P_add − P_subtract)ᵀ X` for an input sender. */
+export function phaseContrast(add: number, subtract: number): (k: number, input: boolean) => Product[] {
   const diff: Combination = [
-    [plus, 1],
-    [minus, -1],
+    [add, 1],
+    [subtract, -1],
   ];
   return (k, input) =>
     input
       ? [{ perPattern: k, post: diff, pre: "input" }]
       : [
-          { perPattern: k, post: [[plus, 1]], pre: [[plus, 1]] },
-          { perPattern: -k, post: [[minus, 1]], pre: [[minus, 1]] },
+          { perPattern: k, post: [[add, 1]], pre: [[add, 1]] },
+          { perPattern: -k, post: [[subtract, 1]], pre: [[subtract, 1]] },
         ];
 }
 
 /** CHL (and Xie–Seung) as a contrast form: phase 0 free, phase 1 clamped. */
 function chlForm(layerFactors?: readonly number[]): ContrastForm {
-  return { phases: FREE_CLAMPED, products: phaseContrast(1, 0), scale: 1, bias: { plus: 1, minus: 0 }, layerFactors };
+  return { phases: FREE_CLAMPED, products: phaseContrast(1, 0), scale: 1, bias: { add: 1, subtract: 0 }, layerFactors };
 }
 
 /** Contrastive Hebbian learning. @category Rules */
@@ -516,7 +523,7 @@ export const generecRule = defineRule({
       if (!input && v === "symmetric-midpoint") out.push({ perPattern: k, post: mid, pre: diff });
       return out;
     };
-    return { phases: FREE_CLAMPED, products, scale: 1, bias: { plus: 1, minus: 0 } };
+    return { phases: FREE_CLAMPED, products, scale: 1, bias: { add: 1, subtract: 0 } };
   },
   create: (net, c) => new GeneRec(net, c),
 });
@@ -524,12 +531,12 @@ export const generecRule = defineRule({
 /** The sliding-threshold calcium rule. @category Rules */
 export const calciumRule = defineRule({
   name: "calcium",
-  summary: "sliding-threshold calcium rule: ε·curve(fast coactivity, θ), θ from a slower trace (error), a long postsynaptic average (BCM-like) or a mix",
+  summary: "sliding-threshold calcium rule: ε·curve(fast coactivity, θ), a piecewise-linear form of the calcium-control curve (Lisman 1989; Artola, Bröcher & Singer 1990; Shouval, Bear & Cooper 2002); θ from a slower trace (error), a long postsynaptic average (bcm, after Bienenstock, Cooper & Munro 1982) or a blend of the two",
   schema: calciumSchema,
   phases: () => ["free", "clamped"],
   label: (c) => c.rule,
   readout: "settle",
-  // the long-term averages of the bcm and mix thresholds change from batch to batch
+  // the long-term averages of the bcm and blend thresholds change from batch to batch
   split: (c) => (c.threshold === "error" ? "slices" : "none"),
   state: layerArraysSchema("averages"),
   create: (net, c) => new SlidingThresholdRule(net, c),

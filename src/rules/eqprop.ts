@@ -187,8 +187,8 @@ export const eqpropRule = defineRule({
     if (c.mode === "random-sign") return null;
     const symmetric = c.mode === "symmetric";
     // symmetric: (ε/2β)(ρρ^{+β} − ρρ^{−β}) from phases 1 and 2; one-sided: (ε/β)(ρρ^{β} − ρρ^{0}) from phases 1 and 0
-    const minus = symmetric ? 2 : 0;
-    return { phases: eqpropPhases(c), products: phaseContrast(1, minus), scale: symmetric ? 1 / (2 * c.beta) : 1 / c.beta, bias: { plus: 1, minus } };
+    const subtract = symmetric ? 2 : 0;
+    return { phases: eqpropPhases(c), products: phaseContrast(1, subtract), scale: symmetric ? 1 / (2 * c.beta) : 1 / c.beta, bias: { add: 1, subtract } };
   },
   state: eqpropState,
   create: (net, c) => new EquilibriumPropagation(net, c),

@@ -6,7 +6,7 @@
 import { z } from "zod";
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import { fillUnit } from "../kernels/wasm/units.js";
+import { fillUnit } from "../kernels/units.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta } from "./delta.js";
@@ -26,7 +26,14 @@ const directFeedbackAlignmentSchema = z
     ...commonRuleFields,
   })
   .strict();
-type FeedforwardConfig = z.output<typeof backpropSchema> | z.output<typeof feedbackAlignmentSchema> | z.output<typeof directFeedbackAlignmentSchema>;
+/** The config of a rule on the feedforward pass (backprop, feedback alignment, direct feedback alignment). @category Rules */
+export interface FeedforwardConfig extends RuleConfigBase {
+  readonly rule: "backprop" | "feedback-alignment" | "direct-feedback-alignment";
+  /** Direct feedback alignment: scale of the fixed random feedback matrices. */
+  readonly scale?: number | undefined;
+  /** The loss whose output error the rule sends back (default the squared error). */
+  readonly loss: LossName;
+}
 import type { Snapshot } from "../network/settle.js";
 
 /** Layers in an order where every forward connection goes from an earlier to a later layer. @category Rules */
@@ -226,7 +233,7 @@ export class FeedforwardRule implements LearningRule {
     const root = createRandom(net.spec.seed);
     this.direct = net.layers.map((l) => {
       if (this.carrier !== "direct" || l.role !== "hidden") return null;
-      const scale = config.rule === "direct-feedback-alignment" ? config.scale : 1;
+      const scale = config.rule === "direct-feedback-alignment" ? (config.scale ?? 1) : 1;
       return fillNormal(net.allocate(l.size * total), root.child(`direct-feedback/${l.name}`), 0, scale / Math.sqrt(total));
     });
     // feedback alignment: each connection's own separate feedback matrix, or else a fixed random one of the rule's

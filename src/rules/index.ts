@@ -7,6 +7,7 @@ import type { LearningRule } from "./base.js";
 import { builtinRegistry, type Registry } from "./registry.js";
 
 export * from "./config.js";
+export * from "./names.js";
 export * from "./delta.js";
 export * from "./base.js";
 export * from "./descriptor.js";
@@ -15,7 +16,7 @@ export * from "./contrast-form.js";
 export * from "./loss-config.js";
 export { ContrastiveHebbian, GeneRec, SlidingThresholdRule, generecFromSnapshots, layerDepths, xieSeungFactors, phaseContrast, chlRule, xieSeungRule, generecRule, calciumRule } from "./contrastive.js";
 export { EquilibriumPropagation, eqpropRule } from "./eqprop.js";
-export { FeedforwardRule, feedforwardGradient, forwardOrder, createForwardPass, runForward, type ForwardPass, backpropRule, feedbackAlignmentRule, directFeedbackAlignmentRule } from "./feedforward.js";
+export { FeedforwardRule, feedforwardGradient, forwardOrder, createForwardPass, runForward, type ForwardPass, type FeedforwardConfig, backpropRule, feedbackAlignmentRule, directFeedbackAlignmentRule } from "./feedforward.js";
 export { BcmRule, bcmRule } from "./bcm.js";
 export { PredictiveCoding, predictiveCodingRule } from "./predictive.js";
 

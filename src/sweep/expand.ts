@@ -5,9 +5,9 @@
  * id (key order in the files does not matter) and a sweep can be resumed without doing a run twice.
  * @module
  */
-import { EbbflowError, describeValue, issueText, type Issue } from "../errors/index.js";
+import { EbbflowError, describeValue, formatPath, issueText, type Issue } from "../errors/index.js";
 import { parseExperiment, type Experiment } from "../config/experiment.js";
-import { formatPath, type NetworkSpec } from "../network/spec.js";
+import type { NetworkSpec } from "../network/spec.js";
 import { builtinRegistry, type AnyRuleConfig, type Registry } from "../rules/registry.js";
 import { parseTraining, type TrainingOptions } from "../train/loop.js";
 import { createRandom } from "../random/index.js";

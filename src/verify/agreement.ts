@@ -37,6 +37,7 @@ export interface AgreementRow {
 
 /** A gradient-agreement report. @category Verification */
 export interface AgreementReport {
+  /** The rule's display name ({@link ruleDisplayName}: id, with variant or mode). */
   readonly rule: string;
   readonly reference: GradientReference;
   /** The loss whose gradient is the reference (the rule's own for rules that take a loss). */

@@ -81,7 +81,7 @@ describe("fixed train/test splits", () => {
     const b = run(["--out", "b", "--data", "plain.csv", "--train-index", "train.idx", "--test-index", "test.idx"]);
     expect(b.status, b.stderr).toBe(0);
     expect(JSON.parse(b.stdout).test.examples).toBe(2);
-    const header = readResults(readFileSync(path.join(dir, "b", "results.jsonl"), "utf8"), "results.jsonl").header as { config: { data: { split: unknown } } };
+    const header = readResults(readFileSync(path.join(dir, "b", "results.jsonl"), "utf8"), "results.jsonl").header as unknown as { config: { data: { split: unknown } } };
     expect(header.config.data.split).toEqual({ train: "train.idx", test: "test.idx" });
     const c = run(["--out", "c", "--data", "plain.csv", "--train-index", "train.idx"]);
     expect(c.status).not.toBe(0);

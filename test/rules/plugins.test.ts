@@ -119,6 +119,16 @@ describe("rules of a user's own, by name", () => {
     expect(blend.ruleLabel).toBe("blended-contrast (λ=0.3)");
   });
 
+  it("the Trainer also takes a rule instance (bound to its network), labelled with its own config's name", async () => {
+    const registry = await loadPlugins([pluginFile]);
+    const net = buildNetwork(declaration(7));
+    const instance = registry.createRule(net, { rule: "reward-hebbian", rate: 0.1 });
+    const trainer = new Trainer(net, instance, flowers(), { epochs: 1, batchSize: 4 }, { registry });
+    expect(trainer.rule).toBe(instance);
+    expect(trainer.ruleLabel).toBe("reward-hebbian");
+    expect(() => new Trainer(buildNetwork(declaration(7)), instance, flowers(), { epochs: 1 })).toThrow(expect.objectContaining({ code: "invalid_config", path: "rule" }));
+  });
+
   it("resume from a checkpoint is bit-identical, with the rule's own state restored", async () => {
     const registry = await loadPlugins([pluginFile]);
     const data = flowers();
@@ -245,7 +255,7 @@ describe("rules of a user's own, by name", () => {
     const plan = await loadSweepFile(path.join(dir, "forage.sweep.json"));
     expect(plan.plugins).toEqual([pathToFileURL(pluginFile).href]);
     const report = await runSweepLocally(plan, { out: path.join(dir, "sweep"), workers: 2 });
-    expect(report.failed, JSON.stringify(report.outcomes)).toBe(0);
+    expect(report.failed, JSON.stringify(report.runs)).toBe(0);
     expect(report.finished).toBe(4);
     const results = await loadResults(path.join(dir, "sweep", "runs", plan.runs[0]!.id, "results.jsonl"));
     expect((results.header.config as { rule: { rule: string } }).rule.rule).toBe("reward-hebbian");

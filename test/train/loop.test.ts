@@ -118,7 +118,7 @@ describe("the training loop", () => {
   });
 
   it("resuming is bit-identical for the sliding-threshold rule with a BCM-like threshold (running averages saved)", async () => {
-    await resumeCase({ rule: "calcium", rate: 0.2, threshold: "mix" }, "rate", false);
+    await resumeCase({ rule: "calcium", rate: 0.2, threshold: "blend" }, "rate", false);
   });
 
   it("early stopping ends training when the held-out error stops improving", () => {

@@ -26,7 +26,8 @@ import { buildNetwork, parameterBuffers, parameterSlots, slotArray, type Network
 import type { NetworkSpec } from "../../network/spec.js";
 import { applyDelta, builtinRegistry, contrastRows, ParameterDelta, type AnyRuleConfig, type Batch, type ContrastPlan, type ContrastScratch, type PhaseArrays, type Registry, type RuleConfigInput } from "../../rules/index.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
-import { checkAllocation, typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
+import { checkAllocation, type KernelBackend } from "../../kernels/backend.js";
+import { typescriptBackend } from "../../kernels/typescript-backend.js";
 import { loadWasmKernelsSync } from "../../kernels/wasm/loader.js";
 import type { WasmSharedMemory } from "../../kernels/wasm/wasm-backend.js";
 import {

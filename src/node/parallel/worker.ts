@@ -18,7 +18,8 @@ import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../../ne
 import { contrastRows, ParameterDelta, provablyFinite, publishParameterMaxima, publishPhases, settlePlanPhases, type ContrastPlan, type ContrastScratch, type LearningRule, type PhaseArrays, type Registry } from "../../rules/index.js";
 import { loadPlugins } from "../plugins.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
-import { typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
+import type { KernelBackend } from "../../kernels/backend.js";
+import { typescriptBackend } from "../../kernels/typescript-backend.js";
 import { loadWasmKernelsSync } from "../../kernels/wasm/loader.js";
 import type { WasmKernelBackend } from "../../kernels/wasm/wasm-backend.js";
 import {

@@ -33,7 +33,7 @@ export interface RunTask {
 }
 
 /** What became of a run. @category Sweeps */
-export interface RunOutcome {
+export interface RunReport {
   readonly index: number;
   readonly id: string;
   /** `finished` now, `skipped` because it had finished before, or `failed`. */
@@ -60,12 +60,12 @@ interface CheckpointNote {
 
 /**
  * Executes one run of a sweep (see the module notes). Errors do not throw: they are returned in the
- * outcome and recorded in the run's `failure.json`.
+ * report and recorded in the run's `failure.json`.
  * @param task - The run, the sweep folder, the data folder and the checkpoint interval.
- * @returns The outcome.
+ * @returns The run's report.
  * @category Sweeps
  */
-export async function executeRun(task: RunTask): Promise<RunOutcome> {
+export async function executeRun(task: RunTask): Promise<RunReport> {
   const { run } = task;
   const files = runFiles(task.dir, run.id);
   let resumedFrom = 0;
