@@ -17,6 +17,7 @@ import { createForwardPass, forwardOrder, runForward, type ForwardPass } from ".
 import type { Dataset } from "./data/index.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
 import { lossNameSchema } from "./loss.js";
+import { Optimiser, optimiserSchema, type OptimiserState } from "./optimiser.js";
 import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
 import { scheduleFactor, scheduleSchema } from "./schedule.js";
 
@@ -52,6 +53,8 @@ export const trainingSchema = z
     ties: z.enum(["wrong", "first", "random"], { error: "one of wrong, first, random" }).default("wrong"),
     // stop with a named reason when the loss is not finite or every example's outputs tie
     guard: z.boolean().default(true),
+    // an optimiser applied to the rule's change (momentum, Adam, weight decay, bias rates per layer); none by default
+    optimiser: optimiserSchema.optional(),
   })
   .strict();
 
@@ -91,6 +94,8 @@ export interface TrainerState {
   readonly sinceBest: number;
   /** Persistent free-phase states per non-input layer, n×size, when enabled. */
   readonly persistent: (number[] | null)[] | null;
+  /** The optimiser's step count and moments, when `training.optimiser` is set. */
+  readonly optimiser?: OptimiserState | null | undefined;
 }
 
 /** Callbacks of a {@link Trainer}. @category Training */
@@ -151,6 +156,8 @@ export class Trainer {
   private readonly order: number[];
   private readonly persistent: (FloatArray | null)[] | null;
   private readonly forward: boolean;
+  /** The optimiser applied to the rule's change (null: the rule's own step). */
+  readonly optimiser: Optimiser | null;
   private evalSettlers = new Map<number, Settler>();
   private evalPasses = new Map<number, ForwardPass>();
   private starts = new Map<number, Snapshot>();
@@ -193,6 +200,7 @@ export class Trainer {
     this.shuffleStream = createRandom(this.seed).child("train/shuffle");
     this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && this.descriptor?.readout === "forward");
     this.order = this.forward ? forwardOrder(net) : [];
+    this.optimiser = this.options.optimiser === undefined ? null : new Optimiser(net, this.rule, this.options.optimiser);
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
   }
 
@@ -293,7 +301,12 @@ export class Trainer {
       this.gather(idx, from, B, inBuf, tBuf);
       const batch = { inputs: { [this.inputName]: inBuf.subarray(0, B * ds.inputSize) }, targets: { [this.outputName]: tBuf.subarray(0, B * ds.targetSize) } };
       this.rule.freeStart = this.persistent ? this.persistentStart(idx, from, B) : null;
-      this.rule.step(batch, factor);
+      if (this.optimiser === null) this.rule.step(batch, factor);
+      else {
+        this.optimiser.before();
+        this.rule.step(batch, factor);
+        this.optimiser.after(factor);
+      }
       if (this.persistent) this.keepPersistent(idx, from, B);
       this.hooks.onBatch?.({ epoch, batch: b + 1, batches, size: B });
     }
@@ -367,6 +380,7 @@ export class Trainer {
       best: this.best,
       sinceBest: this.sinceBest,
       persistent: this.persistent ? this.persistent.map((p) => (p ? Array.from(p) : null)) : null,
+      ...(this.optimiser !== null ? { optimiser: this.optimiser.saveState() } : {}),
     };
   }
 
@@ -380,6 +394,10 @@ export class Trainer {
     this.history.push(...state.history);
     this.best = state.best;
     this.sinceBest = state.sinceBest;
+    if (this.optimiser !== null) {
+      if (state.optimiser === undefined || state.optimiser === null) fail("invalid_config", "trainer.optimiser", "the optimiser state of a run with training.optimiser", "none");
+      this.optimiser.loadState(state.optimiser);
+    }
     if (this.persistent && state.persistent) {
       state.persistent.forEach((p, i) => {
         const store = this.persistent?.[i];
