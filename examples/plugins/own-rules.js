@@ -1,6 +1,11 @@
 // @ts-check
 /**
- * Two learning rules of our own, as an ebbflow plugin (docs/guide/own-rule.md walks through them).
+ * Two learning rules and a unit kind of our own, as an ebbflow plugin (docs/guide/own-rule.md walks
+ * through them).
+ *
+ * - `naka-rushton` (a unit kind): the contrast-response rate r = x₊ⁿ / (x₊ⁿ + cⁿ), x₊ = max(0, x), of
+ *   Naka & Rushton 1966 (J. Physiol. 185:536) as used for cortical contrast responses (Albrecht &
+ *   Hamilton 1982, J. Neurophysiol. 48:217), with its slope n x₊ⁿ⁻¹ cⁿ / (x₊ⁿ + cⁿ)².
  *
  * - `reward-hebbian`: a reward-gated Hebbian rule with weight normalisation. After the free phase the
  *   network's choice is scored: reward +1 when its most active output unit is the target's, −1 otherwise.
@@ -20,7 +25,44 @@
  * experiment file, or `loadPlugins(["./own-rules.js"])` in code.
  */
 import { z } from "zod";
-import { SettlingRule, FormRule, applyDelta, batchSizeOf, commonRuleFields, connectionRate, defineRule, ParameterDelta, smoothingCoefficient } from "ebbflow";
+import { SettlingRule, FormRule, applyDelta, batchSizeOf, commonRuleFields, connectionRate, defineRule, defineUnit, ParameterDelta, smoothingCoefficient, unitFromScalars } from "ebbflow";
+
+/** The Naka–Rushton rate x₊ⁿ / (x₊ⁿ + cⁿ). */
+function nakaRushton(x, n, c) {
+  if (!(x > 0)) return x !== x ? x : 0; // NaN stays NaN
+  const p = x ** n;
+  return p / (p + c ** n);
+}
+
+/** Its slope n x₊ⁿ⁻¹ cⁿ / (x₊ⁿ + cⁿ)² (0 for x ≤ 0). */
+function nakaRushtonSlope(x, n, c) {
+  if (!(x > 0)) return x !== x ? x : 0;
+  const p = x ** n;
+  const cn = c ** n;
+  return (n * (p / x) * cn) / (p + cn) ** 2;
+}
+
+/** The Naka–Rushton unit kind (no WebAssembly kernel: it runs its own fill on every backend). */
+export const nakaRushtonUnit = defineUnit({
+  kind: "naka-rushton",
+  schema: z
+    .object({
+      kind: z.literal("naka-rushton"),
+      /** Exponent n (≥ 1). */
+      exponent: z.number().min(1).default(2),
+      /** Semi-saturation input c (> 0). */
+      halfInput: z.number().positive().default(1),
+    })
+    .strict(),
+  summary: "Naka–Rushton contrast response x₊ⁿ / (x₊ⁿ + cⁿ); exponent n ≥ 1 (default 2), halfInput c > 0 (default 1)",
+  create: (spec) =>
+    unitFromScalars(spec, {
+      lower: 0,
+      upper: 1,
+      value: (x) => nakaRushton(x, spec.exponent, spec.halfInput),
+      slope: (x) => nakaRushtonSlope(x, spec.exponent, spec.halfInput),
+    }),
+});
 
 const rewardSchema = z
   .object({
@@ -215,3 +257,4 @@ export const blendedContrast = defineRule({
 });
 
 export const rules = [rewardHebbian, blendedContrast];
+export const units = [nakaRushtonUnit];

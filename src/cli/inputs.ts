@@ -40,11 +40,11 @@ export async function readModelArgument(file: string, kernels: BackendChoice = "
     let registry = await loadPlugins(plugins);
     registry = await loadPlugins(own, { baseDir: path.dirname(path.resolve(file)), registry });
     if (raw !== null && typeof raw === "object" && (raw as { format?: unknown }).format === MODEL_FORMAT) {
-      const net = modelFromData(raw, { backend });
+      const net = modelFromData(raw, { backend, units: registry.units });
       return { experiment: parseExperiment({ network: net.spec }, registry), net, registry };
     }
     const experiment = parseExperiment(raw, registry);
-    return { experiment, net: buildNetwork(experiment.network, { backend }), registry };
+    return { experiment, net: buildNetwork(experiment.network, { backend, units: registry.units }), registry };
   } catch (e) {
     if (e instanceof EbbflowError) throw new EbbflowError(e.issues.map((i) => ({ ...i, path: `${path.basename(file)}: ${i.path}` })));
     throw e;

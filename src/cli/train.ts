@@ -84,7 +84,7 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
     );
     // no checkpoint yet: start from the beginning; a damaged one is an error, never silently ignored
     if (exists) {
-      resumed = await loadCheckpoint(files.checkpoint, { backend: built.kernels });
+      resumed = await loadCheckpoint(files.checkpoint, { backend: built.kernels, units: registry.units });
       net = resumed.net;
     }
   }

@@ -85,7 +85,7 @@ export function parseExperiment(input: unknown, registry: Registry = builtinRegi
         problems.push(...e.issues);
       }
     });
-  const net = safeParseNetwork((input as { network?: unknown } | null)?.network);
+  const net = safeParseNetwork((input as { network?: unknown } | null)?.network, registry.units);
   if (!net.ok) problems.push(...net.issues.map((i) => ({ ...i, path: i.path === "" ? "network" : `network.${i.path}` })));
   if (problems.length > 0 || !r.success || !net.ok) throw new EbbflowError(problems);
   return { name: r.data.name, plugins: r.data.plugins ?? [], network: net.value, rules, training: r.data.training, data: r.data.data };

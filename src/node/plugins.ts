@@ -2,8 +2,8 @@
  * Plugins: modules that define rules (and units) of your own, loaded by path so that the command line,
  * experiment and sweep files, worker threads and resumed runs all see the same definitions.
  *
- * A plugin is an ES module exporting `rules` (an array of rule descriptors), either as named exports or
- * on its default export:
+ * A plugin is an ES module exporting `rules` (an array of rule descriptors) and/or `units` (an array of
+ * unit descriptors), either as named exports or on its default export:
  *
  * ```js
  * import { defineRule, commonRuleFields } from "ebbflow";
@@ -25,15 +25,16 @@ export function resolvePlugin(specifier: string, baseDir: string = process.cwd()
 
 /** The additions a plugin module exports (named `rules`, or on its default export). */
 function additionsOf(mod: Record<string, unknown>, at: string): RegistryAdditions {
-  const source = (mod.rules === undefined && mod.default !== null && typeof mod.default === "object" ? mod.default : mod) as Record<string, unknown>;
-  const rules = source.rules;
-  if (rules === undefined) fail("invalid_config", at, "a module exporting `rules` (an array of rule descriptors)", Object.keys(mod).join(", ") || "no exports");
-  if (!Array.isArray(rules)) fail("invalid_config", `${at}.rules`, "an array of rule descriptors", rules);
-  return { rules };
+  const source = (mod.rules === undefined && mod.units === undefined && mod.default !== null && typeof mod.default === "object" ? mod.default : mod) as Record<string, unknown>;
+  const { rules, units } = source;
+  if (rules === undefined && units === undefined) fail("invalid_config", at, "a module exporting `rules` (rule descriptors) and/or `units` (unit descriptors)", Object.keys(mod).join(", ") || "no exports");
+  if (rules !== undefined && !Array.isArray(rules)) fail("invalid_config", `${at}.rules`, "an array of rule descriptors", rules);
+  if (units !== undefined && !Array.isArray(units)) fail("invalid_config", `${at}.units`, "an array of unit descriptors", units);
+  return { rules: rules as RegistryAdditions["rules"], units: units as RegistryAdditions["units"] };
 }
 
 /**
- * Imports plugin modules and returns `base` (default: the built-in rules) with their rules added; the
+ * Imports plugin modules and returns `base` (default: the built-in rules and units) with their rules and units added; the
  * resolved module addresses are recorded in {@link Registry.plugins} so that worker threads import the same
  * modules. Relative paths are resolved against `baseDir` (default: the working directory).
  * @throws EbbflowError `io_error` for a module that cannot be imported (naming it), `invalid_config`

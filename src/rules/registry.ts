@@ -10,6 +10,8 @@ import { describeValue } from "../errors/index.js";
 import type { Network } from "../network/network.js";
 import { issuesFromZod } from "../network/spec.js";
 import type { LearningRule } from "./base.js";
+import { builtinUnits } from "../units/builtins.js";
+import type { UnitDescriptor, UnitRegistry } from "../units/registry.js";
 import { RULE_NAME, type RuleConfigBase, type RuleDescriptor } from "./descriptor.js";
 import { calciumRule, chlRule, generecRule, xieSeungRule } from "./contrastive.js";
 import { eqpropRule } from "./eqprop.js";
@@ -31,6 +33,9 @@ export type AnyRuleDescriptor = RuleDescriptor<any>;
 export interface RegistryAdditions {
   /** Rule descriptors under new names. */
   readonly rules?: readonly AnyRuleDescriptor[] | undefined;
+  /** Unit descriptors under new kinds (see `defineUnit`). */
+  // eslint-disable-next-line @typescript-eslint/no-explicit-any
+  readonly units?: readonly UnitDescriptor<any, any>[] | undefined;
   /**
    * Module specifiers (absolute file URLs or paths) that define the additions: recorded so that worker
    * threads, sweep tasks and resumed runs import the same modules (see `loadPlugins` in `ebbflow/node`).
@@ -51,8 +56,9 @@ function descriptorProblems(d: AnyRuleDescriptor, at: string): Issue[] {
 }
 
 /**
- * An immutable set of rule descriptors by name. {@link builtinRegistry} holds the built-in rules;
- * `builtinRegistry.with({ rules: [myRule] })` returns a registry that also knows `myRule`.
+ * An immutable set of rule descriptors by name, and of unit kinds ({@link Registry.units}).
+ * {@link builtinRegistry} holds the built-in rules and units; `builtinRegistry.with({ rules: [myRule],
+ * units: [myUnit] })` returns a registry that also knows them.
  * @category Rules
  * @example
  * ```ts
@@ -63,22 +69,25 @@ function descriptorProblems(d: AnyRuleDescriptor, at: string): Issue[] {
 export class Registry {
   /** Rule descriptors by name. */
   readonly rules: ReadonlyMap<string, AnyRuleDescriptor>;
+  /** The unit kinds layers may name (pass to `buildNetwork(spec, { units })`). */
+  readonly units: UnitRegistry;
   /** Modules that define what was added beyond the built-ins (for worker threads and resumed runs). */
   readonly plugins: readonly string[];
 
   /** The module each rule came from, when it was added with one (see {@link RegistryAdditions.plugins}). */
   private readonly origins: ReadonlyMap<string, string>;
 
-  private constructor(rules: ReadonlyMap<string, AnyRuleDescriptor>, plugins: readonly string[], origins: ReadonlyMap<string, string>) {
+  private constructor(rules: ReadonlyMap<string, AnyRuleDescriptor>, units: UnitRegistry, plugins: readonly string[], origins: ReadonlyMap<string, string>) {
     this.rules = rules;
+    this.units = units;
     this.plugins = Object.freeze([...plugins]);
     this.origins = origins;
     Object.freeze(this);
   }
 
   /** A registry of exactly these descriptors. @throws {@link EbbflowError} `invalid_config` for a malformed or duplicate descriptor. */
-  static of(rules: readonly AnyRuleDescriptor[], plugins: readonly string[] = []): Registry {
-    return new Registry(new Map(), [], new Map()).with({ rules, plugins });
+  static of(rules: readonly AnyRuleDescriptor[], plugins: readonly string[] = [], units: UnitRegistry = builtinUnits): Registry {
+    return new Registry(new Map(), units, [], new Map()).with({ rules, plugins });
   }
 
   /**
@@ -88,6 +97,11 @@ export class Registry {
    */
   portable(name: string): boolean {
     return builtinNames.has(name) || this.origins.has(name);
+  }
+
+  /** Can another thread or process rebuild this unit kind by name? (Built-in kinds, and kinds added with their module.) */
+  portableUnit(kind: string): boolean {
+    return builtinUnits.has(kind) || this.origins.has(`unit:${kind}`);
   }
 
   /**
@@ -104,13 +118,25 @@ export class Registry {
       if (rules.has(d.name)) problems.push(issueText("invalid_config", `rules[${i}].name`, `a name not registered yet (registered: ${[...rules.keys()].join(", ")})`, JSON.stringify(d.name)));
       else rules.set(d.name, Object.freeze({ ...d }));
     });
+    let units = this.units;
+    if ((additions.units ?? []).length > 0) {
+      try {
+        units = units.with(...(additions.units ?? []));
+      } catch (e) {
+        if (!(e instanceof EbbflowError)) throw e;
+        problems.push(...e.issues.map((x) => ({ ...x, path: x.path === "" ? "units" : `units.${x.path}` })));
+      }
+    }
     if (problems.length > 0) throw new EbbflowError(problems);
     const plugins = [...this.plugins];
     for (const p of additions.plugins ?? []) if (!plugins.includes(p)) plugins.push(p);
     const origins = new Map(this.origins);
     const from = additions.plugins?.[0];
-    if (from !== undefined) for (const d of additions.rules ?? []) origins.set(d.name, from);
-    return new Registry(rules, plugins, origins);
+    if (from !== undefined) {
+      for (const d of additions.rules ?? []) origins.set(d.name, from);
+      for (const d of additions.units ?? []) origins.set(`unit:${d.kind}`, from);
+    }
+    return new Registry(rules, units, plugins, origins);
   }
 
   /** The names of the registered rules, in registration order. */

@@ -1,5 +1,5 @@
 /**
- * Rules of a user's own, defined in a separate module (examples/plugins/own-rules.js) and used by name
+ * Rules and a unit kind of a user's own, defined in a separate module (examples/plugins/own-rules.js) and used by name
  * everywhere: the Trainer, checkpoint and resume, gradientAgreement, worker threads, a local sweep and the
  * command line. Everything here comes from the built package (dist/), as a user's code and the plugin
  * (which imports "ebbflow") see it, so the plugin and the library are one copy.
@@ -48,7 +48,8 @@ const declaration = (seed = 4, hidden = 0) => ({
   seed,
   layers: [
     { name: "colour", size: 4, role: "input" as const },
-    ...(hidden > 0 ? [{ name: "hidden", size: hidden, role: "hidden" as const }] : []),
+    // the hidden layer's units are the plugin's own kind (Naka–Rushton contrast response)
+    ...(hidden > 0 ? [{ name: "hidden", size: hidden, role: "hidden" as const, unit: { kind: "naka-rushton", exponent: 2, halfInput: 0.5 } }] : []),
     { name: "choice", size: 2, role: "output" as const },
   ],
   connections:
@@ -115,7 +116,7 @@ describe("rules of a user's own, by name", () => {
     // weight normalisation: every receiving unit's incoming weights have length 1
     const w = trainer.net.connections[0]!.weights;
     for (let i = 0; i < 2; i++) expect(Math.hypot(...bits(w.subarray(i * 4, i * 4 + 4)))).toBeCloseTo(1, 10);
-    const blend = new Trainer(buildNetwork(declaration(5, 4)), { rule: "blended-contrast", rate: 0.5, lambda: 0.3 }, data, { epochs: 2, batchSize: 4 }, { registry, seed: 5 });
+    const blend = new Trainer(buildNetwork(declaration(5, 4), { units: registry.units }), { rule: "blended-contrast", rate: 0.5, lambda: 0.3 }, data, { epochs: 2, batchSize: 4 }, { registry, seed: 5 });
     expect(blend.ruleLabel).toBe("blended-contrast (λ=0.3)");
   });
 
@@ -134,15 +135,18 @@ describe("rules of a user's own, by name", () => {
     const data = flowers();
     const rule = { rule: "reward-hebbian", rate: 0.3, baselineTau: 5 };
     const options = { epochs: 6, batchSize: 5 };
-    const straight = new Trainer(buildNetwork(declaration(6)), rule, data, options, { registry, seed: 9 });
+    const units = registry.units;
+    const straight = new Trainer(buildNetwork(declaration(6, 3), { units }), rule, data, options, { registry, seed: 9 });
     straight.run();
     const dir = mkdtempSync(path.join(tmpdir(), "ebbflow-plugin-"));
     const file = path.join(dir, "checkpoint.json");
-    const first = new Trainer(buildNetwork(declaration(6)), rule, data, options, { registry, seed: 9 });
+    const first = new Trainer(buildNetwork(declaration(6, 3), { units }), rule, data, options, { registry, seed: 9 });
     for (let e = 0; e < 3; e++) first.runEpoch();
     await saveCheckpoint(file, first, { rule });
     expect((JSON.parse(readFileSync(file, "utf8")) as { trainer: { rule: unknown } }).trainer.rule).toEqual(first.rule.saveState());
-    const saved = await loadCheckpoint(file);
+    // the checkpoint names the plugin's unit kind: it loads with the registry and is refused without
+    await expect(loadCheckpoint(file)).rejects.toThrow(/naka-rushton/);
+    const saved = await loadCheckpoint(file, { units });
     const second = new Trainer(saved.net, rule, data, options, { registry, seed: 9 });
     second.loadState(saved.state);
     while (second.epoch < 6) second.runEpoch();
@@ -151,13 +155,13 @@ describe("rules of a user's own, by name", () => {
     expect(second.rule.saveState()).toEqual(straight.rule.saveState());
     // a damaged rule state is a typed error naming the field
     const bad = { ...saved.state, rule: { baseline: "x", started: true } };
-    const third = new Trainer(buildNetwork(declaration(6)), rule, data, options, { registry, seed: 9 });
+    const third = new Trainer(buildNetwork(declaration(6, 3), { units }), rule, data, options, { registry, seed: 9 });
     expect(() => third.loadState(bad)).toThrow(expect.objectContaining({ code: "invalid_config", path: "trainer.rule.baseline" }));
   });
 
   it("gradientAgreement takes them by name: the blend at λ = 1 is CHL, at λ = 0 GeneRec (to rounding)", async () => {
     const registry = await loadPlugins([pluginFile]);
-    const net = buildNetwork({ ...declaration(7, 3), dynamics: { dt: 0.5, maxSteps: 100000, tolerance: 1e-13 } });
+    const net = buildNetwork({ ...declaration(7, 3), dynamics: { dt: 0.5, maxSteps: 100000, tolerance: 1e-13 } }, { units: registry.units });
     const data = flowers();
     const batch = { inputs: { colour: data.inputs.subarray(0, 6 * 4) }, targets: { choice: data.targets.subarray(0, 6 * 2) } };
     // settle the blend to the fixed points too (its phases run a fixed number of steps)
@@ -189,7 +193,7 @@ describe("rules of a user's own, by name", () => {
           seed,
           layers: [
             { name: "in", size: 3, role: "input" as const },
-            { name: "h", size: hidden, role: "hidden" as const },
+            { name: "h", size: hidden, role: "hidden" as const, unit: { kind: "naka-rushton" } },
             { name: "out", size: out, role: "output" as const },
           ],
           connections: [
@@ -198,7 +202,7 @@ describe("rules of a user's own, by name", () => {
           ],
           dynamics: { dt: 0.5, maxSteps: 80, tolerance: Number.MIN_VALUE },
         };
-        const net = buildNetwork(spec);
+        const net = buildNetwork(spec, { units: registry.units });
         const rnd = ebbflow.createRandom(seed).child("batch");
         const batch = { inputs: { in: Float64Array.from({ length: 3 * B }, () => rnd.uniform()) }, targets: { out: Float64Array.from({ length: out * B }, () => rnd.uniform()) } };
         const blend = createRule(net, { rule: "blended-contrast", rate: 0.7, lambda, steps: 80 }, registry).computeDelta(batch, new ParameterDelta(net));
@@ -220,9 +224,9 @@ describe("rules of a user's own, by name", () => {
     const data = flowers();
     for (const dtype of ["float64", "float32"] as const) {
       const rule = { rule: "blended-contrast", rate: 0.4, lambda: 0.6, steps: 30 };
-      const one = buildNetwork({ ...declaration(8, 5), dtype });
+      const one = buildNetwork({ ...declaration(8, 5), dtype }, { units: registry.units });
       const r1 = createRule(one, rule, registry);
-      const par = await ParallelRule.create(buildNetwork({ ...declaration(8, 5), dtype }), rule, 2, { registry, kernels: "typescript" });
+      const par = await ParallelRule.create(buildNetwork({ ...declaration(8, 5), dtype }, { units: registry.units }), rule, 2, { registry, kernels: "typescript" });
       try {
         expect(par.split).toBe("rows");
         for (const [from, size] of [
@@ -241,15 +245,15 @@ describe("rules of a user's own, by name", () => {
     }
     await expect(ParallelRule.create(buildNetwork(declaration(8)), { rule: "reward-hebbian", rate: 0.1 }, 2, { registry })).rejects.toThrow(expect.objectContaining({ code: "unsupported", path: "rule" }));
     // a descriptor added in code only cannot reach the workers: refused with the way to fix it
-    const inCode = Registry.of([...builtinRegistry.rules.values(), registry.rule("blended-contrast")]);
-    await expect(ParallelRule.create(buildNetwork(declaration(8, 5)), { rule: "blended-contrast", rate: 0.1 }, 2, { registry: inCode })).rejects.toThrow(/loadPlugins/);
+    const inCode = Registry.of([...builtinRegistry.rules.values(), registry.rule("blended-contrast")], [], registry.units);
+    await expect(ParallelRule.create(buildNetwork(declaration(8, 5), { units: registry.units }), { rule: "blended-contrast", rate: 0.1 }, 2, { registry: inCode })).rejects.toThrow(/loadPlugins/);
   });
 
   it("run in a local sweep from a base experiment that names the plugin", async () => {
     const dir = mkdtempSync(path.join(tmpdir(), "ebbflow-plugin-sweep-"));
     const data = flowers();
     writeFileSync(path.join(dir, "flowers.json"), ebbflow.datasetToJson(data));
-    const experiment = { name: "forage", plugins: [path.relative(dir, pluginFile)], network: declaration(3), rules: [{ rule: "reward-hebbian", rate: 0.5 }], training: { epochs: 4, batchSize: 4 }, data: { source: "flowers.json" } };
+    const experiment = { name: "forage", plugins: [path.relative(dir, pluginFile)], network: declaration(3, 3), rules: [{ rule: "reward-hebbian", rate: 0.5 }], training: { epochs: 4, batchSize: 4 }, data: { source: "flowers.json" } };
     writeFileSync(path.join(dir, "forage.json"), JSON.stringify(experiment));
     writeFileSync(path.join(dir, "forage.sweep.json"), JSON.stringify({ base: "forage.json", grid: { "rule.rate": [0.2, 0.5] }, seeds: [1, 2] }));
     const plan = await loadSweepFile(path.join(dir, "forage.sweep.json"));
@@ -265,11 +269,12 @@ describe("rules of a user's own, by name", () => {
   it("train from the command line with --plugin (and from an experiment's plugins); without it the rule is refused by name", () => {
     const dir = mkdtempSync(path.join(tmpdir(), "ebbflow-plugin-cli-"));
     writeFileSync(path.join(dir, "flowers.json"), ebbflow.datasetToJson(flowers()));
-    const experiment = { name: "forage", network: declaration(3), rules: [{ rule: "reward-hebbian", rate: 0.5 }], training: { epochs: 3, batchSize: 4 }, data: { source: "flowers.json" } };
+    const experiment = { name: "forage", network: declaration(3, 3), rules: [{ rule: "reward-hebbian", rate: 0.5 }], training: { epochs: 3, batchSize: 4 }, data: { source: "flowers.json" } };
     writeFileSync(path.join(dir, "forage.json"), JSON.stringify(experiment));
     const refused = cli(["train", "forage.json", "--out", "a", "--json"], dir);
     expect(refused.code).toBe(2);
     expect(refused.err).toMatch(/reward-hebbian/);
+    expect(refused.err).toMatch(/naka-rushton/);
     const ok = cli(["train", "forage.json", "--plugin", pluginFile, "--out", "b", "--json"], dir);
     expect(ok.code, ok.err).toBe(0);
     const header = JSON.parse(readFileSync(path.join(dir, "b", "results.jsonl"), "utf8").split("\n")[0]!) as { config: { rule: { rule: string }; plugins: string[] } };

@@ -77,6 +77,10 @@ function workerFile(): string {
 /** Rules whose internal state changes from batch to batch cannot be split across workers (their descriptor says so). */
 function checkRule(net: Network, rule: AnyRuleConfig, registry: Registry): void {
   const d = registry.rule(rule.rule);
+  for (const l of net.layers) {
+    const kind = l.unit.spec.kind;
+    if (!registry.portableUnit(kind)) fail("unsupported", `layers[${l.index}].unit.kind`, `a unit kind the worker threads can import: register ${JSON.stringify(kind)} from its module with loadPlugins and pass that registry`, kind);
+  }
   if (!registry.portable(rule.rule)) fail("unsupported", "rule", `a rule the worker threads can import: register ${JSON.stringify(rule.rule)} from its module with loadPlugins (a descriptor added in code only is not seen by other threads)`, rule.rule);
   if ((d.split?.(rule, net) ?? "none") === "none") fail("unsupported", "rule", `a rule without state that changes per batch for multi-core training (this config of ${d.label(rule)} keeps such state: its descriptor's split is "none")`, rule.rule);
 }
@@ -175,7 +179,7 @@ export class ParallelRule {
       backend = sharedTypescript;
       this.describe = (a) => ({ buffer: a.buffer as SharedArrayBuffer, byteOffset: a.byteOffset, length: a.length });
     }
-    this.net = buildNetwork(net.spec, { backend });
+    this.net = buildNetwork(net.spec, { backend, units: net.units });
     const src = parameterBuffers(net);
     const dst = parameterBuffers(this.net);
     dst.forEach((a, i) => a.set(src[i] as FloatArray));

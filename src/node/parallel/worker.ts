@@ -101,7 +101,7 @@ class Session {
     }
     const params = setup.parameters.map((a) => this.view(a));
     let k = 0;
-    this.net = buildNetwork(setup.spec, { backend, allocate: () => params[k++] as FloatArray, keepValues: true });
+    this.net = buildNetwork(setup.spec, { backend, allocate: () => params[k++] as FloatArray, keepValues: true, units: registry.units });
     this.plan = rowPlan(this.net, setup.rule, registry);
   }
 

@@ -84,11 +84,12 @@ export async function executeRun(task: RunTask): Promise<RunReport> {
       scale: config.data.scale,
       split: config.data.split === undefined ? undefined : resolveSplitPaths(config.data.split, task.baseDir),
     });
-    let net = buildNetwork(config.network);
+    const registry = await loadPlugins(task.plugins ?? []);
+    let net = buildNetwork(config.network, { units: registry.units });
     let stopped: StopReason | null = null;
     let state = null;
     if (progress.checkpointEpoch > 0) {
-      const saved = await loadCheckpoint(files.checkpoint);
+      const saved = await loadCheckpoint(files.checkpoint, { units: registry.units });
       const note = saved.config as { sweepRun?: CheckpointNote } | null;
       if (note?.sweepRun?.run === run.id) {
         net = saved.net;
@@ -97,7 +98,6 @@ export async function executeRun(task: RunTask): Promise<RunReport> {
         resumedFrom = saved.state.epoch;
       }
     }
-    const registry = await loadPlugins(task.plugins ?? []);
     const trainer = new Trainer(net, config.rule, train, config.training, { test, seed, registry });
     if (state !== null) trainer.loadState(state);
     const header = { kind: "header" as const, ebbflow: VERSION, seed, config: { ...config, sweepRun: { id: run.id, configuration: run.configuration, index: run.index } }, started: new Date().toISOString() };
