@@ -8,7 +8,7 @@ import { refuseUnknownOptions } from "../errors/options.js";
 import { builtinUnits } from "../units/builtins.js";
 import type { UnitRegistry } from "../units/registry.js";
 import type { UnitFunction } from "../units/spec.js";
-import { createRandom, initialise, type InitSpec } from "../random/index.js";
+import { createRandom, initialize, type InitSpec } from "../random/index.js";
 import { type Dtype, type FloatArray } from "../types/index.js";
 import type { KernelBackend } from "../kernels/backend.js";
 import { typescriptBackend } from "../kernels/typescript-backend.js";
@@ -172,7 +172,7 @@ export interface BuildOptions {
    * place parameters in shared memory (worker threads) or in a kernel backend's memory.
    */
   readonly allocate?: ((dtype: Dtype, length: number) => FloatArray) | undefined;
-  /** The allocator's arrays already hold the parameters: do not initialise them. */
+  /** The allocator's arrays already hold the parameters: do not initialize them. */
   readonly keepValues?: boolean | undefined;
   /**
    * The kernels that settle and train the network (default: the TypeScript kernels). Parameters, states
@@ -276,13 +276,13 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
       // the allocator supplied arrays that already hold the parameters
     } else if (cs.weights !== undefined) weights.set(cs.weights);
     else {
-      initialise(weights, cs.init as InitSpec, root.child(`weights/${label}`), from.size, to.size);
+      initialize(weights, cs.init as InitSpec, root.child(`weights/${label}`), from.size, to.size);
       constrainWeights(weights, cs);
     }
     let feedback: Feedback;
     if (cs.feedback.kind === "separate") {
       const fw = alloc(spec.dtype, from.size * to.size);
-      if (!options.keepValues) initialise(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
+      if (!options.keepValues) initialize(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
       feedback = { kind: "separate", learned: cs.feedback.learned, weights: fw };
     } else feedback = cs.feedback;
     return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label };

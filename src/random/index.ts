@@ -207,7 +207,7 @@ export type InitSpec =
   | { readonly kind: "constant"; readonly value: number };
 
 /** Fills a |post|×|pre| weight matrix from an {@link InitSpec}; returns `out`. @category Random */
-export function initialise<T extends FloatArray>(out: T, spec: InitSpec, rng: RandomStream, fanIn: number, fanOut: number): T {
+export function initialize<T extends FloatArray>(out: T, spec: InitSpec, rng: RandomStream, fanIn: number, fanOut: number): T {
   switch (spec.kind) {
     case "uniform":
       return fillUniform(out, rng, spec.low, spec.high);

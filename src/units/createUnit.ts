@@ -52,10 +52,10 @@ export function createUnit(spec: UnitSpec | UnitSpecInput, units: UnitRegistry =
  * @category Units
  * @example
  * ```ts
- * normaliseUnitSpec({ kind: "logistic" }); // { kind: "logistic", gain: 1, offset: 0 }
+ * normalizeUnitSpec({ kind: "logistic" }); // { kind: "logistic", gain: 1, offset: 0 }
  * ```
  */
-export function normaliseUnitSpec<S extends UnitSpec>(spec: S, units: UnitRegistry = builtinUnits): S {
+export function normalizeUnitSpec<S extends UnitSpec>(spec: S, units: UnitRegistry = builtinUnits): S {
   return units.parse(spec) as S;
 }
 

@@ -19,7 +19,8 @@ export const DEFAULT_NOISY_RESOLUTION = 1024;
 /** Default half-margin of the table around the base's transition interval, in noise standard deviations. */
 const RANGE_MARGIN_SIGMAS = 8;
 
-const noisySchema = z
+/** Schema of a noisy unit spec (a base kind convolved with Gaussian noise). @category Units */
+export const noisySchema = z
   .object({
     kind: z.literal("noisy"),
     base: unitSpecField,

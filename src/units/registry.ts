@@ -92,7 +92,8 @@ export type SpecOfDescriptor<D> = D extends UnitDescriptor<infer S, unknown> ? S
 export type InputOfDescriptor<D> = D extends UnitDescriptor<AnyUnitSpec, infer I> ? Readonly<I> : never;
 
 // eslint-disable-next-line @typescript-eslint/no-explicit-any
-type SomeDescriptor = UnitDescriptor<any, any>;
+/** A descriptor of any spec type (a registry stores them side by side). @category Units */
+export type SomeDescriptor = UnitDescriptor<any, any>;
 
 /** Key of the zod `custom` issues that carry an ebbflow issue found by a nested validation. */
 const ISSUE = "ebbflowIssue";

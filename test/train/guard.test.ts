@@ -1,5 +1,6 @@
 import { describe, it, expect } from "vitest";
-import { accumulateMetrics, buildNetwork, createDataset, EbbflowError, MetricSums, Trainer, type Metrics } from "../../src/index.js";
+import { buildNetwork, createDataset, EbbflowError, Trainer, type Metrics } from "../../src/index.js";
+import { accumulateMetrics, MetricSums } from "../../src/train/metrics.js";
 
 // two examples with both outputs tied at 0.5: targets class 1 and class 0 (definitions of the policies)
 const y = Float64Array.from([0.5, 0.5, 0.5, 0.5]);

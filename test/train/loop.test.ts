@@ -2,7 +2,8 @@ import { describe, it, expect } from "vitest";
 import { mkdtempSync } from "node:fs";
 import { tmpdir } from "node:os";
 import path from "node:path";
-import { buildNetwork, Trainer, xorDataset, randomAssociation, scheduleFactor, accumulateMetrics, MetricSums, parseTraining, EbbflowError, type NetworkSpecInput, type RuleConfigInput } from "../../src/index.js";
+import { buildNetwork, Trainer, xorDataset, randomAssociation, scheduleFactor, parseTraining, EbbflowError, type NetworkSpecInput, type RuleConfigInput } from "../../src/index.js";
+import { accumulateMetrics, MetricSums } from "../../src/train/metrics.js";
 import { saveCheckpoint, loadCheckpoint } from "../../src/node/index.js";
 import { expectClose } from "../helpers/tolerance.js";
 
