@@ -41,7 +41,7 @@ export { kFold, trainTestSplit, type DatasetSplit, type SplitOptions } from "./t
 export { Trainer, parseTraining, trainingSchema, type EpochRecord, type StopReason, type TrainerExtras, type TrainerHooks, type TrainerState, type TrainingOptions, type TrainingOptionsInput } from "./train/loop.js";
 export { type Metrics, type TiePolicy } from "./train/metrics.js";
 export { DEFAULT_OBJECTIVE, LOSS_NAMES, batchLoss, batchLossGradient, lossNameSchema, patternLoss, patternLossGradient, requireLoss, requireObjective, type LossName, type Objective } from "./train/loss.js";
-export { Optimiser, optimiserSchema, type OptimiserConfig, type OptimiserInput, type OptimiserState } from "./train/optimiser.js";
+export { Optimizer, optimizerSchema, type OptimizerConfig, type OptimizerInput, type OptimizerState } from "./train/optimizer.js";
 export { scheduleFactor, scheduleSchema, type Schedule } from "./train/schedule.js";
 
 // Verification: exact gradients and agreement

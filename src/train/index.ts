@@ -7,4 +7,4 @@ export * from "./metrics.js";
 export * from "./loss.js";
 export * from "./schedule.js";
 export * from "./loop.js";
-export * from "./optimiser.js";
+export * from "./optimizer.js";

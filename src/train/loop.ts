@@ -17,7 +17,7 @@ import { createForwardPass, forwardOrder, runForward, type ForwardPass } from ".
 import type { Dataset } from "./data/index.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
 import { lossNameSchema } from "./loss.js";
-import { Optimiser, optimiserSchema, type OptimiserState } from "./optimiser.js";
+import { Optimizer, optimizerSchema, type OptimizerState } from "./optimizer.js";
 import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
 import { scheduleFactor, scheduleSchema } from "./schedule.js";
 
@@ -53,8 +53,8 @@ export const trainingSchema = z
     ties: z.enum(["wrong", "first", "random"], { error: "one of wrong, first, random" }).default("wrong"),
     // stop with a named reason when the loss is not finite or every example's outputs tie
     guard: z.boolean().default(true),
-    // an optimiser applied to the rule's change (momentum, Adam, weight decay, bias rates per layer); none by default
-    optimiser: optimiserSchema.optional(),
+    // an optimizer applied to the rule's change (momentum, Adam, weight decay, bias rates per layer); none by default
+    optimizer: optimizerSchema.optional(),
   })
   .strict();
 
@@ -94,8 +94,8 @@ export interface TrainerState {
   readonly sinceBest: number;
   /** Persistent free-phase states per non-input layer, n×size, when enabled. */
   readonly persistent: (number[] | null)[] | null;
-  /** The optimiser's step count and moments, when `training.optimiser` is set. */
-  readonly optimiser?: OptimiserState | null | undefined;
+  /** The optimizer's step count and moments, when `training.optimizer` is set. */
+  readonly optimizer?: OptimizerState | null | undefined;
 }
 
 /** Callbacks of a {@link Trainer}. @category Training */
@@ -156,8 +156,8 @@ export class Trainer {
   private readonly order: number[];
   private readonly persistent: (FloatArray | null)[] | null;
   private readonly forward: boolean;
-  /** The optimiser applied to the rule's change (null: the rule's own step). */
-  readonly optimiser: Optimiser | null;
+  /** The optimizer applied to the rule's change (null: the rule's own step). */
+  readonly optimizer: Optimizer | null;
   private evalSettlers = new Map<number, Settler>();
   private evalPasses = new Map<number, ForwardPass>();
   private starts = new Map<number, Snapshot>();
@@ -200,7 +200,7 @@ export class Trainer {
     this.shuffleStream = createRandom(this.seed).child("train/shuffle");
     this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && this.descriptor?.readout === "forward");
     this.order = this.forward ? forwardOrder(net) : [];
-    this.optimiser = this.options.optimiser === undefined ? null : new Optimiser(net, this.rule, this.options.optimiser);
+    this.optimizer = this.options.optimizer === undefined ? null : new Optimizer(net, this.rule, this.options.optimizer);
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
   }
 
@@ -301,11 +301,11 @@ export class Trainer {
       this.gather(idx, from, B, inBuf, tBuf);
       const batch = { inputs: { [this.inputName]: inBuf.subarray(0, B * ds.inputSize) }, targets: { [this.outputName]: tBuf.subarray(0, B * ds.targetSize) } };
       this.rule.freeStart = this.persistent ? this.persistentStart(idx, from, B) : null;
-      if (this.optimiser === null) this.rule.step(batch, factor);
+      if (this.optimizer === null) this.rule.step(batch, factor);
       else {
-        this.optimiser.before();
+        this.optimizer.before();
         this.rule.step(batch, factor);
-        this.optimiser.after(factor);
+        this.optimizer.after(factor);
       }
       if (this.persistent) this.keepPersistent(idx, from, B);
       this.hooks.onBatch?.({ epoch, batch: b + 1, batches, size: B });
@@ -380,7 +380,7 @@ export class Trainer {
       best: this.best,
       sinceBest: this.sinceBest,
       persistent: this.persistent ? this.persistent.map((p) => (p ? Array.from(p) : null)) : null,
-      ...(this.optimiser !== null ? { optimiser: this.optimiser.saveState() } : {}),
+      ...(this.optimizer !== null ? { optimizer: this.optimizer.saveState() } : {}),
     };
   }
 
@@ -394,9 +394,9 @@ export class Trainer {
     this.history.push(...state.history);
     this.best = state.best;
     this.sinceBest = state.sinceBest;
-    if (this.optimiser !== null) {
-      if (state.optimiser === undefined || state.optimiser === null) fail("invalid_config", "trainer.optimiser", "the optimiser state of a run with training.optimiser", "none");
-      this.optimiser.loadState(state.optimiser);
+    if (this.optimizer !== null) {
+      if (state.optimizer === undefined || state.optimizer === null) fail("invalid_config", "trainer.optimizer", "the optimizer state of a run with training.optimizer", "none");
+      this.optimizer.loadState(state.optimizer);
     }
     if (this.persistent && state.persistent) {
       state.persistent.forEach((p, i) => {

@@ -1,5 +1,5 @@
 import { describe, it, expect } from "vitest";
-import { buildNetwork, createDataset, createRule, ParameterDelta, Trainer, EbbflowError, Optimiser, optimiserSchema, type NetworkSpecInput } from "../../src/index.js";
+import { buildNetwork, createDataset, createRule, ParameterDelta, Trainer, EbbflowError, Optimizer, optimizerSchema, type NetworkSpecInput } from "../../src/index.js";
 import { ParallelRule } from "../../src/node/index.js";
 
 const spec = (tolerance = 1e-9): NetworkSpecInput => ({
@@ -56,14 +56,14 @@ function reference(kind: "momentum" | "adam", decay: "l2" | "decoupled", lambda:
   return params(net);
 }
 
-const trained = (optimiser: Record<string, unknown> | undefined, epochs: number) => {
+const trained = (optimizer: Record<string, unknown> | undefined, epochs: number) => {
   const net = buildNetwork(spec());
-  new Trainer(net, { rule: "generec", rate: 0.3 }, data, { epochs, batchSize: 4, shuffle: false, ...(optimiser ? { optimiser } : {}) }).run();
+  new Trainer(net, { rule: "generec", rate: 0.3 }, data, { epochs, batchSize: 4, shuffle: false, ...(optimizer ? { optimizer } : {}) }).run();
   return params(net);
 };
 const close = (a: number[], b: number[], tol: number) => a.forEach((v, i) => expect(Math.abs(v - b[i]!)).toBeLessThan(tol * Math.max(1, Math.abs(b[i]!))));
 
-describe("training.optimiser", () => {
+describe("training.optimizer", () => {
   it("momentum and Adam, with L2 or decoupled weight decay, follow the published update formulas on the rule's change (naive reference, 1e-12)", () => {
     for (const [kind, decay, lambda] of [["momentum", "l2", 0], ["momentum", "l2", 0.01], ["adam", "l2", 0.01], ["adam", "decoupled", 0.05]] as const) {
       close(trained({ kind, decay, weightDecay: lambda }, 5), reference(kind, decay, lambda, 5), 1e-12);
@@ -77,39 +77,39 @@ describe("training.optimiser", () => {
     const scaled = buildNetwork(spec());
     const before = Array.from(base.layers[2]!.bias);
     new Trainer(base, { rule: "generec", rate: 0.3 }, data, { epochs: 1, batchSize: 4, shuffle: false }).run();
-    new Trainer(scaled, { rule: "generec", rate: 0.3 }, data, { epochs: 1, batchSize: 4, shuffle: false, optimiser: { biasRates: { out: 0.9 } } }).run();
+    new Trainer(scaled, { rule: "generec", rate: 0.3 }, data, { epochs: 1, batchSize: 4, shuffle: false, optimizer: { biasRates: { out: 0.9 } } }).run();
     scaled.layers[2]!.bias.forEach((v, j) => expect(v - before[j]!).toBeCloseTo(3 * (base.layers[2]!.bias[j]! - before[j]!), 12));
     close(Array.from(scaled.layers[1]!.bias), Array.from(base.layers[1]!.bias), 1e-13);
-    expect(() => new Trainer(buildNetwork(spec()), { rule: "generec", rate: 0.3 }, data, { epochs: 1, optimiser: { biasRates: { in: 1 } } })).toThrow(EbbflowError);
-    expect(() => new Trainer(buildNetwork(spec()), { rule: "generec", rate: 0.3 }, data, { epochs: 1, optimiser: { kind: "adam", beta: 0.9 } as never })).toThrow(EbbflowError);
+    expect(() => new Trainer(buildNetwork(spec()), { rule: "generec", rate: 0.3 }, data, { epochs: 1, optimizer: { biasRates: { in: 1 } } })).toThrow(EbbflowError);
+    expect(() => new Trainer(buildNetwork(spec()), { rule: "generec", rate: 0.3 }, data, { epochs: 1, optimizer: { kind: "adam", beta: 0.9 } as never })).toThrow(EbbflowError);
   });
 
   it("resuming from saveState gives the same bits as training straight through (Adam's moments and step count in the state)", () => {
     const opt = { kind: "adam" as const, weightDecay: 0.01, decay: "decoupled" as const };
     const straight = buildNetwork(spec());
-    new Trainer(straight, { rule: "generec", rate: 0.3 }, data, { epochs: 4, batchSize: 2, optimiser: opt }, { seed: 5 }).run();
+    new Trainer(straight, { rule: "generec", rate: 0.3 }, data, { epochs: 4, batchSize: 2, optimizer: opt }, { seed: 5 }).run();
     const first = buildNetwork(spec());
-    const a = new Trainer(first, { rule: "generec", rate: 0.3 }, data, { epochs: 2, batchSize: 2, optimiser: opt }, { seed: 5 });
+    const a = new Trainer(first, { rule: "generec", rate: 0.3 }, data, { epochs: 2, batchSize: 2, optimizer: opt }, { seed: 5 });
     a.run();
     const state = JSON.parse(JSON.stringify(a.saveState()));
-    const b = new Trainer(first, { rule: "generec", rate: 0.3 }, data, { epochs: 4, batchSize: 2, optimiser: opt }, { seed: 5 });
+    const b = new Trainer(first, { rule: "generec", rate: 0.3 }, data, { epochs: 4, batchSize: 2, optimizer: opt }, { seed: 5 });
     b.loadState(state);
     b.run();
     expect(params(first)).toEqual(params(straight));
-    expect(() => b.loadState({ ...state, optimiser: { steps: 1, moments: [] } })).toThrow(EbbflowError);
+    expect(() => b.loadState({ ...state, optimizer: { steps: 1, moments: [] } })).toThrow(EbbflowError);
   });
 
-  it("on 2 worker threads gives the same bits as one thread: the optimiser steps the reduced change on the main thread", async () => {
+  it("on 2 worker threads gives the same bits as one thread: the optimizer steps the reduced change on the main thread", async () => {
     // settling a fixed number of steps (tolerance below any change) makes the row split bit-identical to one thread
     const rule = { rule: "eqprop", beta: 0.2, rate: 0.2, mode: "symmetric", freeSteps: 15, nudgedSteps: 6 };
-    const config = optimiserSchema.parse({ kind: "adam", weightDecay: 0.01 });
+    const config = optimizerSchema.parse({ kind: "adam", weightDecay: 0.01 });
     const one = buildNetwork(spec(Number.MIN_VALUE));
     const single = createRule(one, rule);
-    const optOne = new Optimiser(one, single, config);
+    const optOne = new Optimizer(one, single, config);
     const par = await ParallelRule.create(buildNetwork(spec(Number.MIN_VALUE)), rule, 2);
     try {
       expect(par.split).toBe("rows");
-      const optTwo = new Optimiser(par.net, par, config);
+      const optTwo = new Optimizer(par.net, par, config);
       for (let k = 0; k < 3; k++) {
         optOne.before();
         single.step(batch);

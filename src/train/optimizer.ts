@@ -1,9 +1,9 @@
 /**
- * Optimisers applied to any rule's change: momentum, Adam, weight decay (L2 and decoupled), and learning
- * rates per layer for biases. The rule takes its step as usual; the optimiser reads the change it made,
+ * Optimizers applied to any rule's change: momentum, Adam, weight decay (L2 and decoupled), and learning
+ * rates per layer for biases. The rule takes its step as usual; the optimizer reads the change it made,
  * puts the parameters back and applies its own step instead, so it works the same for every rule
  * (including rules that do work after their update, and rules shared out over worker threads: the
- * optimiser runs on the main thread on the reduced change).
+ * optimizer runs on the main thread on the reduced change).
  * @module
  */
 import { z } from "zod";
@@ -17,8 +17,8 @@ import type { RuleConfigBase } from "../rules/descriptor.js";
 const fraction = (what: string) => z.number({ error: what }).refine((v) => v >= 0 && v < 1, { error: what });
 const positive = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
 
-/** Schema of `training.optimiser`. @category Training */
-export const optimiserSchema = z
+/** Schema of `training.optimizer`. @category Training */
+export const optimizerSchema = z
   .object({
     kind: z.enum(["sgd", "momentum", "adam"], { error: "one of sgd, momentum, adam" }).default("sgd"),
     /** Momentum coefficient μ (kind momentum). */
@@ -35,33 +35,33 @@ export const optimiserSchema = z
   })
   .strict();
 
-/** Optimiser settings as written. @category Training */
-export type OptimiserInput = z.input<typeof optimiserSchema>;
-/** Optimiser settings with defaults filled in. @category Training */
-export type OptimiserConfig = z.output<typeof optimiserSchema>;
+/** Optimizer settings as written. @category Training */
+export type OptimizerInput = z.input<typeof optimizerSchema>;
+/** Optimizer settings with defaults filled in. @category Training */
+export type OptimizerConfig = z.output<typeof optimizerSchema>;
 
-/** An optimiser's saved state: the step count and one array per parameter array and moment. @category Training */
-export interface OptimiserState {
+/** An optimizer's saved state: the step count and one array per parameter array and moment. @category Training */
+export interface OptimizerState {
   readonly steps: number;
   readonly moments: number[][];
 }
 
-/** One parameter array the optimiser steps, with the rule's rate for it. */
+/** One parameter array the optimizer steps, with the rule's rate for it. */
 interface Slot {
   readonly param: FloatArray;
   readonly delta: FloatArray;
   readonly before: Float64Array;
   /** The rule's rate for this array (its change is divided by it to get the direction per unit rate). */
   readonly ruleRate: number;
-  /** The rate of the optimiser's step for this array. */
+  /** The rate of the optimizer's step for this array. */
   readonly rate: number;
   readonly first: Float64Array | null;
   readonly second: Float64Array | null;
 }
 
 /**
- * The optimiser of a Trainer: call {@link Optimiser.before} before the rule's step and
- * {@link Optimiser.after} after it. With d the rule's change divided by its learning rate ε (per
+ * The optimizer of a Trainer: call {@link Optimizer.before} before the rule's step and
+ * {@link Optimizer.after} after it. With d the rule's change divided by its learning rate ε (per
  * connection; per layer for biases, `biasRates` replacing ε there) and w the parameter:
  * - `l2` decay: d ← d − λw;
  * - `sgd`: step ε d; `momentum`: v ← μv + d, step ε v (Polyak 1964, USSR Comput. Math. Math. Phys. 4:1;
@@ -71,15 +71,15 @@ interface Slot {
  * the step is applied under the connections' constraints (applyDelta). Frozen connections are left alone.
  * @category Training
  */
-export class Optimiser {
-  readonly config: OptimiserConfig;
+export class Optimizer {
+  readonly config: OptimizerConfig;
   private readonly net: Network;
   private readonly slots: Slot[];
   private readonly delta: ParameterDelta;
   private steps = 0;
 
   /** `rule`: the rule whose change it steps (a `LearningRule`, or a `ParallelRule` sharing it out over workers). */
-  constructor(net: Network, rule: { readonly config: RuleConfigBase }, config: OptimiserConfig, prefix = "training.optimiser") {
+  constructor(net: Network, rule: { readonly config: RuleConfigBase }, config: OptimizerConfig, prefix = "training.optimizer") {
     this.net = net;
     this.config = config;
     const problems: Issue[] = [];
@@ -120,7 +120,7 @@ export class Optimiser {
 
   /**
    * Reads the rule's change (parameters now minus before), puts the parameters back, and applies the
-   * optimiser's step instead; `factor` is the learning-rate schedule's factor of this epoch.
+   * optimizer's step instead; `factor` is the learning-rate schedule's factor of this epoch.
    */
   after(factor: number): void {
     const o = this.config;
@@ -158,7 +158,7 @@ export class Optimiser {
   }
 
   /** The step count and moments, as plain numbers (bit-exact through JSON). */
-  saveState(): OptimiserState {
+  saveState(): OptimizerState {
     const moments: number[][] = [];
     for (const s of this.slots) {
       if (s.first) moments.push(Array.from(s.first));
@@ -167,11 +167,11 @@ export class Optimiser {
     return { steps: this.steps, moments };
   }
 
-  /** Restores a state saved by {@link Optimiser.saveState} for the same network and settings. */
-  loadState(state: OptimiserState, prefix = "trainer.optimiser"): void {
+  /** Restores a state saved by {@link Optimizer.saveState} for the same network and settings. */
+  loadState(state: OptimizerState, prefix = "trainer.optimizer"): void {
     if (state === null || typeof state !== "object" || !Number.isInteger(state.steps) || state.steps < 0) fail("invalid_config", `${prefix}.steps`, "an integer >= 0", (state as { steps?: unknown } | null)?.steps);
     const arrays = this.slots.flatMap((s) => [s.first, s.second].filter((a): a is Float64Array => a !== null));
-    if (!Array.isArray(state.moments) || state.moments.length !== arrays.length) fail("invalid_config", `${prefix}.moments`, `${arrays.length} arrays (this optimiser's moments)`, Array.isArray(state.moments) ? `${state.moments.length} arrays` : state.moments);
+    if (!Array.isArray(state.moments) || state.moments.length !== arrays.length) fail("invalid_config", `${prefix}.moments`, `${arrays.length} arrays (this optimizer's moments)`, Array.isArray(state.moments) ? `${state.moments.length} arrays` : state.moments);
     arrays.forEach((a, i) => {
       const m = state.moments[i];
       if (!Array.isArray(m) || m.length !== a.length || !m.every((v) => typeof v === "number" && Number.isFinite(v))) fail("invalid_config", `${prefix}.moments[${i}]`, `${a.length} finite numbers`, Array.isArray(m) ? `${m.length} values` : m);
