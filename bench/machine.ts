@@ -6,7 +6,7 @@ export function printMachine(): void {
   console.log(`machine: ${m.cpu} | ${m.cores} cores | ${m.mhz ?? "?"} MHz | ${m.flags.join(" ")} | Node ${m.node} | ${m.platform} | ${m.memoryGiB} GiB`);
 }
 
-/** Keeps a value alive so the optimiser cannot drop the work that produced it. */
+/** Keeps a value alive so the optimizer cannot drop the work that produced it. */
 export let sink = 0;
 export function consume(x: ArrayLike<number> | number): void {
   sink += typeof x === "number" ? x : (x[0] ?? 0);

@@ -11,6 +11,7 @@
 // Building and settling networks
 export { Network, buildNetwork, parameterBuffers, parameterSlots, type BuildOptions, type Connection, type Feedback, type Layer, type LayerRole, type ParameterSlot } from "./network/network.js";
 export { Settler, Snapshot, energy, type LayerValues, type Phase, type PhaseOptions } from "./network/settle.js";
+export { clipKeepsFixedPoints, clippedLayers } from "./network/clip.js";
 export { initSchema, networkJsonSchema, networkSchema, parseNetwork, safeParseNetwork, type ConnectionSpec, type DynamicsSpec, type FeedbackSpec, type InhibitionSpec, type InitSpecData, type LayerSpec, type NetworkSpec, type NetworkSpecInput, type ParseResult } from "./network/spec.js";
 
 // Learning rules
@@ -26,6 +27,7 @@ export { FeedforwardRule, backpropRule, createForwardPass, directFeedbackAlignme
 export { createRule } from "./rules/index.js";
 export { ruleDisplayName } from "./rules/names.js";
 export { PredictiveCoding, predictiveCodingRule } from "./rules/predictive.js";
+export { configWithLoss, ruleObjective } from "./rules/loss-config.js";
 export { Registry, builtinRegistry, builtinRules, type AnyRuleConfig, type AnyRuleDescriptor, type RegistryAdditions } from "./rules/registry.js";
 
 // Training and data
@@ -37,12 +39,15 @@ export { datasetToJson, parseJsonDataset } from "./train/data/json.js";
 export { fitScaler, type Scaler, type ScalerKind } from "./train/data/scaling.js";
 export { kFold, trainTestSplit, type DatasetSplit, type SplitOptions } from "./train/data/split.js";
 export { Trainer, parseTraining, trainingSchema, type EpochRecord, type StopReason, type TrainerExtras, type TrainerHooks, type TrainerState, type TrainingOptions, type TrainingOptionsInput } from "./train/loop.js";
-export { type Metrics } from "./train/metrics.js";
+export { type Metrics, type TiePolicy } from "./train/metrics.js";
+export { DEFAULT_OBJECTIVE, LOSS_NAMES, batchLoss, batchLossGradient, lossNameSchema, patternLoss, patternLossGradient, requireLoss, requireObjective, type LossName, type Objective } from "./train/loss.js";
+export { Optimizer, optimizerSchema, type OptimizerConfig, type OptimizerInput, type OptimizerState } from "./train/optimizer.js";
 export { scheduleFactor, scheduleSchema, type Schedule } from "./train/schedule.js";
 
 // Verification: exact gradients and agreement
 export { formatAgreement, gradientAgreement, type AgreementOptions, type AgreementReport, type AgreementRow, type GradientReference } from "./verify/agreement.js";
-export { finiteDifferenceGradient, freeLoss, recurrentGradient, type VerifySettling } from "./verify/gradient.js";
+export { finiteDifferenceGradient, freeLoss, recurrentGradient, type VerifyOptions, type VerifySettling } from "./verify/gradient.js";
+export { phaseReports, type PhaseReport } from "./verify/phases.js";
 
 // Unit (activation) functions
 export { builtinUnitDescriptors, builtinUnits } from "./units/builtins.js";
@@ -104,4 +109,5 @@ export { type WasmBackendOptions, type WasmKernelBackend, type WasmSharedMemory 
 // Errors and numbers
 export { finiteField, integerField, nonNegativeField, positiveField } from "./errors/fields.js";
 export { EbbflowError, formatIssue, type ErrorCode, type Issue } from "./errors/index.js";
+export { refuseUnknownOptions } from "./errors/options.js";
 export { type Dtype, type FloatArray } from "./types/index.js";

@@ -221,7 +221,7 @@ export function registerSweep(program: Command): void {
     .command("summarize")
     .description("per configuration: mean, standard deviation and confidence interval across seeds of the final metric; JSON and SVG curves")
     .argument("<dir>", "sweep folder")
-    .option("--metric <name>", "sse, crossEntropy, accuracy or cosine (default sse)")
+    .option("--metric <name>", "sse, loss, binaryCrossEntropy, softmaxCrossEntropy, accuracy or cosine (default sse)")
     .addOption(new Option("--split <split>", "which evaluation (default test when there is one)").choices(["train", "test"]))
     .addOption(new Option("--band <band>", "band of the curves: range (min to max) or sd (mean ± sd)").choices(["range", "sd"]))
     .option("--level <p>", "confidence level (default 0.95)", level)

@@ -11,6 +11,7 @@ import { saveModel } from "../node/files.js";
 import { readModelArgument, readRuleArgument, resolveData } from "./inputs.js";
 import { Progress } from "./output.js";
 import { VERSION } from "./version.js";
+import type { FixedSplit } from "../config/split-schema.js";
 
 /** Options of `ebbflow train`. */
 export interface TrainCommandOptions {
@@ -22,6 +23,11 @@ export interface TrainCommandOptions {
   readonly batchSize?: number;
   readonly seed?: string;
   readonly testFraction?: number;
+  /** A fixed split: the CSV column that says train or test. */
+  readonly splitColumn?: string;
+  /** A fixed split: index files of the training and test rows. */
+  readonly trainIndex?: string;
+  readonly testIndex?: string;
   readonly out?: string;
   readonly checkpointEvery?: number;
   readonly resume?: boolean;
@@ -34,6 +40,17 @@ export interface TrainCommandOptions {
 }
 
 const seedOf = (s: string | undefined, fallback: number | string): number | string => (s === undefined ? fallback : /^-?\d+$/.test(s) ? Number(s) : s);
+
+/** The fixed split the command line asks for (`--split-column`, or `--train-index` with `--test-index`). */
+function fixedSplitOption(o: TrainCommandOptions): FixedSplit | undefined {
+  if (o.splitColumn !== undefined) {
+    if (o.trainIndex !== undefined || o.testIndex !== undefined) fail("invalid_config", "--split-column", "either a split column or index files, not both", "both");
+    return { column: /^\d+$/.test(o.splitColumn) ? Number(o.splitColumn) : o.splitColumn };
+  }
+  if (o.trainIndex === undefined && o.testIndex === undefined) return undefined;
+  if (o.trainIndex === undefined || o.testIndex === undefined) fail("invalid_config", o.trainIndex === undefined ? "--train-index" : "--test-index", "both --train-index and --test-index", "only one");
+  return { train: o.trainIndex, test: o.testIndex };
+}
 
 /** Runs `ebbflow train MODEL.json ...`. */
 export async function trainCommand(modelFile: string, o: TrainCommandOptions): Promise<void> {
@@ -50,12 +67,13 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
     ...(o.persistent ? { persistentStates: true } : {}),
   };
   const training = parseTraining(trainingInput);
-  const testFraction = o.testFraction ?? experiment.data?.testFraction ?? 0;
-  const { train, test } = await resolveData(source, { testFraction, seed, targetColumns: experiment.data?.targetColumns, oneHot: experiment.data?.oneHot, scale: o.scale ?? experiment.data?.scale ?? false });
+  const split = fixedSplitOption(o) ?? experiment.data?.split;
+  const testFraction = o.testFraction ?? (split !== undefined ? 0 : (experiment.data?.testFraction ?? 0));
+  const { train, test } = await resolveData(source, { testFraction, seed, targetColumns: experiment.data?.targetColumns, oneHot: experiment.data?.oneHot, scale: o.scale ?? experiment.data?.scale ?? false, split });
   const out = o.out ?? path.join("runs", `${experiment.name ?? path.basename(modelFile, ".json")}-${rule.rule}-${seed}`);
   await fs.mkdir(out, { recursive: true });
   const files = { results: path.join(out, "results.jsonl"), model: path.join(out, "model.json"), checkpoint: path.join(out, "checkpoint.json") };
-  const config: Record<string, unknown> = { network: experiment.network, rule, training, data: { source, testFraction }, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
+  const config: Record<string, unknown> = { network: experiment.network, rule, training, data: { source, testFraction, ...(split !== undefined ? { split } : {}) }, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
 
   let net = built;
   let resumed = null;

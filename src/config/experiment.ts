@@ -9,6 +9,7 @@ import { issuesFromZod, safeParseNetwork, type NetworkSpec } from "../network/sp
 import { ruleSchema } from "../rules/config.js";
 import { builtinRegistry, type AnyRuleConfig, type Registry } from "../rules/registry.js";
 import { trainingSchema, type TrainingOptions } from "../train/loop.js";
+import { fixedSplitSchema } from "./split-schema.js";
 
 /** Schema of an experiment's data section. @category Files */
 export const dataSourceSchema = z
@@ -23,6 +24,8 @@ export const dataSourceSchema = z
     oneHot: z.boolean().optional(),
     /** Scale inputs to [0, 1] with the training split's minimum and maximum. */
     scale: z.boolean().default(false),
+    /** A fixed split instead of `testFraction`: index files `{ train, test }` (relative to the working folder) or a CSV column `{ column }` of `train`/`test`. */
+    split: fixedSplitSchema.optional(),
   })
   .strict();
 

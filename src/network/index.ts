@@ -5,3 +5,4 @@
 export * from "./spec.js";
 export * from "./network.js";
 export * from "./settle.js";
+export * from "./clip.js";

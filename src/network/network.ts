@@ -4,6 +4,7 @@
  * dtype; a connection's matrix is |to|×|from| row-major (row = receiving unit).
  * @module
  */
+import { refuseUnknownOptions } from "../errors/options.js";
 import { builtinUnits } from "../units/builtins.js";
 import type { UnitRegistry } from "../units/registry.js";
 import type { UnitFunction } from "../units/spec.js";
@@ -250,6 +251,7 @@ export function parameterBuffers(net: Network): FloatArray[] {
  * ```
  */
 export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: BuildOptions = {}): Network {
+  refuseUnknownOptions(options, ["allocate", "keepValues", "backend", "units"]);
   const units = options.units ?? builtinUnits;
   const spec = parseNetwork(input, units);
   const root = createRandom(spec.seed);

@@ -9,6 +9,12 @@ import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/units.js";
 import type { Network } from "./network.js";
 import { flatLayerValues, sizesByName, type LayerInputs } from "../interop/ndarray.js";
+import { clippedLayers } from "./clip.js";
+import { refuseUnknownOptions } from "../errors/options.js";
+
+/** The keys of {@link PhaseOptions} (others are refused). */
+const PHASE_OPTIONS = ["phase", "inputs", "targets", "beta", "cost", "start", "maxSteps", "tolerance", "record", "requireConvergence", "onStep", "reuseDrive"];
+import { batchLoss, batchLossGradient, requireObjective, type Objective } from "../train/loss.js";
 
 /** The three phases: free (the prediction: only inputs clamped), clamped and nudged (target-driven states: outputs clamped to, or pulled toward, the targets). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
@@ -26,6 +32,12 @@ export interface PhaseOptions {
   readonly targets?: LayerInputs | undefined;
   /** Nudging strength (nudged phase; may be negative, not 0). */
   readonly beta?: number | undefined;
+  /**
+   * The cost the nudged phase adds, β times it (default: the squared error ½‖u − t‖² on the output
+   * state, or on the output activity under rate dynamics). The nudging force on an output unit is
+   * `−β · factor · ∂L/∂v` (times ρ'(u) for a cost on the rate under energy dynamics); see {@link Objective}.
+   */
+  readonly cost?: Objective | undefined;
   /** Start from this state (for example the free fixed point); default: rest (zero). */
   readonly start?: Snapshot | undefined;
   /** Override of the network's maximum number of steps. */
@@ -152,6 +164,10 @@ export class Settler {
   private readonly scratch: FloatArray;
   private readonly clamped: boolean[];
   private readonly targetBuf: FloatArray[];
+  /** Per layer: clip its state to the unit's range (see clippedLayers). */
+  private readonly clip: boolean[];
+  /** Nudging force per output layer (B×N), for costs other than the default. */
+  private readonly force: FloatArray[];
   /** What the drive arrays were last computed from (null before the first phase or after a failed one). */
   private driveFrom: { inputs: LayerInputs; targets: LayerInputs | undefined; clamped: boolean[] } | null = null;
   /** Layers clamped in this phase and free in the previous one (used when the drive is reused). */
@@ -173,6 +189,8 @@ export class Settler {
     this.netInput = alloc((role) => free(role) && net.spec.dynamics.kind === "energy");
     this.next = alloc(free);
     this.targetBuf = alloc((role) => role === "output");
+    this.force = alloc((role) => role === "output");
+    this.clip = clippedLayers(net);
     this.scratch = net.allocate(Math.max(...net.layers.map((l) => l.size)));
     this.clamped = net.layers.map(() => false);
     this.newlyClamped = net.layers.map(() => false);
@@ -247,6 +265,7 @@ export class Settler {
   settle(options: PhaseOptions, out?: Snapshot): Snapshot {
     const { net, batch } = this;
     const dyn = net.spec.dynamics;
+    refuseUnknownOptions(options, PHASE_OPTIONS);
     const phase = options.phase;
     if (phase !== "free" && phase !== "clamped" && phase !== "nudged") fail("invalid_parameter", "phase", "free, clamped or nudged", phase);
     const maxSteps = options.maxSteps === undefined ? dyn.maxSteps : requireInteger("maxSteps", options.maxSteps, 1);
@@ -256,6 +275,9 @@ export class Settler {
       beta = requireFinite("beta", options.beta);
       if (beta === 0) fail("invalid_parameter", "beta", "a non-zero nudging strength (use the free phase for beta = 0)", 0);
     }
+    // the default cost keeps its own (fused) arithmetic; any other cost goes through the force buffer
+    const cost = options.cost === undefined ? null : requireObjective("cost", options.cost);
+    const plainCost = cost === null || (cost.loss === "squared-error" && cost.factor === 1 && (cost.on === "state" || dyn.kind === "rate"));
     const snap = out ?? new Snapshot(net, batch);
     if (snap.batch !== batch) fail("shape_mismatch", "out", `a snapshot of batch ${batch}`, `batch ${snap.batch}`);
     if (options.start !== undefined && options.start.batch !== batch) fail("shape_mismatch", "start", `a snapshot of batch ${batch}`, `batch ${options.start.batch}`);
@@ -341,6 +363,20 @@ export class Settler {
           // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost.
           // One fused kernel pass when the backend has it (same bits as the separate calls below)
           const fu = this.fusedUnit[i];
+          if (nudge && !plainCost) {
+            // eta − β·factor·∂L/∂x: the fixed point is a stationary point of the energy plus β·cost
+            const f = this.force[i] as FloatArray;
+            batchLossGradient((cost as Objective).loss, x, tgt, batch, n, f);
+            K.axpy(nx, f, -beta * (cost as Objective).factor, len);
+            fillUnit(K, l.unit, false, nx, nx, len);
+            K.sub(nx, nx, x, len);
+            K.axpby(nx, x, nx, 1, dt, len);
+            const largest = K.maxAbs(nx, len);
+            if (!(largest <= bound)) this.diverged(i, largest, bound, phase, step);
+            const d = K.maxAbsDiff(nx, x, len);
+            if (d > change) change = d;
+            continue;
+          }
           const fused = fu !== null && fu !== undefined && K.rateStep !== undefined ? K.rateStep(fu.kind, fu.gain, fu.offset, x, nx, nudge ? tgt : null, beta, dt, bound, len) : null;
           if (fused !== null) {
             if (fused < 0) this.diverged(l.index, K.maxAbs(nx, len), bound, phase, step);
@@ -357,14 +393,23 @@ export class Settler {
         } else {
           // energy dynamics: u += dt (rho'(u) eta - u) [+ dt beta (t - u)]  (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24)
           fillUnit(K, l.unit, true, nx, x, len); // rho'(u)
+          if (nudge && !plainCost) {
+            // force = factor · ∂L/∂v, v = u (cost on the state) or ρ(u) (cost on the rate, chain rule: · ρ'(u))
+            const c = cost as Objective;
+            const f = this.force[i] as FloatArray;
+            batchLossGradient(c.loss, c.on === "rate" ? (snap.activity[i] as FloatArray) : x, tgt, batch, n, f);
+            if (c.on === "rate") K.mul(f, f, nx, len);
+          }
           K.mul(nx, nx, eta, len); // rho'(u) eta
           K.sub(nx, nx, x, len); // rho'(u) eta - u
-          if (nudge) {
+          if (nudge && !plainCost) {
+            K.axpy(nx, this.force[i] as FloatArray, -beta * (cost as Objective).factor, len);
+          } else if (nudge) {
             K.sub(eta, tgt, x, len); // eta is free now: t - u
             K.axpy(nx, eta, beta, len);
           }
           K.axpby(nx, x, nx, 1, dt, len);
-          if (dyn.clip && Number.isFinite(l.unit.lower) && Number.isFinite(l.unit.upper)) {
+          if (this.clip[i]) {
             const lo = l.unit.lower;
             const hi = l.unit.upper;
             for (let k = 0; k < len; k++) {
@@ -472,12 +517,13 @@ export class Settler {
 /**
  * The Hopfield-style energy of a snapshot, summed over the batch
  * (Hopfield 1984, PNAS 81:3088; layered form of Scellier & Bengio 2017):
- * `E = Σ_layers [½‖u‖² − b·ρ(u)] − Σ_connections ρ(x_to)ᵀ W ρ(x_from) − ½ Σ_lateral ρᵀWρ + β·½‖u_out − t‖²`.
+ * `E = Σ_layers [½‖u‖² − b·ρ(u)] − Σ_connections ρ(x_to)ᵀ W ρ(x_from) − ½ Σ_lateral ρᵀWρ + β·½‖u_out − t‖²`
+ * (or `+ β·factor·L(v, t)` for another `cost`, see {@link Objective}).
  * Defined for networks whose feedback paths are tied with gain 1 and whose
  * lateral weights are symmetric; input layers enter only through couplings.
  * @category Settling
  */
-export function energy(net: Network, snap: Snapshot, targets?: LayerValues, beta = 0): number {
+export function energy(net: Network, snap: Snapshot, targets?: LayerValues, beta = 0, cost?: Objective): number {
   let e = 0;
   const B = snap.batch;
   for (const l of net.layers) {
@@ -509,6 +555,12 @@ export function energy(net: Network, snap: Snapshot, targets?: LayerValues, beta
     for (const l of net.outputLayers) {
       const t = targets[l.name];
       if (t === undefined) fail("shape_mismatch", `targets.${l.name}`, "target values", undefined);
+      if (cost !== undefined) {
+        const c = requireObjective("cost", cost);
+        const v = (c.on === "rate" ? snap.activity : snap.state)[l.index] as FloatArray;
+        e += beta * c.factor * batchLoss(c.loss, v, t, B, l.size);
+        continue;
+      }
       const u = snap.state[l.index] as FloatArray;
       for (let k = 0; k < u.length; k++) e += beta * 0.5 * ((u[k] as number) - (t[k] as number)) ** 2;
     }

@@ -100,7 +100,8 @@ function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
       maxSteps: integerField().default(500),
       tolerance: positiveField("a tolerance > 0").default(1e-6),
       bound: positiveField("a divergence bound > 0").default(1e6),
-      clip: z.boolean().default(false),
+      // clip energy-dynamics states to the unit's range: "auto" where that changes no fixed point (see clippedLayers)
+      clip: z.union([z.boolean(), z.literal("auto")], { error: 'true, false or "auto"' }).default("auto"),
     })
     .strict();
 
@@ -111,7 +112,7 @@ function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
       seed: z.union([finiteField(), z.string()], { error: "a number or a string" }).default(0),
       layers: z.array(layerSchema, { error: "an array of layers" }).min(1, { error: "at least one layer" }),
       connections: z.array(connectionSchema, { error: "an array of connections" }),
-      dynamics: dynamicsSchema.default({ kind: "rate", dt: 0.2, maxSteps: 500, tolerance: 1e-6, bound: 1e6, clip: false }),
+      dynamics: dynamicsSchema.default({ kind: "rate", dt: 0.2, maxSteps: 500, tolerance: 1e-6, bound: 1e6, clip: "auto" }),
     })
     .strict();
 }

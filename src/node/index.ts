@@ -12,3 +12,4 @@ export * from "./sweep/index.js";
 export * from "./sources.js";
 export * from "./export.js";
 export { loadPlugins, resolvePlugin } from "./plugins.js";
+export * from "./fixed-split.js";

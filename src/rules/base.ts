@@ -6,7 +6,7 @@ import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { KernelBackend } from "../kernels/backend.js";
 import type { Connection, Network } from "../network/network.js";
-import { Settler, Snapshot, type LayerValues } from "../network/settle.js";
+import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";
 import type { RuleConfigBase } from "./descriptor.js";
 import { flatBatch, type BatchInput } from "../interop/ndarray.js";
@@ -39,6 +39,12 @@ export interface LearningRule {
   step(batch: BatchInput, scale?: number): void;
   /** The free-phase snapshot of the last batch, if the rule settles one. */
   readonly lastFree: Snapshot | null;
+  /**
+   * The snapshots of every phase settled for the last batch, in order (free first), when the rule records
+   * them (every {@link SettlingRule} does): read by `gradientAgreement` to report convergence, step
+   * counts and distances per phase. Valid until the rule's next step.
+   */
+  readonly lastPhases?: readonly Snapshot[] | undefined;
   /**
    * If set (same batch size), the next free phase starts from this state instead of rest: persistent
    * states, as in the Equilibrium Propagation authors' code (methods.md item 4). Rules on the
@@ -113,6 +119,17 @@ export function contrastBias(out: FloatArray, alpha: number, a: FloatArray, b: F
   }
 }
 
+/** A settler that keeps the snapshots it settled since its last free phase (a rule's phases of one batch). */
+class RecordingSettler extends Settler {
+  readonly log: Snapshot[] = [];
+  override settle(options: PhaseOptions, out?: Snapshot): Snapshot {
+    const snap = super.settle(options, out);
+    if (options.phase === "free") this.log.length = 0;
+    this.log.push(snap);
+    return snap;
+  }
+}
+
 /** Shared machinery of rules that settle phases: one Settler and snapshots per batch size. */
 export abstract class SettlingRule implements LearningRule {
   abstract readonly phases: readonly string[];
@@ -120,7 +137,9 @@ export abstract class SettlingRule implements LearningRule {
   readonly net: Network;
   lastFree: Snapshot | null = null;
   freeStart: Snapshot | null = null;
-  private readonly settlers = new Map<number, { settler: Settler; snaps: Snapshot[] }>();
+  private readonly settlers = new Map<number, { settler: RecordingSettler; snaps: Snapshot[] }>();
+  /** The settler that settled last (its log holds the last batch's phases). */
+  private lastSettler: RecordingSettler | null = null;
   private stepDelta: ParameterDelta | null = null;
 
   constructor(net: Network, config: RuleConfigBase) {
@@ -133,15 +152,21 @@ export abstract class SettlingRule implements LearningRule {
   protected workspace(batch: number, count: number): { settler: Settler; snaps: Snapshot[] } {
     let ws = this.settlers.get(batch);
     if (ws === undefined) {
-      ws = { settler: new Settler(this.net, batch), snaps: [] };
+      ws = { settler: new RecordingSettler(this.net, batch), snaps: [] };
       this.settlers.set(batch, ws);
     }
+    this.lastSettler = ws.settler;
     // the phases of one batch share the input layers' arrays (same inputs in every phase)
     while (ws.snaps.length < count) ws.snaps.push(new Snapshot(this.net, batch, ws.snaps[0]));
     return ws;
   }
 
   abstract computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta;
+
+  /** The phases settled for the last batch, free first (see {@link LearningRule.lastPhases}). */
+  get lastPhases(): readonly Snapshot[] {
+    return this.lastSettler?.log ?? [];
+  }
 
   /** The settler's working array of `layer` for batch size B (free between phases) for phase differences. */
   protected phaseScratch(batch: number, layer: number): FloatArray {

@@ -12,6 +12,7 @@
  * the rows are shared out.
  * @module
  */
+import type { Objective } from "../train/loss.js";
 import type { FloatArray } from "../types/index.js";
 import type { KernelBackend } from "../kernels/backend.js";
 import type { Network } from "../network/network.js";
@@ -30,6 +31,8 @@ export interface PhaseStep {
   readonly phase: Phase;
   /** Nudging strength of a nudged phase. */
   readonly beta?: number | undefined;
+  /** The cost a nudged phase adds (default: the squared error on the output state; see `PhaseOptions.cost`). */
+  readonly cost?: Objective | undefined;
   /** Cap on the phase's settling steps (default: the network's `dynamics.maxSteps`). */
   readonly maxSteps?: number | undefined;
   /** Stop tolerance of the phase (default: the network's); `Number.MIN_VALUE` settles exactly `maxSteps` steps. */
@@ -274,6 +277,7 @@ export function settlePlanPhases(settler: { settle(o: PhaseOptions & { reuseDriv
       {
         phase: ph.phase,
         beta: ph.beta,
+        cost: ph.cost,
         maxSteps: ph.maxSteps,
         tolerance: ph.tolerance,
         reuseDrive: ph.reuseDrive,

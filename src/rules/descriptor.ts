@@ -9,6 +9,7 @@ import { z } from "zod";
 import type { Network } from "../network/network.js";
 import type { LearningRule } from "./base.js";
 import type { ContrastForm } from "./contrast-form.js";
+import type { Objective } from "../train/loss.js";
 
 /** Fields every rule config has: its name, its learning rate and optional per-connection rates. @category Rules */
 export interface RuleConfigBase {
@@ -77,6 +78,13 @@ export interface RuleDescriptor<C extends RuleConfigBase = RuleConfigBase> {
    * by {@link FormRule} for rules that are declared by their form alone.
    */
   contrast?(config: C, net: Network): ContrastForm | null;
+  /**
+   * For a rule that follows (or approximates) the gradient of a loss it is told: the loss its change
+   * follows, as configured (its schema then has a `loss` field, filled in from `training.loss` by the
+   * Trainer and from the `loss` option by `gradientAgreement`). Rules without it learn from clamped
+   * targets and take no loss.
+   */
+  objective?(config: C): Objective;
   /**
    * A zod schema of the rule's saved state ({@link LearningRule.saveState}): a checkpoint's rule state is
    * validated with it before {@link LearningRule.loadState}, so a damaged state is a typed error naming the

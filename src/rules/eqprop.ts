@@ -14,6 +14,7 @@ import type { ContrastForm, PhaseStep } from "./contrast-form.js";
 import { phaseContrast } from "./contrastive.js";
 import type { Snapshot } from "../network/settle.js";
 import { flatBatch, type BatchInput } from "../interop/ndarray.js";
+import { lossNameSchema, type Objective } from "../train/loss.js";
 
 const steps = z.number().int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" });
 const eqpropSchema = z
@@ -25,11 +26,23 @@ const eqpropSchema = z
     // authors settle fewer nudged than free steps, e.g. 20 and 4 (Scellier & Bengio 2017, from memory)
     freeSteps: steps.optional(),
     nudgedSteps: steps.optional(),
+    // the cost β·factor·L(v, t) the nudged phase adds: the loss, the output quantity v it acts on (the
+    // state u, or the rate ρ(u) as in the published experiments), and for the squared error whether it
+    // carries its ½ (see docs/guide/rules.md for the β scaling each form implies)
+    loss: lossNameSchema.default("squared-error"),
+    cost: z.enum(["state", "rate"], { error: "state or rate" }).default("state"),
+    squaredHalf: z.boolean().default(true),
     ...commonRuleFields,
   })
-  .strict();
+  .strict()
+  .refine((c) => c.squaredHalf || c.loss === "squared-error", { error: "squaredHalf: false only with the squared-error loss (the ½ belongs to the squared error)", path: ["squaredHalf"] });
 
 type Cfg = z.output<typeof eqpropSchema>;
+
+/** The cost Equilibrium Propagation nudges with, and whose gradient its estimate follows. */
+function eqpropObjective(c: Cfg): Objective {
+  return { loss: c.loss, on: c.cost, factor: c.loss === "squared-error" && !c.squaredHalf ? 2 : 1 };
+}
 
 /** Saved state of the rule: the random stream of the nudging signs. */
 const eqpropState = z.object({ signs: randomStreamStateSchema }).strict();
@@ -43,15 +56,21 @@ const eqpropState = z.object({ signs: randomStreamStateSchema }).strict();
  * Runs on energy dynamics or on rate dynamics (whose nudged fixed point is a stationary point of the
  * continuous-Hopfield energy plus β·cost); the estimate follows the gradient when feedback is tied with gain 1.
  * `freeSteps` and `nudgedSteps` cap the two phases' settling (default: the network's `dynamics.maxSteps`).
+ * The nudging cost is `β · factor · L(v, t)`: `loss` (default the squared error), on the output state
+ * (`cost: "state"`, default) or rate (`cost: "rate"`, the published form), factor 2 for the squared error
+ * without its ½ (`squaredHalf: false`); the estimate follows the gradient of that same cost.
  * @category Rules
  */
 export class EquilibriumPropagation extends SettlingRule {
   readonly phases: readonly string[];
   private readonly cfg: Cfg;
   private signs: RandomStream;
+  /** The nudging cost (loss, quantity, factor). */
+  readonly objective: Objective;
 
   constructor(net: Network, config: Cfg) {
     super(net, config);
+    this.objective = eqpropObjective(config);
     if (config.beta === 0) fail("invalid_parameter", "rule.beta", "a non-zero nudging strength beta", 0);
     this.cfg = config;
     this.phases = config.mode === "symmetric" ? ["free", "nudged +β", "nudged −β"] : ["free", "nudged"];
@@ -74,12 +93,12 @@ export class EquilibriumPropagation extends SettlingRule {
     this.lastFree = free;
     let beta = this.cfg.beta;
     if (this.cfg.mode === "symmetric") {
-      const a = settler.settle({ phase: "nudged", beta, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
-      const b = settler.settle({ phase: "nudged", beta: -beta, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
+      const a = settler.settle({ phase: "nudged", beta, cost: this.objective, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+      const b = settler.settle({ phase: "nudged", beta: -beta, cost: this.objective, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[2]);
       return { a, b, scale: 1 / (2 * beta), B };
     }
     if (this.cfg.mode === "random-sign") beta *= this.signs.sign();
-    const a = settler.settle({ phase: "nudged", beta, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
+    const a = settler.settle({ phase: "nudged", beta, cost: this.objective, reuseDrive: true, maxSteps: this.cfg.nudgedSteps, inputs: batch.inputs, targets: batch.targets, start: free }, snaps[1]);
     return { a, b: free, scale: 1 / beta, B };
   }
 
@@ -150,7 +169,7 @@ export class EquilibriumPropagation extends SettlingRule {
 /** The phases Equilibrium Propagation settles, with the settling options it passes (shared with the row split). */
 function eqpropPhases(c: Cfg): PhaseStep[] {
   const free: PhaseStep = { phase: "free", maxSteps: c.freeSteps };
-  const nudged = (b: number): PhaseStep => ({ phase: "nudged", beta: b, maxSteps: c.nudgedSteps, reuseDrive: true });
+  const nudged = (b: number): PhaseStep => ({ phase: "nudged", beta: b, cost: eqpropObjective(c), maxSteps: c.nudgedSteps, reuseDrive: true });
   return c.mode === "symmetric" ? [free, nudged(c.beta), nudged(-c.beta)] : [free, nudged(c.beta)];
 }
 
@@ -160,8 +179,9 @@ export const eqpropRule = defineRule({
   summary: "Equilibrium Propagation, (ε/β)(ρρᵀ nudged − ρρᵀ free), one-sided, random-sign or symmetric (Scellier & Bengio 2017; Laborieux et al. 2021)",
   schema: eqpropSchema,
   phases: (c) => (c.mode === "symmetric" ? ["free", "nudged +β", "nudged −β"] : ["free", "nudged"]),
-  label: (c) => `${c.rule} (${c.mode})`,
+  label: (c) => `${c.rule} (${[c.mode, ...(c.loss === "squared-error" ? [] : [c.loss]), ...(c.cost === "state" ? [] : [`cost on the ${c.cost}`]), ...(c.squaredHalf ? [] : ["no ½"])].join(", ")})`,
   readout: "settle",
+  objective: eqpropObjective,
   // random-sign draws the sign of β from a stream that advances every batch
   split: (c) => (c.mode === "random-sign" ? "none" : "rows"),
   contrast: (c): ContrastForm | null => {

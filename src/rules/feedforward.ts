@@ -12,12 +12,16 @@ import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta } from "./delta.js";
 import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import { commonRuleFields, defineRule, type RuleConfigBase } from "./descriptor.js";
+import { lossNameSchema, patternLossGradient, type LossName } from "../train/loss.js";
 
-const backpropSchema = z.object({ rule: z.literal("backprop"), ...commonRuleFields }).strict();
-const feedbackAlignmentSchema = z.object({ rule: z.literal("feedback-alignment"), ...commonRuleFields }).strict();
+// the loss whose output error the rule sends back (default: the squared error; see LossName)
+const lossField = { loss: lossNameSchema.default("squared-error") } as const;
+const backpropSchema = z.object({ rule: z.literal("backprop"), ...lossField, ...commonRuleFields }).strict();
+const feedbackAlignmentSchema = z.object({ rule: z.literal("feedback-alignment"), ...lossField, ...commonRuleFields }).strict();
 const directFeedbackAlignmentSchema = z
   .object({
     rule: z.literal("direct-feedback-alignment"),
+    ...lossField,
     scale: z.number({ error: "a feedback scale > 0" }).refine((v) => Number.isFinite(v) && v > 0, { error: "a feedback scale > 0" }).default(1),
     ...commonRuleFields,
   })
@@ -27,6 +31,8 @@ export interface FeedforwardConfig extends RuleConfigBase {
   readonly rule: "backprop" | "feedback-alignment" | "direct-feedback-alignment";
   /** Direct feedback alignment: scale of the fixed random feedback matrices. */
   readonly scale?: number | undefined;
+  /** The loss whose output error the rule sends back (default the squared error). */
+  readonly loss: LossName;
 }
 import type { BatchInput } from "../interop/ndarray.js";
 import type { Snapshot } from "../network/settle.js";
@@ -92,8 +98,8 @@ export function runForward(net: Network, order: readonly number[], batch: Batch,
   }
 }
 
-/** Writes into the output layers' `delta` the error `(y − t) ⊙ f'(a)` (squared error ½‖y − t‖²). */
-function outputError(net: Network, batch: Batch, pass: ForwardPass): void {
+/** Writes into the output layers' `delta` the error `∂L/∂y ⊙ f'(a)` (squared error: `(y − t) ⊙ f'(a)`). */
+function outputError(net: Network, batch: Batch, pass: ForwardPass, loss: LossName): void {
   for (const l of net.outputLayers) {
     const t = batch.targets[l.name];
     const n = pass.batch * l.size;
@@ -101,7 +107,12 @@ function outputError(net: Network, batch: Batch, pass: ForwardPass): void {
     const d = pass.delta[l.index] as FloatArray;
     const y = pass.activity[l.index] as FloatArray;
     const s = pass.slope[l.index] as FloatArray;
-    for (let k = 0; k < n; k++) d[k] = ((y[k] as number) - (t[k] as number)) * (s[k] as number);
+    if (loss === "squared-error") {
+      for (let k = 0; k < n; k++) d[k] = ((y[k] as number) - (t[k] as number)) * (s[k] as number);
+      continue;
+    }
+    for (let p = 0; p < pass.batch; p++) patternLossGradient(loss, y, t, p * l.size, l.size, d);
+    for (let k = 0; k < n; k++) d[k] = (d[k] as number) * (s[k] as number);
   }
 }
 
@@ -116,10 +127,10 @@ type Carrier = "transpose" | "feedback" | "direct";
  * 2016, Nat. Commun. 7:13276); `direct` sends the
  * output error through a fixed matrix per hidden layer (Nøkland 2016, NIPS 29).
  */
-function backward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass, carrier: Carrier, direct: readonly (FloatArray | null)[], random: readonly (FloatArray | null)[], config: RuleConfigBase | null, out: ParameterDelta): void {
+function backward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass, carrier: Carrier, direct: readonly (FloatArray | null)[], random: readonly (FloatArray | null)[], config: RuleConfigBase | null, out: ParameterDelta, loss: LossName): void {
   const B = pass.batch;
   const gemm = net.kernels.gemm;
-  outputError(net, batch, pass);
+  outputError(net, batch, pass, loss);
   const outputs = net.outputLayers;
   for (let o = order.length - 1; o >= 0; o--) {
     const i = order[o] as number;
@@ -170,22 +181,24 @@ function backward(net: Network, order: readonly number[], batch: Batch, pass: Fo
 }
 
 /**
- * The exact gradient of `J = (1/B) Σ ½‖y − t‖²` on the feedforward pass (feedback ignored),
- * by backprop (Rumelhart, Hinton & Williams 1986, Nature 323:533). Returns `out`.
+ * The exact gradient of `J = (1/B) Σ L(y, t)` on the feedforward pass (feedback ignored), L the loss
+ * (default the squared error ½‖y − t‖²), by backprop (Rumelhart, Hinton & Williams 1986, Nature
+ * 323:533). Returns `out`.
  * @category Verification
  */
-export function feedforwardGradient(net: Network, batch: Batch, out?: ParameterDelta): ParameterDelta {
+export function feedforwardGradient(net: Network, batch: Batch, out?: ParameterDelta, loss: LossName = "squared-error"): ParameterDelta {
   const order = forwardOrder(net);
   const pass = createForwardPass(net, batchSizeOf(net, batch));
   runForward(net, order, batch, pass);
   const o = out ?? new ParameterDelta(net);
-  backward(net, order, batch, pass, "transpose", [], [], null, o);
+  backward(net, order, batch, pass, "transpose", [], [], null, o, loss);
   return o;
 }
 
 /**
  * Backprop, feedback alignment or direct feedback alignment on the feedforward pass, as a rule:
- * the change is `−ε ×` the (approximate) gradient of the squared error, averaged over the batch.
+ * the change is `−ε ×` the (approximate) gradient of the loss (`loss`, default the squared error),
+ * averaged over the batch.
  * @category Rules
  */
 export class FeedforwardRule implements LearningRule {
@@ -246,7 +259,7 @@ export class FeedforwardRule implements LearningRule {
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
     const pass = this.pass(batchSizeOf(this.net, batch));
     runForward(this.net, this.order, batch, pass);
-    backward(this.net, this.order, batch, pass, this.carrier, this.direct, this.random, this.config, out);
+    backward(this.net, this.order, batch, pass, this.carrier, this.direct, this.random, this.config, out, this.config.loss);
     return out;
   }
 
@@ -263,9 +276,10 @@ function feedforwardDescriptor<C extends FeedforwardConfig>(name: C["rule"], sum
     summary,
     schema,
     phases: () => ["forward", "backward"],
-    label: (c) => c.rule,
+    label: (c) => (c.loss === "squared-error" ? c.rule : `${c.rule} (${c.loss})`),
     readout: "forward",
     split: () => "slices",
+    objective: (c) => ({ loss: c.loss, on: "rate", factor: 1 }),
     create: (net, c) => new FeedforwardRule(net, c),
   });
 }

@@ -13,6 +13,7 @@ export * from "./base.js";
 export * from "./descriptor.js";
 export * from "./registry.js";
 export * from "./contrast-form.js";
+export * from "./loss-config.js";
 export { ContrastiveHebbian, GeneRec, SlidingThresholdRule, generecFromSnapshots, layerDepths, xieSeungFactors, phaseContrast, chlRule, xieSeungRule, generecRule, calciumRule } from "./contrastive.js";
 export { EquilibriumPropagation, eqpropRule } from "./eqprop.js";
 export { FeedforwardRule, feedforwardGradient, forwardOrder, createForwardPass, runForward, type ForwardPass, type FeedforwardConfig, backpropRule, feedbackAlignmentRule, directFeedbackAlignmentRule } from "./feedforward.js";

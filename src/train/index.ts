@@ -4,5 +4,7 @@
  */
 export * from "./data/index.js";
 export * from "./metrics.js";
+export * from "./loss.js";
 export * from "./schedule.js";
 export * from "./loop.js";
+export * from "./optimizer.js";

@@ -4,6 +4,7 @@
  * and a complete state for checkpoints (resuming gives bit-identical results).
  * @module
  */
+import { refuseUnknownOptions } from "../errors/options.js";
 import { z } from "zod";
 import { EbbflowError, fail, issueText } from "../errors/index.js";
 import { allocate, type FloatArray } from "../types/index.js";
@@ -15,15 +16,21 @@ import { builtinRegistry, type AnyRuleDescriptor, type LearningRule, type Regist
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "../rules/feedforward.js";
 import type { Dataset } from "./data/index.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
+import { lossNameSchema } from "./loss.js";
+import { Optimizer, optimizerSchema, type OptimizerState } from "./optimizer.js";
+import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
 import { scheduleFactor, scheduleSchema } from "./schedule.js";
 
-const metricName = z.enum(["sse", "crossEntropy", "accuracy", "cosine"], { error: "one of sse, crossEntropy, accuracy, cosine" });
+const METRIC_NAMES = ["sse", "loss", "binaryCrossEntropy", "softmaxCrossEntropy", "accuracy", "cosine"] as const;
+const metricName = z.enum(METRIC_NAMES, { error: `one of ${METRIC_NAMES.join(", ")}` });
 
 /** Schema of the training options. @category Training */
 export const trainingSchema = z
   .object({
     epochs: z.number({ error: "an integer >= 1" }).int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" }),
     batchSize: z.number().int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" }).default(16),
+    // the loss of the output layers: the `loss` metric, and the loss of rules that follow one (EqProp, backprop, ...)
+    loss: lossNameSchema.default("squared-error"),
     shuffle: z.boolean().default(true),
     schedule: scheduleSchema.default({ kind: "constant" }),
     earlyStopping: z
@@ -42,6 +49,12 @@ export const trainingSchema = z
     persistentStates: z.boolean().default(false),
     readout: z.enum(["auto", "settle", "forward"], { error: "one of auto, settle, forward" }).default("auto"),
     evaluateTrain: z.boolean().default(true),
+    // how the arg-max read-out scores an example whose largest output is tied (see TiePolicy)
+    ties: z.enum(["wrong", "first", "random"], { error: "one of wrong, first, random" }).default("wrong"),
+    // stop with a named reason when the loss is not finite or every example's outputs tie
+    guard: z.boolean().default(true),
+    // an optimizer applied to the rule's change (momentum, Adam, weight decay, bias rates per layer); none by default
+    optimizer: optimizerSchema.optional(),
   })
   .strict();
 
@@ -69,7 +82,7 @@ export interface EpochRecord {
 }
 
 /** Why training ended. @category Training */
-export type StopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback";
+export type StopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback" | "non-finite-loss" | "outputs-tied";
 
 /** Everything needed to resume training bit for bit (weights are saved separately in the model file). @category Training */
 export interface TrainerState {
@@ -81,6 +94,8 @@ export interface TrainerState {
   readonly sinceBest: number;
   /** Persistent free-phase states per non-input layer, n×size, when enabled. */
   readonly persistent: (number[] | null)[] | null;
+  /** The optimizer's step count and moments, when `training.optimizer` is set. */
+  readonly optimizer?: OptimizerState | null | undefined;
 }
 
 /** Callbacks of a {@link Trainer}. @category Training */
@@ -131,6 +146,8 @@ export class Trainer {
   epoch = 0;
   readonly history: EpochRecord[] = [];
   private shuffleStream: RandomStream;
+  /** The seed of the training streams (shuffling, random tie-breaking). */
+  private readonly seed: number | string;
   private best: number | null = null;
   private sinceBest = 0;
   private readonly inputName: string;
@@ -139,19 +156,26 @@ export class Trainer {
   private readonly order: number[];
   private readonly persistent: (FloatArray | null)[] | null;
   private readonly forward: boolean;
+  /** The optimizer applied to the rule's change (null: the rule's own step). */
+  readonly optimizer: Optimizer | null;
   private evalSettlers = new Map<number, Settler>();
   private evalPasses = new Map<number, ForwardPass>();
   private starts = new Map<number, Snapshot>();
 
   constructor(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>> | LearningRule, train: Dataset, options: TrainingOptionsInput, extras: TrainerExtras = {}) {
     this.net = net;
+    refuseUnknownOptions(extras, ["test", "seed", "hooks", "registry"], "extras");
     this.options = parseTraining(options);
     this.registry = extras.registry ?? builtinRegistry;
     if (isRuleInstance(rule)) {
       if (rule.net !== net) fail("invalid_config", "rule", "a rule bound to the network being trained", "a rule bound to another network");
       this.rule = rule;
-    } else this.rule = this.registry.createRule(net, rule);
+    } else this.rule = this.registry.createRule(net, configWithLoss(this.registry, rule, this.options.loss));
     this.descriptor = this.registry.rules.get(this.rule.config.rule) ?? null;
+    if (this.descriptor?.objective !== undefined) {
+      const followed = ruleObjective(this.registry, this.rule.config, this.options.loss).loss;
+      if (followed !== this.options.loss) fail("invalid_config", "rule.loss", `the loss of the training config, ${JSON.stringify(this.options.loss)}`, followed);
+    }
     this.train = train;
     this.test = extras.test;
     this.hooks = extras.hooks ?? {};
@@ -172,9 +196,11 @@ export class Trainer {
     }
     if (problems.length > 0) throw new EbbflowError(problems);
     if (this.options.earlyStopping?.split === "test" && this.test === undefined) fail("invalid_config", "training.earlyStopping.split", '"train" (no test set was given)', "test");
-    this.shuffleStream = createRandom(extras.seed ?? net.spec.seed).child("train/shuffle");
+    this.seed = extras.seed ?? net.spec.seed;
+    this.shuffleStream = createRandom(this.seed).child("train/shuffle");
     this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && this.descriptor?.readout === "forward");
     this.order = this.forward ? forwardOrder(net) : [];
+    this.optimizer = this.options.optimizer === undefined ? null : new Optimizer(net, this.rule, this.options.optimizer);
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
   }
 
@@ -185,7 +211,9 @@ export class Trainer {
 
   /** Evaluates the network (free phase, or the feedforward pass) on a data set. */
   evaluate(ds: Dataset): Metrics {
-    const sums = new MetricSums();
+    // random tie-breaking draws from a stream fixed by the seed, the data set's name and the epoch (no state to save)
+    const ties = this.options.ties === "random" ? createRandom(this.seed).child(`train/ties/${ds.name}/${this.epoch}`) : null;
+    const sums = new MetricSums(this.options.loss, this.options.ties, ties === null ? null : () => ties.uniform());
     const chunk = Math.min(256, ds.size);
     const k = ds.targetSize;
     for (let start = 0; start < ds.size; start += chunk) {
@@ -273,7 +301,12 @@ export class Trainer {
       this.gather(idx, from, B, inBuf, tBuf);
       const batch = { inputs: { [this.inputName]: inBuf.subarray(0, B * ds.inputSize) }, targets: { [this.outputName]: tBuf.subarray(0, B * ds.targetSize) } };
       this.rule.freeStart = this.persistent ? this.persistentStart(idx, from, B) : null;
-      this.rule.step(batch, factor);
+      if (this.optimizer === null) this.rule.step(batch, factor);
+      else {
+        this.optimizer.before();
+        this.rule.step(batch, factor);
+        this.optimizer.after(factor);
+      }
       if (this.persistent) this.keepPersistent(idx, from, B);
       this.hooks.onBatch?.({ epoch, batch: b + 1, batches, size: B });
     }
@@ -292,11 +325,19 @@ export class Trainer {
   }
 
   /**
-   * Checks the stop conditions after an epoch (target reached, early stopping, epoch limit) and updates
+   * Checks the stop conditions after an epoch (the guard, target reached, early stopping, epoch limit) and updates
    * the early-stopping state; returns the reason to stop, or null to go on. Call once per epoch.
    */
   stopAfter(record: EpochRecord): StopReason | null {
     const o = this.options;
+    if (o.guard) {
+      // the guard: training that has broken down stops with a name, never "successfully"
+      const m = record.train ?? record.test;
+      if (m !== undefined) {
+        if (!Number.isFinite(m.loss) || !Number.isFinite(m.sse)) return "non-finite-loss";
+        if (m.examples > 0 && m.ties === m.examples) return "outputs-tied";
+      }
+    }
     if (o.stopWhen !== undefined) {
       const m = record[o.stopWhen.split];
       if (m !== undefined) {
@@ -339,6 +380,7 @@ export class Trainer {
       best: this.best,
       sinceBest: this.sinceBest,
       persistent: this.persistent ? this.persistent.map((p) => (p ? Array.from(p) : null)) : null,
+      ...(this.optimizer !== null ? { optimizer: this.optimizer.saveState() } : {}),
     };
   }
 
@@ -352,6 +394,10 @@ export class Trainer {
     this.history.push(...state.history);
     this.best = state.best;
     this.sinceBest = state.sinceBest;
+    if (this.optimizer !== null) {
+      if (state.optimizer === undefined || state.optimizer === null) fail("invalid_config", "trainer.optimizer", "the optimizer state of a run with training.optimizer", "none");
+      this.optimizer.loadState(state.optimizer);
+    }
     if (this.persistent && state.persistent) {
       state.persistent.forEach((p, i) => {
         const store = this.persistent?.[i];

@@ -11,7 +11,11 @@ import { ParameterDelta } from "../rules/delta.js";
 import { connectionRate, type Batch, type LearningRule } from "../rules/base.js";
 import type { RuleConfigInput } from "../rules/config.js";
 import { feedforwardGradient } from "../rules/feedforward.js";
-import { finiteDifferenceGradient, parameterArrays, recurrentGradient, type VerifySettling } from "./gradient.js";
+import { finiteDifferenceGradient, parameterArrays, recurrentGradient, settleFree, type VerifySettling } from "./gradient.js";
+import { phaseReports, type PhaseReport } from "./phases.js";
+import { batchSizeOf } from "../rules/base.js";
+import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
+import { requireLoss, type LossName, type Objective } from "../train/loss.js";
 
 /** The exact reference a rule is compared against. @category Verification */
 export type GradientReference = "recurrent" | "finite-difference" | "feedforward";
@@ -36,9 +40,18 @@ export interface AgreementReport {
   /** The rule's display name ({@link ruleDisplayName}: id, with variant or mode). */
   readonly rule: string;
   readonly reference: GradientReference;
+  /** The loss whose gradient is the reference (the rule's own for rules that take a loss). */
+  readonly loss: Objective;
   readonly rows: readonly AgreementRow[];
   /** The same measures over all parameters together. */
   readonly overall: Omit<AgreementRow, "parameter" | "kind">;
+  /**
+   * The rule's phases on this batch (free first): convergence, steps, distance from the free state and
+   * basin jumps (see {@link phaseReports}); empty for rules on the feedforward pass.
+   */
+  readonly phases: readonly PhaseReport[];
+  /** True when any phase did not converge or jumped basin: the rows then say little about the rule. */
+  readonly warning: boolean;
 }
 
 function measures(u: FloatArray | Float64Array, g: FloatArray | Float64Array, scale: number): Omit<AgreementRow, "parameter" | "kind"> {
@@ -70,13 +83,25 @@ export interface AgreementOptions extends VerifySettling {
   readonly reference?: GradientReference | undefined;
   /** Where the rule is looked up by name (default: the built-in rules). */
   readonly registry?: Registry | undefined;
+  /**
+   * The loss (default: the squared error). A rule that takes a loss (EqProp, backprop, the feedback
+   * alignments) is configured with it and compared with the gradient of its own cost (EqProp's `cost`
+   * and `squaredHalf` included); for the others the reference is this loss on the output state.
+   */
+  readonly loss?: LossName | undefined;
+  /**
+   * Largest distance (Euclidean over the non-input units of a pattern) between the fixed point a
+   * released phase settles to and the reference free fixed point before the phase counts as a basin
+   * jump (default 1e-6).
+   */
+  readonly basinTolerance?: number | undefined;
 }
 
-const AGREEMENT_OPTIONS = ["reference", "registry", "tolerance", "maxSteps"];
+const AGREEMENT_OPTIONS = ["reference", "registry", "tolerance", "maxSteps", "loss", "basinTolerance"];
 
 /**
- * Compares a rule's update on `batch` with the exact negative gradient of the squared error at
- * the free fixed point, per connection (and per learned feedback matrix and bias), and overall.
+ * Compares a rule's update on `batch` with the exact negative gradient of the loss (`options.loss`,
+ * default the squared error; see {@link AgreementOptions.loss}) at the free fixed point, per connection (and per learned feedback matrix and bias), and overall.
  * The network is not changed. Rules whose rate differs per connection are divided by that rate.
  * `rule` is a config (looked up in `options.registry`) or a rule instance bound to `net`.
  * @throws {@link EbbflowError} `invalid_parameter` for an option it does not know.
@@ -92,11 +117,19 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly
   const reference = options.reference ?? "recurrent";
   if (!(["recurrent", "finite-difference", "feedforward"] as unknown[]).includes(reference)) fail("invalid_parameter", "options.reference", "recurrent, finite-difference or feedforward", reference);
   const registry = options.registry ?? builtinRegistry;
-  const r = typeof (rule as LearningRule).computeDelta === "function" ? (rule as LearningRule) : registry.createRule(net, rule);
+  const lossName = options.loss === undefined ? undefined : requireLoss("options.loss", options.loss);
+  const r = typeof (rule as LearningRule).computeDelta === "function" ? (rule as LearningRule) : registry.createRule(net, configWithLoss(registry, rule, lossName));
   if (r.net !== net) fail("invalid_config", "rule", "a rule bound to the network checked", "a rule bound to another network");
   const descriptor = registry.rules.get(r.config.rule);
+  const loss = ruleObjective(registry, r.config, lossName);
+  if (lossName !== undefined && loss.loss !== lossName) fail("invalid_config", "rule.loss", `a rule following the loss ${lossName} (options.loss)`, loss.loss);
+  const basinTolerance = options.basinTolerance ?? 1e-6;
+  if (typeof basinTolerance !== "number" || !(basinTolerance > 0)) fail("invalid_parameter", "options.basinTolerance", "a number > 0", basinTolerance);
   const update = r.computeDelta(batch, new ParameterDelta(net));
-  const grad = reference === "recurrent" ? recurrentGradient(net, batch, options) : reference === "finite-difference" ? finiteDifferenceGradient(net, batch, options) : feedforwardGradient(net, batch);
+  const settling = { tolerance: options.tolerance, maxSteps: options.maxSteps, loss };
+  const tight = { tolerance: options.tolerance ?? 1e-13, maxSteps: options.maxSteps ?? 100000, basinTolerance };
+  const phases = (r.lastPhases?.length ?? 0) > 0 ? phaseReports(net, r, batch, settleFree(net, batch.inputs, batchSizeOf(net, batch), tight), tight) : [];
+  const grad = reference === "recurrent" ? recurrentGradient(net, batch, settling) : reference === "finite-difference" ? finiteDifferenceGradient(net, batch, settling) : feedforwardGradient(net, batch, undefined, loss.loss);
   const rows: AgreementRow[] = [];
   const uAll: number[] = [];
   const gAll: number[] = [];
@@ -112,7 +145,8 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly
       gAll.push(g[k] as number);
     }
   });
-  return { rule: descriptor?.label(r.config) ?? r.config.rule, reference, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
+  const warning = phases.some((p) => !p.converged || p.basinJump);
+  return { rule: descriptor?.label(r.config) ?? r.config.rule, reference, loss, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1), phases, warning };
 }
 
 /** Renders a report as a fixed-width text table. @category Verification */
@@ -123,5 +157,10 @@ export function formatAgreement(report: AgreementReport): string {
   lines.push(["(all parameters)", fmt(report.overall.cosine), fmt(report.overall.relativeError), fmt(report.overall.updateNorm), fmt(report.overall.gradientNorm)]);
   const widths = head.map((h, i) => Math.max(h.length, ...lines.map((l) => (l[i] as string).length)));
   const row = (cells: string[]) => cells.map((c, i) => (i === 0 ? c.padEnd(widths[i] as number) : c.padStart(widths[i] as number))).join("  ");
-  return [`${report.rule} vs ${report.reference} gradient`, row(head), widths.map((w) => "-".repeat(w)).join("  "), ...lines.map(row)].join("\n");
+  const phaseLines = report.phases.map(
+    (p) =>
+      `phase ${p.phase}: ${p.converged ? "converged" : "NOT converged"} in ${p.steps} steps (last change ${fmt(p.lastChange)}), distance from free ${fmt(p.distanceFromFree)}` +
+      (p.basinJump ? `, BASIN JUMP (patterns ${p.jumpedPatterns.join(", ")} settle ${fmt(p.releasedDistance)} away when released)` : ""),
+  );
+  return [`${report.rule} vs ${report.reference} gradient`, row(head), widths.map((w) => "-".repeat(w)).join("  "), ...lines.map(row), ...phaseLines].join("\n");
 }

@@ -10,6 +10,8 @@ import { Settler, type Snapshot, type LayerValues } from "../network/settle.js";
 import { ParameterDelta } from "../rules/delta.js";
 import { batchSizeOf, type Batch } from "../rules/base.js";
 import { solveInPlace } from "./linalg.js";
+import { refuseUnknownOptions } from "../errors/options.js";
+import { batchLoss, DEFAULT_OBJECTIVE, patternLossGradient, requireObjective, type LossName, type Objective } from "../train/loss.js";
 
 /** Settling overrides used by the verification routines (tight by default). @category Verification */
 export interface VerifySettling {
@@ -19,20 +21,38 @@ export interface VerifySettling {
   readonly maxSteps?: number | undefined;
 }
 
+/** Options of the exact gradients: settling overrides and the loss. @category Verification */
+export interface VerifyOptions extends VerifySettling {
+  /**
+   * The loss whose gradient is taken (default: the squared error on the output state, see
+   * {@link DEFAULT_OBJECTIVE}): a loss name (on the output state) or a full {@link Objective}.
+   */
+  readonly loss?: LossName | Objective | undefined;
+}
+
+const VERIFY_OPTIONS = ["tolerance", "maxSteps", "loss"];
+
+/** The objective named by verification options (default: squared error on the output state). */
+export function objectiveOf(opts: { readonly loss?: LossName | Objective | undefined }, path = "options.loss"): Objective {
+  return opts.loss === undefined ? DEFAULT_OBJECTIVE : requireObjective(path, opts.loss);
+}
+
 /**
- * The loss ebbflow verifies against: `J = (1/B) Σ_b ½‖y_b − t_b‖²` over the output layers at the
- * free fixed point, y the output activity (rate dynamics) or the output state u (energy dynamics,
- * the quantity the nudging cost acts on).
+ * The loss ebbflow verifies against: `J = (1/B) Σ_b factor · L(v_b, t_b)` over the output layers at the
+ * free fixed point, v the output activity (rate dynamics) or, under energy dynamics, the output state u
+ * (`on: "state"`, the default: the quantity the default nudging cost acts on) or the rate ρ(u)
+ * (`on: "rate"`). Default: `L = ½‖v − t‖²`.
  * @category Verification
  */
-export function freeLoss(net: Network, free: Snapshot, targets: LayerValues): number {
+export function freeLoss(net: Network, free: Snapshot, targets: LayerValues, objective: Objective = DEFAULT_OBJECTIVE): number {
   let j = 0;
-  const energy = net.spec.dynamics.kind === "energy";
+  const o = requireObjective("objective", objective);
+  const onState = net.spec.dynamics.kind === "energy" && o.on === "state";
   for (const l of net.outputLayers) {
-    const y = (energy ? free.state : free.activity)[l.index] as FloatArray;
+    const y = (onState ? free.state : free.activity)[l.index] as FloatArray;
     const t = targets[l.name];
     if (t === undefined || t.length !== y.length) fail("shape_mismatch", `targets.${l.name}`, `${y.length} values`, t === undefined ? "missing" : `${t.length} values`);
-    for (let k = 0; k < y.length; k++) j += 0.5 * ((y[k] as number) - (t[k] as number)) ** 2;
+    j += o.factor * batchLoss(o.loss, y, t, free.batch, l.size);
   }
   return j / free.batch;
 }
@@ -51,7 +71,7 @@ function curvature(slope: (x: number) => number, x: number): number {
 }
 
 /**
- * The exact gradient dJ/dθ of {@link freeLoss} at the free fixed point, for every weight, learned
+ * The exact gradient dJ/dθ of {@link freeLoss} (the loss `opts.loss`) at the free fixed point, for every weight, learned
  * feedback matrix and bias, by recurrent backprop (Almeida 1987; Pineda 1987, Phys. Rev. Lett.
  * 59:2229): with `h(s) = 0` the fixed-point condition (rate: `f(η) − x`; energy:
  * `ρ'(u) η − u`), solve `(∂h/∂s)ᵀ λ = ∂J/∂s` and read `dJ/dθ = −λᵀ ∂h/∂θ`. For a network without
@@ -61,7 +81,9 @@ function curvature(slope: (x: number) => number, x: number): number {
  *   `divergence` if settling does not converge or the fixed point is not stable.
  * @category Verification
  */
-export function recurrentGradient(net: Network, batch: Batch, opts: VerifySettling = {}, out?: ParameterDelta): ParameterDelta {
+export function recurrentGradient(net: Network, batch: Batch, opts: VerifyOptions = {}, out?: ParameterDelta): ParameterDelta {
+  refuseUnknownOptions(opts, VERIFY_OPTIONS);
+  const objective = objectiveOf(opts);
   for (const l of net.layers) if (l.inhibition.kind === "kwta") fail("unsupported", `layers[${l.index}].inhibition`, "no k-winners-take-all (its inhibition is not differentiable)", "kwta");
   const B = batchSizeOf(net, batch);
   const free = settleFree(net, batch.inputs, B, opts);
@@ -111,6 +133,7 @@ export function recurrentGradient(net: Network, batch: Batch, opts: VerifySettli
   const q = new Float64Array(n);
   const x = new Float64Array(n);
   const delta = new Float64Array(n);
+  const dv = new Float64Array(B * Math.max(0, ...net.outputLayers.map((l) => l.size)));
   for (let p = 0; p < B; p++) {
     for (const l of net.layers) {
       const o = offset[l.index] as number;
@@ -166,8 +189,11 @@ export function recurrentGradient(net: Network, batch: Batch, opts: VerifySettli
       const o = offset[l.index] as number;
       const t = batch.targets[l.name];
       if (t === undefined || t.length !== B * l.size) fail("shape_mismatch", `targets.${l.name}`, `${B * l.size} values`, t === undefined ? "missing" : `${t.length} values`);
-      const y = (energy ? free.state : free.activity)[l.index] as FloatArray;
-      for (let i = 0; i < l.size; i++) lam[o + i] = ((y[p * l.size + i] as number) - (t[p * l.size + i] as number)) / B;
+      // ∂J/∂v of the loss, then the chain rule to the unknowns (u under energy dynamics: · ρ'(u) for a cost on the rate)
+      const onRate = energy && objective.on === "rate";
+      const y = (energy && !onRate ? free.state : free.activity)[l.index] as FloatArray;
+      patternLossGradient(objective.loss, y, t, p * l.size, l.size, dv);
+      for (let i = 0; i < l.size; i++) lam[o + i] = (objective.factor * (dv[p * l.size + i] as number) * (onRate ? (s[o + i] as number) : 1)) / B;
     }
     solveInPlace(H, lam, n);
     for (let i = 0; i < n; i++) delta[i] = -(s[i] as number) * (lam[i] as number);
@@ -214,17 +240,19 @@ export function parameterArrays(net: Network, d: ParameterDelta): { name: string
 }
 
 /**
- * The gradient of {@link freeLoss} by central finite differences, `(J(θ+h) − J(θ−h)) / 2h` per
+ * The gradient of {@link freeLoss} (the loss `opts.loss`) by central finite differences, `(J(θ+h) − J(θ−h)) / 2h` per
  * parameter, each evaluation settling the free phase from rest. Costs two settlings per parameter.
  * The network is restored exactly afterwards.
  * @category Verification
  */
-export function finiteDifferenceGradient(net: Network, batch: Batch, opts: VerifySettling & { readonly step?: number | undefined } = {}, out?: ParameterDelta): ParameterDelta {
+export function finiteDifferenceGradient(net: Network, batch: Batch, opts: VerifyOptions & { readonly step?: number | undefined } = {}, out?: ParameterDelta): ParameterDelta {
+  refuseUnknownOptions(opts, [...VERIFY_OPTIONS, "step"]);
+  const objective = objectiveOf(opts);
   const h = opts.step ?? 1e-6;
   const B = batchSizeOf(net, batch);
   const grad = out ?? new ParameterDelta(net);
   grad.clear();
-  const loss = () => freeLoss(net, settleFree(net, batch.inputs, B, opts), batch.targets);
+  const loss = () => freeLoss(net, settleFree(net, batch.inputs, B, opts), batch.targets, objective);
   for (const { param, delta } of parameterArrays(net, grad)) {
     for (let k = 0; k < param.length; k++) {
       const keep = param[k] as number;

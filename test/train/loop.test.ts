@@ -36,13 +36,17 @@ const assocNet = (seed: number, kind: "rate" | "energy" = "rate"): NetworkSpecIn
 });
 
 describe("metrics", () => {
-  it("sum squared error, cross-entropy, accuracy and cosine of a hand-computed batch (definitions; common practice)", () => {
+  it("sum squared error, binary and softmax cross-entropy, the loss, accuracy and cosine of a hand-computed batch (definitions; common practice)", () => {
     const s = new MetricSums();
     // two examples, two outputs: y = (0.8, 0.2) vs t = (1, 0); y = (0.4, 0.6) vs t = (1, 0)
     accumulateMetrics(s, Float64Array.from([0.8, 0.2, 0.4, 0.6]), [1, 0, 1, 0], 2, 2);
     const m = s.result();
     expectClose(m.sse, 0.04 + 0.04 + 0.36 + 0.36, 1e-15);
-    expectClose(m.crossEntropy, (-Math.log(0.8) - Math.log(0.8) - Math.log(0.4) - Math.log(0.4)) / 2, 1e-12);
+    expectClose(m.binaryCrossEntropy, (-Math.log(0.8) - Math.log(0.8) - Math.log(0.4) - Math.log(0.4)) / 2, 1e-12);
+    // softmax cross-entropy, −ln(e^{y_0} / (e^{y_0} + e^{y_1})) per example (definition)
+    expectClose(m.softmaxCrossEntropy, (Math.log(1 + Math.exp(0.2 - 0.8)) + Math.log(1 + Math.exp(0.6 - 0.4))) / 2, 1e-12);
+    // the default training loss is the squared error, ½‖y − t‖² per example
+    expectClose(m.loss, (0.5 * (0.04 + 0.04) + 0.5 * (0.36 + 0.36)) / 2, 1e-15);
     expect(m.accuracy).toBe(0.5);
     expectClose(m.cosine, (0.8 / Math.hypot(0.8, 0.2) + 0.4 / Math.hypot(0.4, 0.6)) / 2, 1e-15);
   });

@@ -19,7 +19,7 @@ export interface LabelledRun {
 
 /** Options of {@link learningCurveSvg}. @category Plots */
 export interface LearningCurveOptions {
-  /** Metric name, e.g. `"sse"`, `"crossEntropy"`, `"accuracy"`, `"cosine"`. */
+  /** Metric name, e.g. `"sse"`, `"binaryCrossEntropy"`, `"softmaxCrossEntropy"`, `"loss"`, `"accuracy"`, `"cosine"`. */
   readonly metric: string;
   /** Split to draw (default `"train"`). */
   readonly split?: CurveSplit | undefined;

@@ -24,7 +24,11 @@ import { EbbflowError, fail, issueText, describeValue, type Issue } from "../../
 export interface ResultsMetrics {
   /** Sum of squared errors over the split (>= 0). */
   readonly sse?: number;
-  /** Cross-entropy over the split (>= 0). */
+  /** Binary cross-entropy over the split (>= 0). */
+  readonly binaryCrossEntropy?: number;
+  /** Softmax (categorical) cross-entropy over the split (>= 0). */
+  readonly softmaxCrossEntropy?: number;
+  /** Binary cross-entropy, as files written before the binary and softmax forms were told apart name it (>= 0). */
   readonly crossEntropy?: number;
   /** Fraction of patterns classified correctly, in [0, 1]. */
   readonly accuracy?: number;
@@ -63,7 +67,7 @@ export interface ResultsEpochLine {
 }
 
 /** Why a run stopped. @category Plots */
-export type ResultsStopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback";
+export type ResultsStopReason = "max-epochs" | "early-stopping" | "target-reached" | "callback" | "non-finite-loss" | "outputs-tied";
 
 /** Optional last line of a results file. @category Plots */
 export interface ResultsEndLine {
@@ -87,7 +91,7 @@ export interface Results {
   readonly end?: ResultsEndLine | undefined;
 }
 
-const STOP_REASONS: readonly ResultsStopReason[] = ["max-epochs", "early-stopping", "target-reached", "callback"];
+const STOP_REASONS: readonly ResultsStopReason[] = ["max-epochs", "early-stopping", "target-reached", "callback", "non-finite-loss", "outputs-tied"];
 const ISO_DATE = /^\d{4}-\d{2}-\d{2}T\d{2}:\d{2}(:\d{2}(\.\d+)?)?(Z|[+-]\d{2}:\d{2})$/;
 /** Slack on the bounds of accuracy and cosine, for rounding in the writer. */
 const BOUND_SLACK = 1e-9;
@@ -124,6 +128,8 @@ function readNumber(line: LineIssues, obj: Obj, field: string, prefix: string, m
 function metricRange(name: string): [number, number, string] {
   switch (name) {
     case "sse":
+    case "binaryCrossEntropy":
+    case "softmaxCrossEntropy":
     case "crossEntropy":
       return [0, Infinity, "a finite number >= 0"];
     case "accuracy":

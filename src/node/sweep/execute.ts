@@ -14,6 +14,7 @@ import type { SweepRun } from "../../sweep/expand.js";
 import { loadCheckpoint, ResultsWriter, saveCheckpoint } from "../checkpoint.js";
 import { saveModel, writeFileAtomic } from "../files.js";
 import { resolveData } from "../sources.js";
+import { resolveSplitPaths } from "../fixed-split.js";
 import { VERSION } from "../../cli/version.js";
 import { loadPlugins } from "../plugins.js";
 import { readRunProgress, runFiles, type RunFailure } from "./files.js";
@@ -81,6 +82,7 @@ export async function executeRun(task: RunTask): Promise<RunReport> {
       targetColumns: config.data.targetColumns,
       oneHot: config.data.oneHot,
       scale: config.data.scale,
+      split: config.data.split === undefined ? undefined : resolveSplitPaths(config.data.split, task.baseDir),
     });
     const registry = await loadPlugins(task.plugins ?? []);
     let net = buildNetwork(config.network, { units: registry.units });

@@ -7,6 +7,7 @@
  * count), the column is the field's position in the record.
  * @module
  */
+import { refuseUnknownOptions } from "../../errors/options.js";
 import { fail } from "../../errors/index.js";
 import { makeDataset, type Dataset } from "./dataset.js";
 import { IssueList, describeCell, parseDecimal } from "./issues.js";
@@ -185,6 +186,7 @@ function resolveColumns(
 /** Checks the options that do not depend on the text. */
 function checkOptions(options: CsvDatasetOptions): { delimiter: number; header: boolean; oneHot: boolean } {
   if (typeof options !== "object" || options === null) fail("invalid_parameter", "options", "an options object with source and targetColumns", options);
+  refuseUnknownOptions(options, ["source", "targetColumns", "header", "oneHot", "classNames", "ignoreColumns", "delimiter", "name"]);
   if (typeof options.source !== "string" || options.source === "") fail("invalid_parameter", "source", "a non-empty string (a file name)", options.source);
   if (!Array.isArray(options.targetColumns) || options.targetColumns.length === 0) {
     fail("invalid_parameter", "targetColumns", "a non-empty array of column indices or header names", options.targetColumns);

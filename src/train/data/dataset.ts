@@ -3,6 +3,7 @@
  * row-major `Float64Array`s of inputs and targets, validated once when built.
  * @module
  */
+import { refuseUnknownOptions } from "../../errors/options.js";
 import { describeValue, fail, requireInteger } from "../../errors/index.js";
 import { isNdArrayLike, rowMajorValues, type NdArrayLike } from "../../interop/ndarray.js";
 
@@ -218,6 +219,7 @@ export function createDataset(
   options: DatasetOptions = {},
 ): Dataset {
   if (typeof name !== "string" || name === "") fail("invalid_parameter", "name", "a non-empty string", name);
+  refuseUnknownOptions(options, ["inputSize", "targetSize", "labels", "classNames", "inputNames"]);
   if (options.inputSize !== undefined) requireInteger("inputSize", options.inputSize, 1);
   if (options.targetSize !== undefined) requireInteger("targetSize", options.targetSize, 1);
   const x = isNdArrayLike(inputs) ? copyMatrix(inputs, "inputs", options.inputSize) : inputs instanceof Float64Array ? copyFlat(inputs, "inputs", options.inputSize) : flattenRows(inputs, "inputs", options.inputSize);

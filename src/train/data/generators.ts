@@ -3,6 +3,7 @@
  * associations. Deterministic (the random one from its seed).
  * @module
  */
+import { refuseUnknownOptions } from "../../errors/options.js";
 import { fail, requireFinite, requireInteger } from "../../errors/index.js";
 import { createRandom, type RandomStream } from "../../random/index.js";
 import { makeDataset, type Dataset } from "./dataset.js";
@@ -47,6 +48,7 @@ function coding(options: BinaryCoding): { low: number; high: number } {
  */
 export function parityDataset(bits: number, options: BinaryCoding = {}): Dataset {
   requireInteger("bits", bits, 1);
+  refuseUnknownOptions(options, ["low", "high"]);
   if (bits > 16) fail("invalid_parameter", "bits", "an integer in [1, 16] (2^bits patterns are generated)", bits);
   const { low, high } = coding(options);
   const n = 2 ** bits;
@@ -146,6 +148,7 @@ function drawPattern(rng: RandomStream, scratch: Int32Array, out: Float64Array, 
  */
 export function randomAssociation(options: RandomAssociationOptions): Dataset {
   if (typeof options !== "object" || options === null) fail("invalid_parameter", "options", "an options object", options);
+  refuseUnknownOptions(options, ["patterns", "inputSize", "targetSize", "activeInputs", "activeTargets", "distinctInputs", "seed"]);
   const patterns = requireInteger("patterns", options.patterns, 1);
   const inputSize = requireInteger("inputSize", options.inputSize, 1);
   const targetSize = requireInteger("targetSize", options.targetSize, 1);

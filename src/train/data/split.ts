@@ -3,6 +3,7 @@
  * label when the data set has labels.
  * @module
  */
+import { refuseUnknownOptions } from "../../errors/options.js";
 import { fail, requireInteger, requireOpenInterval } from "../../errors/index.js";
 import { createRandom, type RandomStream } from "../../random/index.js";
 import { gather, type Dataset } from "./dataset.js";
@@ -48,6 +49,7 @@ function groups(ds: Dataset, stratify: boolean): Int32Array[] {
 
 /** Reads the stratify flag. */
 function stratifyOption(options: SplitOptions): boolean {
+  refuseUnknownOptions(options, ["stratify"]);
   const s = options.stratify ?? true;
   if (typeof s !== "boolean") fail("invalid_parameter", "stratify", "true or false", s);
   return s;
