@@ -4,7 +4,7 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, type Issue } from "../errors/index.js";
+import { EbbflowError, inputShapeIssues, type Issue } from "../errors/index.js";
 import { issuesFromZod, safeParseNetwork, type NetworkSpec } from "../network/spec.js";
 import { ruleSchema, type RuleConfig } from "../rules/config.js";
 import { trainingSchema, type TrainingOptions } from "../train/loop.js";
@@ -53,6 +53,8 @@ export interface Experiment {
  */
 export function parseExperiment(input: unknown): Experiment {
   if (input !== null && typeof input === "object" && "layers" in input && !("network" in input)) input = { network: input };
+  const shape = inputShapeIssues(input);
+  if (shape.length > 0) throw new EbbflowError(shape);
   const problems: Issue[] = [];
   const r = experimentSchema.safeParse(input);
   if (!r.success) problems.push(...issuesFromZod(r.error, input));

@@ -9,6 +9,7 @@ import { createRandom, initialise, type InitSpec } from "../random/index.js";
 import { type Dtype, type FloatArray } from "../types/index.js";
 import { typescriptBackend, type KernelBackend } from "../kernels/wasm/backend.js";
 import { fail } from "../errors/index.js";
+import { requireParameterMemory } from "./checks.js";
 import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
 
 /** Role of a layer in the phases. @category Network */
@@ -203,6 +204,7 @@ export function parameterBuffers(net: Network): FloatArray[] {
  */
 export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: BuildOptions = {}): Network {
   const spec = parseNetwork(input);
+  requireParameterMemory(spec);
   const root = createRandom(spec.seed);
   const kernels = options.backend ?? typescriptBackend;
   const alloc = options.allocate ?? ((dtype: Dtype, n: number) => kernels.allocate(dtype, n));

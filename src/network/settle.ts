@@ -8,6 +8,7 @@ import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePo
 import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
 import type { Network } from "./network.js";
+import { requireStateMemory } from "./checks.js";
 
 /** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
@@ -160,6 +161,7 @@ export class Settler {
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
+    requireStateMemory(net.spec, batch);
     this.net = net;
     this.batch = batch;
     // input layers are always clamped: they need no working buffers; only output layers take targets
@@ -240,6 +242,7 @@ export class Settler {
   settle(options: PhaseOptions, out?: Snapshot): Snapshot {
     const { net, batch } = this;
     const dyn = net.spec.dynamics;
+    if (options === null || typeof options !== "object") fail("invalid_parameter", "options", "phase options: { phase, inputs, targets? }", options);
     const phase = options.phase;
     if (phase !== "free" && phase !== "clamped" && phase !== "nudged") fail("invalid_parameter", "phase", "free, clamped or nudged", phase);
     const maxSteps = options.maxSteps === undefined ? dyn.maxSteps : requireInteger("maxSteps", options.maxSteps, 1);

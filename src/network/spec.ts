@@ -6,7 +6,8 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, describeValue, issueText, type Issue } from "../errors/index.js";
+import { EbbflowError, capIssues, describeValue, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
+import { valueIssues } from "./checks.js";
 
 const finite = (what = "a finite number") => z.number({ error: what }).refine(Number.isFinite, { error: what });
 const positive = (what = "a finite number > 0") => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
@@ -180,7 +181,7 @@ export function issuesFromZod(error: z.ZodError, input: unknown, prefix: readonl
     if (zi.code === "invalid_union" && "options" in zi) expected = `one of ${(zi.options as unknown[]).map(String).join(", ")}`;
     out.push(issueText("invalid_config", formatPath(path), expected, describeValue(valueAt(input, zi.path))));
   }
-  return out;
+  return capIssues(out);
 }
 
 /** Cross-field checks that a schema alone cannot express. Returns every problem found. */
@@ -243,6 +244,7 @@ function crossCheck(spec: NetworkSpec): Issue[] {
       if (!reach[i]) problems.push(issueText("invalid_config", `layers[${i}]`, "a layer reachable from an input layer through connections", `layer ${JSON.stringify(l.name)} is unreachable`));
     });
   }
+  problems.push(...valueIssues(spec));
   return problems;
 }
 
@@ -255,6 +257,8 @@ export type ParseResult<T> = { readonly ok: true; readonly value: T } | { readon
  * @category Network
  */
 export function safeParseNetwork(input: unknown): ParseResult<NetworkSpec> {
+  const shape = inputShapeIssues(input);
+  if (shape.length > 0) return { ok: false, issues: shape };
   const result = networkSchema.safeParse(input);
   if (!result.success) return { ok: false, issues: issuesFromZod(result.error, input) };
   const problems = crossCheck(result.data);

@@ -6,7 +6,7 @@
  */
 import seedrandom from "seedrandom";
 import type { FloatArray } from "../types/index.js";
-import { requireFinite, requireInteger, requireNonNegative, fail } from "../errors/index.js";
+import { EbbflowError, issue, requireFinite, requireInteger, requireNonNegative, fail, type Issue } from "../errors/index.js";
 
 /** The ARC4 generator's state (the key schedule `S` and the two indices), as plain JSON data. @category Random */
 export interface Arc4State {
@@ -104,12 +104,65 @@ export class RandomStream {
     return { name: this.name, prng: structuredCloneState(this.prng.state()), spare: this.spare };
   }
 
-  /** Restores a stream saved with {@link RandomStream.saveState}. */
-  static fromState(state: RandomStreamState): RandomStream {
+  /**
+   * Restores a stream saved with {@link RandomStream.saveState}. The state is checked in full first (see
+   * {@link randomStateIssues}): a damaged one is an error, never a stream that hangs or draws other numbers.
+   * @param path - Where the state sits, for errors (e.g. `trainer.shuffle`).
+   * @throws {@link EbbflowError} `parse_error` naming the bad field.
+   */
+  static fromState(state: RandomStreamState, path = "state"): RandomStream {
+    const problems = randomStateIssues(state, path);
+    if (problems.length > 0) throw new EbbflowError(problems);
     const s = new RandomStream(state.name, structuredCloneState(state.prng));
     s.spare = state.spare;
     return s;
   }
+}
+
+/**
+ * Problems of a saved random-stream state: `name` a string, `prng.i` and `prng.j` integers in [0, 255],
+ * `prng.S` a permutation of 0..255 (the ARC4 key schedule always is one; Rivest's RC4 as described by
+ * Schneier, Applied Cryptography, 2nd ed., 1996, sec. 17.1), `spare` null or a finite number.
+ * @param state - The state as data.
+ * @param path - Its path, for the issues.
+ * @returns The problems (empty when the state is valid).
+ * @category Random
+ */
+export function randomStateIssues(state: unknown, path = "state"): Issue[] {
+  const out: Issue[] = [];
+  const byte = (v: unknown) => typeof v === "number" && Number.isInteger(v) && v >= 0 && v <= 255;
+  if (state === null || typeof state !== "object" || Array.isArray(state)) return [issue("parse_error", path, "a random-stream state { name, prng, spare }", state)];
+  const s = state as Record<string, unknown>;
+  for (const k of Object.keys(s)) if (k !== "name" && k !== "prng" && k !== "spare") out.push(issue("parse_error", `${path}.${k}`, "no such field (unknown key)", s[k]));
+  if (typeof s.name !== "string") out.push(issue("parse_error", `${path}.name`, "the stream's name as a string", s.name));
+  if (!(s.spare === null || (typeof s.spare === "number" && Number.isFinite(s.spare)))) out.push(issue("parse_error", `${path}.spare`, "null or a finite number", s.spare));
+  const p = s.prng as Record<string, unknown> | null | undefined;
+  if (p === null || typeof p !== "object" || Array.isArray(p)) {
+    out.push(issue("parse_error", `${path}.prng`, "an ARC4 state { i, j, S }", p));
+    return out;
+  }
+  for (const k of Object.keys(p)) if (k !== "i" && k !== "j" && k !== "S") out.push(issue("parse_error", `${path}.prng.${k}`, "no such field (unknown key)", p[k]));
+  if (!byte(p.i)) out.push(issue("parse_error", `${path}.prng.i`, "an integer in [0, 255]", p.i));
+  if (!byte(p.j)) out.push(issue("parse_error", `${path}.prng.j`, "an integer in [0, 255]", p.j));
+  const S = p.S;
+  if (!Array.isArray(S) || S.length !== 256) {
+    out.push(issue("parse_error", `${path}.prng.S`, "an array of 256 integers (a permutation of 0..255)", S));
+    return out;
+  }
+  const seen = new Uint8Array(256);
+  for (let k = 0; k < 256; k++) {
+    const v = S[k] as unknown;
+    if (!byte(v)) {
+      out.push(issue("parse_error", `${path}.prng.S[${k}]`, "an integer in [0, 255]", v));
+      return out;
+    }
+    if (seen[v as number] === 1) {
+      out.push(issue("parse_error", `${path}.prng.S[${k}]`, "a permutation of 0..255 (each value once)", v, "repeated value"));
+      return out;
+    }
+    seen[v as number] = 1;
+  }
+  return out;
 }
 
 function structuredCloneState(state: Arc4State | seedrandom.State.Arc4): Arc4State {

@@ -53,6 +53,9 @@ export type RuleState = Readonly<Record<string, unknown>>;
 
 /** Number of patterns in a batch, from the first input layer's values. @category Rules */
 export function batchSizeOf(net: Network, batch: Batch): number {
+  if (batch === null || typeof batch !== "object") return fail("invalid_parameter", "batch", "a batch: { inputs, targets }", batch);
+  if (batch.inputs === null || typeof batch.inputs !== "object") return fail("shape_mismatch", "inputs", "an object mapping each input layer name to its values", batch.inputs);
+  if (batch.targets !== undefined && (batch.targets === null || typeof batch.targets !== "object")) return fail("shape_mismatch", "targets", "an object mapping each output layer name to its values", batch.targets);
   const first = net.inputLayers[0];
   if (first === undefined) return fail("invalid_config", "layers", "an input layer", "none");
   const v = batch.inputs[first.name];

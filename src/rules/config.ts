@@ -5,7 +5,7 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError } from "../errors/index.js";
+import { EbbflowError, inputShapeIssues } from "../errors/index.js";
 import { issuesFromZod } from "../network/spec.js";
 
 const rate = z.number({ error: "a learning rate > 0" }).refine((v) => Number.isFinite(v) && v > 0, { error: "a learning rate > 0" });
@@ -80,6 +80,8 @@ export type RuleName = RuleConfig["rule"];
  * @category Rules
  */
 export function parseRule(input: unknown, prefix = "rule"): RuleConfig {
+  const shape = inputShapeIssues(input, prefix);
+  if (shape.length > 0) throw new EbbflowError(shape);
   const r = ruleSchema.safeParse(input);
   if (!r.success) throw new EbbflowError(issuesFromZod(r.error, input, [prefix]));
   return r.data;

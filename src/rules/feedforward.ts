@@ -77,7 +77,7 @@ export function runForward(net: Network, order: readonly number[], batch: Batch,
 /** Writes into the output layers' `delta` the error `(y − t) ⊙ f'(a)` (squared error ½‖y − t‖²). */
 function outputError(net: Network, batch: Batch, pass: ForwardPass): void {
   for (const l of net.outputLayers) {
-    const t = batch.targets[l.name];
+    const t = batch.targets?.[l.name];
     const n = pass.batch * l.size;
     if (t === undefined || t.length !== n) fail("shape_mismatch", `targets.${l.name}`, `${n} values`, t === undefined ? "missing" : `${t.length} values`);
     const d = pass.delta[l.index] as FloatArray;

@@ -75,7 +75,7 @@ export class PredictiveCoding implements LearningRule {
       const v = w.value[l.index] as FloatArray;
       if (l.role === "input") v.set(w.pass.activity[l.index] as FloatArray);
       else if (l.role === "output") {
-        const t = batch.targets[l.name];
+        const t = batch.targets?.[l.name];
         if (t === undefined || t.length !== v.length) fail("shape_mismatch", `targets.${l.name}`, `${v.length} values`, t === undefined ? "missing" : `${t.length} values`);
         for (let k = 0; k < v.length; k++) v[k] = t[k] as number;
       } else v.set(w.pass.netInput[l.index] as FloatArray);

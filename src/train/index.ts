@@ -6,3 +6,4 @@ export * from "./data/index.js";
 export * from "./metrics.js";
 export * from "./schedule.js";
 export * from "./loop.js";
+export * from "./state.js";

@@ -16,6 +16,7 @@ import { createForwardPass, forwardOrder, runForward, type ForwardPass } from ".
 import type { Dataset } from "./data/index.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
 import { scheduleFactor, scheduleSchema } from "./schedule.js";
+import { loadRuleState, trainerStateIssues } from "./state.js";
 
 const metricName = z.enum(["sse", "crossEntropy", "accuracy", "cosine"], { error: "one of sse, crossEntropy, accuracy, cosine" });
 
@@ -314,11 +315,18 @@ export class Trainer {
     };
   }
 
-  /** Restores a state saved by {@link Trainer.saveState} (the network must hold the matching weights). */
+  /**
+   * Restores a state saved by {@link Trainer.saveState} (the network must hold the matching weights). The
+   * state is checked in full first (see `trainerStateIssues`); the rule's own state is checked by the rule.
+   * @throws {@link EbbflowError} `parse_error` naming the field (paths under `trainer`), nothing restored.
+   */
   loadState(state: TrainerState): void {
+    const problems = trainerStateIssues(state, { layers: this.net.layers, examples: this.train.size, persistentStates: this.options.persistentStates });
+    if (problems.length > 0) throw new EbbflowError(problems);
+    const shuffle = RandomStream.fromState(state.shuffle, "trainer.shuffle");
+    loadRuleState(this.rule, state.rule, "trainer.rule");
     this.epoch = state.epoch;
-    this.shuffleStream = RandomStream.fromState(state.shuffle);
-    this.rule.loadState(state.rule);
+    this.shuffleStream = shuffle;
     this.history.length = 0;
     this.history.push(...state.history);
     this.best = state.best;
