@@ -11,6 +11,7 @@ import { TOUCH_PATTERNS, touchStripDataset } from "../demo/touchStrip.js";
 import { formatAgreement } from "../verify/agreement.js";
 import { learningCurveSvg, writeSvg } from "../node/plot.js";
 import { VERSION } from "./version.js";
+import { ensureFolder } from "../node/run/folder.js";
 
 /** Options of `ebbflow demo`. */
 export interface DemoCommandOptions {
@@ -66,7 +67,7 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
   const reports = demoAgreement(4, 1);
   for (const r of reports) say(formatAgreement(r).split("\n").map((l) => "   " + l).join("\n") + "\n");
 
-  await fs.mkdir(out, { recursive: true });
+  await ensureFolder(out, "--out");
   const written: string[] = [];
   for (const rule of DEMO_RULES) {
     const runs = hidden[rule.label] ?? [];

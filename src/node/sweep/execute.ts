@@ -11,10 +11,10 @@ import { EbbflowError } from "../../errors/index.js";
 import { buildNetwork } from "../../network/network.js";
 import { Trainer, type StopReason } from "../../train/loop.js";
 import type { SweepRun } from "../../sweep/expand.js";
-import { loadCheckpoint, ResultsWriter, saveCheckpoint } from "../checkpoint.js";
-import { saveModel, writeFileAtomic } from "../files.js";
+import { writeFileAtomic } from "../files.js";
 import { resolveData } from "../sources.js";
-import { VERSION } from "../../cli/version.js";
+import { claimRunFolder, ensureFolder, isFolderBusy } from "../run/folder.js";
+import { driveRun, findRunStart, restoreTrainer } from "../run/driver.js";
 import { readRunProgress, runFiles, type RunFailure } from "./files.js";
 
 /** One run to execute (plain data, so it can be sent to a worker thread). @category Sweeps */
@@ -32,8 +32,8 @@ export interface RunTask {
 export interface RunOutcome {
   readonly index: number;
   readonly id: string;
-  /** `finished` now, `skipped` because it had finished before, or `failed`. */
-  readonly status: "finished" | "skipped" | "failed";
+  /** `finished` now, `skipped` because it had finished before, `busy` because another process is running it (its folder is locked), or `failed`. */
+  readonly status: "finished" | "skipped" | "busy" | "failed";
   /** Epoch of the checkpoint it resumed from (0 when it started afresh). */
   readonly resumedFrom: number;
   /** Epochs run in total. */
@@ -47,13 +47,6 @@ function dataSource(source: string, baseDir: string): string {
   return /\.(csv|tsv|json)$/i.test(source) ? path.resolve(baseDir, source) : source;
 }
 
-/** The checkpoint's extra record: the run's id and config, and whether training had already stopped. */
-interface CheckpointNote {
-  readonly run: string;
-  readonly seed: number | string;
-  readonly stopped: StopReason | null;
-}
-
 /**
  * Executes one run of a sweep (see the module notes). Errors do not throw: they are returned in the
  * outcome and recorded in the run's `failure.json`.
@@ -65,12 +58,19 @@ export async function executeRun(task: RunTask): Promise<RunOutcome> {
   const { run } = task;
   const files = runFiles(task.dir, run.id);
   let resumedFrom = 0;
+  let release: (() => Promise<void>) | null = null;
   try {
     const progress = await readRunProgress(task.dir, run);
     if (progress.finished) return { index: run.index, id: run.id, status: "skipped", resumedFrom: 0, epochs: progress.epochs, stopped: progress.results?.end?.stopped };
-    await fs.mkdir(files.dir, { recursive: true });
-    // temporary files of an atomic write cut short by a crash (the files they were to replace are intact)
-    for (const name of await fs.readdir(files.dir)) if (/^\..+\.tmp$/.test(name)) await fs.rm(path.join(files.dir, name), { force: true });
+    // the run's lock: a second runner of the same sweep leaves this run (and its files) to the first
+    let claimed;
+    try {
+      claimed = await claimRunFolder(files.dir, "resume", `runs/${run.id}`);
+    } catch (e) {
+      if (isFolderBusy(e)) return { index: run.index, id: run.id, status: "busy", resumedFrom: 0, epochs: progress.epochs };
+      throw e;
+    }
+    release = claimed.lock.release;
     const { config, seed } = run;
     const { train, test } = await resolveData(dataSource(config.data.source, task.baseDir), {
       testFraction: config.data.testFraction,
@@ -79,45 +79,24 @@ export async function executeRun(task: RunTask): Promise<RunOutcome> {
       oneHot: config.data.oneHot,
       scale: config.data.scale,
     });
-    let net = buildNetwork(config.network);
-    let stopped: StopReason | null = null;
-    let state = null;
-    if (progress.checkpointEpoch > 0) {
-      const saved = await loadCheckpoint(files.checkpoint);
-      const note = saved.config as { sweepRun?: CheckpointNote } | null;
-      if (note?.sweepRun?.run === run.id) {
-        net = saved.net;
-        state = saved.state;
-        stopped = note.sweepRun.stopped;
-        resumedFrom = saved.state.epoch;
-      }
-    }
-    const trainer = new Trainer(net, config.rule, train, config.training, { test, seed });
-    if (state !== null) trainer.loadState(state);
-    const header = { kind: "header" as const, ebbflow: VERSION, seed, config: { ...config, sweepRun: { id: run.id, configuration: run.configuration, index: run.index } }, started: new Date().toISOString() };
-    const writer = new ResultsWriter(files.results, header, trainer.history);
-    const note = (s: StopReason | null) => ({ ...config, sweepRun: { run: run.id, seed, stopped: s } satisfies CheckpointNote });
-    const t0 = Date.now();
-    let reason: StopReason | null = stopped ?? (trainer.epoch >= config.training.epochs ? "max-epochs" : null);
-    while (reason === null) {
-      const record = trainer.runEpoch();
-      reason = trainer.stopAfter(record);
-      await writer.epoch(record);
-      if (reason === null && record.epoch % task.checkpointEvery === 0) await saveCheckpoint(files.checkpoint, trainer, note(null));
-    }
-    // final checkpoint, then the model, then the end line: an end line means everything is on disk
-    await saveCheckpoint(files.checkpoint, trainer, note(reason));
-    await saveModel(files.model, trainer.net);
-    await writer.end(reason, trainer.epoch, (Date.now() - t0) / 1000);
+    // the run's record: its resolved config (its hash is the run's identity) and its place in the sweep
+    const record = { ...config, sweepRun: { id: run.id, configuration: run.configuration, index: run.index } };
+    const start = await findRunStart(claimed.files, { config: record, what: `runs/${run.id}` });
+    const trainer = new Trainer(start.checkpoint?.net ?? buildNetwork(config.network), config.rule, train, config.training, { test, seed });
+    restoreTrainer(trainer, start);
+    resumedFrom = trainer.epoch;
+    const result = await driveRun({ trainer, files: claimed.files, config: record, seed, checkpointEvery: task.checkpointEvery, start });
     await fs.rm(files.failure, { force: true });
-    return { index: run.index, id: run.id, status: "finished", resumedFrom, epochs: trainer.epoch, stopped: reason };
+    return { index: run.index, id: run.id, status: "finished", resumedFrom, epochs: result.epochs, stopped: result.reason };
   } catch (e) {
     const error: RunFailure =
       e instanceof EbbflowError
         ? { code: e.code, path: e.path, message: e.message, at: new Date().toISOString() }
         : { code: "error", path: "", message: (e as Error)?.message ?? String(e), at: new Date().toISOString() };
-    await fs.mkdir(files.dir, { recursive: true }).catch(() => undefined);
+    await ensureFolder(files.dir).catch(() => undefined);
     await writeFileAtomic(files.failure, JSON.stringify({ ...error, run: run.id, index: run.index }) + "\n").catch(() => undefined);
     return { index: run.index, id: run.id, status: "failed", resumedFrom, epochs: 0, error };
+  } finally {
+    if (release !== null) await release();
   }
 }

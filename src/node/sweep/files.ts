@@ -10,6 +10,7 @@ import { expandSweep, SWEEP_PLAN_FORMAT, type SweepPlan, type SweepRun } from ".
 import { parseSweepFile } from "../../sweep/schema.js";
 import { readResults, type Results } from "../plot/results.js";
 import { writeFileAtomic } from "../files.js";
+import { cleanTemporaryFiles, ensureFolder } from "../run/folder.js";
 
 async function readJsonFile(file: string, what: string): Promise<unknown> {
   let text: string;
@@ -118,7 +119,9 @@ export function runFiles(dir: string, id: string): RunFiles {
  */
 export async function writeSweepPlan(dir: string, plan: SweepPlan): Promise<void> {
   const f = sweepFolder(dir);
-  await fs.mkdir(f.runs, { recursive: true });
+  await ensureFolder(f.runs, "--out");
+  // temporary files of writers that died (other live runners' are left alone)
+  await cleanTemporaryFiles(f.dir, { deadOnly: true });
   if (await exists(f.plan)) {
     const existing = await readSweepPlan(dir);
     const a = existing.runs.map((r) => r.id).join(",");

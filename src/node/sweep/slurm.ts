@@ -13,6 +13,7 @@ import path from "node:path";
 import { EbbflowError, fail, issueText, requireInteger } from "../../errors/index.js";
 import type { SweepPlan } from "../../sweep/expand.js";
 import { writeFileAtomic } from "../files.js";
+import { ensureFolder } from "../run/folder.js";
 import { readRunProgress, readSweepPlan, sweepFolder, writeSweepPlan } from "./files.js";
 
 /** Options of the batch script. @category Sweeps */
@@ -221,8 +222,8 @@ export async function submitSweep(plan: SweepPlan, out: string, options: SlurmOp
   checkOptions(options);
   const f = sweepFolder(out);
   await writeSweepPlan(f.dir, plan);
-  await fs.mkdir(f.logs, { recursive: true });
-  await fs.mkdir(f.slurm, { recursive: true });
+  await ensureFolder(f.logs, "--out");
+  await ensureFolder(f.slurm, "--out");
   await writeFileAtomic(path.join(f.slurm, "task.sh"), batchScript(f.dir, plan.name, options));
   await fs.chmod(path.join(f.slurm, "task.sh"), 0o755);
   const status = await sweepStatus(f.dir);
