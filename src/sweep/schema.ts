@@ -14,7 +14,7 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, describeValue, issueText, type Issue } from "../errors/index.js";
+import { EbbflowError, capIssues, describeValue, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
 import { experimentSchema } from "../config/experiment.js";
 import { canonicalJson } from "./hash.js";
 
@@ -124,7 +124,7 @@ function issuesOf(error: z.ZodError, input: unknown): Issue[] {
     const expected = zi.message.replace(/^Invalid input: expected /, "").replace(/, received \w+$/, "");
     out.push(issueText("invalid_config", formatSweepPath(zi.path), expected, describeValue(valueAt(input, zi.path))));
   }
-  return out;
+  return capIssues(out);
 }
 
 /** Repeated seeds (compared as text: 1 and "1" seed the same streams) and repeated values within a grid path. */
@@ -169,6 +169,8 @@ function repeats(input: unknown): Issue[] {
  * @category Sweeps
  */
 export function parseSweepFile(input: unknown): SweepFile {
+  const shape = inputShapeIssues(input);
+  if (shape.length > 0) throw new EbbflowError(shape);
   const r = sweepSchema.safeParse(input);
   // repeated seeds and grid values are checked on the raw input too, so that they are reported with the shape problems
   const problems: Issue[] = [...(r.success ? [] : issuesOf(r.error, input)), ...repeats(input)];

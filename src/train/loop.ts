@@ -17,6 +17,7 @@ import type { Dataset } from "./data/index.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
 import { scheduleFactor, scheduleSchema } from "./schedule.js";
 import { loadRuleState, trainerStateIssues } from "./state.js";
+import { requireBytes } from "../limits/index.js";
 
 const metricName = z.enum(["sse", "crossEntropy", "accuracy", "cosine"], { error: "one of sse, crossEntropy, accuracy, cosine" });
 
@@ -153,6 +154,7 @@ export class Trainer {
     this.shuffleStream = createRandom(extras.seed ?? net.spec.seed).child("train/shuffle");
     this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && FEEDFORWARD.has(this.rule.config.rule));
     this.order = this.forward ? forwardOrder(net) : [];
+    if (this.options.persistentStates) requireBytes("training.persistentStates", `persistent states of ${train.size} examples`, train.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
   }
 

@@ -72,7 +72,9 @@ describe("the ebbflow command", () => {
     const dir = workdir();
     expect(run(["train", "experiment.json", "--out", "whole", "--epochs", "8", "--json"], dir).code).toBe(0);
     expect(run(["train", "experiment.json", "--out", "part", "--epochs", "4", "--checkpoint-every", "2", "--json"], dir).code).toBe(0);
-    expect(run(["train", "experiment.json", "--out", "part", "--epochs", "8", "--resume", "--json"], dir).code).toBe(0);
+    // the epoch limit differs from the checkpoint's experiment: refused unless accepted (and then recorded)
+    expect(run(["train", "experiment.json", "--out", "part", "--epochs", "8", "--resume", "--json"], dir).code).toBe(2);
+    expect(run(["train", "experiment.json", "--out", "part", "--epochs", "8", "--resume", "--accept-changes", "--json"], dir).code).toBe(0);
     const weights = (f: string) => (JSON.parse(readFileSync(path.join(dir, f, "model.json"), "utf8")) as { parameters: unknown }).parameters;
     expect(weights("part")).toEqual(weights("whole"));
     const strip = (f: string) => readResults(readFileSync(path.join(dir, f, "results.jsonl"), "utf8"), f).epochs.map(({ seconds: _s, ...e }) => e);

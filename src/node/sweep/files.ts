@@ -8,6 +8,7 @@ import path from "node:path";
 import { EbbflowError, fail, issueText } from "../../errors/index.js";
 import { expandSweep, SWEEP_PLAN_FORMAT, type SweepPlan, type SweepRun } from "../../sweep/expand.js";
 import { parseSweepFile } from "../../sweep/schema.js";
+import { parseSweepPlan } from "../../sweep/plan.js";
 import { readResults, type Results } from "../plot/results.js";
 import { writeFileAtomic } from "../files.js";
 import { cleanTemporaryFiles, ensureFolder } from "../run/folder.js";
@@ -141,10 +142,10 @@ export async function writeSweepPlan(dir: string, plan: SweepPlan): Promise<void
 export async function readSweepPlan(dir: string): Promise<SweepPlan> {
   const file = sweepFolder(dir).plan;
   const raw = (await readJsonFile(file, "sweep plan (runs.json; start the sweep with ebbflow sweep run)")) as Partial<SweepPlan> | null;
-  if (raw === null || typeof raw !== "object" || raw.format !== SWEEP_PLAN_FORMAT || !Array.isArray(raw.runs) || !Array.isArray(raw.configurations)) {
+  if (raw === null || typeof raw !== "object" || raw.format !== SWEEP_PLAN_FORMAT) {
     fail("parse_error", file, `a sweep plan (format ${JSON.stringify(SWEEP_PLAN_FORMAT)})`, raw === null || typeof raw !== "object" ? raw : raw.format);
   }
-  return raw as SweepPlan;
+  return parseSweepPlan(raw, file);
 }
 
 /** What a run's folder shows. @category Sweeps */
