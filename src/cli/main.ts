@@ -4,7 +4,7 @@
  * @module
  */
 import { Command, Option } from "commander";
-import { guard, handleOutputErrors, writeCommanderError } from "./output.js";
+import { guard, handleOutputErrors, jsonErrorsRequested, writeCommanderError } from "./output.js";
 import { intOption, numberOption } from "./numbers.js";
 import { trainCommand } from "./train.js";
 import { checkCommand } from "./check.js";
@@ -27,7 +27,7 @@ program
   .description("Biologically constrained, error-driven learning: train, verify and compare local learning rules.")
   .version(VERSION)
   .option("--debug", "print stack traces on errors")
-  .showHelpAfterError("(add --help for usage)")
+  .showHelpAfterError(jsonErrorsRequested() ? false : "(add --help for usage)")
   .configureOutput({ outputError: (text, write) => writeCommanderError(text, write) })
   .exitOverride((err) => {
     // commander's own argument errors: one line, exit code 2

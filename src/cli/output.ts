@@ -37,6 +37,11 @@ export function writeCommanderError(text: string, write: (s: string) => void): v
  * EPIPE stack trace; other stream errors are reported as one line.
  */
 export function handleOutputErrors(): void {
+  // once per process (the command's module may be evaluated more than once in one process, as in the fuzz suite)
+  const flag = Symbol.for("ebbflow.outputErrorsHandled");
+  const g = globalThis as Record<symbol, unknown>;
+  if (g[flag] === true) return;
+  g[flag] = true;
   for (const stream of [process.stdout, process.stderr]) {
     stream.on("error", (e: NodeJS.ErrnoException) => {
       if (e.code === "EPIPE") process.exit(process.exitCode ?? 0);

@@ -65,8 +65,8 @@ export interface TrainerShape {
 /**
  * Every problem of a saved trainer state, with its path under `prefix`: the schema, the shuffle stream's
  * state, the history (one record per epoch, numbered 1 to `epoch`) and, when persistent states are on, one
- * array of examples × size values per non-input layer (null for input layers; a state saved without
- * persistent states may hold null).
+ * array of examples × size values per non-input layer (null for input layers); a state saved without
+ * persistent states holds null instead of the whole list.
  * @param state - The state as data.
  * @param shape - What it must fit.
  * @param prefix - Path of the state (default `trainer`).
@@ -96,6 +96,7 @@ export function trainerStateIssues(state: unknown, shape: TrainerShape, prefix =
         const p = s.persistent?.[i] ?? null;
         const want = l.role === "input" ? null : shape.examples * l.size;
         if (want === null && p !== null) out.push(issueText("parse_error", at(["persistent", i]), "null (input layers keep no state)", `array of length ${p.length}`));
+        else if (want !== null && p === null) out.push(issueText("parse_error", at(["persistent", i]), `${want} values (${shape.examples} examples × ${l.size} units)`, "null"));
         else if (want !== null && p !== null && p.length !== want) out.push(issueText("parse_error", at(["persistent", i]), `${want} values (${shape.examples} examples × ${l.size} units)`, `array of length ${p.length}`));
       });
   }
