@@ -177,14 +177,18 @@ export function checkpointFromData(data: unknown, where: string, options: BuildO
     throw e;
   }
   let trainer: Record<string, unknown> = c.trainer;
+  const fits = { layers: net.layers, examples: 0, persistentStates: false };
   if (c.history !== null) {
+    // the state's own fields first (its history is checked once read from the results file)
+    const own = trainerStateIssues(trainer, fits).filter((i) => !i.path.startsWith("trainer.history"));
+    if (own.length > 0) throw named(own);
     const ref = c.history;
     if (!Array.isArray(trainer.history) || trainer.history.length > 0) throw named([issueText("parse_error", "trainer.history", "[] (the history is in the results file)", describeValue(trainer.history))]);
     if (ref.epochs !== trainer.epoch) throw named([issueText("parse_error", "history.epochs", `the trainer's epoch (${describeValue(trainer.epoch)})`, String(ref.epochs))]);
     if (resultsText === undefined) throw named([issueText("parse_error", "history", "the results file it refers to", "none given")]);
     trainer = { ...trainer, history: historyFromResults(resultsText, ref, ref.file) };
   }
-  const problems = trainerStateIssues(trainer, { layers: net.layers, examples: 0, persistentStates: false });
+  const problems = trainerStateIssues(trainer, fits);
   if (problems.length > 0) throw named(problems);
   const identity = configHashOf(c.config);
   if (identity !== c.configHash) throw named([issueText("parse_error", "configHash", `the hash of config (${identity.slice(0, 12)}...)`, `${c.configHash.slice(0, 12)}...`)]);

@@ -163,14 +163,14 @@ export async function driveRun(o: DriveOptions): Promise<DriveResult> {
     }
   }
 
-  const header: ResultsHeaderLine & { configHash: string; changes?: readonly ConfigChange[] } = {
+  const header: ResultsHeaderLine = {
     kind: "header",
     ebbflow: VERSION,
     seed: o.seed,
     config: o.config,
     configHash,
     started,
-    ...(changes.length > 0 ? { changes } : {}),
+    ...(changes.length > 0 ? { changes: changes as unknown as Readonly<Record<string, unknown>>[] } : {}),
   };
   const writer = new ResultsWriter(files.results, header, trainer.history);
   // the checkpoint refers to the results' epoch lines (flushed first) instead of holding the history
