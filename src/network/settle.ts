@@ -4,7 +4,7 @@
  * are allocated once per {@link Settler}; a settling step allocates nothing.
  * @module
  */
-import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
+import { EbbflowError, describeValue, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
 import type { Network } from "./network.js";
@@ -192,7 +192,7 @@ export class Settler {
   private loadValues(values: LayerValues | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[]): Issue[] {
     const problems: Issue[] = [];
     if (values === undefined || values === null || typeof values !== "object") {
-      return [issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, String(values))];
+      return [issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, describeValue(values))];
     }
     for (const layer of this.net.layers) {
       if (layer.role !== role) continue;
@@ -200,6 +200,10 @@ export class Settler {
       const want = this.batch * layer.size;
       if (v === undefined) {
         problems.push(issueText("shape_mismatch", `${what}.${layer.name}`, `${want} values (batch ${this.batch} × size ${layer.size})`, "missing"));
+        continue;
+      }
+      if (v === null || typeof v !== "object") {
+        problems.push(issueText("shape_mismatch", `${what}.${layer.name}`, `${want} values (batch ${this.batch} × size ${layer.size})`, describeValue(v)));
         continue;
       }
       if (v.length !== want) {
@@ -216,12 +220,12 @@ export class Settler {
       for (let i = 0; i < want; i++) {
         const x = v[i] as number;
         if (typeof x !== "number" || !Number.isFinite(x)) {
-          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, "a finite number", String(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
+          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, "a finite number", describeValue(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
           break;
         }
         d[i] = x;
         if (!Number.isFinite(d[i] as number)) {
-          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, `a number within the range of ${this.net.dtype}`, String(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
+          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, `a number within the range of ${this.net.dtype}`, describeValue(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
           break;
         }
       }

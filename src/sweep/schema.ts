@@ -17,6 +17,7 @@ import { z } from "zod";
 import { EbbflowError, capIssues, describeValue, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
 import { experimentSchema } from "../config/experiment.js";
 import { canonicalJson } from "./hash.js";
+import { requireRuns } from "../limits/index.js";
 
 const finite = (what = "a finite number") => z.number({ error: what }).refine(Number.isFinite, { error: what });
 const positive = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
@@ -171,6 +172,10 @@ function repeats(input: unknown): Issue[] {
 export function parseSweepFile(input: unknown): SweepFile {
   const shape = inputShapeIssues(input);
   if (shape.length > 0) throw new EbbflowError(shape);
+  // lists longer than a sweep may be are refused before their entries are checked one by one
+  const raw = (input ?? {}) as { seeds?: unknown; grid?: unknown };
+  if (Array.isArray(raw.seeds)) requireRuns("seeds", raw.seeds.length);
+  if (raw.grid !== null && typeof raw.grid === "object") for (const [k, v] of Object.entries(raw.grid)) if (Array.isArray(v)) requireRuns(`grid[${JSON.stringify(k)}]`, v.length);
   const r = sweepSchema.safeParse(input);
   // repeated seeds and grid values are checked on the raw input too, so that they are reported with the shape problems
   const problems: Issue[] = [...(r.success ? [] : issuesOf(r.error, input)), ...repeats(input)];

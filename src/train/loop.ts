@@ -238,7 +238,7 @@ export class Trainer {
     const n = ds.size;
     const idx = this.options.shuffle ? this.shuffleStream.permutation(n) : Int32Array.from({ length: n }, (_, i) => i);
     const factor = scheduleFactor(this.options.schedule, epoch);
-    const bs = this.options.batchSize;
+    const bs = Math.min(this.options.batchSize, n);
     const batches = Math.ceil(n / bs);
     const inBuf = new Float64Array(bs * ds.inputSize);
     const tBuf = new Float64Array(bs * ds.targetSize);

@@ -87,7 +87,8 @@ export async function executeRun(task: RunTask): Promise<RunOutcome> {
     resumedFrom = trainer.epoch;
     const result = await driveRun({ trainer, files: claimed.files, config: record, seed, checkpointEvery: task.checkpointEvery, start });
     await fs.rm(files.failure, { force: true });
-    return { index: run.index, id: run.id, status: "finished", resumedFrom, epochs: result.epochs, stopped: result.reason };
+    // another runner may have finished it between the first look and taking the lock
+    return { index: run.index, id: run.id, status: result.alreadyFinished ? "skipped" : "finished", resumedFrom, epochs: result.epochs, stopped: result.reason };
   } catch (e) {
     const error: RunFailure =
       e instanceof EbbflowError
