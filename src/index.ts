@@ -4,6 +4,7 @@
  * @module
  */
 export * from "./errors/index.js";
+export * from "./limits/index.js";
 export * from "./types/index.js";
 export * from "./random/index.js";
 export * from "./units/index.js";
