@@ -30,7 +30,8 @@ const mainUrl = new URL("../src/cli/main.js", import.meta.url).href;
 function runChunk(name: string, seed: number, start: number, end: number, timeoutMs: number, t: Tally): Promise<number> {
   // resolves with the index to continue from (end when the chunk finished)
   return new Promise((resolve) => {
-    const p = fork(child, [name, String(seed), String(start), String(end), mainUrl], { stdio: ["ignore", "ignore", "pipe", "ipc"], execArgv: ["--stack-size=984"] });
+    // a 256 MiB limit per block keeps a worker's memory bounded (what is tested is the behaviour at the limit)
+    const p = fork(child, [name, String(seed), String(start), String(end), mainUrl], { stdio: ["ignore", "ignore", "pipe", "ipc"], env: { ...process.env, EBBFLOW_MAX_BYTES: process.env.EBBFLOW_MAX_BYTES ?? String(256 * 1024 ** 2) } });
     let current = -1;
     let timer: NodeJS.Timeout | null = null;
     let settled = false;

@@ -18,8 +18,8 @@ export interface ResourceLimits {
   readonly maxRuns: number;
 }
 
-/** The defaults: 4 GiB per block, 100,000 runs per sweep. @category Errors */
-export const DEFAULT_RESOURCE_LIMITS: ResourceLimits = { maxBytes: 4 * 1024 ** 3, maxRuns: 100_000 };
+/** The defaults: 2 GiB per block, 100,000 runs per sweep. @category Errors */
+export const DEFAULT_RESOURCE_LIMITS: ResourceLimits = { maxBytes: 2 * 1024 ** 3, maxRuns: 100_000 };
 
 let override: Partial<ResourceLimits> = {};
 
