@@ -3,6 +3,11 @@
 // T is f32 (four lanes per vector) or f64 (two lanes); every branch on
 // sizeof<T>() or on ASC_FEATURE_RELAXED_SIMD is resolved at compile time.
 
+/** 1 in the build with relaxed-SIMD multiply-adds, 0 in the plain SIMD build. */
+export function relaxedBuild(): i32 {
+  return ASC_FEATURE_RELAXED_SIMD ? 1 : 0;
+}
+
 /** Bytes in one vector. */
 export const VBYTES: usize = 16;
 

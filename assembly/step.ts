@@ -22,7 +22,8 @@
 // the separate kernels).
 
 import { VBYTES, hi, join, lo } from "./simd";
-import { ABS32, ABS64, K, run32, run64 } from "./units";
+import { ABS32, ABS64, UNIT_HARD_SIGMOID, UNIT_LINEAR, UNIT_LOGISTIC, UNIT_RELU, UNIT_TANH } from "./generated/layout";
+import { K, LOGISTIC_PLAIN, run32, run64 } from "./units";
 
 // @ts-ignore: decorator
 @inline
@@ -160,52 +161,52 @@ function step64(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize
 // code into one loop that tests the code at run time).
 
 function logisticPlain32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step32(10, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step32(LOGISTIC_PLAIN, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 function logistic32(gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step32(0, gain, offset, x, nx, t, beta, dt, bound, n);
+  return step32(UNIT_LOGISTIC, gain, offset, x, nx, t, beta, dt, bound, n);
 }
 function tanh32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step32(2, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step32(UNIT_TANH, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 function relu32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step32(4, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step32(UNIT_RELU, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 function hardSigmoid32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step32(6, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step32(UNIT_HARD_SIGMOID, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 function linear32(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step32(8, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step32(UNIT_LINEAR, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 
 function logistic64(gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step64(0, gain, offset, x, nx, t, beta, dt, bound, n);
+  return step64(UNIT_LOGISTIC, gain, offset, x, nx, t, beta, dt, bound, n);
 }
 function tanh64(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step64(2, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step64(UNIT_TANH, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 function relu64(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step64(4, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step64(UNIT_RELU, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 function hardSigmoid64(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step64(6, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step64(UNIT_HARD_SIGMOID, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 function linear64(x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
-  return step64(8, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
+  return step64(UNIT_LINEAR, 1.0, 0.0, x, nx, t, beta, dt, bound, n);
 }
 
 /**
  * The fused rate step on f32 arrays (byte offsets; t = 0: no nudging). `code` is the unit kind's
- * unitFill code (0 logistic, 2 tanh, 4 relu, 6 hard sigmoid, 8 linear); -2 for any other.
+ * unitFill rate code (UNIT_LOGISTIC, UNIT_TANH, UNIT_RELU, UNIT_HARD_SIGMOID, UNIT_LINEAR); -2 for any other.
  */
 export function rateStep32(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
   if (n <= 0) return 0;
   switch (code) {
-    case 0: return gain == 1.0 && offset == 0.0 ? logisticPlain32(x, nx, t, beta, dt, bound, n) : logistic32(gain, offset, x, nx, t, beta, dt, bound, n);
-    case 2: return tanh32(x, nx, t, beta, dt, bound, n);
-    case 4: return relu32(x, nx, t, beta, dt, bound, n);
-    case 6: return hardSigmoid32(x, nx, t, beta, dt, bound, n);
-    case 8: return linear32(x, nx, t, beta, dt, bound, n);
+    case UNIT_LOGISTIC: return gain == 1.0 && offset == 0.0 ? logisticPlain32(x, nx, t, beta, dt, bound, n) : logistic32(gain, offset, x, nx, t, beta, dt, bound, n);
+    case UNIT_TANH: return tanh32(x, nx, t, beta, dt, bound, n);
+    case UNIT_RELU: return relu32(x, nx, t, beta, dt, bound, n);
+    case UNIT_HARD_SIGMOID: return hardSigmoid32(x, nx, t, beta, dt, bound, n);
+    case UNIT_LINEAR: return linear32(x, nx, t, beta, dt, bound, n);
     default: return -2;
   }
 }
@@ -214,11 +215,11 @@ export function rateStep32(code: i32, gain: f64, offset: f64, x: usize, nx: usiz
 export function rateStep64(code: i32, gain: f64, offset: f64, x: usize, nx: usize, t: usize, beta: f64, dt: f64, bound: f64, n: i32): f64 {
   if (n <= 0) return 0;
   switch (code) {
-    case 0: return logistic64(gain, offset, x, nx, t, beta, dt, bound, n);
-    case 2: return tanh64(x, nx, t, beta, dt, bound, n);
-    case 4: return relu64(x, nx, t, beta, dt, bound, n);
-    case 6: return hardSigmoid64(x, nx, t, beta, dt, bound, n);
-    case 8: return linear64(x, nx, t, beta, dt, bound, n);
+    case UNIT_LOGISTIC: return logistic64(gain, offset, x, nx, t, beta, dt, bound, n);
+    case UNIT_TANH: return tanh64(x, nx, t, beta, dt, bound, n);
+    case UNIT_RELU: return relu64(x, nx, t, beta, dt, bound, n);
+    case UNIT_HARD_SIGMOID: return hardSigmoid64(x, nx, t, beta, dt, bound, n);
+    case UNIT_LINEAR: return linear64(x, nx, t, beta, dt, bound, n);
     default: return -2;
   }
 }

@@ -12,7 +12,8 @@
 // demoted once).
 
 import { VBYTES, hi, hmax, join, lanes, lo, vmadd } from "./simd";
-import { ABS32, ABS64, K } from "./units";
+import { ABS32, ABS64 } from "./generated/layout";
+import { K } from "./units";
 
 // @ts-ignore: decorator
 @inline
@@ -294,4 +295,9 @@ export function sumRows<T>(out: usize, a: usize, rows: i32, cols: i32, alpha: f6
     for (; o < ve; o += VBYTES) v128.store(out + o, vmadd<T>(al, v128.load(a0 + o), v128.load(out + o)));
     for (; o < e; o += S) store<T>(out + o, load<T>(out + o) + <T>alpha * load<T>(a0 + o));
   }
+}
+
+/** memmove of `bytes` bytes (overlap allowed). */
+export function copyBytes(out: usize, a: usize, bytes: i32): void {
+  memory.copy(out, a, <usize>bytes);
 }

@@ -22,7 +22,7 @@ import { Worker } from "node:worker_threads";
 import { buildNetwork } from "../src/network/network.js";
 import { createRule, type Batch, type RuleConfigInput } from "../src/rules/index.js";
 import { createRandom } from "../src/random/index.js";
-import { typescriptBackend, type KernelBackend } from "../src/kernels/wasm/backend.js";
+import { typescriptBackend, type KernelBackend } from "../src/kernels/index.js";
 import { loadWasmKernelsSync, wasmSimdSupported } from "../src/kernels/wasm/loader.js";
 import { ParallelRule } from "../src/node/parallel/pool.js";
 import { benchNetwork } from "../src/node/bench/workload.js";
@@ -78,7 +78,7 @@ async function independent(kernels: string, ms: number): Promise<{ us: number; o
     (async () => {
       const { buildNetwork } = await import(workerData.here + "../src/network/network.js");
       const { createRule } = await import(workerData.here + "../src/rules/index.js");
-      const { typescriptBackend } = await import(workerData.here + "../src/kernels/wasm/backend.js");
+      const { typescriptBackend } = await import(workerData.here + "../src/kernels/typescript-backend.js");
       const { loadWasmKernelsSync } = await import(workerData.here + "../src/kernels/wasm/loader.js");
       const { benchNetwork } = await import(workerData.here + "../src/node/bench/workload.js");
       const backend = workerData.kernels === "typescript" ? typescriptBackend : loadWasmKernelsSync({ relaxed: false });

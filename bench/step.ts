@@ -5,7 +5,7 @@
  * 256-unit layer (batch 1) and 64 patterns of it (batch 64), logistic and tanh, float32 and float64.
  * Figures are nanoseconds per value and ratios against the separate WebAssembly kernels.
  */
-import { fillUnit, loadWasmKernelsSync, typescriptBackend, type KernelBackend } from "../src/kernels/wasm/index.js";
+import { fillUnit, loadWasmKernelsSync, typescriptBackend, type KernelBackend } from "../src/kernels/public.js";
 import { createUnit } from "../src/units/index.js";
 import { createRandom, fillUniform } from "../src/random/index.js";
 import type { Dtype, FloatArray } from "../src/types/index.js";

@@ -24,7 +24,7 @@ import { PrecisionWorker } from "./precision-worker.js";
 import { readFileSync } from "node:fs";
 import { setFlagsFromString } from "node:v8";
 import { isMainThread, parentPort, workerData } from "node:worker_threads";
-import { loadWasmKernelsSync, typescriptBackend, wasmRelaxedSimdSupported, type KernelBackend } from "../src/kernels/wasm/index.js";
+import { loadWasmKernelsSync, typescriptBackend, wasmRelaxedSimdSupported, type KernelBackend } from "../src/kernels/public.js";
 import { createRandom, fillUniform } from "../src/random/index.js";
 import type { Dtype, FloatArray } from "../src/types/index.js";
 import { consume } from "./machine.js";

@@ -53,7 +53,7 @@ export interface FuzzKind<C = unknown> {
   readonly cases: fc.Arbitrary<C>;
   /** Runs one case. */
   run(c: C): Promise<Verdict> | Verdict;
-  /** Per-case time limit in milliseconds (default 10 s). */
+  /** Per-case time limit in milliseconds (default 20 s). */
   readonly timeoutMs?: number;
 }
 
@@ -69,7 +69,9 @@ export async function classify<T>(f: () => T | Promise<T>, check: (v: T) => stri
   } catch (e) {
     if (e instanceof EbbflowError) return refused;
     const err = e as Error;
-    return { kind: "untyped", detail: `${err?.name ?? typeof e}: ${String(err?.message ?? e).slice(0, 200)}` };
+    // where it was thrown: the first frame of the stack (file and line)
+    const frame = /\n\s+at (.*)/.exec(String(err?.stack ?? ""))?.[1] ?? "";
+    return { kind: "untyped", detail: `${err?.name ?? typeof e}: ${String(err?.message ?? e).slice(0, 200)}${frame !== "" ? ` (at ${frame.replace(/^.*\/(src|bench)\//, "$1/")})` : ""}` };
   }
   let why: string | null;
   try {

@@ -16,12 +16,14 @@ export interface CheckCommandOptions {
   readonly reference?: GradientReference;
   readonly json?: boolean;
   readonly kernels?: "auto" | "typescript" | "wasm";
+  /** Modules defining rules of the user's own. */
+  readonly plugin?: string[];
 }
 
 /** Runs `ebbflow check MODEL.json ...`. */
 export async function checkCommand(modelFile: string, o: CheckCommandOptions): Promise<void> {
-  const { experiment, net } = await readModelArgument(modelFile, o.kernels ?? "auto");
-  const rules = o.rule !== undefined && o.rule.length > 0 ? await Promise.all(o.rule.map((r) => readRuleArgument(r, { rate: o.rate ?? 1, beta: o.beta }))) : experiment.rules;
+  const { experiment, net, registry } = await readModelArgument(modelFile, o.kernels ?? "auto", o.plugin ?? []);
+  const rules = o.rule !== undefined && o.rule.length > 0 ? await Promise.all(o.rule.map((r) => readRuleArgument(r, { rate: o.rate ?? 1, beta: o.beta }, registry))) : experiment.rules;
   if (rules.length === 0) fail("invalid_config", "--rule", "at least one rule (on the command line or in the experiment's rules)", "none");
   const source = o.data ?? experiment.data?.source;
   if (source === undefined) fail("invalid_config", "--data", "a data source", "none");
@@ -33,7 +35,7 @@ export async function checkCommand(modelFile: string, o: CheckCommandOptions): P
   const reports = rules.map((rule) => {
     // each rule sees the same weights, with tight settling so that rule and reference compare fixed points
     const tight = net.withDynamics({ tolerance: Math.min(net.spec.dynamics.tolerance, 1e-12), maxSteps: Math.max(net.spec.dynamics.maxSteps, 100000) });
-    return gradientAgreement(tight, rule, batch, { reference: o.reference ?? "recurrent" });
+    return gradientAgreement(tight, rule, batch, { reference: o.reference ?? "recurrent", registry });
   });
   if (o.json) process.stdout.write(JSON.stringify(reports) + "\n");
   else process.stdout.write(`${n} examples of ${source}\n\n` + reports.map(formatAgreement).join("\n\n") + "\n");

@@ -1,12 +1,13 @@
 /**
  * `ebbflow demo`: the touch-strip scenario. Shows that no single layer of weights can name the texture,
- * that a hidden layer learns it with GeneRec, CHL, EqProp and the sliding-threshold rule, the
+ * that a hidden layer learns it with the rules `generec`, `chl`, `eqprop` and `calcium`, the
  * gradient-agreement table, and writes SVG learning curves.
  * @module
  */
 import { promises as fs } from "node:fs";
 import path from "node:path";
 import { DEMO_RULES, demoAgreement, demoRun, type DemoRun } from "../demo/run.js";
+import { ruleDisplayName } from "../rules/names.js";
 import { TOUCH_PATTERNS, touchStripDataset } from "../demo/touchStrip.js";
 import { formatAgreement } from "../verify/agreement.js";
 import { learningCurveSvg, writeSvg } from "../node/plot.js";
@@ -42,7 +43,7 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
   for (const rule of DEMO_RULES) {
     const runs = Array.from({ length: seeds }, (_, s) => demoRun(rule, s + 1, 0, 300));
     flat.push(...runs);
-    say(`   ${rule.label.padEnd(26)} most patterns right in any epoch: ${Math.max(...runs.map((r) => r.bestCorrect))} of 4; solved in ${runs.filter((r) => r.solved).length} of ${seeds} seeds`);
+    say(`   ${ruleDisplayName(rule.config).padEnd(20)} most patterns right in any epoch: ${Math.max(...runs.map((r) => r.bestCorrect))} of 4; solved in ${runs.filter((r) => r.solved).length} of ${seeds} seeds`);
   }
   say("   Why: smooth-left + smooth-right = striped-left + striped-right = every sensor once, so for any");
   say("   weights the two smooth patterns' net inputs sum to the same as the two striped ones'. No threshold");
@@ -57,9 +58,10 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
   const median = (v: number[]) => (v.length === 0 ? Number.NaN : [...v].sort((a, b) => a - b)[Math.floor((v.length - 1) / 2)]!);
   for (const rule of DEMO_RULES) {
     const runs = Array.from({ length: seeds }, (_, s) => demoRun(rule, s + 1, 4, epochs));
-    hidden[rule.label] = runs;
+    const name = ruleDisplayName(rule.config);
+    hidden[name] = runs;
     const solved = runs.filter((r) => r.solved);
-    say(`   | ${rule.label} | ${solved.length}/${seeds} | ${solved.length > 0 ? median(solved.map((r) => r.epochs)) : "-"} | ${median(runs.map((r) => r.finalSse)).toFixed(4)} |`);
+    say(`   | ${name} | ${solved.length}/${seeds} | ${solved.length > 0 ? median(solved.map((r) => r.epochs)) : "-"} | ${median(runs.map((r) => r.finalSse)).toFixed(4)} |`);
   }
   say("");
 
@@ -70,12 +72,13 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
   await ensureFolder(out, "--out");
   const written: string[] = [];
   for (const rule of DEMO_RULES) {
-    const runs = hidden[rule.label] ?? [];
+    const name = ruleDisplayName(rule.config);
+    const runs = hidden[name] ?? [];
     const svg = await learningCurveSvg(
-      runs.map((r) => ({ label: `seed ${r.seed}`, results: { source: `${rule.label} seed ${r.seed}`, header: { kind: "header" as const, ebbflow: VERSION, seed: r.seed, config: { rule: rule.config }, started: new Date(0).toISOString() }, epochs: r.history } })),
-      { metric: "sse", split: "train", title: `${rule.label}: sum squared error per epoch (touch strip)`, logY: true },
+      runs.map((r) => ({ label: `seed ${r.seed}`, results: { source: `${name} seed ${r.seed}`, header: { kind: "header" as const, ebbflow: VERSION, seed: r.seed, config: { rule: rule.config }, started: new Date(0).toISOString() }, epochs: r.history } })),
+      { metric: "sse", split: "train", title: `${name}: sum squared error per epoch (touch strip)`, logY: true },
     );
-    const file = path.join(out, `${rule.label.replace(/[^A-Za-z0-9]+/g, "-").toLowerCase()}-curves.svg`);
+    const file = path.join(out, `${name.replace(/[^A-Za-z0-9]+/g, "-").replace(/-$/, "").toLowerCase()}-curves.svg`);
     await writeSvg(file, svg);
     written.push(file);
   }

@@ -41,7 +41,7 @@ program
   .option("--data <source>", "touch-strip, xor, parity:N, iris, digits[:N] or a .csv/.json file")
   .option("--rule <rule>", "rule name, inline JSON or a JSON file (default: the experiment's first rule)")
   .option("--rate <rate>", "learning rate (with a bare rule name)", positive("--rate"))
-  .option("--beta <beta>", "nudging strength for eqprop (with a bare rule name)", num("--beta"))
+  .option("--beta <beta>", "nudging strength, for rules that have one (with a bare rule name)", num("--beta"))
   .option("--epochs <n>", "number of epochs", int("--epochs"))
   .option("--batch-size <n>", "mini-batch size", int("--batch-size"))
   .option("--seed <seed>", "seed for shuffling and the split (default: the network's seed)")
@@ -54,6 +54,7 @@ program
   .option("--accept-changes", "with --resume: continue although the experiment changed (recorded in the results)")
   .option("--overwrite", "replace the run in a non-empty output folder")
   .addOption(new Option("--kernels <kind>", "kernels: auto (WebAssembly SIMD when the engine has it), typescript or wasm").choices(["auto", "typescript", "wasm"]).default("auto"))
+  .option("--plugin <module>", "a module defining rules of your own (repeatable; also `plugins` in the experiment file)", collect)
   .option("--json", "machine-readable output")
   .action(guard(trainCommand));
 
@@ -68,6 +69,7 @@ program
   .option("--examples <n>", "examples in the batch", int("--examples"))
   .addOption(new Option("--reference <kind>", "exact reference").choices(["recurrent", "finite-difference", "feedforward"]))
   .addOption(new Option("--kernels <kind>", "kernels: auto, typescript or wasm").choices(["auto", "typescript", "wasm"]).default("auto"))
+  .option("--plugin <module>", "a module defining rules of your own (repeatable; also `plugins` in the experiment file)", collect)
   .option("--json", "machine-readable output")
   .action(guard(checkCommand));
 

@@ -93,7 +93,7 @@ async function runCommand(file: string, o: RunOptions): Promise<void> {
   const report = await runSweepLocally(plan, {
     out: dir,
     workers,
-    onOutcome: (x, done, total) => {
+    onRunDone: (x, done, total) => {
       if (json) return;
       const run = plan.runs[x.index];
       const what = x.status === "failed" ? `FAILED: ${x.error?.message.split("\n")[0] ?? ""}` : `${x.status} (${x.epochs} epochs${x.resumedFrom > 0 ? `, resumed from epoch ${x.resumedFrom}` : ""})`;
@@ -109,11 +109,11 @@ async function runCommand(file: string, o: RunOptions): Promise<void> {
 async function taskCommand(dir: string, o: { index: number; json?: boolean }): Promise<void> {
   const plan = await readSweepPlan(dir);
   const run = runAt(plan, o.index);
-  const outcome = await executeRun({ dir: path.resolve(dir), run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery });
-  if (o.json) out(JSON.stringify(outcome) + "\n");
-  else out(`run #${run.index} ${run.id} (${run.label}, seed ${run.seed}): ${outcome.status}${outcome.status === "failed" ? "" : `, ${outcome.epochs} epochs${outcome.resumedFrom > 0 ? `, resumed from epoch ${outcome.resumedFrom}` : ""}`}\n`);
-  if (outcome.status === "failed") {
-    err(`ebbflow: run #${run.index} ${run.id} failed: ${outcome.error?.message ?? "unknown error"}\n`);
+  const runReport = await executeRun({ dir: path.resolve(dir), run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery, plugins: plan.plugins });
+  if (o.json) out(JSON.stringify(runReport) + "\n");
+  else out(`run #${run.index} ${run.id} (${run.label}, seed ${run.seed}): ${runReport.status}${runReport.status === "failed" ? "" : `, ${runReport.epochs} epochs${runReport.resumedFrom > 0 ? `, resumed from epoch ${runReport.resumedFrom}` : ""}`}\n`);
+  if (runReport.status === "failed") {
+    err(`ebbflow: run #${run.index} ${run.id} failed: ${runReport.error?.message ?? "unknown error"}\n`);
     process.exitCode = 1;
   }
 }

@@ -29,15 +29,17 @@ export interface TrainCommandOptions {
   readonly scale?: boolean;
   readonly persistent?: boolean;
   readonly kernels?: "auto" | "typescript" | "wasm";
+  /** Modules defining rules of the user's own. */
+  readonly plugin?: string[];
 }
 
 const seedOf = (s: string | undefined, fallback: number | string): number | string => (s === undefined ? fallback : /^-?\d+$/.test(s) ? Number(s) : s);
 
 /** Runs `ebbflow train MODEL.json ...`. */
 export async function trainCommand(modelFile: string, o: TrainCommandOptions): Promise<void> {
-  const { experiment, net: built } = await readModelArgument(modelFile, o.kernels ?? "auto");
+  const { experiment, net: built, registry } = await readModelArgument(modelFile, o.kernels ?? "auto", o.plugin ?? []);
   const seed = seedOf(o.seed, experiment.network.seed);
-  const rule = o.rule !== undefined ? await readRuleArgument(o.rule, { rate: o.rate, beta: o.beta }) : experiment.rules[0];
+  const rule = o.rule !== undefined ? await readRuleArgument(o.rule, { rate: o.rate, beta: o.beta }, registry) : experiment.rules[0];
   if (rule === undefined) fail("invalid_config", "--rule", "a rule (on the command line or in the experiment's rules)", "none");
   const source = o.data ?? experiment.data?.source;
   if (source === undefined) fail("invalid_config", "--data", "a data source (on the command line or in the experiment's data)", "none");
@@ -55,13 +57,13 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
   if (o.acceptChanges && !o.resume) fail("invalid_parameter", "--accept-changes", "--resume (it accepts a changed experiment when resuming)", "no --resume");
   // the resolved config: everything that decides the run's results (its hash is the run's identity)
   const data = { source, testFraction, scale: o.scale ?? experiment.data?.scale ?? false, ...(experiment.data?.targetColumns !== undefined ? { targetColumns: experiment.data.targetColumns } : {}), ...(experiment.data?.oneHot !== undefined ? { oneHot: experiment.data.oneHot } : {}) };
-  const config: Record<string, unknown> = { network: experiment.network, rule, training, data, seed };
+  const config: Record<string, unknown> = { network: experiment.network, rule, training, data, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
   const every = o.checkpointEvery ?? 10;
   const { files, lock } = await claimRunFolder(out, o.resume ? "resume" : o.overwrite ? "overwrite" : "new", "--out");
   try {
-    const start = o.resume ? await findRunStart(files, { config, acceptChanges: o.acceptChanges, build: { backend: built.kernels }, what: "--resume" }) : { checkpoint: null, change: null };
+    const start = o.resume ? await findRunStart(files, { config, acceptChanges: o.acceptChanges, build: { backend: built.kernels, units: registry.units }, what: "--resume" }) : { checkpoint: null, change: null };
     if (start.change !== null && !o.json) process.stderr.write(`accepting changed ${start.change.paths.join(", ")} from epoch ${start.change.epoch} (recorded in results.jsonl)\n`);
-    const trainer = new Trainer(start.checkpoint?.net ?? built, rule, train, training, { test, seed });
+    const trainer = new Trainer(start.checkpoint?.net ?? built, rule, train, training, { test, seed, registry });
     restoreTrainer(trainer, start);
     const progress = new Progress(training.epochs, "training", o.json === true);
     const result = await driveRun({

@@ -104,7 +104,12 @@ export function modelToJson(net: Network): string {
 /**
  * Rebuilds a network from a model file object (or its JSON text), restoring
  * every parameter bit for bit. Reports every problem at once with its path.
- * @throws {@link EbbflowError} `parse_error`, `invalid_config` or `shape_mismatch`.
+ * A model whose layers name a user's unit kind loads only when `options.units` has it;
+ * without, it is refused (`unknown_name` at `network.layers[i].unit.kind`, naming the kind),
+ * never rebuilt with another kind.
+ * @param data The model file object or its JSON text.
+ * @param options Where to build it (`backend`, `allocate`) and the unit kinds it may name (`units`).
+ * @throws {@link EbbflowError} `parse_error`, `invalid_config`, `unknown_name` or `shape_mismatch`.
  * @category Files
  */
 export function modelFromData(data: unknown, options: BuildOptions = {}): Network {
@@ -125,7 +130,7 @@ export function modelFromData(data: unknown, options: BuildOptions = {}): Networ
   if (typeof o.version !== "number" || !MODEL_VERSIONS_READ.includes(o.version)) problems.push(issueText("parse_error", "version", `one of ${MODEL_VERSIONS_READ.join(", ")}`, describeValue(o.version)));
   for (const k of Object.keys(o)) if (!TOP_KEYS.has(k) || (k === "checksum" && o.version === 1)) problems.push(issueText("parse_error", k, "no such field (unknown key)", describeValue(o[k])));
   if (problems.length > 0) throw new EbbflowError(problems);
-  const parsed = safeParseNetwork(o.network);
+  const parsed = safeParseNetwork(o.network, options.units);
   if (!parsed.ok) problems.push(...parsed.issues.map((i) => ({ ...i, path: i.path === "" ? "network" : `network.${i.path}` })));
   const p = o.parameters as Record<string, unknown> | undefined;
   if (p === undefined || p === null || typeof p !== "object") problems.push(issueText("parse_error", "parameters", "an object with weights, feedback and biases", describeValue(p)));

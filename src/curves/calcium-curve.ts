@@ -1,6 +1,8 @@
 /**
- * Piecewise-linear calcium-style plasticity curve: no change without
- * coactivity, depression for weak coactivity, potentiation above a threshold.
+ * A piecewise-linear form of the calcium-control hypothesis: no change without
+ * coactivity, depression for weak coactivity, potentiation above a threshold
+ * (Lisman 1989; Artola, Bröcher & Singer 1990; Shouval, Bear & Cooper 2002),
+ * with a threshold that may slide (Bienenstock, Cooper & Munro 1982).
  * @module
  */
 import { fail, requireOpenInterval } from "../errors/index.js";
@@ -17,7 +19,7 @@ function curveAt(x: number, theta: number, trough: number, slope: number): numbe
 }
 
 /**
- * Piecewise-linear calcium-style curve of a coactivity `x` against a threshold `theta`.
+ * A piecewise-linear form of the calcium-control curve, of a coactivity `x` against a threshold `theta`.
  *
  * ```
  * curve(x, θ) = 0                        for x <= 0
@@ -27,9 +29,24 @@ function curveAt(x: number, theta: number, trough: number, slope: number): numbe
  * Continuous, zero at zero coactivity, deepest at `x = trough·θ` with value
  * `-(1 - trough) θ`, zero crossing at `θ`, slope 1 above `θ`. In the linear region
  * (`θ >= 0`, `x > trough·θ`) the result is exactly `x - θ`, so with `θ` a slower trace
- * of the same coactivity it reads "outcome minus expectation".
- * Shape after the calcium-control idea (Shouval, Bear & Cooper 2002, PNAS 99:10831;
- * BCM, Bienenstock, Cooper & Munro 1982, J. Neurosci. 2:32): this linear form is ebbflow's own design.
+ * of the same coactivity (led by the prediction, the free state) and `x` a faster one (led by
+ * the target-driven, clamped state) it reads "clamped minus free".
+ *
+ * Sources of the shape (the straight segments, with slope 1 above the trough so that the linear
+ * region is exactly `x - θ`, simplify it):
+ * - calcium-control hypothesis: a modest rise of postsynaptic calcium depresses a synapse, a
+ *   large rise potentiates it; Lisman 1989, "A mechanism for the Hebb and the anti-Hebb
+ *   processes underlying learning and memory", PNAS 86(23):9574–9578 (from memory);
+ * - two activity thresholds, depression above the lower and potentiation above the higher;
+ *   Artola, Bröcher & Singer 1990, "Different voltage-dependent thresholds for inducing long-term
+ *   depression and long-term potentiation in slices of rat visual cortex", Nature 347:69–72
+ *   (from memory);
+ * - the smooth curve Ω(Ca) of the same shape (no change at rest, a depression dip, potentiation
+ *   above a crossover); Shouval, Bear & Cooper 2002, "A unified model of NMDA receptor-dependent
+ *   bidirectional synaptic plasticity", PNAS 99(16):10831–10836, the Ω function (checked against
+ *   two reimplementations, methods item 8; its equation number is not checked);
+ * - a modification threshold that slides with the cell's long-term activity; Bienenstock,
+ *   Cooper & Munro 1982, J. Neurosci. 2(1):32–48, the φ(y, θ_M) function (from memory).
  *
  * Edge cases (documented choices): coactivity is a product of non-negative rates, so
  * `x <= 0` means "no coactivity" and gives 0; a threshold `θ <= 0` means "no activity

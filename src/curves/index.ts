@@ -1,7 +1,8 @@
 /**
- * Plasticity curves and sliding thresholds: the piecewise-linear calcium-style
- * curve, the BCM function and objective, the calcium-control functions of
- * Shouval, Bear & Cooper (2002), and thresholds that slide with running averages.
+ * Plasticity curves and sliding thresholds: a piecewise-linear form of the
+ * calcium-control curve (Lisman 1989; Artola, Bröcher & Singer 1990), the BCM
+ * function and objective, the calcium-control functions of Shouval, Bear &
+ * Cooper (2002), and thresholds that slide with running averages.
  * @module
  */
 export { calciumCurve, applyCalciumCurve } from "./calcium-curve.js";
@@ -15,9 +16,9 @@ export {
 export {
   slowTraceThreshold,
   bcmThreshold,
-  mixedThreshold,
+  blendedThreshold,
   type SlidingThreshold,
-  type MixedThreshold,
-  type MixedThresholdOptions,
-  type MixedThresholdState,
+  type BlendedThreshold,
+  type BlendedThresholdOptions,
+  type BlendedThresholdState,
 } from "./thresholds.js";

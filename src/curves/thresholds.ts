@@ -1,7 +1,7 @@
 /**
  * Sliding thresholds for plasticity curves, built on exponential traces:
  * a slower trace of the same coactivity (error-driven), the long-term average of
- * the squared postsynaptic activity (BCM, self-organising), and a weighted mix.
+ * the squared postsynaptic activity (BCM, self-organising), and a weighted blend of the two.
  * @module
  */
 import { EbbflowError, fail, requireInteger } from "../errors/index.js";
@@ -35,7 +35,8 @@ export interface SlidingThreshold {
 /**
  * Error-driven threshold: a slower exponential trace of the same coactivity the
  * curve receives, `τ_slow dθ/dt = x - θ`. With `x` a faster trace of coactivity,
- * `calciumCurve(fast, θ)` in its linear region equals `fast - slow`: "outcome minus expectation".
+ * `calciumCurve(fast, θ)` in its linear region equals `fast - slow`: with the fast trace led by the
+ * target-driven (clamped) state and the slow one by the prediction (free state), "clamped minus free".
  *
  * @param options - trace options (`tau`, `dt`, `method`, `n`, `dtype`, `initial`); the slow
  *   time constant should exceed the fast trace's
@@ -120,17 +121,17 @@ export function bcmThreshold(options: VectorTraceOptions): SlidingThreshold {
 }
 
 /**
- * Options of a mixed threshold. Thresholds are laid out like a weight matrix:
+ * Options of a blended threshold. Thresholds are laid out like a weight matrix:
  * row i = postsynaptic unit i, column j = presynaptic unit j (`post × pre`, row-major).
  * @category Curves
  */
-export interface MixedThresholdOptions {
+export interface BlendedThresholdOptions {
   /** Number of postsynaptic units (rows); integer >= 1. */
   readonly post: number;
   /** Number of presynaptic units (columns); integer >= 1, default 1 (one threshold per unit). */
   readonly pre?: number | undefined;
-  /** Weight m of the slow-trace part, in [0, 1]: `θ = m θ_slow + (1 - m) θ_bcm`. */
-  readonly mix: number;
+  /** Share m of the error-driven (slow-trace) part, in [0, 1]: `θ = m θ_slow + (1 - m) θ_bcm`. */
+  readonly errorShare: number;
   /** Timing of the slow coactivity trace (`tau`, `dt`, `method`, `initial`). */
   readonly slow: Omit<VectorTraceOptions, "n" | "dtype">;
   /** Timing of the BCM trace of y^2 (`tau`, `dt`, `method`, `initial`). */
@@ -140,10 +141,10 @@ export interface MixedThresholdOptions {
 }
 
 /**
- * Saved state of a mixed threshold.
+ * Saved state of a blended threshold.
  * @category Curves
  */
-export interface MixedThresholdState {
+export interface BlendedThresholdState {
   /** The slow coactivity trace (post × pre values). */
   readonly slow: TraceState;
   /** The BCM trace (one value per postsynaptic unit). */
@@ -151,17 +152,17 @@ export interface MixedThresholdState {
 }
 
 /**
- * A mix of the error-driven and the BCM threshold.
+ * A weighted blend of the error-driven and the BCM threshold.
  * @category Curves
  */
-export interface MixedThreshold {
+export interface BlendedThreshold {
   /** Rows (postsynaptic units). */
   readonly post: number;
   /** Columns (presynaptic units). */
   readonly pre: number;
-  /** Weight of the slow-trace part. */
-  readonly mix: number;
-  /** Mixed thresholds, `post × pre` row-major (live view). */
+  /** Share of the error-driven (slow-trace) part. */
+  readonly errorShare: number;
+  /** Blended thresholds, `post × pre` row-major (live view). */
   readonly value: FloatArray;
   /** The error-driven part (post × pre). */
   readonly slow: SlidingThreshold;
@@ -174,26 +175,26 @@ export interface MixedThreshold {
    *   `coactivity.length !== post*pre` or `postActivity.length !== post`; nothing is updated then.
    */
   update(coactivity: FloatArray, postActivity: FloatArray): FloatArray;
-  /** Resets both parts to `value` (default 0) and recomputes the mix. */
+  /** Resets both parts to `value` (default 0) and recomputes the blend. */
   reset(value?: number): void;
   /** Exports both parts. */
-  saveState(): MixedThresholdState;
-  /** Restores both parts (validated before anything is written) and recomputes the mix. */
-  loadState(state: MixedThresholdState): void;
+  saveState(): BlendedThresholdState;
+  /** Restores both parts (validated before anything is written) and recomputes the blend. */
+  loadState(state: BlendedThresholdState): void;
 }
 
-class WeightedThreshold implements MixedThreshold {
+class WeightedThreshold implements BlendedThreshold {
   readonly post: number;
   readonly pre: number;
-  readonly mix: number;
+  readonly errorShare: number;
   readonly value: FloatArray;
   readonly slow: SlidingThreshold;
   readonly bcm: SlidingThreshold;
 
-  constructor(post: number, pre: number, mix: number, slow: SlidingThreshold, bcm: SlidingThreshold, dtype: Dtype) {
+  constructor(post: number, pre: number, errorShare: number, slow: SlidingThreshold, bcm: SlidingThreshold, dtype: Dtype) {
     this.post = post;
     this.pre = pre;
-    this.mix = mix;
+    this.errorShare = errorShare;
     this.slow = slow;
     this.bcm = bcm;
     this.value = allocate(dtype, post * pre);
@@ -201,7 +202,7 @@ class WeightedThreshold implements MixedThreshold {
   }
 
   private combine(): void {
-    const m = this.mix;
+    const m = this.errorShare;
     const rest = 1 - m;
     const pre = this.pre;
     const s = this.slow.value;
@@ -229,11 +230,11 @@ class WeightedThreshold implements MixedThreshold {
     this.combine();
   }
 
-  saveState(): MixedThresholdState {
+  saveState(): BlendedThresholdState {
     return { slow: this.slow.saveState(), bcm: this.bcm.saveState() };
   }
 
-  loadState(state: MixedThresholdState): void {
+  loadState(state: BlendedThresholdState): void {
     if (typeof state !== "object" || state === null) fail("invalid_parameter", "state", "an object { slow, bcm }", state);
     // Validate both parts on scratch copies first, so a bad state leaves this one untouched.
     const slowScratch = vectorTrace({ tau: 1, n: this.slow.n, dtype: this.slow.trace.dtype });
@@ -259,29 +260,31 @@ function prefixed<T>(prefix: string, fn: () => T): T {
 }
 
 /**
- * Weighted mix of the error-driven and the BCM threshold,
- * `θ_ij = m θ_slow,ij + (1 - m) θ_bcm,i`: m = 1 is purely error-driven (outcome minus
- * expectation), m = 0 purely self-organising (BCM; Bienenstock, Cooper & Munro 1982,
+ * Weighted blend of the error-driven and the BCM threshold,
+ * `θ_ij = m θ_slow,ij + (1 - m) θ_bcm,i` with m the error share: m = 1 is purely error-driven
+ * (clamped minus free), m = 0 purely self-organising (BCM; Bienenstock, Cooper & Munro 1982,
  * J. Neurosci. 2:32). The BCM part is per postsynaptic unit and shared along its row.
  *
- * @param options - `post`, `pre` (default 1), `mix` in [0, 1], `slow` and `bcm` trace timing, `dtype`
- * @returns the mixed threshold
- * @throws {@link EbbflowError} `invalid_parameter` naming `post`, `pre`, `mix`, `dtype`, or
+ * @param options - `post`, `pre` (default 1), `errorShare` in [0, 1], `slow` and `bcm` trace timing, `dtype`
+ * @returns the blended threshold
+ * @throws {@link EbbflowError} `invalid_parameter` naming `post`, `pre`, `errorShare` (also for the
+ *   renamed key `mix`, which is refused), `dtype`, or
  *   `slow.tau`, `bcm.dt`, ... for the trace options
  * @category Curves
  * @example
  * ```ts
- * const theta = mixedThreshold({ post: 1, pre: 2, mix: 0.5, slow: { tau: 1 }, bcm: { tau: 1 } });
+ * const theta = blendedThreshold({ post: 1, pre: 2, errorShare: 0.5, slow: { tau: 1 }, bcm: { tau: 1 } });
  * theta.update(new Float64Array([1, 0]), new Float64Array([2]));
  * // slow = a·[1, 0], bcm = a·4 with a = 1 - e^-1: Float64Array [1.5803..., 1.2642...]
  * ```
  */
-export function mixedThreshold(options: MixedThresholdOptions): MixedThreshold {
+export function blendedThreshold(options: BlendedThresholdOptions): BlendedThreshold {
   if (typeof options !== "object" || options === null) fail("invalid_parameter", "options", "an object", options);
   const post = requireInteger("post", options.post, 1);
   const pre = options.pre === undefined ? 1 : requireInteger("pre", options.pre, 1);
-  const mix = options.mix;
-  if (typeof mix !== "number" || !Number.isFinite(mix) || mix < 0 || mix > 1) fail("invalid_parameter", "mix", "a number in [0, 1]", mix);
+  if ("mix" in options) fail("invalid_parameter", "mix", "the key errorShare (mix was renamed errorShare)", (options as { mix?: unknown }).mix);
+  const errorShare = options.errorShare;
+  if (typeof errorShare !== "number" || !Number.isFinite(errorShare) || errorShare < 0 || errorShare > 1) fail("invalid_parameter", "errorShare", "a number in [0, 1]", errorShare);
   const dtype = options.dtype;
   if (dtype !== undefined && dtype !== "float32" && dtype !== "float64") fail("invalid_parameter", "dtype", 'one of "float32", "float64"', dtype);
   const resolved: Dtype = dtype ?? "float64";
@@ -289,5 +292,5 @@ export function mixedThreshold(options: MixedThresholdOptions): MixedThreshold {
   if (typeof options.bcm !== "object" || options.bcm === null) fail("invalid_parameter", "bcm", "an object with tau", options.bcm);
   const slow = prefixed("slow", () => slowTraceThreshold({ ...options.slow, n: post * pre, dtype: resolved }));
   const bcm = prefixed("bcm", () => bcmThreshold({ ...options.bcm, n: post, dtype: resolved }));
-  return new WeightedThreshold(post, pre, mix, slow, bcm, resolved);
+  return new WeightedThreshold(post, pre, errorShare, slow, bcm, resolved);
 }

@@ -6,24 +6,24 @@
 import { buildNetwork, type Network } from "../network/network.js";
 import type { NetworkSpecInput } from "../network/spec.js";
 import type { RuleConfigInput } from "../rules/config.js";
+import { ruleDisplayName } from "../rules/names.js";
 import { Trainer, type EpochRecord } from "../train/loop.js";
 import { gradientAgreement, type AgreementReport } from "../verify/agreement.js";
 import { touchStripDataset } from "./touchStrip.js";
 
-/** A rule as the demo trains it. @category Demo */
+/** A rule as the demo trains it; it is shown by its {@link ruleDisplayName}. @category Demo */
 export interface DemoRule {
-  readonly label: string;
   readonly config: RuleConfigInput;
-  /** Target activity for "off" (the calcium curve cannot depress from an outcome of exactly 0). */
+  /** Target activity for "off" (the calcium curve cannot depress when the clamped activity is exactly 0). */
   readonly low: number;
 }
 
 /** The rules the demo compares. @category Demo */
 export const DEMO_RULES: readonly DemoRule[] = [
-  { label: "GeneRec", config: { rule: "generec", rate: 1 }, low: 0 },
-  { label: "CHL", config: { rule: "chl", rate: 0.5 }, low: 0 },
-  { label: "EqProp", config: { rule: "eqprop", beta: 0.5, rate: 2 }, low: 0 },
-  { label: "sliding-threshold calcium", config: { rule: "calcium", rate: 1 }, low: 0.05 },
+  { config: { rule: "generec", rate: 1 }, low: 0 },
+  { config: { rule: "chl", rate: 0.5 }, low: 0 },
+  { config: { rule: "eqprop", beta: 0.5, rate: 2 }, low: 0 },
+  { config: { rule: "calcium", rate: 1 }, low: 0.05 },
 ];
 
 /** The demo's network: 8 sensors, an optional hidden layer, 2 texture units; symmetric feedback. @category Demo */
@@ -43,6 +43,7 @@ export function demoNetwork(hidden: number, seed: number): NetworkSpecInput {
 
 /** One training run of the demo. @category Demo */
 export interface DemoRun {
+  /** The rule's display name ({@link ruleDisplayName}). */
   readonly rule: string;
   readonly seed: number;
   readonly solved: boolean;
@@ -61,7 +62,7 @@ export function demoRun(rule: DemoRule, seed: number, hidden: number, epochs: nu
   const trainer = new Trainer(net, rule.config, data, { epochs, batchSize: 4, shuffle: false, stopWhen: { metric: "accuracy", atLeast: 1 } }, { seed });
   const { reason, epochs: ran } = trainer.run();
   const best = Math.max(...trainer.history.map((r) => Math.round((r.train?.accuracy ?? 0) * 4)));
-  return { rule: rule.label, seed, solved: reason === "target-reached", epochs: ran, bestCorrect: best, finalSse: trainer.history.at(-1)?.train?.sse ?? Number.NaN, history: trainer.history };
+  return { rule: ruleDisplayName(rule.config), seed, solved: reason === "target-reached", epochs: ran, bestCorrect: best, finalSse: trainer.history.at(-1)?.train?.sse ?? Number.NaN, history: trainer.history };
 }
 
 /**
@@ -72,8 +73,8 @@ export function demoRun(rule: DemoRule, seed: number, hidden: number, epochs: nu
 export function demoAgreement(hidden: number, seed: number): AgreementReport[] {
   const rules: DemoRule[] = [
     ...DEMO_RULES.map((r) => ({ ...r, config: { ...r.config, rate: 1 } as RuleConfigInput })),
-    { label: "EqProp, symmetric, small β", config: { rule: "eqprop", beta: 0.01, rate: 1, mode: "symmetric" }, low: 0 },
-    { label: "backprop (feedforward pass)", config: { rule: "backprop", rate: 1 }, low: 0 },
+    { config: { rule: "eqprop", beta: 0.01, rate: 1, mode: "symmetric" }, low: 0 },
+    { config: { rule: "backprop", rate: 1 }, low: 0 },
   ];
   return rules.map((r) => {
     const data = touchStripDataset({ low: r.low, high: 1 - r.low });

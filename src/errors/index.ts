@@ -97,6 +97,37 @@ export class EbbflowError extends Error {
   }
 }
 
+/** Renders a zod path as `layers[2].size`. @category Errors */
+export function formatPath(path: readonly PropertyKey[]): string {
+  let out = "";
+  for (const key of path) {
+    if (typeof key === "number") out += `[${key}]`;
+    else out += out === "" ? String(key) : `.${String(key)}`;
+  }
+  return out;
+}
+
+/** The value found at a path (zod path segments) inside `root`, or undefined. @category Errors */
+export function valueAt(root: unknown, path: readonly PropertyKey[]): unknown {
+  let v: unknown = root;
+  for (const key of path) {
+    if (v === null || typeof v !== "object") return undefined;
+    v = (v as Record<PropertyKey, unknown>)[key];
+  }
+  return v;
+}
+
+/**
+ * Joins two config paths: `joinPath("layers[0].unit", "gain")` is `layers[0].unit.gain`,
+ * `joinPath("range", "[0]")` is `range[0]`; an empty side leaves the other.
+ * @category Errors
+ */
+export function joinPath(prefix: string, rest: string): string {
+  if (prefix === "") return rest;
+  if (rest === "") return prefix;
+  return rest.startsWith("[") ? prefix + rest : `${prefix}.${rest}`;
+}
+
 /** Builds an issue; `received` is rendered with {@link describeValue}. @category Errors */
 export function issue(code: ErrorCode, path: string, expected: string, received: unknown, detail?: string): Issue {
   return issueText(code, path, expected, describeValue(received), detail);

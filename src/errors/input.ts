@@ -5,7 +5,7 @@
  * followed), and a cap on how many problems one error lists.
  * @module
  */
-import { describeValue, issueText, type Issue } from "./index.js";
+import { describeValue, issueText, joinPath, type Issue } from "./index.js";
 
 /** Deepest nesting of arrays and objects accepted in input files (ebbflow's own formats need fewer than 12 levels). @category Errors */
 export const MAX_INPUT_DEPTH = 64;
@@ -16,9 +16,9 @@ export const MAX_ISSUES = 100;
 /** Object keys that are never fields of ebbflow's formats. @category Errors */
 export const RESERVED_KEYS: ReadonlySet<string> = new Set(["__proto__", "constructor", "prototype"]);
 
-function joinPath(base: string, key: string | number): string {
-  if (typeof key === "number") return `${base}[${key}]`;
-  return base === "" ? key : `${base}.${key}`;
+/** `base` extended by one key: `a.b`, `a[2]`. */
+function childPath(base: string, key: string | number): string {
+  return joinPath(base, typeof key === "number" ? `[${key}]` : key);
 }
 
 /**
@@ -47,7 +47,7 @@ export function inputShapeIssues(value: unknown, prefix = ""): Issue[] {
     if (Array.isArray(v)) {
       for (let i = v.length - 1; i >= 0; i--) {
         const x = v[i] as unknown;
-        if (x !== null && typeof x === "object") stack.push([x, joinPath(path, i), depth + 1]);
+        if (x !== null && typeof x === "object") stack.push([x, childPath(path, i), depth + 1]);
       }
       continue;
     }
@@ -55,8 +55,8 @@ export function inputShapeIssues(value: unknown, prefix = ""): Issue[] {
     for (let i = keys.length - 1; i >= 0; i--) {
       const k = keys[i] as string;
       const x = (v as Record<string, unknown>)[k];
-      if (RESERVED_KEYS.has(k)) out.push(issueText("invalid_config", joinPath(path, k), "no such field (reserved key)", describeValue(x)));
-      else if (x !== null && typeof x === "object") stack.push([x, joinPath(path, k), depth + 1]);
+      if (RESERVED_KEYS.has(k)) out.push(issueText("invalid_config", childPath(path, k), "no such field (reserved key)", describeValue(x)));
+      else if (x !== null && typeof x === "object") stack.push([x, childPath(path, k), depth + 1]);
     }
   }
   return capIssues(out);

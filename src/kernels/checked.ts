@@ -2,7 +2,7 @@
  * Validation of kernel arguments, for use at API edges (network build,
  * config loading, user calls): the hot kernels themselves check nothing.
  *
- * Every problem found is collected before one {@link EbbflowError} is thrown:
+ * Every problem found is collected before one `EbbflowError` is thrown:
  * - `invalid_parameter` for a size that is not an integer ≥ 0, a scale that is
  *   not finite, a flag that is not a boolean, an argument that is not a
  *   `Float32Array`/`Float64Array`, or an output that overlaps an input it may
@@ -124,7 +124,7 @@ function identicalOrDisjoint(issues: Issue[], fn: string, out: AnyFloatArray, pa
  * @param transB - transpose B.
  * @param alpha - scale of the product.
  * @param beta - scale of the previous C.
- * @throws {@link EbbflowError} with every problem found (`invalid_parameter`, `shape_mismatch`).
+ * @throws `EbbflowError` with every problem found (`invalid_parameter`, `shape_mismatch`).
  * @category Kernels
  * @example
  * ```ts
@@ -174,7 +174,7 @@ export function checkGemm(
  * @param trans - multiply by the transpose.
  * @param alpha - scale of the product.
  * @param beta - scale of the previous y.
- * @throws {@link EbbflowError} with every problem found (`invalid_parameter`, `shape_mismatch`).
+ * @throws `EbbflowError` with every problem found (`invalid_parameter`, `shape_mismatch`).
  * @category Kernels
  */
 export function checkGemv(
@@ -213,7 +213,7 @@ export function checkGemv(
  * @param m - rows of A.
  * @param n - columns of A.
  * @param alpha - scale.
- * @throws {@link EbbflowError} with every problem found (`invalid_parameter`, `shape_mismatch`).
+ * @throws `EbbflowError` with every problem found (`invalid_parameter`, `shape_mismatch`).
  * @category Kernels
  */
 export function checkGer(out: FloatArray, x: ReadonlyFloatArray, y: ReadonlyFloatArray, m: number, n: number, alpha: number): void {
@@ -262,8 +262,8 @@ function checkVectors(
 
 /**
  * Validating versions of every kernel, for calls at API edges: each member
- * checks its arguments (throwing an {@link EbbflowError} that lists every
- * problem, as {@link checkGemm} does) and then runs the kernel of the same
+ * checks its arguments (throwing an `EbbflowError` that lists every
+ * problem, as `checkGemm` does) and then runs the kernel of the same
  * name. Elementwise members require equal lengths (or at least `n` when `n` is
  * given) and an `out` that is identical to or disjoint from each input; the
  * matrix members require exact lengths and an `out` disjoint from the inputs.
@@ -277,7 +277,7 @@ function checkVectors(
  * ```
  */
 export const kernelsChecked = Object.freeze({
-  /** {@link gemm} after {@link checkGemm}. */
+  /** {@link gemm} after `checkGemm`. */
   gemm<T extends FloatArray>(
     out: T,
     a: ReadonlyFloatArray,
@@ -293,12 +293,12 @@ export const kernelsChecked = Object.freeze({
     checkGemm(out, a, b, m, n, k, transA, transB, alpha, beta);
     return gemm(out, a, b, m, n, k, transA, transB, alpha, beta);
   },
-  /** {@link gemv} after {@link checkGemv}. */
+  /** {@link gemv} after `checkGemv`. */
   gemv<T extends FloatArray>(out: T, a: ReadonlyFloatArray, x: ReadonlyFloatArray, rows: number, cols: number, trans: boolean, alpha: number, beta: number): T {
     checkGemv(out, a, x, rows, cols, trans, alpha, beta);
     return gemv(out, a, x, rows, cols, trans, alpha, beta);
   },
-  /** {@link ger} after {@link checkGer}. */
+  /** {@link ger} after `checkGer`. */
   ger<T extends FloatArray>(out: T, x: ReadonlyFloatArray, y: ReadonlyFloatArray, m: number, n: number, alpha: number): T {
     checkGer(out, x, y, m, n, alpha);
     return ger(out, x, y, m, n, alpha);

@@ -7,7 +7,7 @@
  * a partial overlap: two different views into one buffer at different offsets.
  *
  * `n` (optional, last) is the number of leading elements to process; it
- * defaults to `out.length`. Nothing is checked (see {@link kernelsChecked}).
+ * defaults to `out.length`. Nothing is checked (see `kernelsChecked`).
  * @module
  */
 import type { FloatArray } from "../types/index.js";

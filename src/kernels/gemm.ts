@@ -12,7 +12,7 @@ import type { ReadonlyFloatArray } from "./types.js";
  * Shapes: `C` is m×n; `op(A)` is m×k, so `A` is stored m×k (or k×m when
  * `transA`); `op(B)` is k×n, so `B` is stored k×n (or n×k when `transB`).
  * The first `m*n`, `m*k` and `k*n` elements are used; nothing is checked
- * (see {@link checkGemm} and {@link kernelsChecked} for the validating edge).
+ * (see `checkGemm` and `kernelsChecked` for the validating edge).
  *
  * Special values follow the BLAS convention: `beta = 0` overwrites `C` without
  * reading it (NaN or garbage in `out` does not leak into the result);

@@ -17,7 +17,7 @@ import type { ReadonlyFloatArray } from "./types.js";
  *
  * `beta = 0` overwrites `out` without reading it; `alpha = 0` scales `out` by
  * `beta` without reading `A` or `x`. Nothing is checked (see
- * {@link checkGemv}).
+ * `checkGemv`).
  *
  * Aliasing: `out` must not share memory with `a` or `x`.
  *

@@ -10,7 +10,7 @@ import type { ReadonlyFloatArray } from "./types.js";
  * `A[i*n + j] += alpha * x[i] * y[j]` for an m×n row-major `A`.
  *
  * `alpha = 0` leaves `A` untouched without reading `x` or `y`; otherwise NaN
- * and infinities propagate. Nothing is checked (see {@link checkGer}).
+ * and infinities propagate. Nothing is checked (see `checkGer`).
  *
  * Aliasing: `out` must not share memory with `x` or `y`; `x` and `y` may be
  * the same array.

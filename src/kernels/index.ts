@@ -5,8 +5,8 @@
  * Conventions shared by every kernel:
  * - output first: the destination is the first argument and is returned;
  * - nothing is allocated and nothing is checked (validate once at the edge
- *   with {@link checkGemm}, {@link checkGemv}, {@link checkGer} or call the
- *   members of {@link kernelsChecked});
+ *   with `checkGemm`, `checkGemv`, `checkGer` or call the
+ *   members of `kernelsChecked`);
  * - `Float32Array` and `Float64Array` are both accepted, also mixed (values
  *   are rounded to the storage type of the output when stored);
  * - each kernel documents whether `out` may alias an input.
@@ -20,3 +20,6 @@ export { add, sub, mul, axpy, axpby, scale, fill, copy } from "./elementwise.js"
 export { maxAbsDiff, allFinite, maxAbs, dot, sumSquares } from "./reductions.js";
 export { addRowVector, sumRows } from "./rows.js";
 export { checkGemm, checkGemv, checkGer, kernelsChecked } from "./checked.js";
+export type { BackendName, KernelBackend } from "./backend.js";
+export { typescriptBackend } from "./typescript-backend.js";
+export { fillUnit, type UnitFillKind } from "./units.js";

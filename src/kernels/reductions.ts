@@ -4,7 +4,7 @@
  * None of them skips NaN: a NaN anywhere in the inputs gives NaN (or `false`
  * for {@link allFinite}), so a diverging state can never look converged.
  * `n` (optional, last) is the number of leading elements; it defaults to the
- * length of the first array. Nothing is checked (see {@link kernelsChecked}).
+ * length of the first array. Nothing is checked (see `kernelsChecked`).
  * @module
  */
 import type { ReadonlyFloatArray } from "./types.js";

@@ -4,10 +4,13 @@
  * dtype; a connection's matrix is |to|×|from| row-major (row = receiving unit).
  * @module
  */
-import { createUnit, type UnitFunction } from "../units/index.js";
-import { createRandom, initialise, type InitSpec } from "../random/index.js";
+import { builtinUnits } from "../units/builtins.js";
+import type { UnitRegistry } from "../units/registry.js";
+import type { UnitFunction } from "../units/spec.js";
+import { createRandom, initialize, type InitSpec } from "../random/index.js";
 import { type Dtype, type FloatArray } from "../types/index.js";
-import { typescriptBackend, type KernelBackend } from "../kernels/wasm/backend.js";
+import type { KernelBackend } from "../kernels/backend.js";
+import { typescriptBackend } from "../kernels/typescript-backend.js";
 import { fail } from "../errors/index.js";
 import { requireParameterMemory } from "./checks.js";
 import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
@@ -81,11 +84,14 @@ export class Network {
   readonly feedbackInto: readonly (readonly Connection[])[];
   /** The kernels that settle and train this network; its arrays live where these kernels read them. */
   readonly kernels: KernelBackend;
+  /** The unit kinds its declaration was validated with (a copy or a rebuild of the network uses the same). */
+  readonly units: UnitRegistry;
 
   /** @internal Use {@link buildNetwork}. */
-  constructor(spec: NetworkSpec, layers: Layer[], connections: Connection[], kernels: KernelBackend = typescriptBackend) {
+  constructor(spec: NetworkSpec, layers: Layer[], connections: Connection[], kernels: KernelBackend = typescriptBackend, units: UnitRegistry = builtinUnits) {
     this.spec = spec;
     this.kernels = kernels;
+    this.units = units;
     this.dtype = spec.dtype;
     this.layers = layers;
     this.connections = connections;
@@ -138,7 +144,7 @@ export class Network {
   /** A deep copy whose settling dynamics are changed by `patch` (same parameters, bit for bit). */
   withDynamics(patch: Partial<NetworkSpec["dynamics"]>): Network {
     const copy = this.clone();
-    return new Network(parseNetwork({ ...this.spec, dynamics: { ...this.spec.dynamics, ...patch } }), copy.layers as Layer[], copy.connections as Connection[], this.kernels);
+    return new Network(parseNetwork({ ...this.spec, dynamics: { ...this.spec.dynamics, ...patch } }, this.units), copy.layers as Layer[], copy.connections as Connection[], this.kernels, this.units);
   }
 
   /** A deep copy (same spec, copied parameter arrays). */
@@ -154,7 +160,7 @@ export class Network {
       weights: dup(c.weights),
       feedback: c.feedback.kind === "separate" ? { ...c.feedback, weights: dup(c.feedback.weights) } : c.feedback,
     }));
-    return new Network(this.spec, layers, connections, this.kernels);
+    return new Network(this.spec, layers, connections, this.kernels, this.units);
   }
 }
 
@@ -166,7 +172,7 @@ export interface BuildOptions {
    * place parameters in shared memory (worker threads) or in a kernel backend's memory.
    */
   readonly allocate?: ((dtype: Dtype, length: number) => FloatArray) | undefined;
-  /** The allocator's arrays already hold the parameters: do not initialise them. */
+  /** The allocator's arrays already hold the parameters: do not initialize them. */
   readonly keepValues?: boolean | undefined;
   /**
    * The kernels that settle and train the network (default: the TypeScript kernels). Parameters, states
@@ -174,16 +180,57 @@ export interface BuildOptions {
    * computes on them in place with no copy per settling step.
    */
   readonly backend?: KernelBackend | undefined;
+  /**
+   * The unit kinds layers may name (default: the built-in kinds, `builtinUnits`). A layer naming
+   * a kind the registry does not know is refused (`unknown_name` at `layers[i].unit.kind`);
+   * add a kind with `builtinUnits.with(descriptor)`. Model files and checkpoints that name a
+   * user's kind load only with a registry that has it.
+   */
+  readonly units?: UnitRegistry | undefined;
 }
 
-/** Every parameter array of a network in allocation order (see {@link BuildOptions.allocate}). @category Network */
-export function parameterBuffers(net: Network): FloatArray[] {
-  const out: FloatArray[] = net.layers.map((l) => l.bias);
+/**
+ * One parameter array of a network: a layer's biases, a connection's weights, or a connection's separate
+ * feedback matrix. `index` is the layer's or the connection's index.
+ * @category Network
+ */
+export interface ParameterSlot {
+  readonly kind: "bias" | "weights" | "feedback";
+  readonly index: number;
+  /** `layer bias`, `from->to`, or `from->to feedback`. */
+  readonly name: string;
+}
+
+/**
+ * Every parameter array of a network, in the one order the library uses everywhere: the allocation order
+ * of {@link buildNetwork} (every layer's biases, then each connection's weights and, for a separate
+ * feedback path, its matrix). Shared parameters, worker threads, gradients and reports all follow it.
+ * @category Network
+ */
+export function parameterSlots(net: Network): ParameterSlot[] {
+  const out: ParameterSlot[] = net.layers.map((l) => ({ kind: "bias", index: l.index, name: `${l.name} bias` }));
   for (const c of net.connections) {
-    out.push(c.weights);
-    if (c.feedback.kind === "separate") out.push(c.feedback.weights);
+    out.push({ kind: "weights", index: c.index, name: c.label });
+    if (c.feedback.kind === "separate") out.push({ kind: "feedback", index: c.index, name: `${c.label} feedback` });
   }
   return out;
+}
+
+/** The array of `slot` in a set of parameter-shaped arrays (the network's own, a change, a gradient); null where it has none. @category Network */
+export function slotArray(arrays: { readonly weights: readonly (FloatArray | null | undefined)[]; readonly feedback: readonly (FloatArray | null | undefined)[]; readonly biases: readonly (FloatArray | null | undefined)[] }, slot: ParameterSlot): FloatArray | null {
+  const a = slot.kind === "bias" ? arrays.biases[slot.index] : slot.kind === "weights" ? arrays.weights[slot.index] : arrays.feedback[slot.index];
+  return a ?? null;
+}
+
+/** The network's own parameter arrays by kind (for {@link slotArray}). @category Network */
+export function parameterArraysOf(net: Network): { weights: FloatArray[]; feedback: (FloatArray | null)[]; biases: FloatArray[] } {
+  return { weights: net.connections.map((c) => c.weights), feedback: net.connections.map((c) => (c.feedback.kind === "separate" ? c.feedback.weights : null)), biases: net.layers.map((l) => l.bias) };
+}
+
+/** Every parameter array of a network in allocation order (see {@link parameterSlots}). @category Network */
+export function parameterBuffers(net: Network): FloatArray[] {
+  const own = parameterArraysOf(net);
+  return parameterSlots(net).map((s) => slotArray(own, s) as FloatArray);
 }
 
 /**
@@ -191,7 +238,8 @@ export function parameterBuffers(net: Network): FloatArray[] {
  * Weights come from the declaration's `weights` array when given, otherwise
  * from its initialiser drawing on the sub-stream `weights/<from>-><to>` of
  * the seed, so adding a connection never changes another's weights.
- * @throws {@link EbbflowError} `invalid_config` listing every problem.
+ * @throws {@link EbbflowError} `invalid_config` listing every problem; `unknown_name` for a
+ *   unit kind that `options.units` does not know.
  * @category Network
  * @example
  * ```ts
@@ -203,7 +251,8 @@ export function parameterBuffers(net: Network): FloatArray[] {
  * ```
  */
 export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: BuildOptions = {}): Network {
-  const spec = parseNetwork(input);
+  const units = options.units ?? builtinUnits;
+  const spec = parseNetwork(input, units);
   requireParameterMemory(spec);
   const root = createRandom(spec.seed);
   const kernels = options.backend ?? typescriptBackend;
@@ -214,13 +263,7 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
       // values come with the allocator's arrays
     } else if (Array.isArray(ls.bias)) bias.set(ls.bias);
     else bias.fill(ls.bias);
-    let unit: UnitFunction;
-    try {
-      unit = createUnit(ls.unit);
-    } catch (e) {
-      const err = e as { path?: string };
-      return fail("invalid_config", `layers[${index}].unit${err.path ? `.${err.path}` : ""}`, "valid unit parameters", ls.unit, String((e as Error).message));
-    }
+    const unit: UnitFunction = units.create(ls.unit, `layers[${index}].unit`);
     return { index, name: ls.name, size: ls.size, role: ls.role, unit, bias, inhibition: ls.inhibition, spec: ls };
   });
   const byName = new Map(layers.map((l) => [l.name, l]));
@@ -233,16 +276,16 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
       // the allocator supplied arrays that already hold the parameters
     } else if (cs.weights !== undefined) weights.set(cs.weights);
     else {
-      initialise(weights, cs.init as InitSpec, root.child(`weights/${label}`), from.size, to.size);
+      initialize(weights, cs.init as InitSpec, root.child(`weights/${label}`), from.size, to.size);
       constrainWeights(weights, cs);
     }
     let feedback: Feedback;
     if (cs.feedback.kind === "separate") {
       const fw = alloc(spec.dtype, from.size * to.size);
-      if (!options.keepValues) initialise(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
+      if (!options.keepValues) initialize(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
       feedback = { kind: "separate", learned: cs.feedback.learned, weights: fw };
     } else feedback = cs.feedback;
     return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label };
   });
-  return new Network(spec, layers, connections, kernels);
+  return new Network(spec, layers, connections, kernels, units);
 }

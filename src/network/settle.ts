@@ -6,11 +6,11 @@
  */
 import { EbbflowError, describeValue, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import { fillUnit, unitKernelArgs } from "../kernels/wasm/units.js";
+import { fillUnit, unitKernelArgs } from "../kernels/units.js";
 import type { Network } from "./network.js";
 import { requireStateMemory } from "./checks.js";
 
-/** The three phases: free (the expectation), clamped and nudged (the outcome). @category Settling */
+/** The three phases: free (the prediction: only inputs clamped), clamped and nudged (target-driven states: outputs clamped to, or pulled toward, the targets). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
 
 /** Per-layer values for a batch: layer name → B×N flat array (row = pattern). @category Settling */

@@ -6,60 +6,43 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, capIssues, describeValue, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
+import { EbbflowError, capIssues, describeValue, formatPath, inputShapeIssues, issueText, joinPath, valueAt, type Issue } from "../errors/index.js";
+import { finiteField, integerField, nonNegativeField, positiveField } from "../errors/fields.js";
+import { builtinUnits } from "../units/builtins.js";
+import { carriedIssue, reportIssues, type UnitRegistry, type UnitSpecInput } from "../units/registry.js";
 import { valueIssues } from "./checks.js";
 
-const finite = (what = "a finite number") => z.number({ error: what }).refine(Number.isFinite, { error: what });
-const positive = (what = "a finite number > 0") => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
-const nonNegative = (what = "a finite number >= 0") => z.number({ error: what }).refine((v) => Number.isFinite(v) && v >= 0, { error: what });
-const positiveInt = (what = "an integer >= 1") => z.number({ error: what }).int({ error: what }).min(1, { error: what });
+/** Copies plain data (objects, arrays, numbers, strings): a unit spec kept as written. */
+function copyData<T>(v: T): T {
+  if (Array.isArray(v)) return v.map(copyData) as T;
+  if (v !== null && typeof v === "object") return Object.fromEntries(Object.entries(v).map(([k, x]) => [k, copyData(x)])) as T;
+  return v;
+}
 
-/** Schema of a unit (activation) function. */
-export const unitSchema: z.ZodType<UnitSpecData, UnitSpecData> = z.lazy(() =>
-  z.discriminatedUnion(
-    "kind",
-    [
-      z.object({ kind: z.literal("logistic"), gain: positive().optional(), offset: finite().optional() }).strict(),
-      z.object({ kind: z.literal("tanh") }).strict(),
-      z.object({ kind: z.literal("linear") }).strict(),
-      z.object({ kind: z.literal("relu") }).strict(),
-      z.object({ kind: z.literal("hard-sigmoid") }).strict(),
-      z.object({ kind: z.literal("softplus"), gain: positive().optional() }).strict(),
-      z.object({ kind: z.literal("saturating"), gain: positive().optional(), threshold: finite().optional() }).strict(),
-      z
-        .object({
-          kind: z.literal("noisy"),
-          base: unitSchema,
-          sigma: positive(),
-          resolution: z.number().int().min(2, { error: "an integer >= 2" }).optional(),
-          range: z.tuple([finite(), finite()]).optional(),
-        })
-        .strict(),
-    ],
-    { error: "a unit kind: logistic, tanh, linear, relu, hard-sigmoid, softplus, saturating or noisy" },
-  ),
-);
-
-/** A unit function as data (mirrors `UnitSpec` of the units module). @category Network */
-export type UnitSpecData =
-  | { kind: "logistic"; gain?: number | undefined; offset?: number | undefined }
-  | { kind: "tanh" }
-  | { kind: "linear" }
-  | { kind: "relu" }
-  | { kind: "hard-sigmoid" }
-  | { kind: "softplus"; gain?: number | undefined }
-  | { kind: "saturating"; gain?: number | undefined; threshold?: number | undefined }
-  | { kind: "noisy"; base: UnitSpecData; sigma: number; resolution?: number | undefined; range?: [number, number] | undefined };
+/**
+ * A layer's `unit` field validated through `units`: problems are reported at their place (an
+ * unregistered kind as `unknown_name` at `layers[i].unit.kind`, naming it); the declaration keeps
+ * the spec as written (defaults are filled in by the unit, so the declaration's text, and the
+ * ids derived from it, do not change when a kind gains a parameter).
+ */
+function unitField(units: UnitRegistry): z.ZodType<UnitSpecInput, UnitSpecInput> {
+  return z.custom<UnitSpecInput>(() => true).transform((raw, ctx) => {
+    const issues: Issue[] = [];
+    units.collect(raw, "", issues);
+    reportIssues(ctx, issues);
+    return issues.length > 0 ? z.NEVER : copyData(raw);
+  });
+}
 
 /** Schema of a weight initialiser. @category Network */
 export const initSchema = z.discriminatedUnion(
   "kind",
   [
-    z.object({ kind: z.literal("uniform"), low: finite(), high: finite() }).strict(),
-    z.object({ kind: z.literal("normal"), mean: finite().optional(), std: nonNegative() }).strict(),
+    z.object({ kind: z.literal("uniform"), low: finiteField(), high: finiteField() }).strict(),
+    z.object({ kind: z.literal("normal"), mean: finiteField().optional(), std: nonNegativeField() }).strict(),
     z.object({ kind: z.literal("glorot-uniform") }).strict(),
     z.object({ kind: z.literal("glorot-normal") }).strict(),
-    z.object({ kind: z.literal("constant"), value: finite() }).strict(),
+    z.object({ kind: z.literal("constant"), value: finiteField() }).strict(),
   ],
   { error: "an initialiser kind: uniform, normal, glorot-uniform, glorot-normal or constant" },
 );
@@ -68,69 +51,90 @@ const inhibitionSchema = z.discriminatedUnion(
   "kind",
   [
     z.object({ kind: z.literal("none") }).strict(),
-    z.object({ kind: z.literal("pooled"), gain: nonNegative() }).strict(),
-    z.object({ kind: z.literal("kwta"), k: positiveInt() }).strict(),
+    z.object({ kind: z.literal("pooled"), gain: nonNegativeField() }).strict(),
+    z.object({ kind: z.literal("kwta"), k: integerField() }).strict(),
   ],
   { error: "an inhibition kind: none, pooled or kwta" },
 );
 
-const layerSchema = z
-  .object({
-    name: z.string({ error: "a non-empty name" }).min(1, { error: "a non-empty name" }),
-    size: positiveInt("a positive integer"),
-    role: z.enum(["input", "hidden", "output"], { error: "one of input, hidden, output" }),
-    unit: unitSchema.default({ kind: "logistic" }),
-    bias: z.union([finite(), z.array(finite())], { error: "a finite number or an array of finite numbers" }).default(0),
-    inhibition: inhibitionSchema.default({ kind: "none" }),
-  })
-  .strict();
+/** The network declaration's schema with the given schema of a layer's `unit`. */
+function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
+  const layerSchema = z
+    .object({
+      name: z.string({ error: "a non-empty name" }).min(1, { error: "a non-empty name" }),
+      size: integerField("a positive integer"),
+      role: z.enum(["input", "hidden", "output"], { error: "one of input, hidden, output" }),
+      unit: unit.default({ kind: "logistic" }),
+      bias: z.union([finiteField(), z.array(finiteField())], { error: "a finite number or an array of finite numbers" }).default(0),
+      inhibition: inhibitionSchema.default({ kind: "none" }),
+    })
+    .strict();
 
-const feedbackSchema = z.discriminatedUnion(
-  "kind",
-  [
-    z.object({ kind: z.literal("none") }).strict(),
-    z.object({ kind: z.literal("tied"), gain: nonNegative("a feedback gain >= 0") }).strict(),
-    z.object({ kind: z.literal("separate"), learned: z.boolean().default(true), init: initSchema.optional() }).strict(),
-  ],
-  { error: "a feedback kind: none, tied or separate" },
-);
+  const feedbackSchema = z.discriminatedUnion(
+    "kind",
+    [
+      z.object({ kind: z.literal("none") }).strict(),
+      z.object({ kind: z.literal("tied"), gain: nonNegativeField("a feedback gain >= 0") }).strict(),
+      z.object({ kind: z.literal("separate"), learned: z.boolean().default(true), init: initSchema.optional() }).strict(),
+    ],
+    { error: "a feedback kind: none, tied or separate" },
+  );
 
-const connectionSchema = z
-  .object({
-    from: z.string({ error: "a layer name" }),
-    to: z.string({ error: "a layer name" }),
-    init: initSchema.default({ kind: "glorot-uniform" }),
-    weights: z.array(finite()).optional(),
-    feedback: feedbackSchema.default({ kind: "none" }),
-    sign: z.enum(["any", "excitatory", "inhibitory"], { error: "one of any, excitatory, inhibitory" }).default("any"),
-    bounds: z.enum(["none", "soft"], { error: "one of none, soft" }).default("none"),
-    frozen: z.boolean().default(false),
-    rate: positive("a learning-rate multiplier > 0").optional(),
-  })
-  .strict();
+  const connectionSchema = z
+    .object({
+      from: z.string({ error: "a layer name" }),
+      to: z.string({ error: "a layer name" }),
+      init: initSchema.default({ kind: "glorot-uniform" }),
+      weights: z.array(finiteField()).optional(),
+      feedback: feedbackSchema.default({ kind: "none" }),
+      sign: z.enum(["any", "excitatory", "inhibitory"], { error: "one of any, excitatory, inhibitory" }).default("any"),
+      bounds: z.enum(["none", "soft"], { error: "one of none, soft" }).default("none"),
+      frozen: z.boolean().default(false),
+      rate: positiveField("a learning-rate multiplier > 0").optional(),
+    })
+    .strict();
 
-const dynamicsSchema = z
-  .object({
-    kind: z.enum(["rate", "energy"], { error: "one of rate, energy" }).default("rate"),
-    dt: positive("a step dt > 0").default(0.2),
-    maxSteps: positiveInt().default(500),
-    tolerance: positive("a tolerance > 0").default(1e-6),
-    bound: positive("a divergence bound > 0").default(1e6),
-    clip: z.boolean().default(false),
-  })
-  .strict();
+  const dynamicsSchema = z
+    .object({
+      kind: z.enum(["rate", "energy"], { error: "one of rate, energy" }).default("rate"),
+      dt: positiveField("a step dt > 0").default(0.2),
+      maxSteps: integerField().default(500),
+      tolerance: positiveField("a tolerance > 0").default(1e-6),
+      bound: positiveField("a divergence bound > 0").default(1e6),
+      clip: z.boolean().default(false),
+    })
+    .strict();
 
-/** Schema of a whole network declaration (a model file's `network` part). @category Network */
-export const networkSchema = z
-  .object({
-    name: z.string().optional(),
-    dtype: z.enum(["float32", "float64"], { error: "one of float32, float64" }).default("float64"),
-    seed: z.union([finite(), z.string()], { error: "a number or a string" }).default(0),
-    layers: z.array(layerSchema, { error: "an array of layers" }).min(1, { error: "at least one layer" }),
-    connections: z.array(connectionSchema, { error: "an array of connections" }),
-    dynamics: dynamicsSchema.default({ kind: "rate", dt: 0.2, maxSteps: 500, tolerance: 1e-6, bound: 1e6, clip: false }),
-  })
-  .strict();
+  return z
+    .object({
+      name: z.string().optional(),
+      dtype: z.enum(["float32", "float64"], { error: "one of float32, float64" }).default("float64"),
+      seed: z.union([finiteField(), z.string()], { error: "a number or a string" }).default(0),
+      layers: z.array(layerSchema, { error: "an array of layers" }).min(1, { error: "at least one layer" }),
+      connections: z.array(connectionSchema, { error: "an array of connections" }),
+      dynamics: dynamicsSchema.default({ kind: "rate", dt: 0.2, maxSteps: 500, tolerance: 1e-6, bound: 1e6, clip: false }),
+    })
+    .strict();
+}
+
+/**
+ * Schema of a whole network declaration (a model file's `network` part), with the built-in unit
+ * kinds; `safeParseNetwork(input, units)` validates with another unit registry.
+ * @category Network
+ */
+export const networkSchema = networkSchemaWith(unitField(builtinUnits));
+
+const schemaByRegistry = new WeakMap<UnitRegistry, typeof networkSchema>([[builtinUnits, networkSchema]]);
+
+/** The declaration's schema whose units are validated through `units` (built once per registry). */
+function networkSchemaFor(units: UnitRegistry): typeof networkSchema {
+  let s = schemaByRegistry.get(units);
+  if (s === undefined) {
+    s = networkSchemaWith(unitField(units));
+    schemaByRegistry.set(units, s);
+  }
+  return s;
+}
 
 /** A network declaration as written (defaults may be omitted). @category Network */
 export type NetworkSpecInput = z.input<typeof networkSchema>;
@@ -149,30 +153,17 @@ export type InhibitionSpec = LayerSpec["inhibition"];
 /** Feedback path of a connection. @category Network */
 export type FeedbackSpec = ConnectionSpec["feedback"];
 
-/** Renders a zod path as `layers[2].size`. @category Errors */
-export function formatPath(path: readonly PropertyKey[]): string {
-  let out = "";
-  for (const key of path) {
-    if (typeof key === "number") out += `[${key}]`;
-    else out += out === "" ? String(key) : `.${String(key)}`;
-  }
-  return out;
-}
-
-function valueAt(root: unknown, path: readonly PropertyKey[]): unknown {
-  let v: unknown = root;
-  for (const key of path) {
-    if (v === null || typeof v !== "object") return undefined;
-    v = (v as Record<PropertyKey, unknown>)[key];
-  }
-  return v;
-}
-
 /** Converts zod issues to ebbflow issues, with the value found at each path. @category Errors */
 export function issuesFromZod(error: z.ZodError, input: unknown, prefix: readonly PropertyKey[] = []): Issue[] {
   const out: Issue[] = [];
   for (const zi of error.issues) {
     const path = [...prefix, ...zi.path];
+    const carried = carriedIssue(zi);
+    if (carried !== undefined) {
+      // a unit problem found by the unit registry: a bad value is a config problem here; an unknown kind or field keeps unknown_name
+      out.push({ ...carried, code: carried.code === "invalid_parameter" ? "invalid_config" : carried.code, path: joinPath(formatPath(path), carried.path) });
+      continue;
+    }
     if (zi.code === "unrecognized_keys") {
       for (const key of zi.keys) out.push(issueText("invalid_config", formatPath([...path, key]), "no such field (unknown key)", describeValue(valueAt(input, [...zi.path, key]))));
       continue;
@@ -254,12 +245,15 @@ export type ParseResult<T> = { readonly ok: true; readonly value: T } | { readon
 /**
  * Validates a network declaration without throwing; collects every problem,
  * each with its path, what was expected and what was found.
+ * @param input The declaration.
+ * @param units The unit kinds layers may name (default: the built-in kinds); an unregistered
+ *   kind is reported as `unknown_name` at `layers[i].unit.kind`.
  * @category Network
  */
-export function safeParseNetwork(input: unknown): ParseResult<NetworkSpec> {
+export function safeParseNetwork(input: unknown, units: UnitRegistry = builtinUnits): ParseResult<NetworkSpec> {
   const shape = inputShapeIssues(input);
   if (shape.length > 0) return { ok: false, issues: shape };
-  const result = networkSchema.safeParse(input);
+  const result = networkSchemaFor(units).safeParse(input);
   if (!result.success) return { ok: false, issues: issuesFromZod(result.error, input) };
   const problems = crossCheck(result.data);
   return problems.length > 0 ? { ok: false, issues: problems } : { ok: true, value: result.data };
@@ -267,16 +261,20 @@ export function safeParseNetwork(input: unknown): ParseResult<NetworkSpec> {
 
 /**
  * Validates a network declaration and fills in defaults.
- * @throws {@link EbbflowError} `invalid_config` listing every problem found.
+ * @param input The declaration.
+ * @param units The unit kinds layers may name (default: the built-in kinds).
+ * @throws {@link EbbflowError} `invalid_config` listing every problem found (`unknown_name`
+ *   for a unit kind `units` does not know).
  * @category Network
  */
-export function parseNetwork(input: unknown): NetworkSpec {
-  const r = safeParseNetwork(input);
+export function parseNetwork(input: unknown, units: UnitRegistry = builtinUnits): NetworkSpec {
+  const r = safeParseNetwork(input, units);
   if (!r.ok) throw new EbbflowError(r.issues);
   return r.value;
 }
 
 /** The JSON Schema (draft 2020-12) of a network declaration, for editors. @category Network */
 export function networkJsonSchema(): Record<string, unknown> {
-  return z.toJSONSchema(networkSchema, { io: "input", unrepresentable: "any" }) as Record<string, unknown>;
+  // the editors' schema lists the built-in kinds (a union on `kind`); validation goes through the registry
+  return z.toJSONSchema(networkSchemaWith(builtinUnits.schema), { io: "input", unrepresentable: "any" }) as Record<string, unknown>;
 }

@@ -13,6 +13,7 @@ import { promises as fs } from "node:fs";
 import path from "node:path";
 import { z } from "zod";
 import { EbbflowError, describeValue, fail, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
+import { savedDataIssues } from "../errors/saved.js";
 import { checksumIssue, contentChecksum, modelFromData, modelToData, type ModelFile } from "../config/modelFile.js";
 import type { BuildOptions, Network } from "../network/network.js";
 import type { StopReason, Trainer, TrainerState } from "../train/loop.js";
@@ -138,12 +139,6 @@ const checkpointSchema = z
   })
   .strict();
 
-function valueAt(root: unknown, path: readonly PropertyKey[]): unknown {
-  let v = root;
-  for (const k of path) v = v !== null && typeof v === "object" ? (v as Record<PropertyKey, unknown>)[k] : undefined;
-  return v;
-}
-
 /**
  * Validates a checkpoint given as data and rebuilds its network (see the module notes for the checks).
  * @param data - The parsed checkpoint.
@@ -160,13 +155,7 @@ export function checkpointFromData(data: unknown, where: string, options: BuildO
   if (shape.length > 0) throw named(shape);
   const r = checkpointSchema.safeParse(data);
   if (!r.success) {
-    throw named(
-      r.error.issues.slice(0, 20).map((zi) =>
-        zi.code === "unrecognized_keys"
-          ? issueText("parse_error", [...zi.path, zi.keys[0] ?? ""].join("."), "no such field (unknown key)", zi.keys.join(", "))
-          : issueText("parse_error", zi.path.map(String).join(".") || "(root)", zi.message.replace(/^Invalid input: expected /, "").replace(/, received \w+$/, ""), describeValue(valueAt(data, zi.path))),
-      ),
-    );
+    throw named(savedDataIssues(r.error.issues, data));
   }
   const c = r.data;
   let net: Network;

@@ -12,3 +12,4 @@ export * from "./parallel/index.js";
 export * from "./bench/index.js";
 export * from "./sweep/index.js";
 export * from "./sources.js";
+export { loadPlugins, resolvePlugin } from "./plugins.js";

@@ -7,7 +7,7 @@
 export { readResults, loadResults } from "./plot/results.js";
 export type { ResultsMetrics, ResultsHeaderLine, ResultsEpochLine, ResultsStopReason, ResultsEndLine, Results } from "./plot/results.js";
 export { renderSvg, writeSvg } from "./plot/render.js";
-export { learningCurveSpec, learningCurveSvg, summariseRuns, bandCurveSpec, bandCurveSvg } from "./plot/curves.js";
+export { learningCurveSpec, learningCurveSvg, summarizeEpochs, bandCurveSpec, bandCurveSvg } from "./plot/curves.js";
 export type { CurveSplit, LabelledRun, LearningCurveOptions, BandKind, BandCurveOptions, RunGroup, BandPoint } from "./plot/curves.js";
 export { weightMatrixSpec, weightMatrixSvg, receptiveFieldsSpec, receptiveFieldsSvg } from "./plot/heatmaps.js";
 export type { WeightMatrixOptions, FieldScaling, ReceptiveFieldOptions } from "./plot/heatmaps.js";

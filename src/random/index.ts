@@ -5,7 +5,9 @@
  * @module
  */
 import seedrandom from "seedrandom";
+import { z } from "zod";
 import type { FloatArray } from "../types/index.js";
+import { savedDataIssues } from "../errors/saved.js";
 import { EbbflowError, issue, requireFinite, requireInteger, requireNonNegative, fail, type Issue } from "../errors/index.js";
 
 /** The ARC4 generator's state (the key schedule `S` and the two indices), as plain JSON data. @category Random */
@@ -14,6 +16,30 @@ export interface Arc4State {
   readonly j: number;
   readonly S: readonly number[];
 }
+
+const byte = z.number().int({ error: "an integer in [0, 255]" }).min(0, { error: "an integer in [0, 255]" }).max(255, { error: "an integer in [0, 255]" });
+
+/**
+ * Schema of a saved {@link RandomStreamState}: the ARC4 key schedule must be a permutation of 0..255 (every
+ * state the generator reaches is one), the indices bytes, the spare normal deviate finite or null.
+ * @category Random
+ */
+export const randomStreamStateSchema = z
+  .object({
+    name: z.string(),
+    prng: z
+      .object({
+        i: byte,
+        j: byte,
+        S: z
+          .array(byte)
+          .length(256, { error: "256 entries" })
+          .refine((s) => new Set(s).size === 256, { error: "a permutation of 0..255 (an ARC4 key schedule)" }),
+      })
+      .strict(),
+    spare: z.number().refine(Number.isFinite, { error: "a finite number" }).nullable(),
+  })
+  .strict();
 
 /** Saved state of a {@link RandomStream}, for checkpoints. @category Random */
 export interface RandomStreamState {
@@ -120,49 +146,16 @@ export class RandomStream {
 }
 
 /**
- * Problems of a saved random-stream state: `name` a string, `prng.i` and `prng.j` integers in [0, 255],
- * `prng.S` a permutation of 0..255 (the ARC4 key schedule always is one; Rivest's RC4 as described by
- * Schneier, Applied Cryptography, 2nd ed., 1996, sec. 17.1), `spare` null or a finite number.
+ * Problems of a saved random-stream state, checked with {@link randomStreamStateSchema}, each with its path
+ * under `path` (e.g. `trainer.shuffle.prng.S[7]`).
  * @param state - The state as data.
  * @param path - Its path, for the issues.
- * @returns The problems (empty when the state is valid).
+ * @returns The problems (empty when the state is valid; at most 20).
  * @category Random
  */
 export function randomStateIssues(state: unknown, path = "state"): Issue[] {
-  const out: Issue[] = [];
-  const byte = (v: unknown) => typeof v === "number" && Number.isInteger(v) && v >= 0 && v <= 255;
-  if (state === null || typeof state !== "object" || Array.isArray(state)) return [issue("parse_error", path, "a random-stream state { name, prng, spare }", state)];
-  const s = state as Record<string, unknown>;
-  for (const k of Object.keys(s)) if (k !== "name" && k !== "prng" && k !== "spare") out.push(issue("parse_error", `${path}.${k}`, "no such field (unknown key)", s[k]));
-  if (typeof s.name !== "string") out.push(issue("parse_error", `${path}.name`, "the stream's name as a string", s.name));
-  if (!(s.spare === null || (typeof s.spare === "number" && Number.isFinite(s.spare)))) out.push(issue("parse_error", `${path}.spare`, "null or a finite number", s.spare));
-  const p = s.prng as Record<string, unknown> | null | undefined;
-  if (p === null || typeof p !== "object" || Array.isArray(p)) {
-    out.push(issue("parse_error", `${path}.prng`, "an ARC4 state { i, j, S }", p));
-    return out;
-  }
-  for (const k of Object.keys(p)) if (k !== "i" && k !== "j" && k !== "S") out.push(issue("parse_error", `${path}.prng.${k}`, "no such field (unknown key)", p[k]));
-  if (!byte(p.i)) out.push(issue("parse_error", `${path}.prng.i`, "an integer in [0, 255]", p.i));
-  if (!byte(p.j)) out.push(issue("parse_error", `${path}.prng.j`, "an integer in [0, 255]", p.j));
-  const S = p.S;
-  if (!Array.isArray(S) || S.length !== 256) {
-    out.push(issue("parse_error", `${path}.prng.S`, "an array of 256 integers (a permutation of 0..255)", S));
-    return out;
-  }
-  const seen = new Uint8Array(256);
-  for (let k = 0; k < 256; k++) {
-    const v = S[k] as unknown;
-    if (!byte(v)) {
-      out.push(issue("parse_error", `${path}.prng.S[${k}]`, "an integer in [0, 255]", v));
-      return out;
-    }
-    if (seen[v as number] === 1) {
-      out.push(issue("parse_error", `${path}.prng.S[${k}]`, "a permutation of 0..255 (each value once)", v, "repeated value"));
-      return out;
-    }
-    seen[v as number] = 1;
-  }
-  return out;
+  const r = randomStreamStateSchema.safeParse(state);
+  return r.success ? [] : savedDataIssues(r.error.issues, state, [path]);
 }
 
 function structuredCloneState(state: Arc4State | seedrandom.State.Arc4): Arc4State {
@@ -235,7 +228,7 @@ export type InitSpec =
   | { readonly kind: "constant"; readonly value: number };
 
 /** Fills a |post|×|pre| weight matrix from an {@link InitSpec}; returns `out`. @category Random */
-export function initialise<T extends FloatArray>(out: T, spec: InitSpec, rng: RandomStream, fanIn: number, fanOut: number): T {
+export function initialize<T extends FloatArray>(out: T, spec: InitSpec, rng: RandomStream, fanIn: number, fanOut: number): T {
   switch (spec.kind) {
     case "uniform":
       return fillUniform(out, rng, spec.low, spec.high);

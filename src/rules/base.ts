@@ -4,11 +4,11 @@
  */
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import type { KernelBackend } from "../kernels/wasm/backend.js";
+import type { KernelBackend } from "../kernels/backend.js";
 import type { Connection, Network } from "../network/network.js";
 import { Settler, Snapshot, type LayerValues } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";
-import type { RuleConfig } from "./config.js";
+import type { RuleConfigBase } from "./descriptor.js";
 
 /** A batch of patterns: values per input layer and targets per output layer, B×N flat. @category Rules */
 export interface Batch {
@@ -22,7 +22,8 @@ export interface Batch {
  * @category Rules
  */
 export interface LearningRule {
-  readonly config: RuleConfig;
+  /** The rule's config with defaults filled in (`config.rule` names its descriptor). */
+  readonly config: RuleConfigBase;
   readonly net: Network;
   /** The phases the rule settles (for reports). */
   readonly phases: readonly string[];
@@ -59,19 +60,42 @@ export function batchSizeOf(net: Network, batch: Batch): number {
   const first = net.inputLayers[0];
   if (first === undefined) return fail("invalid_config", "layers", "an input layer", "none");
   const v = batch.inputs[first.name];
-  if (v === undefined) return fail("shape_mismatch", `inputs.${first.name}`, "input values", undefined);
-  if (v.length === 0 || v.length % first.size !== 0) fail("shape_mismatch", `inputs.${first.name}`, `a non-empty multiple of ${first.size} values`, `${v.length} values`);
+  if (v === undefined || v === null || typeof v !== "object") return fail("shape_mismatch", `inputs.${first.name}`, "input values", v);
+  if (typeof v.length !== "number" || v.length === 0 || v.length % first.size !== 0) fail("shape_mismatch", `inputs.${first.name}`, `a non-empty multiple of ${first.size} values`, `${v.length} values`);
   return v.length / first.size;
 }
 
+/**
+ * A layer's values of a batch, checked: `count` finite numbers (an array or a typed array). For rules that
+ * read inputs or targets themselves rather than through the settler, which checks them the same way.
+ * @param values - The batch's inputs or targets.
+ * @param layer - The layer's name.
+ * @param count - Values expected (batch × size).
+ * @param what - `inputs` or `targets`, for the error path.
+ * @returns The values.
+ * @throws {@link EbbflowError} `shape_mismatch` naming the layer (and the first bad value).
+ * @category Rules
+ */
+export function checkedLayerValues(values: LayerValues | undefined, layer: string, count: number, what: "inputs" | "targets"): ArrayLike<number> {
+  const v = values?.[layer] as unknown;
+  if (v === null || typeof v !== "object" || typeof (v as { length?: unknown }).length !== "number") return fail("shape_mismatch", `${what}.${layer}`, `${count} values`, v === undefined ? "missing" : v);
+  const a = v as ArrayLike<unknown>;
+  if (a.length !== count) fail("shape_mismatch", `${what}.${layer}`, `${count} values`, `${a.length} values`);
+  for (let k = 0; k < count; k++) {
+    const x = a[k];
+    if (typeof x !== "number" || !Number.isFinite(x)) fail("shape_mismatch", `${what}.${layer}[${k}]`, "a finite number", x);
+  }
+  return a as ArrayLike<number>;
+}
+
 /** Learning rate of a connection: the rule's per-connection override or its rate, times the connection's own multiplier. @category Rules */
-export function connectionRate(config: RuleConfig, c: Connection): number {
+export function connectionRate(config: RuleConfigBase, c: Connection): number {
   const base = config.rates?.[c.label] ?? config.rate;
   return base * (c.spec.rate ?? 1);
 }
 
 /** Checks that every key of `rates` names a connection. */
-export function checkRates(net: Network, config: RuleConfig): void {
+export function checkRates(net: Network, config: RuleConfigBase): void {
   for (const key of Object.keys(config.rates ?? {})) {
     if (!net.connections.some((c) => c.label === key)) fail("unknown_name", `rule.rates["${key}"]`, `a connection label (${net.connections.map((c) => c.label).join(", ")})`, key);
   }
@@ -90,7 +114,7 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 
 /**
  * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
- * the outcome-minus-expectation coactivity of a connection. When the sending layer is clamped in both
+ * the clamped-minus-free coactivity of a connection. When the sending layer is clamped in both
  * phases (`samePre`: preA and preB hold the same values), it is computed as one product
  * `alpha · (postA − postB)ᵀ pre`, using `scratch` (B×n, for example the settler's phase scratch) for the difference.
  */
@@ -116,14 +140,14 @@ export function contrastBias(out: FloatArray, alpha: number, a: FloatArray, b: F
 /** Shared machinery of rules that settle phases: one Settler and snapshots per batch size. */
 export abstract class SettlingRule implements LearningRule {
   abstract readonly phases: readonly string[];
-  readonly config: RuleConfig;
+  readonly config: RuleConfigBase;
   readonly net: Network;
   lastFree: Snapshot | null = null;
   freeStart: Snapshot | null = null;
   private readonly settlers = new Map<number, { settler: Settler; snaps: Snapshot[] }>();
   private stepDelta: ParameterDelta | null = null;
 
-  constructor(net: Network, config: RuleConfig) {
+  constructor(net: Network, config: RuleConfigBase) {
     this.net = net;
     this.config = config;
     checkRates(net, config);

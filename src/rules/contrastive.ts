@@ -1,19 +1,62 @@
 /**
- * Phase-difference rules on two settled states, the expectation (free) and
- * the outcome (clamped): CHL, GeneRec and its variants, Xie–Seung scaled CHL,
+ * Phase-difference rules on two settled states, the prediction (free) and
+ * the target-driven state (clamped): CHL, GeneRec and its variants, Xie–Seung scaled CHL,
  * and the sliding-threshold calcium rule.
  * @module
  */
+import { z } from "zod";
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import type { Snapshot } from "../network/settle.js";
 import { applyCalciumCurve } from "../curves/index.js";
+import { vectorTrace, smoothingCoefficient, type VectorTrace } from "../traces/index.js";
+import { stepFilter } from "../traces/step.js";
 import { ParameterDelta } from "./delta.js";
 import { SettlingRule, batchSizeOf, connectionRate, contrast, contrastBias, type Batch, type RuleState } from "./base.js";
-import type { RuleConfig } from "./config.js";
+import { commonRuleFields, defineRule } from "./descriptor.js";
+import type { Combination, ContrastForm, Product } from "./contrast-form.js";
+import { layerArraysSchema, layerArraysState } from "./state.js";
 
-type Cfg<K extends RuleConfig["rule"]> = Extract<RuleConfig, { rule: K }>;
+const positive = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
+const nonNegative = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v >= 0, { error: what });
+/** A key that was renamed: refused with a message naming its new spelling (it is never read). */
+const renamed = (was: string, now: string) => z.never({ error: `the key ${now} (${was} was renamed ${now})` }).optional();
+
+const chlSchema = z.object({ rule: z.literal("chl"), ...commonRuleFields }).strict();
+const xieSeungSchema = z.object({ rule: z.literal("xie-seung"), gamma: nonNegative("a feedback gain gamma >= 0").optional(), ...commonRuleFields }).strict();
+const generecSchema = z
+  .object({
+    rule: z.literal("generec"),
+    variant: z.enum(["basic", "symmetric", "midpoint", "symmetric-midpoint"], { error: "one of basic, symmetric, midpoint, symmetric-midpoint" }).default("basic"),
+    ...commonRuleFields,
+  })
+  .strict();
+const calciumSchema = z
+  .object({
+    rule: z.literal("calcium"),
+    trough: z.number().refine((v) => v > 0 && v < 1, { error: "a trough position in the open interval (0, 1)" }).default(0.05),
+    threshold: z
+      .enum(["error", "bcm", "blend"], { error: (i) => (i.input === "mix" ? 'one of error, bcm, blend ("mix" was renamed "blend")' : "one of error, bcm, blend") })
+      .default("error"),
+    // share of the error-driven threshold in a blend, in [0, 1]
+    errorShare: z.number().refine((v) => v >= 0 && v <= 1, { error: "an error-driven share in [0, 1]" }).default(0.9),
+    mix: renamed("mix", "errorShare"),
+    timing: z.enum(["phases", "continuous"], { error: "one of phases, continuous" }).default("phases"),
+    fastTau: positive("a time constant > 0 (settling steps)").default(1),
+    slowTau: positive("a time constant > 0 (settling steps)").default(20),
+    freeSteps: z.number().int().min(1, { error: "an integer >= 1" }).default(100),
+    clampedSteps: z.number().int().min(1, { error: "an integer >= 1" }).default(10),
+    averageTau: positive("a time constant > 0 (trials)").default(50),
+    ...commonRuleFields,
+  })
+  .strict();
+
+type ChlConfig = z.output<typeof chlSchema>;
+type XieSeungConfig = z.output<typeof xieSeungSchema>;
+type GenerecConfig = z.output<typeof generecSchema>;
+type CalciumConfig = z.output<typeof calciumSchema>;
+type Cfg<K extends "chl" | "xie-seung" | "generec" | "calcium"> = { chl: ChlConfig; "xie-seung": XieSeungConfig; generec: GenerecConfig; calcium: CalciumConfig }[K];
 
 /** Depth of every layer: shortest path from an input along forward connections. @category Rules */
 export function layerDepths(net: Network): number[] {
@@ -29,6 +72,30 @@ export function layerDepths(net: Network): number[] {
     }
   }
   return depth;
+}
+
+/**
+ * The Xie–Seung factor of every layer's learning rate, γ^(k−L) for a layer at depth k below the output
+ * depth L (Xie & Seung 2003, Neural Computation 15:441, Eq. 2.8); at γ = 0 only the output layer learns.
+ * γ is `rule.gamma`, or else the gain shared by every tied feedback path.
+ * @category Rules
+ */
+export function xieSeungFactors(net: Network, config: Cfg<"xie-seung">): number[] {
+  let gamma = config.gamma;
+  const tied = net.connections.filter((c) => c.feedback.kind === "tied");
+  if (gamma === undefined) {
+    if (tied.length === 0) fail("invalid_config", `connections[${net.connections.length - 1}].feedback`, "tied feedback (the Xie–Seung network feeds back the transposed weights scaled by gamma)", "no tied feedback path");
+    const gains = new Set(tied.map((c) => (c.feedback.kind === "tied" ? c.feedback.gain : 0)));
+    if (gains.size > 1) fail("invalid_config", "connections", "one feedback gain shared by every tied connection (or rule.gamma given)", [...gains].join(", "));
+    gamma = [...gains][0] as number;
+  }
+  const g = gamma;
+  const depth = layerDepths(net);
+  const L = Math.max(...net.outputLayers.map((l) => depth[l.index] as number));
+  return net.layers.map((_, i) => {
+    const k = depth[i] as number;
+    return g > 0 ? g ** (k - L) : k === L ? 1 : 0;
+  });
 }
 
 /** Settles the free phase and then the clamped phase from the free state; returns [free, clamped]. */
@@ -49,27 +116,12 @@ function settleTwoPhases(rule: SettlingRule & { ws: (b: number) => { settler: im
  */
 export class ContrastiveHebbian extends SettlingRule {
   readonly phases = ["free", "clamped"] as const;
+  declare readonly config: Cfg<"chl"> | Cfg<"xie-seung">;
   private readonly factors: number[];
 
   constructor(net: Network, config: Cfg<"chl"> | Cfg<"xie-seung">) {
     super(net, config);
-    this.factors = net.layers.map(() => 1);
-    if (config.rule === "xie-seung") {
-      let gamma = config.gamma;
-      const tied = net.connections.filter((c) => c.feedback.kind === "tied");
-      if (gamma === undefined) {
-        if (tied.length === 0) fail("invalid_config", `connections[${net.connections.length - 1}].feedback`, "tied feedback (the Xie–Seung network feeds back the transposed weights scaled by gamma)", "no tied feedback path");
-        const gains = new Set(tied.map((c) => (c.feedback.kind === "tied" ? c.feedback.gain : 0)));
-        if (gains.size > 1) fail("invalid_config", "connections", "one feedback gain shared by every tied connection (or rule.gamma given)", [...gains].join(", "));
-        gamma = [...gains][0] as number;
-      }
-      const depth = layerDepths(net);
-      const L = Math.max(...net.outputLayers.map((l) => depth[l.index] as number));
-      net.layers.forEach((l, i) => {
-        const k = depth[i] as number;
-        this.factors[i] = gamma > 0 ? gamma ** (k - L) : k === L ? 1 : 0;
-      });
-    }
+    this.factors = config.rule === "xie-seung" ? xieSeungFactors(net, config) : net.layers.map(() => 1);
   }
 
   /** @internal */
@@ -90,7 +142,7 @@ export class ContrastiveHebbian extends SettlingRule {
 }
 
 /** CHL changes from a free and a clamped snapshot (batch-averaged), with per-layer factors. */
-function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly number[], minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, scratchFor: (layer: number) => FloatArray): ParameterDelta {
+function chlFromSnapshots(net: Network, config: Cfg<"chl"> | Cfg<"xie-seung">, factors: readonly number[], free: Snapshot, clamped: Snapshot, B: number, out: ParameterDelta, scratchFor: (layer: number) => FloatArray): ParameterDelta {
   out.clear();
   for (const c of net.connections) {
     if (c.spec.frozen) continue;
@@ -99,12 +151,12 @@ function chlFromSnapshots(net: Network, config: RuleConfig, factors: readonly nu
     const alpha = (connectionRate(config, c) * (factors[c.to] as number)) / B;
     if (alpha === 0) continue;
     const clampedPre = net.layers[c.from]!.role === "input";
-    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, plus.activity[c.to] as FloatArray, plus.activity[c.from] as FloatArray, minus.activity[c.to] as FloatArray, minus.activity[c.from] as FloatArray, B, n, m, clampedPre, scratchFor(c.to));
+    contrast(net.kernels, out.weights[c.index] as FloatArray, alpha, clamped.activity[c.to] as FloatArray, clamped.activity[c.from] as FloatArray, free.activity[c.to] as FloatArray, free.activity[c.from] as FloatArray, B, n, m, clampedPre, scratchFor(c.to));
     transposeInto(out.feedback[c.index] ?? null, out.weights[c.index] as FloatArray, n, m);
   }
   for (const l of net.layers) {
     if (l.role === "input") continue;
-    contrastBias(out.biases[l.index] as FloatArray, (config.rate * (factors[l.index] as number)) / B, plus.activity[l.index] as FloatArray, minus.activity[l.index] as FloatArray, B, l.size);
+    contrastBias(out.biases[l.index] as FloatArray, (config.rate * (factors[l.index] as number)) / B, clamped.activity[l.index] as FloatArray, free.activity[l.index] as FloatArray, B, l.size);
   }
   return out;
 }
@@ -124,6 +176,7 @@ function transposeInto(dst: FloatArray | null, src: FloatArray, n: number, m: nu
  */
 export class GeneRec extends SettlingRule {
   readonly phases = ["free", "clamped"] as const;
+  declare readonly config: Cfg<"generec">;
   private diff = new Map<number, FloatArray[]>();
   private mid = new Map<number, FloatArray[]>();
 
@@ -161,11 +214,11 @@ export class GeneRec extends SettlingRule {
 }
 
 /** GeneRec changes from snapshots (exported for the arithmetic checks). */
-export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus: Snapshot, plus: Snapshot, B: number, out: ParameterDelta, diff: FloatArray[], mid: FloatArray[]): ParameterDelta {
+export function generecFromSnapshots(net: Network, config: Cfg<"generec">, free: Snapshot, clamped: Snapshot, B: number, out: ParameterDelta, diff: FloatArray[], mid: FloatArray[]): ParameterDelta {
   out.clear();
   for (const l of net.layers) {
-    const a = plus.activity[l.index] as FloatArray;
-    const b = minus.activity[l.index] as FloatArray;
+    const a = clamped.activity[l.index] as FloatArray;
+    const b = free.activity[l.index] as FloatArray;
     const d = diff[l.index] as FloatArray;
     const h = mid[l.index] as FloatArray;
     for (let k = 0; k < d.length; k++) {
@@ -183,27 +236,28 @@ export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus
     const w = out.weights[c.index] as FloatArray;
     const dy = diff[c.to] as FloatArray;
     const dx = diff[c.from] as FloatArray;
-    if (variant === "basic" || variant === "symmetric") gemm(w, dy, minus.activity[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
+    if (variant === "basic" || variant === "symmetric") gemm(w, dy, free.activity[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
     else gemm(w, dy, mid[c.from] as FloatArray, n, m, B, true, false, alpha, 0);
-    if (variant === "symmetric") gemm(w, minus.activity[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
+    if (variant === "symmetric") gemm(w, free.activity[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
     else if (variant === "symmetric-midpoint") gemm(w, mid[c.to] as FloatArray, dx, n, m, B, true, false, alpha, 1);
     transposeInto(out.feedback[c.index] ?? null, w, n, m);
   }
   for (const l of net.layers) {
     if (l.role === "input") continue;
-    contrastBias(out.biases[l.index] as FloatArray, config.rate / B, plus.activity[l.index] as FloatArray, minus.activity[l.index] as FloatArray, B, l.size);
+    contrastBias(out.biases[l.index] as FloatArray, config.rate / B, clamped.activity[l.index] as FloatArray, free.activity[l.index] as FloatArray, B, l.size);
   }
   return out;
 }
 
 /**
  * The sliding-threshold calcium rule: `ΔW_ij = ε · curve(fast coactivity, θ_ij)` with the
- * piecewise-linear calcium curve (after Shouval, Bear & Cooper 2002, PNAS 99:10831) and θ from
- * - `error`: a slower trace of the same coactivity (the expectation), so in the curve's linear
- *   region the change is outcome minus expectation (CHL);
+ * piecewise-linear form of the calcium-control curve (see {@link calciumCurve} for its sources:
+ * Lisman 1989; Artola, Bröcher & Singer 1990; Shouval, Bear & Cooper 2002) and θ from
+ * - `error`: a slower trace of the same coactivity (led by the free state, the prediction), so in
+ *   the curve's linear region the change is clamped minus free (CHL);
  * - `bcm`: the receiving unit's long-term average activity times the sending activity
  *   (self-organising, after Bienenstock, Cooper & Munro 1982, J. Neurosci. 2:32);
- * - `mix`: `mix·θ_error + (1 − mix)·θ_bcm`.
+ * - `blend`: `errorShare·θ_error + (1 − errorShare)·θ_bcm`.
  *
  * With `timing: "phases"` the fast coactivity is the clamped-phase product and the slower one the
  * free-phase product. With `timing: "continuous"` per-unit traces are updated on every settling step of
@@ -215,15 +269,22 @@ export function generecFromSnapshots(net: Network, config: Cfg<"generec">, minus
 export class SlidingThresholdRule extends SettlingRule {
   readonly phases = ["free", "clamped"] as const;
   private readonly cfg: Cfg<"calcium">;
-  /** Long-term average activity per receiving layer (one value per unit), updated once per batch. */
-  readonly averages: FloatArray[];
+  /** Long-term average activity per layer (one trace per unit, time constant `averageTau` in batches), updated once per batch. */
+  readonly averageTraces: VectorTrace[];
+  private readonly means: FloatArray[];
   private scratch = new Map<number, { fastPre: FloatArray[]; slowPre: FloatArray[]; co: FloatArray; th: FloatArray; ch: FloatArray }>();
   private averagesStarted = false;
 
   constructor(net: Network, config: Cfg<"calcium">) {
     super(net, config);
     this.cfg = config;
-    this.averages = net.layers.map((l) => net.allocate(l.size));
+    this.averageTraces = net.layers.map((l) => vectorTrace({ tau: config.averageTau, n: l.size, dtype: net.dtype }));
+    this.means = net.layers.map((l) => new Float64Array(l.size));
+  }
+
+  /** Long-term average activity per layer (live views of {@link SlidingThresholdRule.averageTraces}). */
+  get averages(): FloatArray[] {
+    return this.averageTraces.map((t) => t.value);
   }
 
   /** @internal */
@@ -253,14 +314,13 @@ export class SlidingThresholdRule extends SettlingRule {
   }
 
   override saveState(): RuleState {
-    return { started: this.averagesStarted, averages: this.averages.map((a) => Array.from(a)) };
+    return { started: this.averagesStarted, averages: this.averageTraces.map((t) => Array.from(t.value)) };
   }
 
   override loadState(state: RuleState): void {
-    const avg = state.averages as number[][] | undefined;
-    if (avg === undefined) return;
-    avg.forEach((a, i) => (this.averages[i] as FloatArray).set(a));
-    this.averagesStarted = state.started === true;
+    const s = layerArraysState(this.net, state, "averages", "averages");
+    s.values.forEach((a, i) => (this.averageTraces[i] as VectorTrace).value.set(a));
+    this.averagesStarted = s.started;
   }
 
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
@@ -279,8 +339,8 @@ export class SlidingThresholdRule extends SettlingRule {
       slow = free.activity;
     } else {
       // per-unit traces updated on every settling step across the free then the clamped phase
-      const aFast = 1 - Math.exp(-1 / cfg.fastTau);
-      const aSlow = 1 - Math.exp(-1 / cfg.slowTau);
+      const aFast = smoothingCoefficient(cfg.fastTau);
+      const aSlow = smoothingCoefficient(cfg.slowTau);
       const tf = buf.fastPre;
       const ts = buf.slowPre;
       let first = true;
@@ -296,12 +356,8 @@ export class SlidingThresholdRule extends SettlingRule {
         }
         for (let li = 0; li < net.layers.length; li++) {
           const a = s.activity[li] as FloatArray;
-          const f = tf[li] as FloatArray;
-          const sl = ts[li] as FloatArray;
-          for (let k = 0; k < a.length; k++) {
-            f[k] = (f[k] as number) + aFast * ((a[k] as number) - (f[k] as number));
-            sl[k] = (sl[k] as number) + aSlow * ((a[k] as number) - (sl[k] as number));
-          }
+          stepFilter(tf[li] as FloatArray, 0, a, 0, a.length, aFast);
+          stepFilter(ts[li] as FloatArray, 0, a, 0, a.length, aSlow);
         }
       };
       // fixed phase durations (no early stop), so the traces see a known time course
@@ -315,18 +371,18 @@ export class SlidingThresholdRule extends SettlingRule {
     const { co, th, ch } = buf;
     const useAvg = cfg.threshold !== "error";
     if (useAvg && !this.averagesStarted) {
-      // start the long-term averages at the first batch's expectation
-      for (const l of net.layers) meanRows(this.averages[l.index] as FloatArray, slow[l.index] as FloatArray, B, l.size, 1);
+      // start the long-term averages at the first batch's free-phase (slow) activity
+      for (const l of net.layers) (this.averageTraces[l.index] as VectorTrace).value.set(meanRows(this.means[l.index] as Float64Array, slow[l.index] as FloatArray, B, l.size));
       this.averagesStarted = true;
     }
-    const wErr = cfg.threshold === "error" ? 1 : cfg.threshold === "bcm" ? 0 : cfg.mix;
+    const wErr = cfg.threshold === "error" ? 1 : cfg.threshold === "bcm" ? 0 : cfg.errorShare;
     for (const c of net.connections) {
       if (c.spec.frozen) continue;
       const n = net.layers[c.to]!.size;
       const m = net.layers[c.from]!.size;
       const alpha = connectionRate(cfg, c) / B;
       const w = out.weights[c.index] as FloatArray;
-      const avg = this.averages[c.to] as FloatArray;
+      const avg = (this.averageTraces[c.to] as VectorTrace).value;
       const yF = fast[c.to] as FloatArray;
       const xF = fast[c.from] as FloatArray;
       const yS = slow[c.to] as FloatArray;
@@ -354,7 +410,7 @@ export class SlidingThresholdRule extends SettlingRule {
       if (l.role === "input") continue;
       const n = l.size;
       const b = out.biases[l.index] as FloatArray;
-      const avg = this.averages[l.index] as FloatArray;
+      const avg = (this.averageTraces[l.index] as VectorTrace).value;
       const coV = co.subarray(0, n);
       const thV = th.subarray(0, n);
       const chV = ch.subarray(0, n);
@@ -368,18 +424,120 @@ export class SlidingThresholdRule extends SettlingRule {
       }
     }
     if (useAvg) {
-      const a = 1 - Math.exp(-1 / cfg.averageTau);
-      for (const l of net.layers) meanRows(this.averages[l.index] as FloatArray, slow[l.index] as FloatArray, B, l.size, a);
+      for (const l of net.layers) (this.averageTraces[l.index] as VectorTrace).update(meanRows(this.means[l.index] as Float64Array, slow[l.index] as FloatArray, B, l.size));
     }
     return out;
   }
 }
 
-/** `avg += a (mean over rows of x − avg)`. */
-function meanRows(avg: FloatArray, x: FloatArray, B: number, n: number, a: number): void {
+/** `out[j] =` the mean over the B rows of x (B×n); returns `out`. */
+function meanRows(out: Float64Array, x: FloatArray, B: number, n: number): Float64Array {
   for (let j = 0; j < n; j++) {
     let s = 0;
     for (let p = 0; p < B; p++) s += x[p * n + j] as number;
-    avg[j] = (avg[j] as number) + a * (s / B - (avg[j] as number));
+    out[j] = s / B;
   }
+  return out;
 }
+
+/** Does any trained connection feed back through a learned separate matrix (its change is the transposed forward change)? */
+function learnsSeparateFeedback(net: Network): boolean {
+  return net.connections.some((c) => !c.spec.frozen && c.feedback.kind === "separate" && c.feedback.learned);
+}
+
+/** The phases of CHL and GeneRec: free, then clamped from the free state with its drive carried over. */
+const FREE_CLAMPED: ContrastForm["phases"] = [{ phase: "free" }, { phase: "clamped", reuseDrive: true }];
+
+/** `k · (P_addᵀ Q_add − P_subtractᵀ Q_subtract)` between two phases, or `k · (P_add − P_subtract)ᵀ X` for an input sender. */
+export function phaseContrast(add: number, subtract: number): (k: number, input: boolean) => Product[] {
+  const diff: Combination = [
+    [add, 1],
+    [subtract, -1],
+  ];
+  return (k, input) =>
+    input
+      ? [{ perPattern: k, post: diff, pre: "input" }]
+      : [
+          { perPattern: k, post: [[add, 1]], pre: [[add, 1]] },
+          { perPattern: -k, post: [[subtract, 1]], pre: [[subtract, 1]] },
+        ];
+}
+
+/** CHL (and Xie–Seung) as a contrast form: phase 0 free, phase 1 clamped. */
+function chlForm(layerFactors?: readonly number[]): ContrastForm {
+  return { phases: FREE_CLAMPED, products: phaseContrast(1, 0), scale: 1, bias: { add: 1, subtract: 0 }, layerFactors };
+}
+
+/** Contrastive Hebbian learning. @category Rules */
+export const chlRule = defineRule({
+  name: "chl",
+  summary: "contrastive Hebbian learning, ε(y⁺x⁺ᵀ − y⁻x⁻ᵀ) between the clamped and free states (Movellan 1990)",
+  schema: chlSchema,
+  phases: () => ["free", "clamped"],
+  label: (c) => c.rule,
+  readout: "settle",
+  split: () => "rows",
+  contrast: (_c, net) => (learnsSeparateFeedback(net) ? null : chlForm()),
+  create: (net, c) => new ContrastiveHebbian(net, c),
+});
+
+/** CHL with the Xie–Seung per-layer rates. @category Rules */
+export const xieSeungRule = defineRule({
+  name: "xie-seung",
+  summary: "CHL with the rate of a layer at depth k scaled by γ^(k−L), equal to backprop as γ → 0 (Xie & Seung 2003)",
+  schema: xieSeungSchema,
+  phases: () => ["free", "clamped"],
+  label: (c) => c.rule,
+  readout: "settle",
+  split: () => "rows",
+  contrast: (c, net) => (learnsSeparateFeedback(net) ? null : chlForm(xieSeungFactors(net, c))),
+  create: (net, c) => new ContrastiveHebbian(net, c),
+});
+
+/** GeneRec in its four variants. @category Rules */
+export const generecRule = defineRule({
+  name: "generec",
+  summary: "GeneRec: ε x⁻(y⁺ − y⁻) and its symmetric and midpoint variants (O'Reilly 1996)",
+  schema: generecSchema,
+  phases: () => ["free", "clamped"],
+  label: (c) => `${c.rule} (${c.variant})`,
+  readout: "settle",
+  split: () => "rows",
+  contrast: (c, net) => {
+    if (learnsSeparateFeedback(net)) return null;
+    // x sending, y receiving, - free (phase 0), + clamped (phase 1)
+    const diff: Combination = [
+      [1, 1],
+      [0, -1],
+    ];
+    const free: Combination = [[0, 1]];
+    const mid: Combination = [
+      [1, 0.5],
+      [0, 0.5],
+    ];
+    const v = c.variant;
+    const products = (k: number, input: boolean): Product[] => {
+      const out: Product[] = [{ perPattern: k, post: diff, pre: input ? "input" : v === "basic" || v === "symmetric" ? free : mid }];
+      // the second products carry x+ - x-, which is zero for a clamped input layer
+      if (!input && v === "symmetric") out.push({ perPattern: k, post: free, pre: diff });
+      if (!input && v === "symmetric-midpoint") out.push({ perPattern: k, post: mid, pre: diff });
+      return out;
+    };
+    return { phases: FREE_CLAMPED, products, scale: 1, bias: { add: 1, subtract: 0 } };
+  },
+  create: (net, c) => new GeneRec(net, c),
+});
+
+/** The sliding-threshold calcium rule. @category Rules */
+export const calciumRule = defineRule({
+  name: "calcium",
+  summary: "sliding-threshold calcium rule: ε·curve(fast coactivity, θ), a piecewise-linear form of the calcium-control curve (Lisman 1989; Artola, Bröcher & Singer 1990; Shouval, Bear & Cooper 2002); θ from a slower trace (error), a long postsynaptic average (bcm, after Bienenstock, Cooper & Munro 1982) or a blend of the two",
+  schema: calciumSchema,
+  phases: () => ["free", "clamped"],
+  label: (c) => c.rule,
+  readout: "settle",
+  // the long-term averages of the bcm and blend thresholds change from batch to batch
+  split: (c) => (c.threshold === "error" ? "slices" : "none"),
+  state: layerArraysSchema("averages"),
+  create: (net, c) => new SlidingThresholdRule(net, c),
+});

@@ -2,16 +2,36 @@
  * Equilibrium Propagation on energy dynamics.
  * @module
  */
+import { z } from "zod";
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
-import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
+import { createRandom, RandomStream, randomStreamStateSchema, type RandomStreamState } from "../random/index.js";
 import { ParameterDelta, addBiases, applyDelta } from "./delta.js";
 import { SettlingRule, addContrastInPlace, batchSizeOf, connectionRate, contrast, contrastBias, type Batch, type ContrastTerm, type RuleState } from "./base.js";
-import type { RuleConfig } from "./config.js";
+import { commonRuleFields, defineRule } from "./descriptor.js";
+import type { ContrastForm, PhaseStep } from "./contrast-form.js";
+import { phaseContrast } from "./contrastive.js";
 import type { Snapshot } from "../network/settle.js";
 
-type Cfg = Extract<RuleConfig, { rule: "eqprop" }>;
+const steps = z.number().int({ error: "an integer >= 1" }).min(1, { error: "an integer >= 1" });
+const eqpropSchema = z
+  .object({
+    rule: z.literal("eqprop"),
+    beta: z.number({ error: "a non-zero nudging strength beta" }).refine((v) => Number.isFinite(v) && v !== 0, { error: "a non-zero nudging strength beta" }),
+    mode: z.enum(["one-sided", "random-sign", "symmetric"], { error: "one of one-sided, random-sign, symmetric" }).default("one-sided"),
+    // settling steps of the free and nudged phases (default: the network's dynamics.maxSteps); the
+    // authors settle fewer nudged than free steps, e.g. 20 and 4 (Scellier & Bengio 2017, from memory)
+    freeSteps: steps.optional(),
+    nudgedSteps: steps.optional(),
+    ...commonRuleFields,
+  })
+  .strict();
+
+type Cfg = z.output<typeof eqpropSchema>;
+
+/** Saved state of the rule: the random stream of the nudging signs. */
+const eqpropState = z.object({ signs: randomStreamStateSchema }).strict();
 
 /**
  * Equilibrium Propagation: `ΔW = (ε/β)(ρ(u^β)_post ρ(u^β)_preᵀ − ρ(u⁰)_post ρ(u⁰)_preᵀ)`, biases alike,
@@ -125,3 +145,31 @@ export class EquilibriumPropagation extends SettlingRule {
     return this.biasBuffers;
   }
 }
+
+/** The phases Equilibrium Propagation settles, with the settling options it passes (shared with the row split). */
+function eqpropPhases(c: Cfg): PhaseStep[] {
+  const free: PhaseStep = { phase: "free", maxSteps: c.freeSteps };
+  const nudged = (b: number): PhaseStep => ({ phase: "nudged", beta: b, maxSteps: c.nudgedSteps, reuseDrive: true });
+  return c.mode === "symmetric" ? [free, nudged(c.beta), nudged(-c.beta)] : [free, nudged(c.beta)];
+}
+
+/** Equilibrium Propagation. @category Rules */
+export const eqpropRule = defineRule({
+  name: "eqprop",
+  summary: "Equilibrium Propagation, (ε/β)(ρρᵀ nudged − ρρᵀ free), one-sided, random-sign or symmetric (Scellier & Bengio 2017; Laborieux et al. 2021)",
+  schema: eqpropSchema,
+  phases: (c) => (c.mode === "symmetric" ? ["free", "nudged +β", "nudged −β"] : ["free", "nudged"]),
+  label: (c) => `${c.rule} (${c.mode})`,
+  readout: "settle",
+  // random-sign draws the sign of β from a stream that advances every batch
+  split: (c) => (c.mode === "random-sign" ? "none" : "rows"),
+  contrast: (c): ContrastForm | null => {
+    if (c.mode === "random-sign") return null;
+    const symmetric = c.mode === "symmetric";
+    // symmetric: (ε/2β)(ρρ^{+β} − ρρ^{−β}) from phases 1 and 2; one-sided: (ε/β)(ρρ^{β} − ρρ^{0}) from phases 1 and 0
+    const subtract = symmetric ? 2 : 0;
+    return { phases: eqpropPhases(c), products: phaseContrast(1, subtract), scale: symmetric ? 1 / (2 * c.beta) : 1 / c.beta, bias: { add: 1, subtract } };
+  },
+  state: eqpropState,
+  create: (net, c) => new EquilibriumPropagation(net, c),
+});

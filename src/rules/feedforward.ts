@@ -3,14 +3,31 @@
  * reference; feedback alignment; direct feedback alignment.
  * @module
  */
+import { z } from "zod";
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import { fillUnit } from "../kernels/wasm/units.js";
+import { fillUnit } from "../kernels/units.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta } from "./delta.js";
-import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
-import type { RuleConfig } from "./config.js";
+import { batchSizeOf, checkedLayerValues, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
+import { commonRuleFields, defineRule, type RuleConfigBase } from "./descriptor.js";
+
+const backpropSchema = z.object({ rule: z.literal("backprop"), ...commonRuleFields }).strict();
+const feedbackAlignmentSchema = z.object({ rule: z.literal("feedback-alignment"), ...commonRuleFields }).strict();
+const directFeedbackAlignmentSchema = z
+  .object({
+    rule: z.literal("direct-feedback-alignment"),
+    scale: z.number({ error: "a feedback scale > 0" }).refine((v) => Number.isFinite(v) && v > 0, { error: "a feedback scale > 0" }).default(1),
+    ...commonRuleFields,
+  })
+  .strict();
+/** The config of a rule on the feedforward pass (backprop, feedback alignment, direct feedback alignment). @category Rules */
+export interface FeedforwardConfig extends RuleConfigBase {
+  readonly rule: "backprop" | "feedback-alignment" | "direct-feedback-alignment";
+  /** Direct feedback alignment: scale of the fixed random feedback matrices. */
+  readonly scale?: number | undefined;
+}
 import type { Snapshot } from "../network/settle.js";
 
 /** Layers in an order where every forward connection goes from an earlier to a later layer. @category Rules */
@@ -61,8 +78,7 @@ export function runForward(net: Network, order: readonly number[], batch: Batch,
     const l = net.layers[i]!;
     const x = pass.activity[i] as FloatArray;
     if (l.role === "input") {
-      const v = batch.inputs[l.name];
-      if (v === undefined || v.length !== B * l.size) fail("shape_mismatch", `inputs.${l.name}`, `${B * l.size} values`, v === undefined ? "missing" : `${v.length} values`);
+      const v = checkedLayerValues(batch.inputs, l.name, B * l.size, "inputs");
       for (let k = 0; k < x.length; k++) x[k] = v[k] as number;
       continue;
     }
@@ -77,9 +93,8 @@ export function runForward(net: Network, order: readonly number[], batch: Batch,
 /** Writes into the output layers' `delta` the error `(y − t) ⊙ f'(a)` (squared error ½‖y − t‖²). */
 function outputError(net: Network, batch: Batch, pass: ForwardPass): void {
   for (const l of net.outputLayers) {
-    const t = batch.targets?.[l.name];
     const n = pass.batch * l.size;
-    if (t === undefined || t.length !== n) fail("shape_mismatch", `targets.${l.name}`, `${n} values`, t === undefined ? "missing" : `${t.length} values`);
+    const t = checkedLayerValues(batch.targets, l.name, n, "targets");
     const d = pass.delta[l.index] as FloatArray;
     const y = pass.activity[l.index] as FloatArray;
     const s = pass.slope[l.index] as FloatArray;
@@ -98,7 +113,7 @@ type Carrier = "transpose" | "feedback" | "direct";
  * 2016, Nat. Commun. 7:13276); `direct` sends the
  * output error through a fixed matrix per hidden layer (Nøkland 2016, NIPS 29).
  */
-function backward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass, carrier: Carrier, direct: readonly (FloatArray | null)[], random: readonly (FloatArray | null)[], config: RuleConfig | null, out: ParameterDelta): void {
+function backward(net: Network, order: readonly number[], batch: Batch, pass: ForwardPass, carrier: Carrier, direct: readonly (FloatArray | null)[], random: readonly (FloatArray | null)[], config: RuleConfigBase | null, out: ParameterDelta): void {
   const B = pass.batch;
   const gemm = net.kernels.gemm;
   outputError(net, batch, pass);
@@ -172,7 +187,7 @@ export function feedforwardGradient(net: Network, batch: Batch, out?: ParameterD
  */
 export class FeedforwardRule implements LearningRule {
   readonly phases = ["forward", "backward"] as const;
-  readonly config: RuleConfig;
+  readonly config: FeedforwardConfig;
   readonly net: Network;
   readonly lastFree: Snapshot | null = null;
   freeStart: Snapshot | null = null;
@@ -193,7 +208,7 @@ export class FeedforwardRule implements LearningRule {
   private passes = new Map<number, ForwardPass>();
   private delta: ParameterDelta | null = null;
 
-  constructor(net: Network, config: Extract<RuleConfig, { rule: "backprop" | "feedback-alignment" | "direct-feedback-alignment" }>) {
+  constructor(net: Network, config: FeedforwardConfig) {
     this.net = net;
     this.config = config;
     checkRates(net, config);
@@ -203,7 +218,7 @@ export class FeedforwardRule implements LearningRule {
     const root = createRandom(net.spec.seed);
     this.direct = net.layers.map((l) => {
       if (this.carrier !== "direct" || l.role !== "hidden") return null;
-      const scale = config.rule === "direct-feedback-alignment" ? config.scale : 1;
+      const scale = config.rule === "direct-feedback-alignment" ? (config.scale ?? 1) : 1;
       return fillNormal(net.allocate(l.size * total), root.child(`direct-feedback/${l.name}`), 0, scale / Math.sqrt(total));
     });
     // feedback alignment: each connection's own separate feedback matrix, or else a fixed random one of the rule's
@@ -237,3 +252,30 @@ export class FeedforwardRule implements LearningRule {
     computeAndApply(this, this.delta, batch, scale);
   }
 }
+
+/** The descriptor of a rule on the feedforward pass: stateless, read out on the pass, split by slices. */
+function feedforwardDescriptor<C extends FeedforwardConfig>(name: C["rule"], summary: string, schema: z.ZodType<C, unknown>) {
+  return defineRule<C>({
+    name,
+    summary,
+    schema,
+    phases: () => ["forward", "backward"],
+    label: (c) => c.rule,
+    readout: "forward",
+    split: () => "slices",
+    create: (net, c) => new FeedforwardRule(net, c),
+  });
+}
+
+/** Backprop on the feedforward pass (the reference). @category Rules */
+export const backpropRule = feedforwardDescriptor("backprop", "backprop on the feedforward pass, −ε ∂J/∂W (Rumelhart, Hinton & Williams 1986)", backpropSchema);
+
+/** Feedback alignment. @category Rules */
+export const feedbackAlignmentRule = feedforwardDescriptor("feedback-alignment", "feedback alignment: backprop's error carried by fixed random feedback matrices (Lillicrap et al. 2016)", feedbackAlignmentSchema);
+
+/** Direct feedback alignment. @category Rules */
+export const directFeedbackAlignmentRule = feedforwardDescriptor(
+  "direct-feedback-alignment",
+  "direct feedback alignment: the output error sent to every hidden layer through a fixed random matrix (Nøkland 2016)",
+  directFeedbackAlignmentSchema,
+);

@@ -4,26 +4,26 @@
  */
 import type { Network } from "../network/network.js";
 import type { LearningRule } from "./base.js";
-import { parseRule, type RuleConfigInput } from "./config.js";
-import { ContrastiveHebbian, GeneRec, SlidingThresholdRule } from "./contrastive.js";
-import { EquilibriumPropagation } from "./eqprop.js";
-import { FeedforwardRule } from "./feedforward.js";
-import { BcmRule } from "./bcm.js";
-import { PredictiveCoding } from "./predictive.js";
+import { builtinRegistry, type Registry } from "./registry.js";
 
 export * from "./config.js";
+export * from "./names.js";
 export * from "./delta.js";
 export * from "./base.js";
-export { ContrastiveHebbian, GeneRec, SlidingThresholdRule, generecFromSnapshots, layerDepths } from "./contrastive.js";
-export { EquilibriumPropagation } from "./eqprop.js";
-export { FeedforwardRule, feedforwardGradient, forwardOrder, createForwardPass, runForward, type ForwardPass } from "./feedforward.js";
-export { BcmRule } from "./bcm.js";
-export { PredictiveCoding } from "./predictive.js";
+export * from "./descriptor.js";
+export * from "./registry.js";
+export * from "./contrast-form.js";
+export { ContrastiveHebbian, GeneRec, SlidingThresholdRule, generecFromSnapshots, layerDepths, xieSeungFactors, phaseContrast, chlRule, xieSeungRule, generecRule, calciumRule } from "./contrastive.js";
+export { EquilibriumPropagation, eqpropRule } from "./eqprop.js";
+export { FeedforwardRule, feedforwardGradient, forwardOrder, createForwardPass, runForward, type ForwardPass, type FeedforwardConfig, backpropRule, feedbackAlignmentRule, directFeedbackAlignmentRule } from "./feedforward.js";
+export { BcmRule, bcmRule } from "./bcm.js";
+export { PredictiveCoding, predictiveCodingRule } from "./predictive.js";
 
 /**
  * Builds the learning rule a config names, bound to `net`. One network trains under any rule by
- * changing only this config.
- * @throws {@link EbbflowError} `invalid_config` (path under `rule`, or the network path a rule needs).
+ * changing only this config; rules of your own are found in `registry` (default: the built-ins).
+ * @throws {@link EbbflowError} `invalid_config` (path under `rule`, or the network path a rule needs);
+ *   `unknown_name` for a rule that is not registered.
  * @category Rules
  * @example
  * ```ts
@@ -31,25 +31,6 @@ export { PredictiveCoding } from "./predictive.js";
  * rule.step({ inputs: { in: xs }, targets: { out: ts } });
  * ```
  */
-export function createRule(net: Network, config: RuleConfigInput): LearningRule {
-  const c = parseRule(config);
-  switch (c.rule) {
-    case "chl":
-    case "xie-seung":
-      return new ContrastiveHebbian(net, c);
-    case "generec":
-      return new GeneRec(net, c);
-    case "eqprop":
-      return new EquilibriumPropagation(net, c);
-    case "calcium":
-      return new SlidingThresholdRule(net, c);
-    case "bcm":
-      return new BcmRule(net, c);
-    case "backprop":
-    case "feedback-alignment":
-    case "direct-feedback-alignment":
-      return new FeedforwardRule(net, c);
-    case "predictive-coding":
-      return new PredictiveCoding(net, c);
-  }
+export function createRule(net: Network, config: unknown, registry: Registry = builtinRegistry): LearningRule {
+  return registry.createRule(net, config);
 }

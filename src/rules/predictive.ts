@@ -2,16 +2,29 @@
  * Predictive coding (Whittington & Bogacz 2017) on the layered structure of a network.
  * @module
  */
+import { z } from "zod";
 import { fail, EbbflowError, issueText } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import type { Snapshot } from "../network/settle.js";
 import { ParameterDelta } from "./delta.js";
-import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
+import { batchSizeOf, checkedLayerValues, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "./feedforward.js";
-import type { RuleConfig } from "./config.js";
+import { commonRuleFields, defineRule } from "./descriptor.js";
 
-type Cfg = Extract<RuleConfig, { rule: "predictive-coding" }>;
+const positive = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
+const predictiveSchema = z
+  .object({
+    rule: z.literal("predictive-coding"),
+    outputVariance: positive("an output variance > 0").default(1),
+    dt: positive("an inference step > 0").default(0.1),
+    maxSteps: z.number().int().min(1, { error: "an integer >= 1" }).default(2000),
+    tolerance: positive("a tolerance > 0").default(1e-10),
+    ...commonRuleFields,
+  })
+  .strict();
+
+type Cfg = z.output<typeof predictiveSchema>;
 
 /**
  * Predictive coding: value nodes v_l hold each non-input layer's net input, predictions
@@ -75,8 +88,7 @@ export class PredictiveCoding implements LearningRule {
       const v = w.value[l.index] as FloatArray;
       if (l.role === "input") v.set(w.pass.activity[l.index] as FloatArray);
       else if (l.role === "output") {
-        const t = batch.targets?.[l.name];
-        if (t === undefined || t.length !== v.length) fail("shape_mismatch", `targets.${l.name}`, `${v.length} values`, t === undefined ? "missing" : `${t.length} values`);
+        const t = checkedLayerValues(batch.targets, l.name, v.length, "targets");
         for (let k = 0; k < v.length; k++) v[k] = t[k] as number;
       } else v.set(w.pass.netInput[l.index] as FloatArray);
     }
@@ -143,3 +155,15 @@ export class PredictiveCoding implements LearningRule {
     computeAndApply(this, this.delta, batch, scale);
   }
 }
+
+/** Predictive coding. @category Rules */
+export const predictiveCodingRule = defineRule({
+  name: "predictive-coding",
+  summary: "predictive coding: inference on prediction errors, then ε Σ_out ε_post f(v_pre)ᵀ (Whittington & Bogacz 2017)",
+  schema: predictiveSchema,
+  phases: () => ["inference"],
+  label: (c) => c.rule,
+  readout: "forward",
+  split: () => "slices",
+  create: (net, c) => new PredictiveCoding(net, c),
+});

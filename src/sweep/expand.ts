@@ -5,10 +5,10 @@
  * id (key order in the files does not matter) and a sweep can be resumed without doing a run twice.
  * @module
  */
-import { EbbflowError, describeValue, issueText, type Issue } from "../errors/index.js";
+import { EbbflowError, describeValue, formatPath, issueText, type Issue } from "../errors/index.js";
 import { parseExperiment, type Experiment } from "../config/experiment.js";
-import { formatPath, type NetworkSpec } from "../network/spec.js";
-import type { RuleConfig } from "../rules/config.js";
+import type { NetworkSpec } from "../network/spec.js";
+import { builtinRegistry, type AnyRuleConfig, type Registry } from "../rules/registry.js";
 import { parseTraining, type TrainingOptions } from "../train/loop.js";
 import { createRandom } from "../random/index.js";
 import { requireRuns } from "../limits/index.js";
@@ -22,7 +22,7 @@ export type RunData = NonNullable<Experiment["data"]>;
 /** Everything that determines one run's results, apart from its seed: network, rule, training options and data. @category Sweeps */
 export interface RunConfig {
   readonly network: NetworkSpec;
-  readonly rule: RuleConfig;
+  readonly rule: AnyRuleConfig;
   readonly training: TrainingOptions;
   readonly data: RunData;
 }
@@ -81,6 +81,11 @@ export interface SweepPlan {
   readonly duplicates: number;
   /** Folder that relative data paths are resolved against (set by the file loader; not part of any id). */
   readonly baseDir?: string | undefined;
+  /**
+   * Modules defining the rules of the user's own that the runs use (resolved addresses, set by the file
+   * loader from the base experiment's `plugins`; not part of any id): every run imports them first.
+   */
+  readonly plugins?: readonly string[] | undefined;
 }
 
 /**
@@ -112,15 +117,15 @@ export function configurationIdOf(config: RunConfig): string {
  * @returns The resolved config, or every problem found.
  * @category Sweeps
  */
-export function safeParseRunConfig(input: unknown): { readonly ok: true; readonly value: RunConfig } | { readonly ok: false; readonly issues: readonly Issue[] } {
+export function safeParseRunConfig(input: unknown, registry: Registry = builtinRegistry): { readonly ok: true; readonly value: RunConfig } | { readonly ok: false; readonly issues: readonly Issue[] } {
   const o = (input ?? {}) as Record<string, unknown>;
   try {
-    const e = parseExperiment({ network: o.network, rules: [o.rule], training: o.training, data: o.data });
+    const e = parseExperiment({ network: o.network, rules: [o.rule], training: o.training, data: o.data }, registry);
     const problems: Issue[] = [];
     if (e.training === undefined) problems.push(issueText("invalid_config", "training", "training options with epochs", describeValue(o.training)));
     if (e.data === undefined) problems.push(issueText("invalid_config", "data", "a data section with a source", describeValue(o.data)));
     if (problems.length > 0 || e.training === undefined || e.data === undefined) return { ok: false, issues: problems };
-    return { ok: true, value: { network: e.network, rule: e.rules[0] as RuleConfig, training: e.training, data: e.data } };
+    return { ok: true, value: { network: e.network, rule: e.rules[0] as AnyRuleConfig, training: e.training, data: e.data } };
   } catch (err) {
     if (!(err instanceof EbbflowError)) throw err;
     return { ok: false, issues: err.issues.map((i) => ({ ...i, path: i.path.replace(/^rules\[0\]/, "rule") })) };
@@ -141,7 +146,7 @@ export function runConfigTemplate(experiment: Experiment, where = "base"): RunCo
   if (experiment.rules.length === 0) problems.push(issueText("invalid_config", `${where}.rules`, "at least one rule (the sweep's runs use the first)", "none"));
   if (experiment.data === undefined) problems.push(issueText("invalid_config", `${where}.data`, "a data section with a source (touch-strip, xor, iris, digits:N or a file)", "none"));
   if (problems.length > 0 || experiment.data === undefined) throw new EbbflowError(problems);
-  return { network: experiment.network, rule: experiment.rules[0] as RuleConfig, training: experiment.training ?? parseTraining({ epochs: 100 }), data: experiment.data };
+  return { network: experiment.network, rule: experiment.rules[0] as AnyRuleConfig, training: experiment.training ?? parseTraining({ epochs: 100 }), data: experiment.data };
 }
 
 /** A dimension of the sweep: a config path with its grid values or its distribution. */
@@ -177,7 +182,8 @@ function drawValue(seed: number | string, d: number, path: string, spec: DrawSpe
 }
 
 function clone<T>(v: T): T {
-  return JSON.parse(JSON.stringify(v)) as T;
+  // undefined (a value only code can give, no file) has no JSON text: kept as it is
+  return v === undefined ? v : (JSON.parse(JSON.stringify(v)) as T);
 }
 
 /**
@@ -191,7 +197,8 @@ function clone<T>(v: T): T {
  * once.
  * @param sweepInput - The sweep file (parsed JSON or the output of {@link parseSweepFile}).
  * @param base - The base experiment as data (the inline `base`, or the parsed file it names).
- * @param options - `where`: how to name the base in errors (default `base`); `name`: fallback sweep name.
+ * @param options - `where`: how to name the base in errors (default `base`); `name`: fallback sweep name;
+ *   `registry`: where the rules are looked up (default: the built-ins; load the base's `plugins` first).
  * @returns The plan.
  * @throws {@link EbbflowError} `invalid_config` listing every problem.
  * @category Sweeps
@@ -201,12 +208,13 @@ function clone<T>(v: T): T {
  * plan.runs.length; // 4
  * ```
  */
-export function expandSweep(sweepInput: unknown, base: unknown, options: { where?: string | undefined; name?: string | undefined } = {}): SweepPlan {
+export function expandSweep(sweepInput: unknown, base: unknown, options: { where?: string | undefined; name?: string | undefined; registry?: Registry | undefined } = {}): SweepPlan {
+  const registry = options.registry ?? builtinRegistry;
   const sweep: SweepFile = parseSweepFile(sweepInput);
   const where = options.where ?? "base";
   let experiment: Experiment;
   try {
-    experiment = parseExperiment(base);
+    experiment = parseExperiment(base, registry);
   } catch (e) {
     if (e instanceof EbbflowError) throw new EbbflowError(e.issues.map((i) => ({ ...i, path: i.path === "" ? where : `${where}.${i.path}` })));
     throw e;
@@ -301,7 +309,7 @@ export function expandSweep(sweepInput: unknown, base: unknown, options: { where
   points.forEach((point, pi) => {
     const config = clone(template) as unknown;
     for (const { dim, assignment } of point) setPath(config, dim.segments, clone(assignment.value));
-    const r = safeParseRunConfig(config);
+    const r = safeParseRunConfig(config, registry);
     if (!r.ok) {
       for (const i of r.issues) {
         let blamed: (typeof point)[number] | undefined;
@@ -313,7 +321,7 @@ export function expandSweep(sweepInput: unknown, base: unknown, options: { where
         blamed ??= point.find((a) => {
           const alone = clone(template) as unknown;
           setPath(alone, a.dim.segments, clone(a.assignment.value));
-          const r1 = safeParseRunConfig(alone);
+          const r1 = safeParseRunConfig(alone, registry);
           return !r1.ok && r1.issues.some((j) => j.path === i.path && j.expected === i.expected);
         });
         if (blamed !== undefined && blamed.dim.added && i.path === formatPath(blamed.dim.segments) && i.expected.includes("unknown key")) {

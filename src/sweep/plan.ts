@@ -5,10 +5,11 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, describeValue, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
-import { formatPath } from "../network/spec.js";
+import { EbbflowError, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
+import { savedDataIssues } from "../errors/saved.js";
 import { runIdOf, safeParseRunConfig, SWEEP_PLAN_FORMAT, type SweepPlan } from "./expand.js";
 import { sweepSeedSchema } from "./schema.js";
+import { builtinRegistry, type Registry } from "../rules/registry.js";
 
 const id = z.string({ error: "a 16-digit hexadecimal id" }).regex(/^[0-9a-f]{16}$/, { error: "a 16-digit hexadecimal id" });
 const index = z.number({ error: "an integer >= 0" }).int({ error: "an integer >= 0" }).min(0, { error: "an integer >= 0" });
@@ -34,43 +35,33 @@ const planSchema = z
     runs: z.array(z.object({ index, id, configuration: id, label: z.string(), seed: sweepSeedSchema, config: z.record(z.string(), z.unknown()) }).strict()),
     duplicates: index,
     baseDir: z.string().optional(),
+    plugins: z.array(z.string().min(1)).optional(),
   })
   .strict();
-
-function valueAt(root: unknown, path: readonly PropertyKey[]): unknown {
-  let v = root;
-  for (const k of path) v = v !== null && typeof v === "object" ? (v as Record<PropertyKey, unknown>)[k] : undefined;
-  return v;
-}
 
 /**
  * Validates a saved sweep plan.
  * @param data - The parsed `runs.json`.
  * @param where - The file's name, put before every error path.
+ * @param registry - Where the runs' rules are looked up (load the plan's `plugins` first; default: the built-ins).
  * @returns The plan.
  * @throws {@link EbbflowError} `parse_error` naming the field (e.g. `runs.json: runs[3].id`).
  * @category Sweeps
  */
-export function parseSweepPlan(data: unknown, where: string): SweepPlan {
+export function parseSweepPlan(data: unknown, where: string, registry: Registry = builtinRegistry): SweepPlan {
   const named = (issues: readonly Issue[]) => new EbbflowError(issues.slice(0, 100).map((i) => ({ ...i, code: "parse_error" as const, path: `${where}: ${i.path}` })));
   const shape = inputShapeIssues(data);
   if (shape.length > 0) throw named(shape);
   const r = planSchema.safeParse(data);
   if (!r.success) {
-    throw named(
-      r.error.issues.slice(0, 20).map((zi) =>
-        zi.code === "unrecognized_keys"
-          ? issueText("parse_error", formatPath([...zi.path, zi.keys[0] ?? ""]), "no such field (unknown key)", zi.keys.join(", "))
-          : issueText("parse_error", formatPath(zi.path) || "(root)", zi.message.replace(/^Invalid input: expected /, "").replace(/, received \w+$/, ""), describeValue(valueAt(data, zi.path))),
-      ),
-    );
+    throw named(savedDataIssues(r.error.issues, data));
   }
   const problems: Issue[] = [];
   const p = r.data;
   p.runs.forEach((run, i) => {
     if (problems.length >= 20) return;
     if (run.index !== i) problems.push(issueText("parse_error", `runs[${i}].index`, `${i} (its position)`, String(run.index)));
-    const c = safeParseRunConfig(run.config);
+    const c = safeParseRunConfig(run.config, registry);
     if (!c.ok) {
       problems.push(...c.issues.slice(0, 5).map((x) => ({ ...x, path: `runs[${i}].config.${x.path}` })));
       return;

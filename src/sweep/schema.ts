@@ -14,7 +14,7 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, capIssues, describeValue, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
+import { EbbflowError, capIssues, describeValue, inputShapeIssues, issueText, valueAt, type Issue } from "../errors/index.js";
 import { experimentSchema } from "../config/experiment.js";
 import { canonicalJson } from "./hash.js";
 import { requireRuns } from "../limits/index.js";
@@ -104,15 +104,6 @@ export function formatSweepPath(path: readonly PropertyKey[]): string {
     else out += out === "" ? String(key) : `.${String(key)}`;
   }
   return out;
-}
-
-function valueAt(root: unknown, path: readonly PropertyKey[]): unknown {
-  let v: unknown = root;
-  for (const key of path) {
-    if (v === null || typeof v !== "object") return undefined;
-    v = (v as Record<PropertyKey, unknown>)[key];
-  }
-  return v;
 }
 
 function issuesOf(error: z.ZodError, input: unknown): Issue[] {

@@ -11,7 +11,7 @@ import type { Network } from "../network/network.js";
 import { Settler, Snapshot } from "../network/settle.js";
 import { issuesFromZod } from "../network/spec.js";
 import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
-import { createRule, type LearningRule, type RuleConfigInput, type RuleState } from "../rules/index.js";
+import { builtinRegistry, type AnyRuleDescriptor, type LearningRule, type Registry, type RuleConfigInput, type RuleState } from "../rules/index.js";
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "../rules/feedforward.js";
 import type { Dataset } from "./data/index.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
@@ -93,7 +93,21 @@ export interface TrainerHooks {
   readonly onBatch?: ((info: { epoch: number; batch: number; batches: number; size: number }) => void) | undefined;
 }
 
-const FEEDFORWARD = new Set(["backprop", "feedback-alignment", "direct-feedback-alignment", "predictive-coding"]);
+/** Is `x` a rule instance (rather than a config)? */
+function isRuleInstance(x: unknown): x is LearningRule {
+  return typeof x === "object" && x !== null && typeof (x as LearningRule).computeDelta === "function" && typeof (x as LearningRule).step === "function";
+}
+
+/** Extras of a {@link Trainer}. @category Training */
+export interface TrainerExtras {
+  /** Held-out data, evaluated after every epoch. */
+  readonly test?: Dataset | undefined;
+  /** Seed of the shuffling stream (default: the network's seed). */
+  readonly seed?: number | string | undefined;
+  readonly hooks?: TrainerHooks | undefined;
+  /** Where rules are looked up by name (default: the built-in rules); add your own with `Registry.with`. */
+  readonly registry?: Registry | undefined;
+}
 
 /**
  * Trains a network with a rule on a data set.
@@ -111,6 +125,10 @@ export class Trainer {
   readonly train: Dataset;
   readonly test: Dataset | undefined;
   readonly hooks: TrainerHooks;
+  /** Where rules are looked up by name. */
+  readonly registry: Registry;
+  /** The rule's descriptor (null for an instance of a rule that is not registered). */
+  readonly descriptor: AnyRuleDescriptor | null;
   /** Completed epochs. */
   epoch = 0;
   readonly history: EpochRecord[] = [];
@@ -127,10 +145,15 @@ export class Trainer {
   private evalPasses = new Map<number, ForwardPass>();
   private starts = new Map<number, Snapshot>();
 
-  constructor(net: Network, rule: RuleConfigInput, train: Dataset, options: TrainingOptionsInput, extras: { test?: Dataset | undefined; seed?: number | string | undefined; hooks?: TrainerHooks | undefined } = {}) {
+  constructor(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>> | LearningRule, train: Dataset, options: TrainingOptionsInput, extras: TrainerExtras = {}) {
     this.net = net;
     this.options = parseTraining(options);
-    this.rule = createRule(net, rule);
+    this.registry = extras.registry ?? builtinRegistry;
+    if (isRuleInstance(rule)) {
+      if (rule.net !== net) fail("invalid_config", "rule", "a rule bound to the network being trained", "a rule bound to another network");
+      this.rule = rule;
+    } else this.rule = this.registry.createRule(net, rule);
+    this.descriptor = this.registry.rules.get(this.rule.config.rule) ?? null;
     this.train = train;
     this.test = extras.test;
     this.hooks = extras.hooks ?? {};
@@ -152,10 +175,15 @@ export class Trainer {
     if (problems.length > 0) throw new EbbflowError(problems);
     if (this.options.earlyStopping?.split === "test" && this.test === undefined) fail("invalid_config", "training.earlyStopping.split", '"train" (no test set was given)', "test");
     this.shuffleStream = createRandom(extras.seed ?? net.spec.seed).child("train/shuffle");
-    this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && FEEDFORWARD.has(this.rule.config.rule));
+    this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && this.descriptor?.readout === "forward");
     this.order = this.forward ? forwardOrder(net) : [];
     if (this.options.persistentStates) requireBytes("training.persistentStates", `persistent states of ${train.size} examples`, train.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
+  }
+
+  /** The rule's name as reports and results show it (its descriptor's label). */
+  get ruleLabel(): string {
+    return this.descriptor?.label(this.rule.config) ?? this.rule.config.rule;
   }
 
   /** Evaluates the network (free phase, or the feedforward pass) on a data set. */
@@ -326,7 +354,8 @@ export class Trainer {
     const problems = trainerStateIssues(state, { layers: this.net.layers, examples: this.train.size, persistentStates: this.options.persistentStates });
     if (problems.length > 0) throw new EbbflowError(problems);
     const shuffle = RandomStream.fromState(state.shuffle, "trainer.shuffle");
-    loadRuleState(this.rule, state.rule, "trainer.rule");
+    // a damaged rule state is a typed error naming the field (checked against the rule's state schema, then by the rule)
+    loadRuleState(this.rule, this.descriptor === null ? state.rule : this.registry.checkState(this.rule.config, state.rule, "trainer.rule"), "trainer.rule");
     this.epoch = state.epoch;
     this.shuffleStream = shuffle;
     this.history.length = 0;

@@ -10,7 +10,7 @@ export type Metrics = {
   readonly sse: number;
   /** Mean over examples of −Σ [t ln y + (1 − t) ln(1 − y)], y clipped to [1e-12, 1 − 1e-12] (outputs read as probabilities). */
   readonly crossEntropy: number;
-  /** Fraction of examples classified correctly (see {@link accumulateMetrics} for the readout). */
+  /** Fraction of examples classified correctly (arg-max readout after the free phase; ties count as wrong). */
   readonly accuracy: number;
   /** Mean cosine between output and target vectors (0 for a zero vector). */
   readonly cosine: number;

@@ -7,10 +7,10 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, issueText, type Issue } from "../errors/index.js";
+import { EbbflowError, formatPath, issueText, type Issue } from "../errors/index.js";
+import { savedDataIssues } from "../errors/saved.js";
 import type { LearningRule, RuleState } from "../rules/base.js";
 import { randomStateIssues } from "../random/index.js";
-import { formatPath } from "../network/spec.js";
 
 const finite = (what = "a finite number") => z.number({ error: what }).refine(Number.isFinite, { error: what });
 const nonNegative = (what = "a finite number >= 0") => z.number({ error: what }).refine((v) => Number.isFinite(v) && v >= 0, { error: what });
@@ -76,12 +76,7 @@ export interface TrainerShape {
 export function trainerStateIssues(state: unknown, shape: TrainerShape, prefix = "trainer"): Issue[] {
   const r = trainerStateSchema.safeParse(state);
   const at = (path: readonly PropertyKey[]) => formatPath([prefix, ...path]);
-  if (!r.success) {
-    return r.error.issues.slice(0, 20).map((zi) => {
-      if (zi.code === "unrecognized_keys") return issueText("parse_error", at([...zi.path, zi.keys[0] ?? ""]), "no such field (unknown key)", zi.keys.join(", "));
-      return issueText("parse_error", at(zi.path), zi.message.replace(/^Invalid input: expected /, "").replace(/, received \w+$/, ""), describe(state, zi.path));
-    });
-  }
+  if (!r.success) return savedDataIssues(r.error.issues, state, [prefix]);
   const s = r.data;
   const out: Issue[] = [...randomStateIssues(s.shuffle, at(["shuffle"]))];
   if (s.history.length !== s.epoch) out.push(issueText("parse_error", at(["history"]), `${s.epoch} epoch records (one per completed epoch)`, `${s.history.length} records`));
@@ -101,15 +96,6 @@ export function trainerStateIssues(state: unknown, shape: TrainerShape, prefix =
       });
   }
   return out;
-}
-
-function describe(root: unknown, path: readonly PropertyKey[]): string {
-  let v: unknown = root;
-  for (const k of path) v = v !== null && typeof v === "object" ? (v as Record<PropertyKey, unknown>)[k] : undefined;
-  if (v === undefined) return "undefined (missing)";
-  if (typeof v === "string") return JSON.stringify(v.length > 40 ? `${v.slice(0, 37)}...` : v);
-  if (typeof v === "number" || typeof v === "boolean" || v === null) return String(v);
-  return Array.isArray(v) ? `array of length ${v.length}` : "an object";
 }
 
 /**

@@ -180,11 +180,11 @@ export function gaussianPair(
  * @category Units
  * @example
  * ```ts
- * gaussianExpectation((t) => t * t, 1, 2); // 5 (= 1 + 2^2), to rounding
- * gaussianExpectation(relu, 0, 1, [{ at: 0, width: 0, kink: true }]); // 0.3989422804014327 (= 1/sqrt(2 pi))
+ * gaussianAverage((t) => t * t, 1, 2); // 5 (= 1 + 2^2), to rounding
+ * gaussianAverage(relu, 0, 1, [{ at: 0, width: 0, kink: true }]); // 0.3989422804014327 (= 1/sqrt(2 pi))
  * ```
  */
-export function gaussianExpectation(f: (t: number) => number, x: number, sigma: number, features: readonly SmoothingFeature[] = []): number {
+export function gaussianAverage(f: (t: number) => number, x: number, sigma: number, features: readonly SmoothingFeature[] = []): number {
   const out = new Float64Array(2);
   return gaussianPair(f, f, x, sigma, quadratureLayout(features), out)[0] as number;
 }

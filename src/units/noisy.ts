@@ -1,23 +1,49 @@
 /**
  * Noise-averaged rate: a unit's rate averaged over Gaussian noise on its net
- * input, tabulated once and read by cubic Hermite interpolation.
+ * input, tabulated once and read by cubic Hermite interpolation; and the
+ * `noisy` unit kind, whose base is a unit of any registered kind.
  * @module
  */
-import { plainUnitFacts } from "./describe.js";
+import { z } from "zod";
+import { fail } from "../errors/index.js";
+import { finiteField, integerField, positiveField } from "../errors/fields.js";
+import type { FloatArray } from "../types/index.js";
 import { gaussianPair, quadratureLayout } from "./gaussian.js";
-import { normaliseUnitSpec, type SpecOf, type UnitSpec } from "./spec.js";
+import { fillLength } from "./lift.js";
+import { deepFreeze, defineUnit, unitSpecField, type AnyUnitSpec, type UnitRegistry } from "./registry.js";
+import type { UnitFunction } from "./spec.js";
+
+/** Default number of table points of a noisy unit. @category Units */
+export const DEFAULT_NOISY_RESOLUTION = 1024;
 
 /** Default half-margin of the table around the base's transition interval, in noise standard deviations. */
 const RANGE_MARGIN_SIGMAS = 8;
 
+/** Schema of a noisy unit spec (a base kind convolved with Gaussian noise). @category Units */
+export const noisySchema = z
+  .object({
+    kind: z.literal("noisy"),
+    base: unitSpecField,
+    sigma: positiveField(),
+    resolution: integerField("an integer >= 2", 2).default(DEFAULT_NOISY_RESOLUTION),
+    range: z
+      .tuple([finiteField(), finiteField()], { error: "a pair [low, high] of finite numbers with low < high" })
+      .refine(([low, high]) => low < high, { error: "a pair [low, high] with low < high" })
+      .optional(),
+  })
+  .strict();
+
+/** A normalised noisy spec (its `base` normalised too; `range` filled in by the table). @category Units */
+export type NoisySpec = z.output<typeof noisySchema>;
+
 /**
- * A tabulated noise-averaged rate, made by {@link tabulateNoisyRate} and read
+ * A tabulated noise-averaged rate, made by `tabulateNoisyRate` and read
  * by {@link noisyRate} and {@link noisyRateSlope}.
  * @category Units
  */
 export interface NoisyRateTable {
   /** Normalised spec, including the `range` and `resolution` actually used. */
-  readonly spec: SpecOf<"noisy">;
+  readonly spec: NoisySpec;
   /** Noise standard deviation actually applied (nested noisy bases merged: variances add). */
   readonly sigma: number;
   /** First table point (`range[0]`). */
@@ -45,67 +71,48 @@ export interface NoisyRateTable {
 }
 
 /**
- * Tabulates the noise-averaged rate `F(x) = E[f(x + sigma Z)]` (Z standard
- * normal) of a base unit `f`.
- *
- * - Table: `resolution` points evenly spaced over `range`. Default range:
- *   the base's transition interval widened by `8 sigma` on both sides, where
- *   the transition interval is `offset ± 36/gain` (logistic), `±19.5` (tanh),
- *   `±36/gain` (softplus), `[threshold, threshold + 50/gain]` (saturating),
- *   `[0, 1]` (hard sigmoid) and `[0, 0]` (relu, linear). Default resolution 1024.
- * - Each point: `F` and `F' = E[f'(x + sigma Z)]` by composite Gauss–Legendre
- *   quadrature split at the base's kinks (near machine precision).
- * - Between points: cubic Hermite interpolation of values and slopes, so the
- *   interpolation error is O(step^4) for the rate and O(step^3) for the slope,
- *   and the reported slope is exactly the derivative of the reported rate.
- *   Slopes are limited where needed so that the interpolant is monotone
- *   (Fritsch & Carlson 1980, SIAM J. Numer. Anal. 17:238); its evaluation
- *   in floating point may still step back by one ulp between adjacent inputs.
- * - Beyond the table: the base shifted to join continuously,
- *   `F(x) ≈ f(x) + (F(low) - f(low))` for `x < low` (likewise above `high`),
- *   clamped to the base's bounds (slope 0 where clamped). With the default
- *   range the error there is of the order of `P(|Z| > 8) ≈ 1e-15` (times
- *   `sigma` for the unbounded bases), except for the saturating base, whose
- *   slowly curving tail leaves up to about `sigma^2 gain^2 / 125000` (from
- *   `sigma^2 f''/2` at `gain z = 50`); pass a wider `range` to reduce it.
- * - Accuracy inside the table: about `step^4 max|F''''| / 384` for the rate
- *   (e.g. 6e-11 for the rectifier with `sigma = 1` and the defaults).
- * - A noisy base is merged into one: the noise variances add.
- * @param spec A noisy unit spec.
+ * Tabulates the noise-averaged rate of a normalised noisy spec whose base `units` makes (see
+ * `tabulateNoisyRate` for the table, its default range, the interpolation and the
+ * extrapolation beyond it).
+ * @param normal A normalised noisy spec (validated by `units`).
+ * @param units The registry that makes the base unit.
  * @returns The table.
- * @throws EbbflowError `invalid_parameter` for a bad `sigma`, `resolution`,
- *   `range` or base parameter (paths like `base.gain`).
- * @category Units
- * @example
- * ```ts
- * const t = tabulateNoisyRate({ kind: "noisy", base: { kind: "relu" }, sigma: 1 });
- * noisyRate(t, 0); // 0.39894228046 (exact: sigma / sqrt(2 pi) = 0.3989422804014327; table error ~6e-11)
- * ```
+ * @throws EbbflowError `invalid_parameter` at `range` for a base without smoothing facts and no range.
+ * @internal
  */
-export function tabulateNoisyRate(spec: SpecOf<"noisy">): NoisyRateTable {
-  const normal = normaliseUnitSpec(spec) as SpecOf<"noisy">;
+export function tabulateNoisy(normal: NoisySpec, units: UnitRegistry): NoisyRateTable {
   let variance = normal.sigma * normal.sigma;
-  let base: UnitSpec = normal.base;
-  while (base.kind === "noisy") {
-    variance += base.sigma * base.sigma;
-    base = base.base;
+  let base: AnyUnitSpec = normal.base;
+  let path = "base";
+  // a noisy base is merged into one table: the noise variances add
+  while (base.kind === noisyUnit.kind && units.get(base.kind) === noisyUnit) {
+    const inner = base as NoisySpec;
+    variance += inner.sigma * inner.sigma;
+    base = inner.base;
+    path += ".base";
   }
   const sigma = Math.sqrt(variance);
-  const facts = plainUnitFacts(base);
-  const range: readonly [number, number] = normal.range ?? [
-    facts.transition[0] - RANGE_MARGIN_SIGMAS * sigma,
-    facts.transition[1] + RANGE_MARGIN_SIGMAS * sigma,
-  ];
-  const n = normal.resolution ?? 1024;
+  const plain = units.create(base, path);
+  const value = (x: number): number => plain.value(x);
+  const slope = (x: number): number => plain.slope(x);
+  const smoothing = plain.smoothing;
+  let range = normal.range;
+  if (range === undefined) {
+    if (smoothing === undefined) {
+      fail("invalid_parameter", "range", `a pair [low, high] for the table (the base kind ${JSON.stringify(base.kind)} declares no smoothing facts to choose one)`, undefined);
+    }
+    range = [smoothing.transition[0] - RANGE_MARGIN_SIGMAS * sigma, smoothing.transition[1] + RANGE_MARGIN_SIGMAS * sigma];
+  }
+  const n = normal.resolution;
   const [low, high] = range;
   const step = (high - low) / (n - 1);
   const values = new Float64Array(n);
   const slopes = new Float64Array(n);
-  const layout = quadratureLayout(facts.features);
+  const layout = quadratureLayout(smoothing?.features ?? []);
   const pair = new Float64Array(2);
   for (let k = 0; k < n; k++) {
     const x = k === n - 1 ? high : low + k * step;
-    gaussianPair(facts.value, facts.slope, x, sigma, layout, pair);
+    gaussianPair(value, slope, x, sigma, layout, pair);
     values[k] = pair[0] as number;
     slopes[k] = pair[1] as number;
   }
@@ -114,8 +121,8 @@ export function tabulateNoisyRate(spec: SpecOf<"noisy">): NoisyRateTable {
   // would contradict this.
   for (let k = 0; k < n; k++) {
     let v = values[k] as number;
-    if (v < facts.lower) v = facts.lower;
-    if (v > facts.upper) v = facts.upper;
+    if (v < plain.lower) v = plain.lower;
+    if (v > plain.upper) v = plain.upper;
     if (k > 0 && v < (values[k - 1] as number)) v = values[k - 1] as number;
     values[k] = v;
     if (!((slopes[k] as number) > 0)) slopes[k] = 0;
@@ -137,12 +144,12 @@ export function tabulateNoisyRate(spec: SpecOf<"noisy">): NoisyRateTable {
       slopes[k + 1] = tau * b * secant;
     }
   }
-  const frozenSpec: SpecOf<"noisy"> = Object.freeze({
-    kind: "noisy",
+  const frozenSpec: NoisySpec = Object.freeze({
+    kind: "noisy" as const,
     base: deepFreeze(normal.base),
     sigma: normal.sigma,
     resolution: n,
-    range: Object.freeze([low, high] as [number, number]),
+    range: Object.freeze([low, high]) as [number, number],
   });
   return Object.freeze({
     spec: frozenSpec,
@@ -152,22 +159,59 @@ export function tabulateNoisyRate(spec: SpecOf<"noisy">): NoisyRateTable {
     step,
     values,
     slopes,
-    lower: facts.lower,
-    upper: facts.upper,
-    base: facts.value,
-    baseSlope: facts.slope,
-    shiftLow: (values[0] as number) - facts.value(low),
-    shiftHigh: (values[n - 1] as number) - facts.value(high),
+    lower: plain.lower,
+    upper: plain.upper,
+    base: value,
+    baseSlope: slope,
+    shiftLow: (values[0] as number) - value(low),
+    shiftHigh: (values[n - 1] as number) - value(high),
   });
 }
 
-function deepFreeze<T>(o: T): T {
-  if (typeof o === "object" && o !== null && !Object.isFrozen(o)) {
-    for (const v of Object.values(o)) deepFreeze(v);
-    Object.freeze(o);
+class NoisyUnit implements UnitFunction<NoisySpec> {
+  readonly spec: NoisySpec;
+  readonly lower: number;
+  readonly upper: number;
+  private readonly table: NoisyRateTable;
+  constructor(table: NoisyRateTable) {
+    this.table = table;
+    this.spec = table.spec;
+    this.lower = table.lower;
+    this.upper = table.upper;
   }
-  return o;
+  value(x: number): number {
+    return noisyRate(this.table, x);
+  }
+  slope(x: number): number {
+    return noisyRateSlope(this.table, x);
+  }
+  fill<T extends FloatArray>(out: T, x: FloatArray, n?: number): T {
+    const m = fillLength(out, x, n);
+    const t = this.table;
+    for (let i = 0; i < m; i++) out[i] = noisyRate(t, x[i] as number);
+    return out;
+  }
+  fillSlope<T extends FloatArray>(out: T, x: FloatArray, n?: number): T {
+    const m = fillLength(out, x, n);
+    const t = this.table;
+    for (let i = 0; i < m; i++) out[i] = noisyRateSlope(t, x[i] as number);
+    return out;
+  }
 }
+
+/**
+ * The `noisy` unit kind: the rate of a `base` unit (of any registered kind) averaged over
+ * Gaussian noise of standard deviation `sigma` on its net input, tabulated once (see
+ * `tabulateNoisyRate`); no SIMD kernel. Tabulation with the default resolution takes some tens
+ * of milliseconds, once per unit.
+ * @category Units
+ */
+export const noisyUnit = defineUnit({
+  kind: "noisy",
+  schema: noisySchema,
+  summary: "E[base(x + sigma Z)], Z standard normal; sigma > 0, resolution >= 2 table points (default 1024) over range (default: the base's transition interval ± 8 sigma)",
+  create: (spec, units) => new NoisyUnit(tabulateNoisy(spec, units)),
+});
 
 /**
  * Noise-averaged rate read from a table (see {@link tabulateNoisyRate} for

@@ -1,7 +1,13 @@
 /**
- * Saturating rational rate function and its slope.
+ * Saturating rational rate function, its slope, and its unit kind (descriptor).
  * @module
  */
+import { z } from "zod";
+import type { FloatArray } from "../types/index.js";
+import { fillLength } from "./lift.js";
+import { defineUnit } from "./registry.js";
+import { finiteField, positiveField } from "../errors/fields.js";
+import type { UnitFunction, UnitSmoothing } from "./spec.js";
 
 /**
  * Saturating rational rate: with `u = gain * max(0, x - threshold)`,
@@ -57,3 +63,51 @@ export function saturatingSlope(x: number, gain = 1, threshold = 0): number {
   }
   return z < 0 ? 0 : Number.NaN;
 }
+
+/** The saturating rate keeps curving as 2 gain^2 / (gain z)^3; a noisy table covers gain z <= 50. */
+const SATURATING_TAIL = 50;
+
+const saturatingSchema = z.object({ kind: z.literal("saturating"), gain: positiveField().default(1), threshold: finiteField().default(0) }).strict();
+
+class SaturatingUnit implements UnitFunction<z.output<typeof saturatingSchema>> {
+  readonly lower = 0;
+  readonly upper = 1;
+  readonly smoothing: UnitSmoothing;
+  private readonly gain: number;
+  private readonly threshold: number;
+  constructor(readonly spec: z.output<typeof saturatingSchema>) {
+    const g = spec.gain;
+    const th = spec.threshold;
+    this.gain = g;
+    this.threshold = th;
+    this.smoothing = { features: [{ at: th, width: 1 / g, kink: true }], transition: [th, th + SATURATING_TAIL / g] };
+  }
+  value(x: number): number {
+    return saturating(x, this.gain, this.threshold);
+  }
+  slope(x: number): number {
+    return saturatingSlope(x, this.gain, this.threshold);
+  }
+  fill<T extends FloatArray>(out: T, x: FloatArray, n?: number): T {
+    const m = fillLength(out, x, n);
+    const g = this.gain;
+    const th = this.threshold;
+    for (let i = 0; i < m; i++) out[i] = saturating(x[i] as number, g, th);
+    return out;
+  }
+  fillSlope<T extends FloatArray>(out: T, x: FloatArray, n?: number): T {
+    const m = fillLength(out, x, n);
+    const g = this.gain;
+    const th = this.threshold;
+    for (let i = 0; i < m; i++) out[i] = saturatingSlope(x[i] as number, g, th);
+    return out;
+  }
+}
+
+/** The `saturating` unit kind: {@link saturating} with `gain > 0` (default 1) and `threshold` (default 0); no SIMD kernel. @category Units */
+export const saturatingUnit = defineUnit({
+  kind: "saturating",
+  schema: saturatingSchema,
+  summary: "u / (u + 1) with u = gain max(0, x - threshold); gain > 0 (default 1), threshold (default 0)",
+  create: (spec) => new SaturatingUnit(spec),
+});

@@ -1,7 +1,14 @@
 /**
- * Softplus rate function and its slope.
+ * Softplus rate function, its slope, and its unit kind (descriptor).
  * @module
  */
+import { z } from "zod";
+import type { FloatArray } from "../types/index.js";
+import { fillLength } from "./lift.js";
+import { defineUnit } from "./registry.js";
+import { positiveField } from "../errors/fields.js";
+import { EXP_TAIL } from "./logistic.js";
+import type { UnitFunction, UnitSmoothing } from "./spec.js";
 
 /** Scaled input beyond which softplus equals its argument in double precision. */
 const SOFTPLUS_LINEAR_FROM = 36;
@@ -62,3 +69,46 @@ export function softplusSlope(x: number, gain = 1): number {
 export function softplusSlopeFromOutput(y: number, gain = 1): number {
   return -Math.expm1(-gain * y);
 }
+
+const softplusSchema = z.object({ kind: z.literal("softplus"), gain: positiveField().default(1) }).strict();
+
+class SoftplusUnit implements UnitFunction<z.output<typeof softplusSchema>> {
+  readonly lower = 0;
+  readonly upper = Infinity;
+  readonly smoothing: UnitSmoothing;
+  private readonly gain: number;
+  constructor(readonly spec: z.output<typeof softplusSchema>) {
+    const g = spec.gain;
+    this.gain = g;
+    this.smoothing = { features: [{ at: 0, width: 1 / g }], transition: [-EXP_TAIL / g, EXP_TAIL / g] };
+  }
+  value(x: number): number {
+    return softplus(x, this.gain);
+  }
+  slope(x: number): number {
+    return softplusSlope(x, this.gain);
+  }
+  slopeFromOutput(y: number): number {
+    return softplusSlopeFromOutput(y, this.gain);
+  }
+  fill<T extends FloatArray>(out: T, x: FloatArray, n?: number): T {
+    const m = fillLength(out, x, n);
+    const g = this.gain;
+    for (let i = 0; i < m; i++) out[i] = softplus(x[i] as number, g);
+    return out;
+  }
+  fillSlope<T extends FloatArray>(out: T, x: FloatArray, n?: number): T {
+    const m = fillLength(out, x, n);
+    const g = this.gain;
+    for (let i = 0; i < m; i++) out[i] = softplusSlope(x[i] as number, g);
+    return out;
+  }
+}
+
+/** The `softplus` unit kind: {@link softplus} with `gain > 0` (default 1); no SIMD kernel (runs its own fill on every backend). @category Units */
+export const softplusUnit = defineUnit({
+  kind: "softplus",
+  schema: softplusSchema,
+  summary: "log(1 + exp(gain x)) / gain; gain > 0 (default 1)",
+  create: (spec) => new SoftplusUnit(spec),
+});

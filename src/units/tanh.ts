@@ -1,7 +1,12 @@
 /**
- * Hyperbolic tangent rate function and its slope.
+ * Hyperbolic tangent rate function, its slope, and its unit kind (descriptor).
  * @module
  */
+import { z } from "zod";
+import type { FloatArray } from "../types/index.js";
+import { fillLength } from "./lift.js";
+import { defineUnit } from "./registry.js";
+import type { UnitFunction, UnitKernelCall, UnitSmoothing } from "./spec.js";
 
 /**
  * Hyperbolic tangent rate: `f(x) = tanh(x)`, an odd function with range (-1, 1).
@@ -51,3 +56,46 @@ export function tanhSlope(x: number): number {
 export function tanhSlopeFromOutput(y: number): number {
   return 1 - y * y;
 }
+
+/** tanh is within 6e-17 of ±1 beyond 19.5. */
+const TANH_TAIL = 19.5;
+
+const tanhSchema = z.object({ kind: z.literal("tanh") }).strict();
+const tanhKernel: UnitKernelCall = Object.freeze<UnitKernelCall>({ kind: "tanh", gain: 1, offset: 0 });
+const tanhSmoothing: UnitSmoothing = Object.freeze<UnitSmoothing>({ features: [{ at: 0, width: 1 }], transition: [-TANH_TAIL, TANH_TAIL] });
+
+class TanhUnit implements UnitFunction<z.output<typeof tanhSchema>> {
+  readonly lower = -1;
+  readonly upper = 1;
+  readonly kernel = tanhKernel;
+  readonly smoothing = tanhSmoothing;
+  constructor(readonly spec: z.output<typeof tanhSchema>) {}
+  value(x: number): number {
+    return tanh(x);
+  }
+  slope(x: number): number {
+    return tanhSlope(x);
+  }
+  slopeFromOutput(y: number): number {
+    return tanhSlopeFromOutput(y);
+  }
+  fill<T extends FloatArray>(out: T, x: FloatArray, n?: number): T {
+    const m = fillLength(out, x, n);
+    for (let i = 0; i < m; i++) out[i] = tanh(x[i] as number);
+    return out;
+  }
+  fillSlope<T extends FloatArray>(out: T, x: FloatArray, n?: number): T {
+    const m = fillLength(out, x, n);
+    for (let i = 0; i < m; i++) out[i] = tanhSlope(x[i] as number);
+    return out;
+  }
+}
+
+/** The `tanh` unit kind: {@link tanh}; evaluated by the SIMD `tanh` kernel on the WebAssembly backends. @category Units */
+export const tanhUnit = defineUnit({
+  kind: "tanh",
+  schema: tanhSchema,
+  summary: "tanh(x)",
+  kernel: "tanh",
+  create: (spec) => new TanhUnit(spec),
+});

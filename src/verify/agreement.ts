@@ -5,9 +5,10 @@
  */
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
-import { createRule } from "../rules/index.js";
+import { fail } from "../errors/index.js";
+import { builtinRegistry, type Registry } from "../rules/registry.js";
 import { ParameterDelta } from "../rules/delta.js";
-import { connectionRate, type Batch } from "../rules/base.js";
+import { connectionRate, type Batch, type LearningRule } from "../rules/base.js";
 import type { RuleConfigInput } from "../rules/config.js";
 import { feedforwardGradient } from "../rules/feedforward.js";
 import { finiteDifferenceGradient, parameterArrays, recurrentGradient, type VerifySettling } from "./gradient.js";
@@ -32,6 +33,7 @@ export interface AgreementRow {
 
 /** A gradient-agreement report. @category Verification */
 export interface AgreementReport {
+  /** The rule's display name ({@link ruleDisplayName}: id, with variant or mode). */
   readonly rule: string;
   readonly reference: GradientReference;
   readonly rows: readonly AgreementRow[];
@@ -62,10 +64,22 @@ function measures(u: FloatArray | Float64Array, g: FloatArray | Float64Array, sc
   };
 }
 
+/** Options of {@link gradientAgreement}. @category Verification */
+export interface AgreementOptions extends VerifySettling {
+  /** The exact reference (default `"recurrent"`). */
+  readonly reference?: GradientReference | undefined;
+  /** Where the rule is looked up by name (default: the built-in rules). */
+  readonly registry?: Registry | undefined;
+}
+
+const AGREEMENT_OPTIONS = ["reference", "registry", "tolerance", "maxSteps"];
+
 /**
  * Compares a rule's update on `batch` with the exact negative gradient of the squared error at
  * the free fixed point, per connection (and per learned feedback matrix and bias), and overall.
  * The network is not changed. Rules whose rate differs per connection are divided by that rate.
+ * `rule` is a config (looked up in `options.registry`) or a rule instance bound to `net`.
+ * @throws {@link EbbflowError} `invalid_parameter` for an option it does not know.
  * @category Verification
  * @example
  * ```ts
@@ -73,9 +87,14 @@ function measures(u: FloatArray | Float64Array, g: FloatArray | Float64Array, sc
  * console.log(formatAgreement(report));
  * ```
  */
-export function gradientAgreement(net: Network, rule: RuleConfigInput, batch: Batch, options: VerifySettling & { readonly reference?: GradientReference | undefined } = {}): AgreementReport {
+export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>> | LearningRule, batch: Batch, options: AgreementOptions = {}): AgreementReport {
+  for (const key of Object.keys(options)) if (!AGREEMENT_OPTIONS.includes(key)) fail("invalid_parameter", `options.${key}`, `one of the options ${AGREEMENT_OPTIONS.join(", ")}`, key);
   const reference = options.reference ?? "recurrent";
-  const r = createRule(net, rule);
+  if (!(["recurrent", "finite-difference", "feedforward"] as unknown[]).includes(reference)) fail("invalid_parameter", "options.reference", "recurrent, finite-difference or feedforward", reference);
+  const registry = options.registry ?? builtinRegistry;
+  const r = typeof (rule as LearningRule).computeDelta === "function" ? (rule as LearningRule) : registry.createRule(net, rule);
+  if (r.net !== net) fail("invalid_config", "rule", "a rule bound to the network checked", "a rule bound to another network");
+  const descriptor = registry.rules.get(r.config.rule);
   const update = r.computeDelta(batch, new ParameterDelta(net));
   const grad = reference === "recurrent" ? recurrentGradient(net, batch, options) : reference === "finite-difference" ? finiteDifferenceGradient(net, batch, options) : feedforwardGradient(net, batch);
   const rows: AgreementRow[] = [];
@@ -93,7 +112,7 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput, batch: Ba
       gAll.push(g[k] as number);
     }
   });
-  return { rule: r.config.rule + ("variant" in r.config ? ` (${r.config.variant})` : "mode" in r.config ? ` (${r.config.mode})` : ""), reference, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
+  return { rule: descriptor?.label(r.config) ?? r.config.rule, reference, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1) };
 }
 
 /** Renders a report as a fixed-width text table. @category Verification */

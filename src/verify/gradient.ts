@@ -5,7 +5,7 @@
  */
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
-import type { Network } from "../network/network.js";
+import { parameterArraysOf, parameterSlots, slotArray, type Network } from "../network/network.js";
 import { Settler, type Snapshot, type LayerValues } from "../network/settle.js";
 import { ParameterDelta } from "../rules/delta.js";
 import { batchSizeOf, type Batch } from "../rules/base.js";
@@ -199,16 +199,18 @@ export function recurrentGradient(net: Network, batch: Batch, opts: VerifySettli
   return grad;
 }
 
-/** Every parameter array of a network with a name, aligned with {@link ParameterDelta}. */
+/**
+ * Every learned parameter array of a network with a name, aligned with {@link ParameterDelta}: weights and
+ * learned feedback matrices connection by connection, then the biases of the non-input layers (the order
+ * of the reports), from {@link parameterSlots}.
+ */
 export function parameterArrays(net: Network, d: ParameterDelta): { name: string; kind: "weights" | "feedback" | "bias"; param: FloatArray; delta: FloatArray }[] {
-  const out: { name: string; kind: "weights" | "feedback" | "bias"; param: FloatArray; delta: FloatArray }[] = [];
-  for (const c of net.connections) {
-    out.push({ name: c.label, kind: "weights", param: c.weights, delta: d.weights[c.index] as FloatArray });
-    const f = d.feedback[c.index];
-    if (f && c.feedback.kind === "separate") out.push({ name: `${c.label} feedback`, kind: "feedback", param: c.feedback.weights, delta: f });
-  }
-  for (const l of net.layers) if (l.role !== "input") out.push({ name: `${l.name} bias`, kind: "bias", param: l.bias, delta: d.biases[l.index] as FloatArray });
-  return out;
+  const own = parameterArraysOf(net);
+  const out = parameterSlots(net)
+    .filter((s) => !(s.kind === "bias" && net.layers[s.index]!.role === "input"))
+    .map((s) => ({ name: s.name, kind: s.kind, param: slotArray(own, s) as FloatArray, delta: slotArray(d, s) }))
+    .filter((e): e is { name: string; kind: "weights" | "feedback" | "bias"; param: FloatArray; delta: FloatArray } => e.delta !== null);
+  return [...out.filter((e) => e.kind !== "bias"), ...out.filter((e) => e.kind === "bias")];
 }
 
 /**

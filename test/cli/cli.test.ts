@@ -166,10 +166,13 @@ describe("the ebbflow command", () => {
     const dir = workdir();
     const r = run(["demo", "--seeds", "2", "--json", "--out", "demo"], dir);
     expect(r.code, r.err).toBe(0);
-    const d = JSON.parse(r.out) as { noHidden: { bestCorrect: number }[]; hidden: Record<string, { solved: boolean }[]>; written: string[] };
+    const d = JSON.parse(r.out) as { noHidden: { bestCorrect: number; rule: string }[]; hidden: Record<string, { solved: boolean }[]>; agreement: { rule: string }[]; written: string[] };
     expect(d.noHidden.every((x) => x.bestCorrect <= 3)).toBe(true);
-    expect(Object.keys(d.hidden)).toEqual(["GeneRec", "CHL", "EqProp", "sliding-threshold calcium"]);
-    expect(d.written).toHaveLength(4);
+    // one display name per rule: the id, with variant or mode (docs/guide/rules.md), in every section
+    expect(Object.keys(d.hidden)).toEqual(["generec (basic)", "chl", "eqprop (one-sided)", "calcium"]);
+    expect(d.noHidden.map((x) => x.rule).filter((v, i, a) => a.indexOf(v) === i)).toEqual(Object.keys(d.hidden));
+    expect(d.agreement.map((x) => x.rule)).toEqual([...Object.keys(d.hidden), "eqprop (symmetric)", "backprop"]);
+    expect(d.written.map((w) => path.basename(w))).toEqual(["generec-basic-curves.svg", "chl-curves.svg", "eqprop-one-sided-curves.svg", "calcium-curves.svg"]);
   });
 });
 

@@ -3,7 +3,8 @@ import fc from "fast-check";
 import { mkdtempSync, readdirSync, readFileSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import path from "node:path";
-import { buildNetwork, modelToJson, modelFromData, bytesToBase64, base64ToBytes, EbbflowError } from "../../src/index.js";
+import { buildNetwork, modelToJson, modelFromData, EbbflowError } from "../../src/index.js";
+import { bytesToBase64, base64ToBytes } from "../../src/config/encoding.js";
 import { saveModel, loadModel, writeFileAtomic } from "../../src/node/index.js";
 import { check } from "../helpers/property.js";
 

@@ -23,7 +23,7 @@ describe("calciumCurve: shape (ebbflow's piecewise-linear design, documented in 
   });
 
   it("in the linear region (theta >= 0, x > trough*theta) curve(fast, slow) equals fast - slow exactly", () => {
-    // design contract: linear region reads "outcome minus expectation" (exact IEEE subtraction)
+    // design contract: linear region reads "clamped minus free" (fast minus slow) (exact IEEE subtraction)
     check(
       fc.property(
         fc.double({ min: 0, max: 1e3, noNaN: true }),

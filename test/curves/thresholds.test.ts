@@ -1,6 +1,6 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
-import { applyCalciumCurve, bcmThreshold, mixedThreshold, slowTraceThreshold } from "../../src/curves/index.js";
+import { applyCalciumCurve, bcmThreshold, blendedThreshold, slowTraceThreshold } from "../../src/curves/index.js";
 import { traceDifference, vectorTrace } from "../../src/traces/index.js";
 import { check } from "../helpers/property.js";
 import { expectClose } from "../helpers/tolerance.js";
@@ -24,7 +24,7 @@ describe("slowTraceThreshold (error-driven)", () => {
     );
   });
 
-  it("turns the calcium curve into 'outcome minus expectation': curve(fast, slow) = fast - slow in the linear region", () => {
+  it("turns the calcium curve into 'clamped minus free': curve(fast, slow) = fast - slow in the linear region", () => {
     // design contract of calciumCurve + methods.md item 13 traces
     check(
       fc.property(rowsArb(30, 4), fc.double({ min: 0.05, max: 0.95, noNaN: true }), (rows, trough) => {
@@ -104,12 +104,12 @@ describe("bcmThreshold (self-organising)", () => {
   });
 });
 
-describe("mixedThreshold", () => {
+describe("blendedThreshold", () => {
   const post = 2;
   const pre = 3;
 
-  function run(mix: number, rows: number[][], posts: number[][]) {
-    const m = mixedThreshold({ post, pre, mix, slow: { tau: 10 }, bcm: { tau: 40 } });
+  function run(share: number, rows: number[][], posts: number[][]) {
+    const m = blendedThreshold({ post, pre, errorShare: share, slow: { tau: 10 }, bcm: { tau: 40 } });
     const slow = slowTraceThreshold({ tau: 10, n: post * pre });
     const bcm = bcmThreshold({ tau: 40, n: post });
     rows.forEach((r, s) => {
@@ -127,12 +127,12 @@ describe("mixedThreshold", () => {
   it("is m theta_slow + (1 - m) theta_bcm, the BCM part shared along each postsynaptic row", () => {
     // definition: theta = m theta_slow + (1 - m) theta_bcm
     check(
-      fc.property(fc.double({ min: 0, max: 1, noNaN: true }), inputsArb, (mix, [rows, posts]) => {
-        const { m, slow, bcm } = run(mix, rows, posts);
+      fc.property(fc.double({ min: 0, max: 1, noNaN: true }), inputsArb, (share, [rows, posts]) => {
+        const { m, slow, bcm } = run(share, rows, posts);
         for (let i = 0; i < post; i++) {
           for (let j = 0; j < pre; j++) {
             const o = i * pre + j;
-            expect(m.value[o]).toBe(mix * (slow.value[o] as number) + (1 - mix) * (bcm.value[i] as number));
+            expect(m.value[o]).toBe(share * (slow.value[o] as number) + (1 - share) * (bcm.value[i] as number));
           }
         }
       }),
@@ -140,7 +140,7 @@ describe("mixedThreshold", () => {
   });
 
   it("m = 1 is purely error-driven and m = 0 purely BCM", () => {
-    // limits of the mix
+    // limits of the blend
     check(
       fc.property(inputsArb, ([rows, posts]) => {
         const one = run(1, rows, posts);
@@ -152,7 +152,7 @@ describe("mixedThreshold", () => {
   });
 
   it("state round-trips; a bad state is rejected with its path and leaves the threshold untouched", () => {
-    const m = mixedThreshold({ post, pre, mix: 0.5, slow: { tau: 10 }, bcm: { tau: 40 }, dtype: "float32" });
+    const m = blendedThreshold({ post, pre, errorShare: 0.5, slow: { tau: 10 }, bcm: { tau: 40 }, dtype: "float32" });
     m.update(new Float32Array([1, 0, 1, 0, 1, 0]), new Float32Array([1, 2]));
     const saved = JSON.parse(JSON.stringify(m.saveState())) as ReturnType<typeof m.saveState>;
     const next = Array.from(m.update(new Float32Array(6).fill(0.5), new Float32Array([0, 1])));
@@ -167,19 +167,22 @@ describe("mixedThreshold", () => {
   });
 
   it("rejects bad parameters naming them", () => {
-    const base = { post: 2, pre: 3, mix: 0.5, slow: { tau: 10 }, bcm: { tau: 40 } };
-    expectEbbflowError(() => mixedThreshold({ ...base, mix: -0.1 }), "invalid_parameter", "mix");
-    expectEbbflowError(() => mixedThreshold({ ...base, mix: 1.5 }), "invalid_parameter", "mix");
-    expectEbbflowError(() => mixedThreshold({ ...base, mix: Number.NaN }), "invalid_parameter", "mix");
-    expectEbbflowError(() => mixedThreshold({ ...base, post: 0 }), "invalid_parameter", "post");
-    expectEbbflowError(() => mixedThreshold({ ...base, pre: 1.5 }), "invalid_parameter", "pre");
-    expectEbbflowError(() => mixedThreshold({ ...base, slow: { tau: -1 } }), "invalid_parameter", "slow.tau");
-    expectEbbflowError(() => mixedThreshold({ ...base, bcm: { tau: 1, dt: Number.POSITIVE_INFINITY } }), "invalid_parameter", "bcm.dt");
-    expectEbbflowError(() => mixedThreshold({ ...base, bcm: { tau: 1, dt: 3, method: "euler" } }), "invalid_parameter", "bcm.dt");
-    expectEbbflowError(() => mixedThreshold({ ...base, dtype: "int8" as never }), "invalid_parameter", "dtype");
+    const base = { post: 2, pre: 3, errorShare: 0.5, slow: { tau: 10 }, bcm: { tau: 40 } };
+    expectEbbflowError(() => blendedThreshold({ ...base, errorShare: -0.1 }), "invalid_parameter", "errorShare");
+    expectEbbflowError(() => blendedThreshold({ ...base, errorShare: 1.5 }), "invalid_parameter", "errorShare");
+    expectEbbflowError(() => blendedThreshold({ ...base, errorShare: Number.NaN }), "invalid_parameter", "errorShare");
+    // the renamed key is refused, and the message names its new spelling
+    const refused = expectEbbflowError(() => blendedThreshold({ ...base, mix: 0.5 } as never), "invalid_parameter", "mix");
+    expect(refused.message).toContain("errorShare");
+    expectEbbflowError(() => blendedThreshold({ ...base, post: 0 }), "invalid_parameter", "post");
+    expectEbbflowError(() => blendedThreshold({ ...base, pre: 1.5 }), "invalid_parameter", "pre");
+    expectEbbflowError(() => blendedThreshold({ ...base, slow: { tau: -1 } }), "invalid_parameter", "slow.tau");
+    expectEbbflowError(() => blendedThreshold({ ...base, bcm: { tau: 1, dt: Number.POSITIVE_INFINITY } }), "invalid_parameter", "bcm.dt");
+    expectEbbflowError(() => blendedThreshold({ ...base, bcm: { tau: 1, dt: 3, method: "euler" } }), "invalid_parameter", "bcm.dt");
+    expectEbbflowError(() => blendedThreshold({ ...base, dtype: "int8" as never }), "invalid_parameter", "dtype");
     expectEbbflowError(() => slowTraceThreshold({ tau: 0, n: 2 }), "invalid_parameter", "tau");
     expectEbbflowError(() => bcmThreshold({ tau: 1, n: -1 }), "invalid_parameter", "n");
-    const m = mixedThreshold(base);
+    const m = blendedThreshold(base);
     expectEbbflowError(() => m.update(new Float64Array(5), new Float64Array(2)), "shape_mismatch", "coactivity");
     expectEbbflowError(() => m.update(new Float64Array(6).fill(1), new Float64Array(3)), "shape_mismatch", "postActivity");
     expect(Array.from(m.value)).toEqual([0, 0, 0, 0, 0, 0]);

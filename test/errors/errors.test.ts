@@ -1,5 +1,6 @@
 import { describe, it, expect } from "vitest";
-import { EbbflowError, issue, describeValue, formatIssue } from "../../src/index.js";
+import { EbbflowError, formatIssue } from "../../src/index.js";
+import { issue, describeValue } from "../../src/errors/index.js";
 
 describe("EbbflowError", () => {
   it("carries the first issue's code, path, expected and received, and lists every issue in its message", () => {

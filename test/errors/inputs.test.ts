@@ -8,12 +8,10 @@ import {
   createRule,
   EbbflowError,
   expandSweep,
-  inputShapeIssues,
   parseExperiment,
   parseJsonDataset,
   parseRule,
   parseSweepFile,
-  requireBytes,
   resourceLimits,
   setResourceLimits,
   Settler,
@@ -21,6 +19,8 @@ import {
   Trainer,
   xorDataset,
 } from "../../src/index.js";
+import { inputShapeIssues } from "../../src/errors/input.js";
+import { requireBytes } from "../../src/limits/index.js";
 
 const layers = (n: number, m: number) => ({
   layers: [

@@ -6,17 +6,8 @@ import { loadWasmKernelsSync, type WasmKernelBackend } from "../../src/kernels/w
 import { check } from "../helpers/property.js";
 import { arb, expectExact, naiveGemm, randomArray, expectWithinBound, epsOf } from "../kernels/reference.js";
 import { inArena, wasmBackends } from "./backends.js";
+import { thrown } from "../helpers/errors.js";
 
-/** Runs `f` and returns the EbbflowError it throws (fails the test when it throws nothing or something else). */
-function thrown(f: () => unknown): EbbflowError {
-  try {
-    f();
-  } catch (e) {
-    expect(e).toBeInstanceOf(EbbflowError);
-    return e as EbbflowError;
-  }
-  return expect.fail("expected an EbbflowError");
-}
 
 const MIB = 1 << 20;
 

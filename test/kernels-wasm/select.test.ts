@@ -10,7 +10,7 @@ import {
   typescriptBackend,
   wasmRelaxedSimdSupported,
   wasmSimdSupported,
-} from "../../src/kernels/wasm/index.js";
+} from "../../src/kernels/public.js";
 import { decodeBase64, moduleBytes } from "../../src/kernels/wasm/platform.js";
 import { check } from "../helpers/property.js";
 import { expectExact, randomArray } from "../kernels/reference.js";

@@ -6,17 +6,8 @@ import * as ts from "../../src/kernels/index.js";
 import { loadWasmKernelsSync, type WasmKernelBackend } from "../../src/kernels/wasm/index.js";
 import { check } from "../helpers/property.js";
 import { expectExact, expectWithinBound, naiveGemm, randomArray } from "../kernels/reference.js";
+import { thrown } from "../helpers/errors.js";
 
-/** Runs `f` and returns the EbbflowError it throws (fails the test when it throws nothing or something else). */
-function thrown(f: () => unknown): EbbflowError {
-  try {
-    f();
-  } catch (e) {
-    expect(e).toBeInstanceOf(EbbflowError);
-    return e as EbbflowError;
-  }
-  return expect.fail("expected an EbbflowError");
-}
 
 /** Byte ranges [start, end) of views, sorted by start. */
 function ranges(views: readonly { byteOffset: number; byteLength: number }[]): [number, number][] {

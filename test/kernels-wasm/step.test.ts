@@ -1,7 +1,7 @@
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { buildNetwork, Settler, type NetworkSpecInput } from "../../src/index.js";
-import type { KernelBackend, UnitFillKind } from "../../src/kernels/wasm/index.js";
+import type { KernelBackend, UnitFillKind } from "../../src/kernels/public.js";
 import type { Dtype, FloatArray } from "../../src/types/index.js";
 import { check } from "../helpers/property.js";
 import { inArena, wasmBackends } from "./backends.js";

@@ -1,8 +1,7 @@
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { EbbflowError } from "../../src/errors/index.js";
-import { typescriptBackend } from "../../src/kernels/wasm/index.js";
-import { fillUnit, type UnitFillKind } from "../../src/kernels/wasm/units.js";
+import { fillUnit, typescriptBackend, type UnitFillKind } from "../../src/kernels/index.js";
 import type { Dtype, FloatArray } from "../../src/types/index.js";
 import { createUnit, type UnitSpec } from "../../src/units/index.js";
 import { check } from "../helpers/property.js";

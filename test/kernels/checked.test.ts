@@ -4,17 +4,8 @@ import { EbbflowError } from "../../src/errors/index.js";
 import { checkGemm, checkGemv, checkGer, gemm, kernelsChecked } from "../../src/kernels/index.js";
 import { check } from "../helpers/property.js";
 import { arb, expectExact, randomArray } from "./reference.js";
+import { thrown } from "../helpers/errors.js";
 
-/** Runs f, expects an EbbflowError, and returns it. */
-function caught(f: () => unknown): EbbflowError {
-  try {
-    f();
-  } catch (e) {
-    expect(e).toBeInstanceOf(EbbflowError);
-    return e as EbbflowError;
-  }
-  return expect.fail("expected an EbbflowError");
-}
 
 const f64 = (n: number) => new Float64Array(n);
 
@@ -33,7 +24,7 @@ describe("checkGemm", () => {
       fc.property(arb.dim, arb.dim, arb.dim, fc.constantFrom("out", "a", "b"), fc.integer({ min: 1, max: 3 }), (m, n, k, which, extra) => {
         const len = { out: m * n, a: m * k, b: k * n };
         const arr = (p: "out" | "a" | "b") => f64(len[p] + (p === which ? extra : 0));
-        const e = caught(() => checkGemm(arr("out"), arr("a"), arr("b"), m, n, k, false, true, 1, 0));
+        const e = thrown(() => checkGemm(arr("out"), arr("a"), arr("b"), m, n, k, false, true, 1, 0));
         expect(e.code).toBe("shape_mismatch");
         expect(e.path).toBe(which);
         expect(e.expected).toContain(`length ${len[which]}`);
@@ -44,13 +35,13 @@ describe("checkGemm", () => {
   });
 
   it("names the transposed shape in the message: b is n*k when transB", () => {
-    const e = caught(() => checkGemm(f64(6), f64(6), f64(5), 2, 3, 3, false, true, 1, 0));
+    const e = thrown(() => checkGemm(f64(6), f64(6), f64(5), 2, 3, 3, false, true, 1, 0));
     expect(e.message).toContain("b: expected length 9 (n*k with n=3, k=3), received length 5");
     expect(e.message).toContain("(gemm)");
   });
 
   it("rejects sizes that are not integers >= 0, non-finite scales and non-boolean flags as invalid_parameter, listing every problem", () => {
-    const e = caught(() =>
+    const e = thrown(() =>
       checkGemm(f64(4), f64(4), f64(4), -1, 1.5, Number.NaN, "no" as unknown as boolean, false, Number.POSITIVE_INFINITY, Number.NaN),
     );
     expect(e.code).toBe("invalid_parameter");
@@ -61,7 +52,7 @@ describe("checkGemm", () => {
   });
 
   it("rejects arrays that are not Float32Array or Float64Array", () => {
-    const e = caught(() => checkGemm(f64(1), [1] as unknown as Float64Array, new Int32Array(1) as unknown as Float64Array, 1, 1, 1, false, false, 1, 0));
+    const e = thrown(() => checkGemm(f64(1), [1] as unknown as Float64Array, new Int32Array(1) as unknown as Float64Array, 1, 1, 1, false, false, 1, 0));
     expect(e.issues.map((i) => [i.path, i.code])).toEqual([
       ["a", "invalid_parameter"],
       ["b", "invalid_parameter"],
@@ -72,12 +63,12 @@ describe("checkGemm", () => {
     const buffer = new Float64Array(12);
     const a = buffer.subarray(0, 4);
     const out = buffer.subarray(2, 6); // overlaps a
-    const e = caught(() => checkGemm(out, a, f64(4), 2, 2, 2, false, false, 1, 0));
+    const e = thrown(() => checkGemm(out, a, f64(4), 2, 2, 2, false, false, 1, 0));
     expect(e.code).toBe("invalid_parameter");
     expect(e.path).toBe("out");
     expect(e.expected).toContain("shares no memory with a");
     const same = f64(4);
-    expect(caught(() => checkGemm(same, f64(4), same, 2, 2, 2, false, false, 1, 0)).expected).toContain("with b");
+    expect(thrown(() => checkGemm(same, f64(4), same, 2, 2, 2, false, false, 1, 0)).expected).toContain("with b");
     // adjacent views of one buffer do not overlap and are fine
     checkGemm(buffer.subarray(4, 8), a, buffer.subarray(8, 12), 2, 2, 2, false, false, 1, 0);
   });
@@ -87,22 +78,22 @@ describe("checkGemv and checkGer", () => {
   it("checkGemv takes rows and cols as A is stored: x has rows entries and out has cols when trans", () => {
     checkGemv(f64(3), f64(6), f64(2), 2, 3, true, 1, 0);
     checkGemv(f64(2), f64(6), f64(3), 2, 3, false, 1, 0);
-    const e = caught(() => checkGemv(f64(2), f64(6), f64(3), 2, 3, true, 1, 0));
+    const e = thrown(() => checkGemv(f64(2), f64(6), f64(3), 2, 3, true, 1, 0));
     expect(e.issues.map((i) => [i.path, i.code])).toEqual([
       ["out", "shape_mismatch"],
       ["x", "shape_mismatch"],
     ]);
-    expect(caught(() => checkGemv(f64(2), f64(6), f64(3), 2, 3, false, Number.NaN, 0)).path).toBe("alpha");
+    expect(thrown(() => checkGemv(f64(2), f64(6), f64(3), 2, 3, false, Number.NaN, 0)).path).toBe("alpha");
     const shared = f64(6);
-    expect(caught(() => checkGemv(shared.subarray(0, 2), shared, f64(3), 2, 3, false, 1, 0)).path).toBe("out");
+    expect(thrown(() => checkGemv(shared.subarray(0, 2), shared, f64(3), 2, 3, false, 1, 0)).path).toBe("out");
   });
 
   it("checkGer requires out m*n, x m, y n, a finite alpha and out apart from x and y", () => {
     checkGer(f64(6), f64(2), f64(3), 2, 3, 1);
-    expect(caught(() => checkGer(f64(6), f64(3), f64(2), 2, 3, 1)).path).toBe("x");
-    expect(caught(() => checkGer(f64(6), f64(2), f64(3), 2, 3, Number.NaN)).path).toBe("alpha");
+    expect(thrown(() => checkGer(f64(6), f64(3), f64(2), 2, 3, 1)).path).toBe("x");
+    expect(thrown(() => checkGer(f64(6), f64(2), f64(3), 2, 3, Number.NaN)).path).toBe("alpha");
     const shared = f64(6);
-    expect(caught(() => checkGer(shared, shared.subarray(0, 2), f64(3), 2, 3, 1)).path).toBe("out");
+    expect(thrown(() => checkGer(shared, shared.subarray(0, 2), f64(3), 2, 3, 1)).path).toBe("out");
   });
 });
 
@@ -146,42 +137,42 @@ describe("kernelsChecked", () => {
 
   it("elementwise members reject a partial overlap between out and an input", () => {
     const buffer = new Float64Array(5);
-    const e = caught(() => kernelsChecked.add(buffer.subarray(1, 4), buffer.subarray(0, 3), f64(3)));
+    const e = thrown(() => kernelsChecked.add(buffer.subarray(1, 4), buffer.subarray(0, 3), f64(3)));
     expect(e.code).toBe("invalid_parameter");
     expect(e.path).toBe("out");
     expect(e.expected).toContain("same array as a");
     // the same memory seen with another element type is not the same array either
     const bytes = new ArrayBuffer(16);
-    expect(caught(() => kernelsChecked.copy(new Float32Array(bytes, 0, 2), new Float64Array(bytes, 0, 2))).path).toBe("out");
+    expect(thrown(() => kernelsChecked.copy(new Float32Array(bytes, 0, 2), new Float64Array(bytes, 0, 2))).path).toBe("out");
   });
 
   it("elementwise members report lengths: equal to out without n, at least n with n", () => {
-    const e = caught(() => kernelsChecked.add(f64(3), f64(3), f64(2)));
+    const e = thrown(() => kernelsChecked.add(f64(3), f64(3), f64(2)));
     expect([e.code, e.path, e.expected, e.received]).toEqual(["shape_mismatch", "b", "length 3 (the length of out)", "length 2"]);
     kernelsChecked.add(f64(3), f64(5), f64(2), 2);
-    const e2 = caught(() => kernelsChecked.add(f64(3), f64(5), f64(1), 2));
+    const e2 = thrown(() => kernelsChecked.add(f64(3), f64(5), f64(1), 2));
     expect([e2.code, e2.path, e2.expected]).toEqual(["shape_mismatch", "b", "length >= 2 (n=2)"]);
-    expect(caught(() => kernelsChecked.fill(f64(3), 1, 4)).path).toBe("out");
-    expect(caught(() => kernelsChecked.copy(f64(3), f64(3), -1)).path).toBe("n");
-    expect(caught(() => kernelsChecked.dot(f64(3), f64(4))).path).toBe("b");
-    expect(caught(() => kernelsChecked.sumSquares(f64(3), 2.5)).path).toBe("n");
+    expect(thrown(() => kernelsChecked.fill(f64(3), 1, 4)).path).toBe("out");
+    expect(thrown(() => kernelsChecked.copy(f64(3), f64(3), -1)).path).toBe("n");
+    expect(thrown(() => kernelsChecked.dot(f64(3), f64(4))).path).toBe("b");
+    expect(thrown(() => kernelsChecked.sumSquares(f64(3), 2.5)).path).toBe("n");
   });
 
   it("elementwise and row members reject non-finite scales by name", () => {
-    expect(caught(() => kernelsChecked.axpy(f64(2), f64(2), Number.NaN)).path).toBe("alpha");
-    expect(caught(() => kernelsChecked.scale(f64(2), f64(2), Number.NEGATIVE_INFINITY)).path).toBe("alpha");
-    expect(caught(() => kernelsChecked.axpby(f64(2), f64(2), f64(2), 1, Number.NaN)).path).toBe("beta");
-    expect(caught(() => kernelsChecked.sumRows(f64(2), f64(4), 2, 2, Number.NaN, 0)).path).toBe("alpha");
-    expect(caught(() => kernelsChecked.fill(f64(2), "1" as unknown as number)).path).toBe("value");
+    expect(thrown(() => kernelsChecked.axpy(f64(2), f64(2), Number.NaN)).path).toBe("alpha");
+    expect(thrown(() => kernelsChecked.scale(f64(2), f64(2), Number.NEGATIVE_INFINITY)).path).toBe("alpha");
+    expect(thrown(() => kernelsChecked.axpby(f64(2), f64(2), f64(2), 1, Number.NaN)).path).toBe("beta");
+    expect(thrown(() => kernelsChecked.sumRows(f64(2), f64(4), 2, 2, Number.NaN, 0)).path).toBe("alpha");
+    expect(thrown(() => kernelsChecked.fill(f64(2), "1" as unknown as number)).path).toBe("value");
   });
 
   it("row members check out, bias and a against rows and cols, and aliasing", () => {
-    expect(caught(() => kernelsChecked.addRowVector(f64(6), f64(2), 2, 3)).path).toBe("bias");
-    expect(caught(() => kernelsChecked.addRowVector(f64(6), f64(3), 3, 3)).path).toBe("out");
-    expect(caught(() => kernelsChecked.sumRows(f64(3), f64(5), 2, 3, 1, 0)).path).toBe("a");
+    expect(thrown(() => kernelsChecked.addRowVector(f64(6), f64(2), 2, 3)).path).toBe("bias");
+    expect(thrown(() => kernelsChecked.addRowVector(f64(6), f64(3), 3, 3)).path).toBe("out");
+    expect(thrown(() => kernelsChecked.sumRows(f64(3), f64(5), 2, 3, 1, 0)).path).toBe("a");
     const shared = f64(6);
-    expect(caught(() => kernelsChecked.sumRows(shared.subarray(0, 3), shared, 2, 3, 1, 0)).path).toBe("out");
-    expect(caught(() => kernelsChecked.addRowVector(shared, shared.subarray(3), 2, 3)).path).toBe("out");
+    expect(thrown(() => kernelsChecked.sumRows(shared.subarray(0, 3), shared, 2, 3, 1, 0)).path).toBe("out");
+    expect(thrown(() => kernelsChecked.addRowVector(shared, shared.subarray(3), 2, 3)).path).toBe("out");
   });
 
   it("reductions do not treat NaN data as an argument error", () => {

@@ -74,17 +74,18 @@ const contrastRules: readonly RuleConfigInput[] = [
   { rule: "generec", rate: 0.3, variant: "symmetric" },
   { rule: "generec", rate: 0.3, variant: "midpoint" },
   { rule: "generec", rate: 0.3, variant: "symmetric-midpoint" },
+  { rule: "xie-seung", rate: 0.3, gamma: 0.5 },
 ];
 
 describe("multi-core training, row split (each worker adds the whole batch's change for its rows, in place)", () => {
-  it("EqProp (one-sided, symmetric), CHL and GeneRec take the row split; constrained connections and other rules the slice split", async () => {
+  it("EqProp (one-sided, symmetric), CHL, Xie–Seung and GeneRec take the row split (their descriptors' contrast forms); constrained connections and other rules the slice split", async () => {
     const cases: [NetworkSpecInput, RuleConfigInput, "rows" | "slices"][] = [
       [layered([5, 4, 3]), { rule: "eqprop", beta: 0.3, rate: 0.1 }, "rows"],
       [layered([5, 4, 3]), { rule: "eqprop", beta: 0.3, rate: 0.1, mode: "symmetric" }, "rows"],
       [layered([5, 4, 3]), { rule: "chl", rate: 0.1 }, "rows"],
       [layered([5, 4, 3]), { rule: "generec", rate: 0.1, variant: "midpoint" }, "rows"],
       [layered([5, 4, 3]), { rule: "backprop", rate: 0.1 }, "slices"],
-      [layered([5, 4, 3]), { rule: "xie-seung", rate: 0.1 }, "slices"],
+      [layered([5, 4, 3]), { rule: "xie-seung", rate: 0.1 }, "rows"],
       [layered([5, 3], { connections: [{ from: "in", to: "out", sign: "excitatory", feedback: { kind: "tied", gain: 1 } }] }), { rule: "eqprop", beta: 0.3, rate: 0.1 }, "slices"],
       [layered([5, 3], { connections: [{ from: "in", to: "out", sign: "excitatory", bounds: "soft", feedback: { kind: "tied", gain: 1 } }] }), { rule: "chl", rate: 0.1 }, "slices"],
     ];

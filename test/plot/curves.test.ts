@@ -1,6 +1,6 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
-import { readResults, learningCurveSvg, bandCurveSvg, summariseRuns, learningCurveSpec, type Results } from "../../src/node/plot.js";
+import { readResults, learningCurveSvg, bandCurveSvg, summarizeEpochs, learningCurveSpec, type Results } from "../../src/node/plot.js";
 import { check } from "../helpers/property.js";
 import { expectClose, EPS64 } from "../helpers/tolerance.js";
 import { ariaFields, axisMap, expectPixel, marks, points, xmlProblems } from "./svg.js";
@@ -147,9 +147,9 @@ describe("learningCurveSvg", () => {
   });
 });
 
-describe("summariseRuns", () => {
+describe("summarizeEpochs", () => {
   it("gives mean, sample sd (n - 1), min and max per epoch: sse 1, 2, 3 -> mean 2, sd 1 (closed form)", () => {
-    const s = summariseRuns([run(1, [1, 4]), run(2, [2, 4]), run(3, [3, 4])], "sse", "train");
+    const s = summarizeEpochs([run(1, [1, 4]), run(2, [2, 4]), run(3, [3, 4])], "sse", "train");
     expect(s).toEqual([
       { epoch: 1, n: 3, mean: 2, sd: 1, min: 1, max: 3 },
       { epoch: 2, n: 3, mean: 4, sd: 0, min: 4, max: 4 },
@@ -157,14 +157,14 @@ describe("summariseRuns", () => {
   });
 
   it("counts only the runs that reached an epoch (early-stopped runs drop out); one run has sd 0", () => {
-    const s = summariseRuns([run(1, [1, 2, 3]), run(2, [3])], "sse", "train");
+    const s = summarizeEpochs([run(1, [1, 2, 3]), run(2, [3])], "sse", "train");
     expect(s.map((p) => [p.epoch, p.n, p.mean, p.sd])).toEqual([[1, 2, 2, Math.SQRT2], [2, 1, 2, 0], [3, 1, 3, 0]]);
   });
 
   it("keeps min <= mean <= max, matches the sum-of-squares identity for sd and shifts with the data", () => {
     check(
       fc.property(fc.array(fc.double({ min: -1e3, max: 1e3, noNaN: true }), { minLength: 1, maxLength: 9 }), fc.double({ min: -100, max: 100, noNaN: true }), (xs, c) => {
-        const p = summariseRuns(xs.map((x, i) => run(i, [x], undefined, "m")), "m", "train")[0]!;
+        const p = summarizeEpochs(xs.map((x, i) => run(i, [x], undefined, "m")), "m", "train")[0]!;
         expect(p.n).toBe(xs.length);
         expect(p.min).toBeLessThanOrEqual(p.mean);
         expect(p.mean).toBeLessThanOrEqual(p.max);
@@ -172,7 +172,7 @@ describe("summariseRuns", () => {
         const n = xs.length;
         const sumSq = xs.reduce((s, x) => s + x * x, 0);
         expectClose((n - 1) * p.sd * p.sd, Math.max(0, sumSq - n * p.mean * p.mean), 1e-9 * (sumSq + 1), "sd identity");
-        const q = summariseRuns(xs.map((x, i) => run(i, [x + c], undefined, "m")), "m", "train")[0]!;
+        const q = summarizeEpochs(xs.map((x, i) => run(i, [x + c], undefined, "m")), "m", "train")[0]!;
         expectClose(q.mean, p.mean + c, 1e-9 * (Math.abs(p.mean) + Math.abs(c) + 1e3), "shifted mean");
         expectClose(q.sd, p.sd, 1e-9 * (p.sd + 1e3), "shifted sd");
         expect([q.min, q.max]).toEqual([p.min + c, p.max + c]);
@@ -183,18 +183,18 @@ describe("summariseRuns", () => {
 
   it("avoids overflow and underflow at the ends of the double range: s·(1, 1/2, 1/4) has mean 7s/12 and sd s·sqrt(21)/12 (closed form)", () => {
     for (const s of [Number.MAX_VALUE, 1e-200]) {
-      const p = summariseRuns([1, 0.5, 0.25].map((f, i) => run(i, [s * f], undefined, "m")), "m", "train")[0]!;
+      const p = summarizeEpochs([1, 0.5, 0.25].map((f, i) => run(i, [s * f], undefined, "m")), "m", "train")[0]!;
       expectClose(p.mean / s, 7 / 12, 4 * EPS64, `mean / s at s = ${s}`);
       expectClose(p.sd / s, Math.sqrt(21) / 12, 8 * EPS64, `sd / s at s = ${s}`);
     }
   });
 
   it("rejects an empty list, a bad split and a non-finite value", () => {
-    expect(() => summariseRuns([], "sse", "train")).toThrow(expect.objectContaining({ code: "invalid_parameter", path: "runs" }));
-    expect(() => summariseRuns([run(1, [1])], "sse", "both" as "train")).toThrow(expect.objectContaining({ path: "split" }));
+    expect(() => summarizeEpochs([], "sse", "train")).toThrow(expect.objectContaining({ code: "invalid_parameter", path: "runs" }));
+    expect(() => summarizeEpochs([run(1, [1])], "sse", "both" as "train")).toThrow(expect.objectContaining({ path: "split" }));
     const r = run(1, [1]);
     const bad: Results = { ...r, epochs: [{ ...r.epochs[0]!, train: { sse: Infinity } }] };
-    expect(() => summariseRuns([bad], "sse", "train")).toThrow(expect.objectContaining({ path: "runs[0].epochs[0].train.sse" }));
+    expect(() => summarizeEpochs([bad], "sse", "train")).toThrow(expect.objectContaining({ path: "runs[0].epochs[0].train.sse" }));
   });
 });
 

@@ -55,7 +55,7 @@ describe("readResults", () => {
     expect(problem(bad, "f").path).toBe("f:line 4");
   });
 
-  it("reports a line that is not JSON with its number, the expectation and an excerpt of what was found", () => {
+  it("reports a line that is not JSON with its number, what was expected and an excerpt of what was found", () => {
     const e = problem(jsonl(header, epoch(1, 0.5), '{"kind":"epoch","epoch":2,"seconds":0.1', epoch(3, 0.2)));
     expect(e.code).toBe("parse_error");
     expect(e.path).toBe("run.jsonl:line 3");

@@ -1,6 +1,6 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
-import { createRandom, RandomStream, fillUniform, fillNormal, fillGlorotUniform, fillGlorotNormal, initialise, EbbflowError } from "../../src/index.js";
+import { createRandom, RandomStream, fillUniform, fillNormal, fillGlorotUniform, fillGlorotNormal, initialize, EbbflowError } from "../../src/index.js";
 import { check } from "../helpers/property.js";
 
 const draw = (s: RandomStream, n: number) => Array.from({ length: n }, () => s.uniform());
@@ -83,7 +83,7 @@ describe("weight initialisers", () => {
     expect(Math.abs(n.reduce((a, b) => a + b, 0) / n.length - 2)).toBeLessThan(0.02);
     const u = fillUniform(new Float64Array(1000), createRandom(4), -3, -1);
     expect(u.every((v) => v >= -3 && v < -1)).toBe(true);
-    expect(Array.from(initialise(new Float64Array(3), { kind: "constant", value: 0.25 }, createRandom(1), 1, 1))).toEqual([0.25, 0.25, 0.25]);
+    expect(Array.from(initialize(new Float64Array(3), { kind: "constant", value: 0.25 }, createRandom(1), 1, 1))).toEqual([0.25, 0.25, 0.25]);
   });
 
   it("bad parameters are refused with the parameter's name", () => {

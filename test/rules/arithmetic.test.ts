@@ -1,6 +1,8 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
-import { buildNetwork, createRule, ParameterDelta, Snapshot, generecFromSnapshots, parseRule, Settler, allocate } from "../../src/index.js";
+import { buildNetwork, createRule, ParameterDelta, Snapshot, parseRule, Settler } from "../../src/index.js";
+import { generecFromSnapshots } from "../../src/rules/contrastive.js";
+import { allocate } from "../../src/types/index.js";
 import { check } from "../helpers/property.js";
 import { expectClose } from "../helpers/tolerance.js";
 

@@ -137,7 +137,7 @@ describe("constraints and overrides", () => {
       { rule: "generec", variant: "midpoint", rate: 0.1 },
       { rule: "xie-seung", rate: 0.1 },
       { rule: "eqprop", beta: 0.2, rate: 0.1, mode: "symmetric" },
-      { rule: "calcium", rate: 0.1, threshold: "mix" },
+      { rule: "calcium", rate: 0.1, threshold: "blend" },
       { rule: "bcm", rate: 0.01 },
       { rule: "feedback-alignment", rate: 0.1 },
       { rule: "direct-feedback-alignment", rate: 0.1 },

@@ -36,7 +36,7 @@ const rules: [string, RuleConfigInput, number][] = [
   ["CHL", { rule: "chl", rate: 0.5 }, 0],
   ["GeneRec", { rule: "generec", rate: 1 }, 0],
   ["EqProp", { rule: "eqprop", beta: 0.5, rate: 2 }, 0],
-  // the calcium curve gives no change at zero coactivity, so an outcome of exactly 0 cannot drive depression:
+  // the calcium curve gives no change at zero coactivity, so a clamped activity of exactly 0 cannot drive depression:
   // label 0 is clamped as a low activity of 0.05 instead (and label 1 as 0.95)
   ["sliding-threshold calcium (phases)", { rule: "calcium", rate: 1 }, 0.05],
   ["sliding-threshold calcium (continuous traces)", { rule: "calcium", rate: 1, trough: 0.02, timing: "continuous" }, 0.05],

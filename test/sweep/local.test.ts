@@ -50,7 +50,7 @@ describe("the local sweep runner", () => {
 
   it("gives the same bits on worker threads as in the main process", async () => {
     const seen: number[] = [];
-    const report = await runSweepLocally(plan, { out: path.join(dir, "threads"), workers: 2, onOutcome: (o) => seen.push(o.index) });
+    const report = await runSweepLocally(plan, { out: path.join(dir, "threads"), workers: 2, onRunDone: (o) => seen.push(o.index) });
     expect(report.finished).toBe(4);
     expect(seen.sort()).toEqual([0, 1, 2, 3]);
     expect(fingerprint(path.join(dir, "threads"), plan)).toEqual(reference);
@@ -83,7 +83,7 @@ describe("the local sweep runner", () => {
     const again = cli(["sweep", "run", "strip.sweep.json", "--workers", "2", "--out", out, "--json"], dir);
     expect(again.status, again.stderr).toBe(0);
     const report = JSON.parse(again.stdout) as LocalSweepReport;
-    for (const o of report.outcomes) {
+    for (const o of report.runs) {
       const p = before[o.index]!;
       if (p.finished) expect(o.status).toBe("skipped");
       else {
@@ -91,7 +91,7 @@ describe("the local sweep runner", () => {
         expect(o.resumedFrom, `run #${o.index} resumes from its checkpoint`).toBe(p.checkpointEpoch);
       }
     }
-    expect(report.outcomes.some((o) => o.resumedFrom > 0)).toBe(true);
+    expect(report.runs.some((o) => o.resumedFrom > 0)).toBe(true);
     expect(fingerprint(out, plan)).toEqual(reference);
   });
 

@@ -104,8 +104,8 @@ describe.skipIf(!slurm.ok && !required)("sweeps on a Slurm cluster (one job arra
     const local = path.join(dir, "local");
     for (const index of [3, 7]) {
       const run = plan.runs[index]!;
-      const outcome = await executeRun({ dir: local, run, baseDir: dir, checkpointEvery: 4 });
-      expect(outcome.status).toBe("finished");
+      const runReport = await executeRun({ dir: local, run, baseDir: dir, checkpointEvery: 4 });
+      expect(runReport.status).toBe("finished");
       expect(modelAndEpochs(path.join(local, "runs", run.id))).toEqual(modelAndEpochs(path.join(out, "runs", run.id)));
     }
   });

@@ -2,7 +2,8 @@ import { describe, it, expect } from "vitest";
 import { mkdtempSync } from "node:fs";
 import { tmpdir } from "node:os";
 import path from "node:path";
-import { buildNetwork, Trainer, xorDataset, randomAssociation, scheduleFactor, accumulateMetrics, MetricSums, parseTraining, EbbflowError, type NetworkSpecInput, type RuleConfigInput } from "../../src/index.js";
+import { buildNetwork, Trainer, xorDataset, randomAssociation, scheduleFactor, parseTraining, EbbflowError, type NetworkSpecInput, type RuleConfigInput } from "../../src/index.js";
+import { accumulateMetrics, MetricSums } from "../../src/train/metrics.js";
 import { saveCheckpoint, loadCheckpoint } from "../../src/node/index.js";
 import { expectClose } from "../helpers/tolerance.js";
 
@@ -114,7 +115,7 @@ describe("the training loop", () => {
   });
 
   it("resuming is bit-identical for the sliding-threshold rule with a BCM-like threshold (running averages saved)", async () => {
-    await resumeCase({ rule: "calcium", rate: 0.2, threshold: "mix" }, "rate", false);
+    await resumeCase({ rule: "calcium", rate: 0.2, threshold: "blend" }, "rate", false);
   });
 
   it("early stopping ends training when the held-out error stops improving", () => {

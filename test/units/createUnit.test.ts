@@ -13,7 +13,7 @@ import {
   linear,
   logistic,
   logisticSlope,
-  normaliseUnitSpec,
+  normalizeUnitSpec,
   relu,
   reluSlope,
   saturating,
@@ -196,8 +196,8 @@ describe("createUnit: normalised spec", () => {
       range: [1 - 18 - 4, 1 + 18 + 4],
     });
   });
-  it("normaliseUnitSpec gives the same normalised spec without building a unit", () => {
-    expect(normaliseUnitSpec({ kind: "saturating", threshold: 2 })).toEqual({ kind: "saturating", gain: 1, threshold: 2 });
+  it("normalizeUnitSpec gives the same normalised spec without building a unit", () => {
+    expect(normalizeUnitSpec({ kind: "saturating", threshold: 2 })).toEqual({ kind: "saturating", gain: 1, threshold: 2 });
   });
   it("accepts specs whose optional fields are typed `| undefined` (config data)", () => {
     type Data = { kind: "logistic"; gain?: number | undefined; offset?: number | undefined } | { kind: "noisy"; base: { kind: "relu" }; sigma: number; range?: [number, number] | undefined };

@@ -5,7 +5,7 @@
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
 import { gaussLegendre } from "../../src/units/gaussian.js";
-import { gaussianExpectation, hardSigmoid, relu } from "../../src/units/index.js";
+import { gaussianAverage, hardSigmoid, relu } from "../../src/units/index.js";
 import { check } from "../helpers/property.js";
 import { expectClose } from "../helpers/tolerance.js";
 import { normalCdf, noisyReluClosedForm } from "./normalReference.js";
@@ -38,13 +38,13 @@ describe("gaussLegendre", () => {
   });
 });
 
-describe("gaussianExpectation", () => {
+describe("gaussianAverage", () => {
   it("gives the standard normal moments E[Z^2k] = (2k-1)!! (textbook)", () => {
     const doubleFactorial = [1, 1, 3, 15, 105, 945, 10395];
     for (let k = 0; k < doubleFactorial.length - 1; k++) {
-      expectClose(gaussianExpectation((t) => t ** (2 * k), 0, 1), doubleFactorial[k] as number, 1e-14, `k=${k}`);
+      expectClose(gaussianAverage((t) => t ** (2 * k), 0, 1), doubleFactorial[k] as number, 1e-14, `k=${k}`);
       // odd moments vanish; rounding scales with the size of the integrand, E[Z^(2k+2)]
-      expectClose(gaussianExpectation((t) => t ** (2 * k + 1), 0, 1), 0, 1e-14 * (doubleFactorial[k + 1] as number), `odd k=${k}`);
+      expectClose(gaussianAverage((t) => t ** (2 * k + 1), 0, 1), 0, 1e-14 * (doubleFactorial[k + 1] as number), `odd k=${k}`);
     }
   });
   // |a sigma| <= 2 keeps the shifted peak 8 standard deviations inside the window [-10, 10]
@@ -52,14 +52,14 @@ describe("gaussianExpectation", () => {
     check(
       fc.property(fc.double({ min: -1, max: 1, noNaN: true }), fc.double({ min: -3, max: 3, noNaN: true }), fc.double({ min: 0.05, max: 2, noNaN: true }), (a, x, s) => {
         const want = Math.exp(a * x + (a * a * s * s) / 2);
-        expectClose(gaussianExpectation((t) => Math.exp(a * t), x, s) / want, 1, 1e-13, `a=${a} x=${x} s=${s}`);
+        expectClose(gaussianAverage((t) => Math.exp(a * t), x, s) / want, 1, 1e-13, `a=${a} x=${x} s=${s}`);
       }),
     );
   });
   it("averages the rectifier to x Phi(x/sigma) + sigma phi(x/sigma) (common practice)", () => {
     check(
       fc.property(fc.double({ min: -20, max: 20, noNaN: true }), fc.double({ min: 0.01, max: 5, noNaN: true }), (x, s) => {
-        expectClose(gaussianExpectation(relu, x, s, reluKink), noisyReluClosedForm(x, s), 1e-14, `x=${x} s=${s}`);
+        expectClose(gaussianAverage(relu, x, s, reluKink), noisyReluClosedForm(x, s), 1e-14, `x=${x} s=${s}`);
       }),
       200,
     );
@@ -67,7 +67,7 @@ describe("gaussianExpectation", () => {
   it("averages a unit step to Phi(x/sigma), splitting at the jump (textbook)", () => {
     const step = (t: number) => (t >= 0 ? 1 : 0);
     for (const x of [-3, -0.7, 0, 0.2, 1.5]) {
-      expectClose(gaussianExpectation(step, x, 0.8, [{ at: 0, width: 0, kink: true }]), normalCdf(x / 0.8), 1e-15, `x=${x}`);
+      expectClose(gaussianAverage(step, x, 0.8, [{ at: 0, width: 0, kink: true }]), normalCdf(x / 0.8), 1e-15, `x=${x}`);
     }
   });
   it("averages the hard sigmoid to R(x) - R(x-1), R the averaged rectifier, since clip(t,0,1) = relu(t) - relu(t-1) [DER]", () => {
@@ -77,15 +77,15 @@ describe("gaussianExpectation", () => {
     ];
     for (const x of [-2, -0.3, 0, 0.5, 1, 1.7, 4]) {
       const want = noisyReluClosedForm(x, 0.4) - noisyReluClosedForm(x - 1, 0.4);
-      expectClose(gaussianExpectation(hardSigmoid, x, 0.4, kinks), want, 1e-15, `x=${x}`);
+      expectClose(gaussianAverage(hardSigmoid, x, 0.4, kinks), want, 1e-15, `x=${x}`);
     }
   });
   it("resolves a logistic far steeper than the noise when told its width (E = 1/2 at the centre, = Phi(x/sigma) in the step limit)", () => {
     const g = 1e6;
     const f = (t: number) => 1 / (1 + Math.exp(-g * t));
-    expectClose(gaussianExpectation(f, 0, 1, [{ at: 0, width: 1 / g }]), 0.5, 1e-14);
+    expectClose(gaussianAverage(f, 0, 1, [{ at: 0, width: 1 / g }]), 0.5, 1e-14);
     // E[logistic(g t)] - Phi(x) ~ -phi'(x) pi^2 / (6 g^2), about 4e-13 for g = 1e6
     // [DER: the error logistic(g t) - step(t) is odd with first moment -pi^2 / (6 g^2)]
-    for (const x of [-2, -0.5, 0.3, 1.1]) expectClose(gaussianExpectation(f, x, 1, [{ at: 0, width: 1 / g }]), normalCdf(x), 1e-11, `x=${x}`);
+    for (const x of [-2, -0.5, 0.3, 1.1]) expectClose(gaussianAverage(f, x, 1, [{ at: 0, width: 1 / g }]), normalCdf(x), 1e-11, `x=${x}`);
   });
 });

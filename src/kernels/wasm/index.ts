@@ -1,11 +1,11 @@
 /**
- * WebAssembly SIMD kernels behind one backend interface.
+ * WebAssembly SIMD kernels behind the kernel backend interface.
  *
  * The kernels of the kernels module exist twice: as TypeScript loops
- * ({@link typescriptBackend}) and as AssemblyScript compiled to WebAssembly
+ * (`typescriptBackend`) and as AssemblyScript compiled to WebAssembly
  * with 128-bit SIMD (f32x4 / f64x2 lanes), in a plain build and a build with
  * relaxed-SIMD fused multiply-adds. {@link selectBackend} picks one; both
- * implement {@link KernelBackend}, so code written against the interface runs
+ * implement `KernelBackend`, so code written against the interface runs
  * on either.
  *
  * The WASM backends compute on arrays in their own WebAssembly memory: get
@@ -14,7 +14,6 @@
  * copy (the slow path). See {@link WasmKernelBackend} for memory growth.
  * @module
  */
-export { typescriptBackend, type BackendName, type KernelBackend } from "./backend.js";
 export type { WasmBackendOptions, WasmKernelBackend, WasmSharedMemory } from "./wasm-backend.js";
 export {
   loadWasmKernels,
@@ -25,4 +24,3 @@ export {
   wasmSimdSupported,
   type BackendChoice,
 } from "./loader.js";
-export { fillUnit, type UnitFillKind } from "./units.js";

@@ -13,7 +13,8 @@
  * @module
  */
 import { EbbflowError, fail } from "../../errors/index.js";
-import { typescriptBackend, type KernelBackend } from "./backend.js";
+import type { KernelBackend } from "../backend.js";
+import { typescriptBackend } from "../typescript-backend.js";
 import { buildValidates, compileAsync, compileSync, wasmGlobal, type WasmBuild } from "./platform.js";
 import { createWasmBackend, type WasmBackendOptions, type WasmKernelBackend } from "./wasm-backend.js";
 

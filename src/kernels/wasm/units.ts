@@ -1,47 +1,14 @@
 /**
- * Unit (activation) functions on the WebAssembly SIMD kernels: the optional
- * `unitFill` method of a kernel backend, and {@link fillUnit}, which uses it
- * when it can and the unit's own TypeScript fill otherwise.
- *
- * Accuracy against the TypeScript units (`createUnit(spec).fill`/`fillSlope`,
- * which evaluate in float64 and round once to the storage type):
- * - relu, hard sigmoid, linear and their slopes: bit-identical (including -0
- *   and NaN).
- * - logistic, tanh and their slopes, float64: within 1e-14 relative (measured
- *   at most 6.1e-16), or within 2^-1022 absolutely where the result is subnormal
- *   (where `Math.exp` overflows, the TypeScript logistic gives 0 while the
- *   kernel keeps the subnormal tail).
- * - float32: within 6 float32 ulps of the TypeScript result (measured at most
- *   5), or within 2^-126 absolutely for subnormal results.
- * - Exact: logistic(offset) = 0.5, tanh(0) = 0, tanh odd (sign from the
- *   input, magnitude from |x|), saturation to exactly 0 and 1 at ±Infinity and
- *   far tails, NaN in gives NaN out.
- *
- * exp is vectorised by Cody-Waite range reduction and a polynomial (Cody &
- * Waite 1980, "Software Manual for the Elementary Functions"; Cephes Math
- * Library expf, S. L. Moshier 1984-1992, for float32; a degree-13 Taylor
- * polynomial for float64): see assembly/units.ts.
+ * The unit methods of a WebAssembly backend (`unitFill`, `rateStep`) over the SIMD unit kernels;
+ * the kernel codes come from the declaration in assembly/layout.mjs (the generated layout).
  * @module
  */
 import type { FloatArray } from "../../types/index.js";
-import type { UnitFunction } from "../../units/spec.js";
-import type { KernelBackend } from "./backend.js";
+import type { KernelBackend } from "../backend.js";
+import { UNIT_KERNEL_KINDS, type KernelExports, type UnitKernelKind } from "./generated/layout.js";
 
-/**
- * Unit kinds the SIMD kernels evaluate (the kinds of `UnitSpec` with a
- * closed form; softplus, saturating and noisy units are not among them).
- * @category Kernels
- */
-export type UnitFillKind = "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear";
-
-/** Kind index of the WebAssembly export (code = index * 2 + slope). */
-const KIND_INDEX: Readonly<Record<UnitFillKind, number>> = Object.freeze({
-  logistic: 0,
-  tanh: 1,
-  relu: 2,
-  "hard-sigmoid": 3,
-  linear: 4,
-});
+/** Kind index of the WebAssembly unit kernels (code = index * 2 + slope), from the declaration. */
+const KIND_INDEX: ReadonlyMap<string, number> = new Map(UNIT_KERNEL_KINDS.map((kind: UnitKernelKind, i: number) => [kind, i]));
 
 /**
  * The code of the WebAssembly export `unitFillF32`/`unitFillF64`
@@ -49,15 +16,11 @@ const KIND_INDEX: Readonly<Record<UnitFillKind, number>> = Object.freeze({
  * @internal
  */
 export function unitFillCode(kind: string, slope: boolean): number {
-  const k = (KIND_INDEX as Readonly<Record<string, number>>)[kind];
+  const k = KIND_INDEX.get(kind);
   return k === undefined ? -1 : k * 2 + (slope ? 1 : 0);
 }
 
-/** The WebAssembly exports of the fused rate step (byte offsets, element count; t = 0: no target). */
-interface RateStepExports {
-  rateStepF32(code: number, gain: number, offset: number, x: number, nx: number, t: number, beta: number, dt: number, bound: number, n: number): number;
-  rateStepF64(code: number, gain: number, offset: number, x: number, nx: number, t: number, beta: number, dt: number, bound: number, n: number): number;
-}
+type RateStepExports = Pick<KernelExports, "rateStepF32" | "rateStepF64">;
 
 /**
  * Builds the `rateStep` method of a WASM backend: arena views of one dtype only, `n` within each,
@@ -82,11 +45,7 @@ export function createRateStep(X: RateStepExports, own: (b: ArrayBufferLike) => 
   };
 }
 
-/** The two WebAssembly exports a unit fill calls (byte offsets, element count). */
-interface UnitFillExports {
-  unitFillF32(code: number, gain: number, offset: number, out: number, x: number, n: number): void;
-  unitFillF64(code: number, gain: number, offset: number, out: number, x: number, n: number): void;
-}
+type UnitFillExports = Pick<KernelExports, "unitFillF32" | "unitFillF64">;
 
 /**
  * Builds the `unitFill` method of a WASM backend: the fast path only (both
@@ -115,58 +74,3 @@ export function createUnitFill(
   };
 }
 
-/**
- * `out[i] = f(x[i])` (or `f'(x[i])` when `slope`) for `i < n`: on the
- * backend's SIMD kernels when it has a `unitFill` that handles the call
- * (a logistic, tanh, relu, hard-sigmoid or linear unit on arena views), else
- * with the unit's own `fill`/`fillSlope`. Allocates nothing. Accuracy: see
- * the module notes (bit-identical for the piecewise-linear units; within
- * 1e-14 relative in float64 and 6 float32 ulps in float32 for logistic and tanh).
- * @param backend The kernel backend (the TypeScript backend always falls back).
- * @param unit A unit made by `createUnit`.
- * @param slope Whether to write the slope `f'` instead of the rate `f`.
- * @param out Output array; may be `x` (in place).
- * @param x Net inputs.
- * @param n Element count (default `x.length`).
- * @returns `out`.
- * @throws EbbflowError from the unit's fill when it runs (`invalid_parameter`
- *   at `n`, `shape_mismatch` at `x`/`out`); the kernel path leaves bad counts
- *   to it.
- * @category Kernels
- * @example
- * ```ts
- * const be = loadWasmKernelsSync();
- * const x = be.allocate("float32", 3);
- * x.set([-100, 0, 100]);
- * fillUnit(be, createUnit({ kind: "logistic" }), false, x, x); // Float32Array [0, 0.5, 1]
- * ```
- */
-export function fillUnit<T extends FloatArray>(backend: KernelBackend, unit: UnitFunction, slope: boolean, out: T, x: FloatArray, n?: number): T {
-  const run = backend.unitFill;
-  // with n absent the unit requires out.length >= x.length: leave that error to it
-  if (run !== undefined && (n !== undefined || out.length >= x.length)) {
-    const k = unitKernelArgs(unit);
-    if (k !== null && run(k.kind, slope, k.gain, k.offset, out, x, n ?? x.length)) return out;
-  }
-  return slope ? unit.fillSlope(out, x, n) : unit.fill(out, x, n);
-}
-
-/**
- * How the SIMD kernels (`unitFill`, `rateStep`) take a unit: its kind with the logistic's gain and
- * offset (1 and 0 for the other kinds), or null for a unit they do not evaluate.
- * @internal
- */
-export function unitKernelArgs(unit: UnitFunction): { kind: UnitFillKind; gain: number; offset: number } | null {
-  const spec = unit.spec;
-  switch (spec.kind) {
-    case "logistic":
-      return { kind: "logistic", gain: spec.gain ?? 1, offset: spec.offset ?? 0 };
-    case "tanh":
-    case "relu":
-    case "hard-sigmoid":
-    case "linear":
-      return { kind: spec.kind, gain: 1, offset: 0 };
-    default:
-      return null;
-  }
-}

@@ -13,7 +13,8 @@ import { buildNetwork, type Network } from "../../network/network.js";
 import type { NetworkSpec, NetworkSpecInput } from "../../network/spec.js";
 import { createRule } from "../../rules/index.js";
 import { createRandom } from "../../random/index.js";
-import { typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
+import type { KernelBackend } from "../../kernels/backend.js";
+import { typescriptBackend } from "../../kernels/typescript-backend.js";
 import { loadWasmKernelsSync, wasmRelaxedSimdSupported, wasmSimdSupported } from "../../kernels/wasm/loader.js";
 import { ParallelRule } from "../parallel/pool.js";
 import { estimatedPeakGflops, machineFingerprint, type MachineFingerprint } from "./machine.js";
@@ -293,7 +294,7 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
     created: new Date().toISOString(),
     machine,
     peakGflops: peak,
-    workload: "EqProp 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per training step (shared by both phases)",
+    workload: "eqprop (one-sided) on 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per training step (shared by both phases)",
     figures,
     kernels,
     memory,

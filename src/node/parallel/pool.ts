@@ -22,11 +22,12 @@ import { existsSync } from "node:fs";
 import { MessageChannel, receiveMessageOnPort, type MessagePort } from "node:worker_threads";
 import { Piscina } from "piscina";
 import { EbbflowError, fail, requireFinite } from "../../errors/index.js";
-import { buildNetwork, parameterBuffers, type Network } from "../../network/network.js";
+import { buildNetwork, parameterBuffers, parameterSlots, slotArray, type Network } from "../../network/network.js";
 import type { NetworkSpec } from "../../network/spec.js";
-import { applyDelta, ParameterDelta, parseRule, type RuleConfig, type RuleConfigInput, type Batch } from "../../rules/index.js";
+import { applyDelta, builtinRegistry, contrastRows, ParameterDelta, type AnyRuleConfig, type Batch, type ContrastPlan, type ContrastScratch, type PhaseArrays, type Registry, type RuleConfigInput } from "../../rules/index.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
-import { checkAllocation, typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
+import { checkAllocation, type KernelBackend } from "../../kernels/backend.js";
+import { typescriptBackend } from "../../kernels/typescript-backend.js";
 import { loadWasmKernelsSync } from "../../kernels/wasm/loader.js";
 import type { WasmSharedMemory } from "../../kernels/wasm/wasm-backend.js";
 import {
@@ -51,7 +52,7 @@ import {
   controlViews,
   whenEqual,
 } from "./sync.js";
-import { contrastPlan, contrastRows, type ContrastPlan, type ContrastScratch, type PhaseArrays } from "./contrast.js";
+import { rowPlan } from "./contrast.js";
 import type { BatchLayout, FailureMessage, LayoutMessage, LoopTask, SessionSetup, SharedArray } from "./protocol.js";
 
 /** The TypeScript kernels allocating in SharedArrayBuffers, so the workers see every array of the network. */
@@ -73,13 +74,15 @@ function workerFile(): string {
   return built;
 }
 
-/** Rules whose internal state changes from batch to batch cannot be split across workers. */
-function checkRule(rule: RuleConfig): void {
-  const stateful =
-    rule.rule === "bcm" ||
-    (rule.rule === "calcium" && rule.threshold !== "error") ||
-    (rule.rule === "eqprop" && rule.mode === "random-sign");
-  if (stateful) fail("unsupported", "rule", "a rule without state that changes per batch for multi-core training (not bcm, calcium with a bcm or mix threshold, or eqprop random-sign)", rule.rule);
+/** Rules whose internal state changes from batch to batch cannot be split across workers (their descriptor says so). */
+function checkRule(net: Network, rule: AnyRuleConfig, registry: Registry): void {
+  const d = registry.rule(rule.rule);
+  for (const l of net.layers) {
+    const kind = l.unit.spec.kind;
+    if (!registry.portableUnit(kind)) fail("unsupported", `layers[${l.index}].unit.kind`, `a unit kind the worker threads can import: register ${JSON.stringify(kind)} from its module with loadPlugins and pass that registry`, kind);
+  }
+  if (!registry.portable(rule.rule)) fail("unsupported", "rule", `a rule the worker threads can import: register ${JSON.stringify(rule.rule)} from its module with loadPlugins (a descriptor added in code only is not seen by other threads)`, rule.rule);
+  if ((d.split?.(rule, net) ?? "none") === "none") fail("unsupported", "rule", `a rule without state that changes per batch for multi-core training (this config of ${d.label(rule)} keeps such state: its descriptor's split is "none")`, rule.rule);
 }
 
 /** The declaration without explicit weight values: the workers take the parameters from shared memory. */
@@ -116,7 +119,7 @@ export class ParallelRule {
   /** The network whose parameters live in shared memory. */
   readonly net: Network;
   /** The rule, with its defaults filled in. */
-  readonly config: RuleConfig;
+  readonly config: AnyRuleConfig;
   /** Number of worker threads. */
   readonly workers: number;
   /** The kernels the workers compute with. */
@@ -154,7 +157,7 @@ export class ParallelRule {
   private current: Promise<unknown> | null = null;
   private closed = false;
 
-  private constructor(net: Network, config: RuleConfig, workers: number, kernels: "typescript" | "wasm") {
+  private constructor(net: Network, config: AnyRuleConfig, workers: number, kernels: "typescript" | "wasm", registry: Registry) {
     this.kernels = kernels;
     this.config = config;
     this.workers = workers;
@@ -176,17 +179,18 @@ export class ParallelRule {
       backend = sharedTypescript;
       this.describe = (a) => ({ buffer: a.buffer as SharedArrayBuffer, byteOffset: a.byteOffset, length: a.length });
     }
-    this.net = buildNetwork(net.spec, { backend });
+    this.net = buildNetwork(net.spec, { backend, units: net.units });
     const src = parameterBuffers(net);
     const dst = parameterBuffers(this.net);
     dst.forEach((a, i) => a.set(src[i] as FloatArray));
-    this.plan = contrastPlan(this.net, config);
+    this.plan = rowPlan(this.net, config, registry);
     this.split = this.plan === null ? "slices" : "rows";
     this.slotViews = this.split === "slices" ? Array.from({ length: workers }, () => dst.map((a) => this.net.allocate(a.length))) : [];
     this.delta = new ParameterDelta(this.net);
     this.setup = {
       spec: withoutWeights(this.net.spec),
       rule: config,
+      plugins: registry.plugins,
       kernels,
       memory,
       parameters: dst.map(this.describe),
@@ -234,18 +238,21 @@ export class ParallelRule {
 
   /**
    * Starts `workers` threads for `rule` on a shared-memory copy of `net`.
-   * @param options - `kernels`: the kernels of the workers (default: the kind `net` uses).
+   * @param options - `kernels`: the kernels of the workers (default: the kind `net` uses); `registry`: where
+   * the rule is looked up (default: the built-in rules). A rule of your own must come from a module
+   * recorded in the registry (`loadPlugins`), which every worker imports.
    * @throws EbbflowError `invalid_parameter` (path `workers`) for a count that is not an integer
-   * >= 1; `unsupported` for a rule whose state changes per batch or a network without exactly one input
-   * and one output layer; `invalid_config` for a bad rule.
+   * >= 1; `unsupported` for a rule whose state changes per batch (its descriptor's split is "none") or a
+   * network without exactly one input and one output layer; `invalid_config` for a bad rule.
    */
-  static async create(net: Network, rule: RuleConfigInput, workers: number, options: { kernels?: "typescript" | "wasm" | undefined } = {}): Promise<ParallelRule> {
+  static async create(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>>, workers: number, options: { kernels?: "typescript" | "wasm" | undefined; registry?: Registry | undefined } = {}): Promise<ParallelRule> {
     if (!Number.isInteger(workers) || workers < 1) fail("invalid_parameter", "workers", "an integer >= 1", workers);
-    const config = parseRule(rule);
-    checkRule(config);
+    const registry = options.registry ?? builtinRegistry;
+    const config = registry.parseRule(rule);
+    checkRule(net, config, registry);
     // by default the workers use the same kind of kernels as the network they were given
     const kernels = options.kernels ?? (net.kernels.name === "typescript" ? "typescript" : "wasm");
-    const par = new ParallelRule(net, config, workers, kernels);
+    const par = new ParallelRule(net, config, workers, kernels, registry);
     await par.start();
     return par;
   }
@@ -354,11 +361,8 @@ export class ParallelRule {
   private reduceSlices(L: MainLayout, out: ParameterDelta): void {
     out.clear();
     const K = this.net.kernels;
-    const targetsOut: FloatArray[] = [...out.biases];
-    this.net.connections.forEach((c) => {
-      targetsOut.push(out.weights[c.index] as FloatArray);
-      if (c.feedback.kind === "separate") targetsOut.push(out.feedback[c.index] ?? new Float64Array(0));
-    });
+    // the slices' change arrays follow the parameters' order (parameterSlots); fixed feedback has no change
+    const targetsOut = parameterSlots(this.net).map((slot) => slotArray(out, slot) ?? new Float64Array(0));
     const { batch: B, slices } = L.layout;
     for (let i = 0; i < slices; i++) {
       const views = this.slotViews[i] as FloatArray[];

@@ -7,7 +7,7 @@
 import type { MessagePort } from "node:worker_threads";
 import type { Issue } from "../../errors/index.js";
 import type { NetworkSpec } from "../../network/spec.js";
-import type { RuleConfig } from "../../rules/config.js";
+import type { AnyRuleConfig } from "../../rules/registry.js";
 import type { WasmSharedMemory } from "../../kernels/wasm/wasm-backend.js";
 
 /**
@@ -24,7 +24,9 @@ export interface SharedArray {
 export interface SessionSetup {
   /** The network's declaration, without explicit weight values (the parameters are shared). */
   readonly spec: NetworkSpec;
-  readonly rule: RuleConfig;
+  readonly rule: AnyRuleConfig;
+  /** Modules defining rules of the user's own (the registry's plugins), imported by every worker. */
+  readonly plugins: readonly string[];
   /** "wasm": the worker attaches WebAssembly kernels to `memory`, where every shared array lives. */
   readonly kernels: "typescript" | "wasm";
   readonly memory?: WasmSharedMemory | undefined;

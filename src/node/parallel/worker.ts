@@ -13,11 +13,13 @@
  */
 import { receiveMessageOnPort, type MessagePort } from "node:worker_threads";
 import { EbbflowError, fail } from "../../errors/index.js";
-import { buildNetwork, type Network } from "../../network/network.js";
+import { buildNetwork, parameterSlots, slotArray, type Network } from "../../network/network.js";
 import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../../network/settle.js";
-import { createRule, ParameterDelta, type LearningRule } from "../../rules/index.js";
+import { contrastRows, ParameterDelta, provablyFinite, publishParameterMaxima, publishPhases, settlePlanPhases, type ContrastPlan, type ContrastScratch, type LearningRule, type PhaseArrays, type Registry } from "../../rules/index.js";
+import { loadPlugins } from "../plugins.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
-import { typescriptBackend, type KernelBackend } from "../../kernels/wasm/backend.js";
+import type { KernelBackend } from "../../kernels/backend.js";
+import { typescriptBackend } from "../../kernels/typescript-backend.js";
 import { loadWasmKernelsSync } from "../../kernels/wasm/loader.js";
 import type { WasmKernelBackend } from "../../kernels/wasm/wasm-backend.js";
 import {
@@ -38,7 +40,7 @@ import {
   readJob,
   waitForChange,
 } from "./sync.js";
-import { contrastPlan, contrastRows, provablyFinite, rowBlock, stat, type ContrastPlan, type ContrastScratch, type PhaseArrays } from "./contrast.js";
+import { rowPlan } from "./contrast.js";
 import type { BatchLayout, FailureMessage, LayoutMessage, LoopTask, SessionSetup, SharedArray } from "./protocol.js";
 
 /** Scratch of the worker's own WebAssembly backend for copies of ordinary arrays (rarely used: everything lives in the memory). */
@@ -82,8 +84,11 @@ class Session {
   /** Row split into a change: views of the change arrays. */
   private deltaArrays: { weights: FloatArray[]; biases: FloatArray[] } | null = null;
 
-  constructor(setup: SessionSetup) {
+  readonly registry: Registry;
+
+  constructor(setup: SessionSetup, registry: Registry) {
     this.setup = setup;
+    this.registry = registry;
     const dtype = setup.spec.dtype;
     let backend: KernelBackend = typescriptBackend;
     if (setup.kernels === "wasm" && setup.memory !== undefined) {
@@ -96,8 +101,8 @@ class Session {
     }
     const params = setup.parameters.map((a) => this.view(a));
     let k = 0;
-    this.net = buildNetwork(setup.spec, { backend, allocate: () => params[k++] as FloatArray, keepValues: true });
-    this.plan = contrastPlan(this.net, setup.rule);
+    this.net = buildNetwork(setup.spec, { backend, allocate: () => params[k++] as FloatArray, keepValues: true, units: registry.units });
+    this.plan = rowPlan(this.net, setup.rule, registry);
   }
 
   /** The views of a layout, reading the layouts posted on `port` until it is there. */
@@ -157,60 +162,14 @@ class Session {
   settleAndPublish(plan: ContrastPlan, job: Job): void {
     const { net } = this;
     const K = net.kernels;
-    const { start, count } = job;
     const v = job.layout;
-    const B = v.arrays.batch;
-    const values = this.sliceValues(job);
-    const { settler, snaps } = this.settlerFor(count, plan.phases.length);
-    let free: Snapshot | undefined;
-    plan.phases.forEach((ph, p) => {
-      // the options the rule passes for this phase (a settler ignores options it does not know)
-      const options: PhaseOptions & { readonly reuseDrive?: boolean | undefined } = {
-        phase: ph.phase,
-        beta: ph.beta,
-        maxSteps: ph.maxSteps,
-        reuseDrive: ph.reuseDrive,
-        inputs: values.inputs,
-        targets: p === 0 ? undefined : values.targets,
-        start: free,
-      };
-      const snap = settler.settle(options, snaps[p]);
-      if (p === 0) free = snap;
-    });
-    const L = net.layers.length;
+    const { settler, snaps } = this.settlerFor(job.count, plan.phases.length);
+    // the phases and options the rule's descriptor gives (the same as the rule settles on one thread)
+    settlePlanPhases(settler, plan.phases, this.sliceValues(job), snaps);
     const stats = v.stats.subarray(job.worker * plan.statsStride, (job.worker + 1) * plan.statsStride);
-    for (let p = 0; p < plan.phases.length; p++) {
-      const act = snaps[p]!.activity;
-      for (const l of net.layers) {
-        if (l.role === "input") continue;
-        const n = l.size;
-        const a = act[l.index] as FloatArray;
-        const byUnit = v.arrays.byUnit[p]![l.index];
-        if (byUnit) {
-          // unit-major: row j holds unit j's activity for every pattern; this slice fills columns [start, start + count)
-          for (let j = 0; j < n; j++) {
-            const row = j * B + start;
-            for (let r = 0; r < count; r++) byUnit[row + r] = a[r * n + j] as number;
-          }
-        }
-        const byPattern = v.arrays.byPattern[p]![l.index];
-        if (byPattern) K.copy(byPattern.subarray(start * n, (start + count) * n), a, count * n);
-        stats[stat.phase(L, p, l.index)] = K.maxAbs(a, count * n);
-      }
-    }
-    const inputSize = v.inputs.length / B;
-    stats[stat.input(plan, L)] = K.maxAbs(v.inputs.subarray(start * inputSize, (start + count) * inputSize));
-    if (job.mode === MODE_ROWS_PARAMETERS) {
-      // this worker's blocks of the parameters (nobody writes them before the barrier)
-      for (const cp of plan.connections) {
-        const [r0, r1] = rowBlock(cp.n, job.worker, job.slices);
-        stats[stat.connection(plan, L, cp.index)] = K.maxAbs(net.connections[cp.index]!.weights.subarray(r0 * cp.m, r1 * cp.m));
-      }
-      for (const bp of plan.biases) {
-        const [j0, j1] = rowBlock(bp.n, job.worker, job.slices);
-        stats[stat.bias(plan, L, net.connections.length, bp.layer)] = K.maxAbs(net.layers[bp.layer]!.bias.subarray(j0, j1));
-      }
-    }
+    publishPhases(K, net, plan, snaps, v.arrays, job.start, job.count, stats);
+    // this worker's blocks of the parameters (nobody writes them before the barrier)
+    if (job.mode === MODE_ROWS_PARAMETERS) publishParameterMaxima(K, net, plan, job.worker, job.slices, stats);
   }
 
   /** Row split: returns the worker's status. */
@@ -236,15 +195,12 @@ class Session {
   /** Slice split: the rule's mean change for the slice, written raw into this worker's change arrays. */
   slice(job: Job): number {
     const { net } = this;
-    this.rule ??= createRule(net, this.setup.rule);
+    this.rule ??= this.registry.createRule(net, this.setup.rule);
     const delta = (this.delta ??= new ParameterDelta(net));
     this.slots ??= (this.setup.slots[job.worker] as SharedArray[]).map((a) => this.view(a));
     this.rule.computeDelta(this.sliceValues(job), delta);
-    const own: FloatArray[] = [...delta.biases];
-    net.connections.forEach((c) => {
-      own.push(delta.weights[c.index] as FloatArray);
-      if (c.feedback.kind === "separate") own.push(delta.feedback[c.index] ?? new Float64Array(0));
-    });
+    // in the parameters' order (parameterSlots), as the main thread reads the slots
+    const own = parameterSlots(net).map((slot) => slotArray(delta, slot) ?? new Float64Array(0));
     own.forEach((src, i) => {
       const dst = this.slots![i] as FloatArray;
       if (src.length === dst.length) net.kernels.copy(dst, src);
@@ -276,9 +232,10 @@ function runJob(s: Session, job: Job, words: Int32Array, port: MessagePort): num
  * The job loop: builds the session, reports ready, then runs slice `worker` of every job until the
  * control word STOP is set.
  */
-export default function jobLoop(task: LoopTask): { readonly stopped: true } {
+export default async function jobLoop(task: LoopTask): Promise<{ readonly stopped: true }> {
   const { words, scale } = controlViews(task.control, task.setup.workers);
-  const s = new Session(task.setup);
+  // the same rules of the user's own as the main thread: the modules recorded in its registry
+  const s = new Session(task.setup, await loadPlugins(task.setup.plugins));
   Atomics.add(words, READY, 1);
   Atomics.notify(words, READY);
   let seen = 0;

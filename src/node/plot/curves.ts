@@ -327,10 +327,10 @@ function summarise(path: string, runs: readonly Results[], metric: string, split
  * @category Plots
  * @example
  * ```ts
- * summariseRuns([a, b, c], "sse", "train")[0]; // { epoch: 1, n: 3, mean: 2, sd: 1, min: 1, max: 3 } for sse 1, 2, 3
+ * summarizeEpochs([a, b, c], "sse", "train")[0]; // { epoch: 1, n: 3, mean: 2, sd: 1, min: 1, max: 3 } for sse 1, 2, 3
  * ```
  */
-export function summariseRuns(runs: readonly Results[], metric: string, split: "train" | "test"): BandPoint[] {
+export function summarizeEpochs(runs: readonly Results[], metric: string, split: "train" | "test"): BandPoint[] {
   requireMetric(metric);
   if (split !== "train" && split !== "test") fail("invalid_parameter", "split", '"train" or "test"', split);
   return summarise("runs", runs, metric, split, false);

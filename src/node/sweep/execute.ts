@@ -15,6 +15,7 @@ import { writeFileAtomic } from "../files.js";
 import { resolveData } from "../sources.js";
 import { claimRunFolder, ensureFolder, isFolderBusy } from "../run/folder.js";
 import { driveRun, findRunStart, restoreTrainer } from "../run/driver.js";
+import { loadPlugins } from "../plugins.js";
 import { readRunProgress, runFiles, type RunFailure } from "./files.js";
 
 /** One run to execute (plain data, so it can be sent to a worker thread). @category Sweeps */
@@ -26,10 +27,12 @@ export interface RunTask {
   readonly baseDir: string;
   /** Epochs between checkpoints. */
   readonly checkpointEvery: number;
+  /** Modules defining rules of the user's own (the plan's `plugins`), imported before the run. */
+  readonly plugins?: readonly string[] | undefined;
 }
 
 /** What became of a run. @category Sweeps */
-export interface RunOutcome {
+export interface RunReport {
   readonly index: number;
   readonly id: string;
   /** `finished` now, `skipped` because it had finished before, `busy` because another process is running it (its folder is locked), or `failed`. */
@@ -49,12 +52,12 @@ function dataSource(source: string, baseDir: string): string {
 
 /**
  * Executes one run of a sweep (see the module notes). Errors do not throw: they are returned in the
- * outcome and recorded in the run's `failure.json`.
+ * report and recorded in the run's `failure.json`.
  * @param task - The run, the sweep folder, the data folder and the checkpoint interval.
- * @returns The outcome.
+ * @returns The run's report.
  * @category Sweeps
  */
-export async function executeRun(task: RunTask): Promise<RunOutcome> {
+export async function executeRun(task: RunTask): Promise<RunReport> {
   const { run } = task;
   const files = runFiles(task.dir, run.id);
   let resumedFrom = 0;
@@ -79,10 +82,11 @@ export async function executeRun(task: RunTask): Promise<RunOutcome> {
       oneHot: config.data.oneHot,
       scale: config.data.scale,
     });
+    const registry = await loadPlugins(task.plugins ?? []);
     // the run's record: its resolved config (its hash is the run's identity) and its place in the sweep
     const record = { ...config, sweepRun: { id: run.id, configuration: run.configuration, index: run.index } };
-    const start = await findRunStart(claimed.files, { config: record, what: `runs/${run.id}` });
-    const trainer = new Trainer(start.checkpoint?.net ?? buildNetwork(config.network), config.rule, train, config.training, { test, seed });
+    const start = await findRunStart(claimed.files, { config: record, build: { units: registry.units }, what: `runs/${run.id}` });
+    const trainer = new Trainer(start.checkpoint?.net ?? buildNetwork(config.network, { units: registry.units }), config.rule, train, config.training, { test, seed, registry });
     restoreTrainer(trainer, start);
     resumedFrom = trainer.epoch;
     const result = await driveRun({ trainer, files: claimed.files, config: record, seed, checkpointEvery: task.checkpointEvery, start });

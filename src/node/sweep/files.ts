@@ -12,6 +12,7 @@ import { parseSweepPlan } from "../../sweep/plan.js";
 import { readResults, type Results } from "../plot/results.js";
 import { writeFileAtomic } from "../files.js";
 import { cleanTemporaryFiles, ensureFolder } from "../run/folder.js";
+import { loadPlugins, resolvePlugin } from "../plugins.js";
 
 async function readJsonFile(file: string, what: string): Promise<unknown> {
   let text: string;
@@ -51,14 +52,24 @@ export async function loadSweepFile(file: string): Promise<SweepPlan> {
   }
   let base: unknown = sweep.base;
   let where = "base";
+  let pluginDir = baseDir;
   if (typeof sweep.base === "string") {
     const baseFile = path.resolve(baseDir, sweep.base);
     base = await readJsonFile(baseFile, "base experiment (base)");
     where = path.basename(baseFile);
+    pluginDir = path.dirname(baseFile);
+  }
+  // the base experiment's plugins (paths relative to its file) define rules of the user's own
+  const specs = base !== null && typeof base === "object" && Array.isArray((base as { plugins?: unknown }).plugins) ? ((base as { plugins: unknown[] }).plugins as string[]) : [];
+  let registry;
+  try {
+    registry = await loadPlugins(specs, { baseDir: pluginDir });
+  } catch (e) {
+    return prefixed(e, where);
   }
   try {
-    const plan = expandSweep(sweep, base, { where, name: name.replace(/(\.sweep)?\.json$/i, "") });
-    return { ...plan, baseDir };
+    const plan = expandSweep(sweep, base, { where, name: name.replace(/(\.sweep)?\.json$/i, ""), registry });
+    return { ...plan, baseDir, ...(specs.length > 0 ? { plugins: specs.map((p) => resolvePlugin(p, pluginDir)) } : {}) };
   } catch (e) {
     return prefixed(e, name);
   }
@@ -145,7 +156,10 @@ export async function readSweepPlan(dir: string): Promise<SweepPlan> {
   if (raw === null || typeof raw !== "object" || raw.format !== SWEEP_PLAN_FORMAT) {
     fail("parse_error", file, `a sweep plan (format ${JSON.stringify(SWEEP_PLAN_FORMAT)})`, raw === null || typeof raw !== "object" ? raw : raw.format);
   }
-  return parseSweepPlan(raw, file);
+  // rules of the user's own come from the plan's plugins (absolute paths or URLs): loaded before the runs are checked
+  const plugins = (raw as { plugins?: unknown }).plugins;
+  const registry = Array.isArray(plugins) && plugins.length > 0 && plugins.every((p) => typeof p === "string") ? await loadPlugins(plugins as string[]) : undefined;
+  return parseSweepPlan(raw, file, registry);
 }
 
 /** What a run's folder shows. @category Sweeps */

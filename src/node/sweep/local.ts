@@ -8,7 +8,7 @@ import { fileURLToPath } from "node:url";
 import { Piscina } from "piscina";
 import { requireInteger } from "../../errors/index.js";
 import type { SweepPlan } from "../../sweep/expand.js";
-import { executeRun, type RunOutcome, type RunTask } from "./execute.js";
+import { executeRun, type RunReport, type RunTask } from "./execute.js";
 import { readRunProgress, sweepFolder, writeSweepPlan } from "./files.js";
 
 /** Options of {@link runSweepLocally}. @category Sweeps */
@@ -18,7 +18,7 @@ export interface LocalSweepOptions {
   /** Worker threads (>= 1), or 0 to run one after another in this process. */
   readonly workers: number;
   /** Called after each run. */
-  readonly onOutcome?: ((outcome: RunOutcome, done: number, total: number) => void) | undefined;
+  readonly onRunDone?: ((report: RunReport, done: number, total: number) => void) | undefined;
   /**
    * The compiled worker script (default: `worker.js` beside this module; when this module runs from its
    * TypeScript source, as under a test runner, the compiled `dist/node/sweep/worker.js`).
@@ -29,7 +29,7 @@ export interface LocalSweepOptions {
 /** Report of a local sweep. @category Sweeps */
 export interface LocalSweepReport {
   readonly out: string;
-  readonly outcomes: readonly RunOutcome[];
+  readonly runs: readonly RunReport[];
   readonly finished: number;
   readonly skipped: number;
   /** Runs another process was running (their folders were locked): left to it. */
@@ -52,7 +52,7 @@ export function defaultWorkerFile(): URL {
  * Runs a sweep's unfinished runs locally (see the module notes). The plan is saved as `OUT/runs.json`.
  * @param plan - The sweep plan (from `loadSweepFile`).
  * @param options - Output folder, number of workers, progress callback.
- * @returns Every run's outcome, in index order.
+ * @returns Every run's report, in index order.
  * @throws `EbbflowError` `invalid_parameter` (`workers`); `invalid_config` when the folder holds another sweep.
  * @category Sweeps
  */
@@ -60,27 +60,27 @@ export async function runSweepLocally(plan: SweepPlan, options: LocalSweepOption
   const workers = requireInteger("workers", options.workers, 0);
   const out = sweepFolder(options.out).dir;
   await writeSweepPlan(out, plan);
-  const outcomes: RunOutcome[] = [];
+  const reports: RunReport[] = [];
   const pending: RunTask[] = [];
   for (const run of plan.runs) {
     const progress = await readRunProgress(out, run);
-    if (progress.finished) outcomes.push({ index: run.index, id: run.id, status: "skipped", resumedFrom: 0, epochs: progress.epochs, stopped: progress.results?.end?.stopped });
-    else pending.push({ dir: out, run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery });
+    if (progress.finished) reports.push({ index: run.index, id: run.id, status: "skipped", resumedFrom: 0, epochs: progress.epochs, stopped: progress.results?.end?.stopped });
+    else pending.push({ dir: out, run, baseDir: plan.baseDir ?? process.cwd(), checkpointEvery: plan.checkpointEvery, plugins: plan.plugins });
   }
   const total = plan.runs.length;
-  const note = (o: RunOutcome) => {
-    outcomes.push(o);
-    options.onOutcome?.(o, outcomes.length, total);
+  const note = (o: RunReport) => {
+    reports.push(o);
+    options.onRunDone?.(o, reports.length, total);
   };
   if (pending.length > 0 && workers === 0) {
     for (const task of pending) note(await executeRun(task));
   } else if (pending.length > 0) {
     const file = options.workerFile ?? defaultWorkerFile();
     const threads = Math.min(workers, pending.length);
-    const pool = new Piscina<RunTask, RunOutcome>({ filename: typeof file === "string" ? file : fileURLToPath(file), minThreads: threads, maxThreads: threads, concurrentTasksPerWorker: 1, idleTimeout: 1000 });
+    const pool = new Piscina<RunTask, RunReport>({ filename: typeof file === "string" ? file : fileURLToPath(file), minThreads: threads, maxThreads: threads, concurrentTasksPerWorker: 1, idleTimeout: 1000 });
     try {
       // a worker thread that dies (rather than a run that fails, which is returned) fails its run, not the sweep
-      const lost = (task: RunTask, e: unknown): RunOutcome => ({
+      const lost = (task: RunTask, e: unknown): RunReport => ({
         index: task.run.index,
         id: task.run.id,
         status: "failed",
@@ -93,13 +93,13 @@ export async function runSweepLocally(plan: SweepPlan, options: LocalSweepOption
       await pool.destroy();
     }
   }
-  outcomes.sort((a, b) => a.index - b.index);
+  reports.sort((a, b) => a.index - b.index);
   return {
     out,
-    outcomes,
-    finished: outcomes.filter((o) => o.status === "finished").length,
-    skipped: outcomes.filter((o) => o.status === "skipped").length,
-    busy: outcomes.filter((o) => o.status === "busy").length,
-    failed: outcomes.filter((o) => o.status === "failed").length,
+    runs: reports,
+    finished: reports.filter((o) => o.status === "finished").length,
+    skipped: reports.filter((o) => o.status === "skipped").length,
+    busy: reports.filter((o) => o.status === "busy").length,
+    failed: reports.filter((o) => o.status === "failed").length,
   };
 }

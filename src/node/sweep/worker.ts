@@ -3,14 +3,14 @@
  * (`dist/node/sweep/worker.js`) in each thread and calls the default export.
  * @module
  */
-import { executeRun, type RunOutcome, type RunTask } from "./execute.js";
+import { executeRun, type RunReport, type RunTask } from "./execute.js";
 
 /**
  * Executes one run in a worker thread.
  * @param task - The run to execute.
- * @returns Its outcome (errors are returned, not thrown).
+ * @returns Its report (errors are returned, not thrown).
  * @category Sweeps
  */
-export default async function runInWorker(task: RunTask): Promise<RunOutcome> {
+export default async function runInWorker(task: RunTask): Promise<RunReport> {
   return executeRun(task);
 }

@@ -1,30 +1,17 @@
 /**
  * The backend interface shared by the TypeScript kernels and the WebAssembly
- * SIMD kernels, and the TypeScript backend.
+ * SIMD kernels.
  * @module
  */
-import { fail, requireInteger } from "../../errors/index.js";
-import type { Dtype, FloatArray } from "../../types/index.js";
-import {
-  add,
-  addRowVector,
-  allFinite,
-  axpby,
-  axpy,
-  copy,
-  dot,
-  fill,
-  gemm,
-  gemv,
-  ger,
-  maxAbs,
-  maxAbsDiff,
-  mul,
-  scale,
-  sub,
-  sumRows,
-  sumSquares,
-} from "../index.js";
+import { fail, requireInteger } from "../errors/index.js";
+import type { Dtype, FloatArray } from "../types/index.js";
+import type { UnitKernelKind } from "./wasm/generated/layout.js";
+import type { gemm } from "./gemm.js";
+import type { gemv } from "./gemv.js";
+import type { ger } from "./ger.js";
+import type { add, axpby, axpy, copy, fill, mul, scale, sub } from "./elementwise.js";
+import type { allFinite, dot, maxAbs, maxAbsDiff, sumSquares } from "./reductions.js";
+import type { addRowVector, sumRows } from "./rows.js";
 
 /**
  * Name of a kernel backend: the TypeScript loops, the WebAssembly kernels
@@ -110,7 +97,7 @@ export interface KernelBackend {
    */
   readonly unitFill?:
     | ((
-        kind: "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear",
+        kind: UnitKernelKind,
         slope: boolean,
         gain: number,
         offset: number,
@@ -133,7 +120,7 @@ export interface KernelBackend {
    */
   readonly rateStep?:
     | ((
-        kind: "logistic" | "tanh" | "relu" | "hard-sigmoid" | "linear",
+        kind: UnitKernelKind,
         gain: number,
         offset: number,
         x: FloatArray,
@@ -147,46 +134,8 @@ export interface KernelBackend {
     | undefined;
 }
 
-/** Validates the arguments of `allocate` (shared by every backend). */
+/** Validates the arguments of `allocate` (shared by every backend). @internal */
 export function checkAllocation(dtype: unknown, n: unknown): void {
   if (dtype !== "float32" && dtype !== "float64") fail("invalid_parameter", "dtype", '"float32" or "float64"', dtype);
   requireInteger("n", n, 0);
 }
-
-/**
- * The TypeScript kernels as a {@link KernelBackend}: the functions of the
- * kernels module unchanged; `allocate` returns an ordinary zeroed
- * `Float32Array`/`Float64Array`. Works wherever JavaScript runs.
- * @category Kernels
- * @example
- * ```ts
- * const be = typescriptBackend;
- * const c = be.gemm(be.allocate("float64", 1), Float64Array.of(1, 2), Float64Array.of(3, 4), 1, 1, 2, false, false, 1, 0);
- * // Float64Array [11]
- * ```
- */
-export const typescriptBackend: KernelBackend = Object.freeze({
-  name: "typescript",
-  allocate(dtype: Dtype, n: number): FloatArray {
-    checkAllocation(dtype, n);
-    return dtype === "float32" ? new Float32Array(n) : new Float64Array(n);
-  },
-  gemm,
-  gemv,
-  ger,
-  add,
-  sub,
-  mul,
-  axpy,
-  axpby,
-  scale,
-  fill,
-  copy,
-  maxAbsDiff,
-  allFinite,
-  maxAbs,
-  dot,
-  sumSquares,
-  addRowVector,
-  sumRows,
-} as const);
