@@ -16,12 +16,14 @@ const suites: Record<string, () => Promise<Suite>> = {
   parallel: () => import("./parallel.js"),
   agreement: () => import("./agreement.js"),
   digits: () => import("./digits.js"),
+  fuzz: () => import("./fuzz.js"),
 };
 
 const wanted = process.argv.slice(2);
 printMachine();
 for (const [name, load] of Object.entries(suites)) {
-  if (wanted.length > 0 && !wanted.includes(name)) continue;
+  // the fuzz suite runs only when asked for by name (it takes minutes)
+  if (wanted.length > 0 ? !wanted.includes(name) : name === "fuzz") continue;
   console.log(`\n## ${name}`);
   const suite = await load();
   await suite.run();

@@ -110,4 +110,5 @@ export { type WasmBackendOptions, type WasmKernelBackend, type WasmSharedMemory 
 export { finiteField, integerField, nonNegativeField, positiveField } from "./errors/fields.js";
 export { EbbflowError, formatIssue, type ErrorCode, type Issue } from "./errors/index.js";
 export { refuseUnknownOptions } from "./errors/options.js";
+export { DEFAULT_RESOURCE_LIMITS, resourceLimits, setResourceLimits, type ResourceLimits } from "./limits/index.js";
 export { type Dtype, type FloatArray } from "./types/index.js";

@@ -14,6 +14,7 @@ import { formatAgreement } from "../verify/agreement.js";
 import { learningCurveSvg, writeSvg } from "../node/plot.js";
 import { loadPlotStack } from "../node/plot/render.js";
 import { VERSION } from "./version.js";
+import { ensureFolder } from "../node/run/folder.js";
 
 /** Options of `ebbflow demo`. */
 export interface DemoCommandOptions {
@@ -70,6 +71,7 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
   const reports = demoAgreement(4, 1);
   for (const r of reports) say(formatAgreement(r).split("\n").map((l) => "   " + l).join("\n") + "\n");
 
+  await ensureFolder(out, "--out");
   const written: string[] = [];
   let plotSkipped: string | undefined;
   try {

@@ -3,8 +3,9 @@
  * The `ebbflow` command.
  * @module
  */
-import { Command, InvalidArgumentError, Option } from "commander";
-import { guard } from "./output.js";
+import { Command, Option } from "commander";
+import { guard, handleOutputErrors, jsonErrorsRequested, writeCommanderError } from "./output.js";
+import { intOption, numberOption } from "./numbers.js";
 import { trainCommand } from "./train.js";
 import { checkCommand } from "./check.js";
 import { plotCommand } from "./plot.js";
@@ -14,25 +15,21 @@ import { VERSION } from "./version.js";
 import { registerSweep } from "./sweep.js";
 import { registerExport } from "./export.js";
 
-const int = (name: string) => (v: string) => {
-  const n = Number(v);
-  if (!Number.isInteger(n) || n < 1) throw new InvalidArgumentError(`${name} must be an integer >= 1, got ${JSON.stringify(v)}`);
-  return n;
-};
-const num = (name: string) => (v: string) => {
-  const n = Number(v);
-  if (!Number.isFinite(n)) throw new InvalidArgumentError(`${name} must be a number, got ${JSON.stringify(v)}`);
-  return n;
-};
+// strict decimal parsing with each option's range (see numbers.ts): "0x3" or "-0.5" are refused, not reinterpreted
+const int = (name: string) => intOption(name, 1);
+const num = (name: string) => numberOption(name);
+const positive = (name: string) => numberOption(name, { min: 0, openMin: true, what: "a number > 0" });
 const collect = (v: string, prev: string[] = []) => [...prev, v];
 
+handleOutputErrors();
 const program = new Command();
 program
   .name("ebbflow")
   .description("Biologically constrained, error-driven learning: train, verify and compare local learning rules.")
   .version(VERSION)
   .option("--debug", "print stack traces on errors")
-  .showHelpAfterError("(add --help for usage)")
+  .showHelpAfterError(jsonErrorsRequested() ? false : "(add --help for usage)")
+  .configureOutput({ outputError: (text, write) => writeCommanderError(text, write) })
   .exitOverride((err) => {
     // commander's own argument errors: one line, exit code 2
     process.exit(err.exitCode === 0 ? 0 : 2);
@@ -44,12 +41,12 @@ program
   .argument("<model>", "MODEL.json")
   .option("--data <source>", "touch-strip, xor, parity:N, iris, digits[:N] or a .csv/.json file")
   .option("--rule <rule>", "rule name, inline JSON or a JSON file (default: the experiment's first rule)")
-  .option("--rate <rate>", "learning rate (with a bare rule name)", num("--rate"))
+  .option("--rate <rate>", "learning rate (with a bare rule name)", positive("--rate"))
   .option("--beta <beta>", "nudging strength, for rules that have one (with a bare rule name)", num("--beta"))
   .option("--epochs <n>", "number of epochs", int("--epochs"))
   .option("--batch-size <n>", "mini-batch size", int("--batch-size"))
   .option("--seed <seed>", "seed for shuffling and the split (default: the network's seed)")
-  .option("--test-fraction <f>", "fraction held out for testing", num("--test-fraction"))
+  .option("--test-fraction <f>", "fraction held out for testing, in [0, 0.9]", numberOption("--test-fraction", { min: 0, max: 0.9 }))
   .option("--split-column <column>", "fixed split: the CSV column (name or index) that says train or test on every row")
   .option("--train-index <file>", "fixed split: the training rows (0-based indices; with --test-index)")
   .option("--test-index <file>", "fixed split: the test rows (0-based indices; with --train-index)")
@@ -57,7 +54,9 @@ program
   .option("--persistent", "start each example's free phase from its last settled state")
   .option("--out <dir>", "output folder (results.jsonl, model.json, checkpoint.json)")
   .option("--checkpoint-every <n>", "epochs between checkpoints", int("--checkpoint-every"))
-  .option("--resume", "continue from the output folder's checkpoint")
+  .option("--resume", "continue from the output folder's checkpoint (same experiment)")
+  .option("--accept-changes", "with --resume: continue although the experiment changed (recorded in the results)")
+  .option("--overwrite", "replace the run in a non-empty output folder")
   .addOption(new Option("--kernels <kind>", "kernels: auto (WebAssembly SIMD when the engine has it), typescript or wasm").choices(["auto", "typescript", "wasm"]).default("auto"))
   .option("--plugin <module>", "a module defining rules of your own (repeatable; also `plugins` in the experiment file)", collect)
   .option("--json", "machine-readable output")
@@ -69,7 +68,7 @@ program
   .argument("<model>", "MODEL.json")
   .option("--data <source>", "data source (as for train)")
   .option("--rule <rule>", "a rule (repeatable; default: the experiment's rules)", collect)
-  .option("--rate <rate>", "learning rate for bare rule names", num("--rate"))
+  .option("--rate <rate>", "learning rate for bare rule names", positive("--rate"))
   .option("--beta <beta>", "nudging strength for eqprop", num("--beta"))
   .option("--examples <n>", "examples in the batch", int("--examples"))
   .addOption(new Option("--reference <kind>", "exact reference").choices(["recurrent", "finite-difference", "feedforward"]))
@@ -109,7 +108,7 @@ program
   .argument("[model]", "MODEL.json (default: a 784-256-10 network)")
   .option("--out <file>", "where to write the JSON report")
   .option("--compare <files...>", "two reports to show side by side")
-  .option("--seconds <s>", "seconds per measurement", num("--seconds"))
+  .option("--seconds <s>", "seconds per measurement", positive("--seconds"))
   .option("--batch <n>", "batch size (repeatable)", ints("--batch"))
   .option("--workers <n>", "worker threads (repeatable)", ints("--workers"))
   .option("--no-peers", "skip the NumPy and TF.js peers")

@@ -15,17 +15,10 @@ import { runSweepLocally } from "../node/sweep/local.js";
 import { resubmitSweep, submitSweep, sweepStatus, waitForJobs, type SlurmSubmission, type SweepStatusReport } from "../node/sweep/slurm.js";
 import { summarizeSweepFolder } from "../node/sweep/summarize.js";
 import { guard } from "./output.js";
+import { intOption, numberOption } from "./numbers.js";
 
-const int = (name: string, min: number) => (v: string) => {
-  const n = Number(v);
-  if (!Number.isInteger(n) || n < min) throw new InvalidArgumentError(`${name} must be an integer >= ${min}, got ${JSON.stringify(v)}`);
-  return n;
-};
-const level = (v: string) => {
-  const n = Number(v);
-  if (!(n > 0 && n < 1)) throw new InvalidArgumentError(`--level must be a number in (0, 1), got ${JSON.stringify(v)}`);
-  return n;
-};
+const int = (name: string, min: number) => intOption(name, min);
+const level = numberOption("--level", { min: 0, max: 1, openMin: true, openMax: true });
 
 const out = (text: string) => process.stdout.write(text);
 const err = (text: string) => process.stderr.write(text);
@@ -109,7 +102,7 @@ async function runCommand(file: string, o: RunOptions): Promise<void> {
   });
   process.removeListener("SIGINT", onInterrupt);
   if (json) out(JSON.stringify(report) + "\n");
-  else out(`${report.finished} finished, ${report.skipped} already finished, ${report.failed} failed; results in ${dir}\n`);
+  else out(`${report.finished} finished, ${report.skipped} already finished, ${report.busy > 0 ? `${report.busy} running in another process, ` : ""}${report.failed} failed; results in ${dir}\n`);
   if (report.failed > 0) process.exitCode = 1;
 }
 

@@ -2,15 +2,13 @@
  * `ebbflow train`: trains a model file on a data set, writing results, weights and checkpoints.
  * @module
  */
-import { promises as fs } from "node:fs";
 import path from "node:path";
 import { fail } from "../errors/index.js";
-import { parseTraining, Trainer, type StopReason, type TrainingOptionsInput } from "../train/loop.js";
-import { loadCheckpoint, ResultsWriter, saveCheckpoint } from "../node/checkpoint.js";
-import { saveModel } from "../node/files.js";
+import { parseTraining, Trainer, type TrainingOptionsInput } from "../train/loop.js";
+import { claimRunFolder } from "../node/run/folder.js";
+import { driveRun, findRunStart, restoreTrainer } from "../node/run/driver.js";
 import { readModelArgument, readRuleArgument, resolveData } from "./inputs.js";
 import { Progress } from "./output.js";
-import { VERSION } from "./version.js";
 import type { FixedSplit } from "../config/split-schema.js";
 
 /** Options of `ebbflow train`. */
@@ -31,6 +29,8 @@ export interface TrainCommandOptions {
   readonly out?: string;
   readonly checkpointEvery?: number;
   readonly resume?: boolean;
+  readonly overwrite?: boolean;
+  readonly acceptChanges?: boolean;
   readonly json?: boolean;
   readonly scale?: boolean;
   readonly persistent?: boolean;
@@ -71,50 +71,42 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
   const testFraction = o.testFraction ?? (split !== undefined ? 0 : (experiment.data?.testFraction ?? 0));
   const { train, test } = await resolveData(source, { testFraction, seed, targetColumns: experiment.data?.targetColumns, oneHot: experiment.data?.oneHot, scale: o.scale ?? experiment.data?.scale ?? false, split });
   const out = o.out ?? path.join("runs", `${experiment.name ?? path.basename(modelFile, ".json")}-${rule.rule}-${seed}`);
-  await fs.mkdir(out, { recursive: true });
-  const files = { results: path.join(out, "results.jsonl"), model: path.join(out, "model.json"), checkpoint: path.join(out, "checkpoint.json") };
-  const config: Record<string, unknown> = { network: experiment.network, rule, training, data: { source, testFraction, ...(split !== undefined ? { split } : {}) }, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
-
-  let net = built;
-  let resumed = null;
-  if (o.resume) {
-    const exists = await fs.access(files.checkpoint).then(
-      () => true,
-      () => false,
-    );
-    // no checkpoint yet: start from the beginning; a damaged one is an error, never silently ignored
-    if (exists) {
-      resumed = await loadCheckpoint(files.checkpoint, { backend: built.kernels, units: registry.units });
-      net = resumed.net;
-    }
-  }
-  const progress = new Progress(training.epochs, "training", o.json === true);
-  const trainer = new Trainer(net, rule, train, training, { test, seed, registry });
-  if (resumed !== null) trainer.loadState(resumed.state);
-  const writer = new ResultsWriter(files.results, { kind: "header", ebbflow: VERSION, seed, config, started: new Date().toISOString() }, trainer.history);
+  if (o.resume && o.overwrite) fail("invalid_parameter", "--overwrite", "either --resume or --overwrite", "both");
+  if (o.acceptChanges && !o.resume) fail("invalid_parameter", "--accept-changes", "--resume (it accepts a changed experiment when resuming)", "no --resume");
+  // the resolved config: everything that decides the run's results (its hash is the run's identity)
+  const data = { source, testFraction, scale: o.scale ?? experiment.data?.scale ?? false, ...(experiment.data?.targetColumns !== undefined ? { targetColumns: experiment.data.targetColumns } : {}), ...(experiment.data?.oneHot !== undefined ? { oneHot: experiment.data.oneHot } : {}), ...(split !== undefined ? { split } : {}) };
+  const config: Record<string, unknown> = { network: experiment.network, rule, training, data, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
   const every = o.checkpointEvery ?? 10;
-  const t0 = Date.now();
-  let reason: StopReason | null = trainer.epoch >= training.epochs ? "max-epochs" : null;
-  // one epoch at a time, so that results and checkpoints on disk always match a finished epoch
-  while (reason === null) {
-    const record = trainer.runEpoch();
-    reason = trainer.stopAfter(record);
-    await writer.epoch(record);
-    if (record.epoch % every === 0) await saveCheckpoint(files.checkpoint, trainer, config);
-    const status = `sse ${record.train?.sse.toFixed(4) ?? "-"} acc ${record.train ? (record.train.accuracy * 100).toFixed(1) + "%" : "-"}${record.test ? ` test ${(record.test.accuracy * 100).toFixed(1)}%` : ""}`;
-    progress.update(record.epoch, status);
-  }
-  const result = { reason, epochs: trainer.epoch };
-  progress.stop();
-  await writer.end(result.reason, result.epochs, (Date.now() - t0) / 1000);
-  await saveModel(files.model, trainer.net);
-  await saveCheckpoint(files.checkpoint, trainer, config);
-  const last = trainer.history.at(-1);
-  const summary = { out, epochs: result.epochs, stopped: result.reason, train: last?.train, test: last?.test, files };
-  if (o.json) process.stdout.write(JSON.stringify(summary) + "\n");
-  else {
-    process.stdout.write(`trained ${result.epochs} epochs (${result.reason}); results in ${out}\n`);
-    if (last?.train) process.stdout.write(`train: sse ${last.train.sse.toFixed(5)}, accuracy ${(last.train.accuracy * 100).toFixed(2)}%\n`);
-    if (last?.test) process.stdout.write(`test:  sse ${last.test.sse.toFixed(5)}, accuracy ${(last.test.accuracy * 100).toFixed(2)}%\n`);
+  const { files, lock } = await claimRunFolder(out, o.resume ? "resume" : o.overwrite ? "overwrite" : "new", "--out");
+  try {
+    const start = o.resume ? await findRunStart(files, { config, acceptChanges: o.acceptChanges, build: { backend: built.kernels, units: registry.units }, what: "--resume" }) : { checkpoint: null, change: null };
+    if (start.change !== null && !o.json) process.stderr.write(`accepting changed ${start.change.paths.join(", ")} from epoch ${start.change.epoch} (recorded in results.jsonl)\n`);
+    const trainer = new Trainer(start.checkpoint?.net ?? built, rule, train, training, { test, seed, registry });
+    restoreTrainer(trainer, start);
+    const progress = new Progress(training.epochs, "training", o.json === true);
+    const result = await driveRun({
+      trainer,
+      files,
+      config,
+      seed,
+      checkpointEvery: every,
+      start,
+      onEpoch: (record) => {
+        const status = `sse ${record.train?.sse.toFixed(4) ?? "-"} acc ${record.train ? (record.train.accuracy * 100).toFixed(1) + "%" : "-"}${record.test ? ` test ${(record.test.accuracy * 100).toFixed(1)}%` : ""}`;
+        progress.update(record.epoch, status);
+      },
+    });
+    progress.stop();
+    if (result.repairedTornLine && !o.json) process.stderr.write("results.jsonl: a torn last line (a crash during a write) was repaired from the checkpoint\n");
+    const last = trainer.history.at(-1);
+    const summary = { out, epochs: result.epochs, stopped: result.reason, alreadyFinished: result.alreadyFinished, resumedFrom: result.resumedFrom, train: last?.train, test: last?.test, files: { results: files.results, model: files.model, checkpoint: files.checkpoint } };
+    if (o.json) process.stdout.write(JSON.stringify(summary) + "\n");
+    else {
+      process.stdout.write(result.alreadyFinished ? `already finished: ${result.epochs} epochs (${result.reason}); results in ${out}\n` : `trained ${result.epochs} epochs (${result.reason})${result.resumedFrom > 0 ? `, resumed from epoch ${result.resumedFrom}` : ""}; results in ${out}\n`);
+      if (last?.train) process.stdout.write(`train: sse ${last.train.sse.toFixed(5)}, accuracy ${(last.train.accuracy * 100).toFixed(2)}%\n`);
+      if (last?.test) process.stdout.write(`test:  sse ${last.test.sse.toFixed(5)}, accuracy ${(last.test.accuracy * 100).toFixed(2)}%\n`);
+    }
+  } finally {
+    await lock.release();
   }
 }

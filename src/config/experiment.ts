@@ -4,7 +4,7 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, type Issue } from "../errors/index.js";
+import { EbbflowError, inputShapeIssues, type Issue } from "../errors/index.js";
 import { issuesFromZod, safeParseNetwork, type NetworkSpec } from "../network/spec.js";
 import { ruleSchema } from "../rules/config.js";
 import { builtinRegistry, type AnyRuleConfig, type Registry } from "../rules/registry.js";
@@ -72,6 +72,8 @@ export interface Experiment {
  */
 export function parseExperiment(input: unknown, registry: Registry = builtinRegistry): Experiment {
   if (input !== null && typeof input === "object" && "layers" in input && !("network" in input)) input = { network: input };
+  const shape = inputShapeIssues(input);
+  if (shape.length > 0) throw new EbbflowError(shape);
   const problems: Issue[] = [];
   const r = experimentParseSchema.safeParse(input);
   if (!r.success) problems.push(...issuesFromZod(r.error, input));

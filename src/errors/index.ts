@@ -14,7 +14,8 @@ export type ErrorCode =
   | "non_finite_update"
   | "unsupported"
   | "io_error"
-  | "parse_error";
+  | "parse_error"
+  | "resource_limit";
 
 /** One problem found in a value, a config or a run. @category Errors */
 export interface Issue {
@@ -85,7 +86,7 @@ export class EbbflowError extends Error {
     const message =
       list.length === 1
         ? formatIssue(first)
-        : `${list.length} problems:\n` + list.map((i) => `  - ${formatIssue(i)}`).join("\n");
+        : `${list.length} problems:\n` + list.slice(0, 100).map((i) => `  - ${formatIssue(i)}`).join("\n") + (list.length > 100 ? `\n  ... and ${list.length - 100} more` : "");
     super(message);
     this.name = "EbbflowError";
     this.code = first.code;
@@ -173,3 +174,5 @@ export function requireOpenInterval(path: string, value: unknown, lo: number, hi
   }
   return value;
 }
+
+export { inputShapeIssues, capIssues, MAX_INPUT_DEPTH, MAX_ISSUES, RESERVED_KEYS } from "./input.js";

@@ -13,6 +13,7 @@ import { type Dtype, type FloatArray } from "../types/index.js";
 import type { KernelBackend } from "../kernels/backend.js";
 import { typescriptBackend } from "../kernels/typescript-backend.js";
 import { fail } from "../errors/index.js";
+import { requireParameterMemory } from "./checks.js";
 import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
 
 /** Role of a layer in the phases. @category Network */
@@ -254,6 +255,7 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
   refuseUnknownOptions(options, ["allocate", "keepValues", "backend", "units"]);
   const units = options.units ?? builtinUnits;
   const spec = parseNetwork(input, units);
+  requireParameterMemory(spec);
   const root = createRandom(spec.seed);
   const kernels = options.backend ?? typescriptBackend;
   const alloc = options.allocate ?? ((dtype: Dtype, n: number) => kernels.allocate(dtype, n));

@@ -4,7 +4,7 @@
  * are allocated once per {@link Settler}; a settling step allocates nothing.
  * @module
  */
-import { EbbflowError, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
+import { EbbflowError, describeValue, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/units.js";
 import type { Network } from "./network.js";
@@ -15,6 +15,7 @@ import { refuseUnknownOptions } from "../errors/options.js";
 /** The keys of {@link PhaseOptions} (others are refused). */
 const PHASE_OPTIONS = ["phase", "inputs", "targets", "beta", "cost", "start", "maxSteps", "tolerance", "record", "requireConvergence", "onStep", "reuseDrive"];
 import { batchLoss, batchLossGradient, requireObjective, type Objective } from "../train/loss.js";
+import { requireStateMemory } from "./checks.js";
 
 /** The three phases: free (the prediction: only inputs clamped), clamped and nudged (target-driven states: outputs clamped to, or pulled toward, the targets). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
@@ -179,6 +180,7 @@ export class Settler {
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
+    requireStateMemory(net.spec, batch);
     this.net = net;
     this.batch = batch;
     // input layers are always clamped: they need no working buffers; only output layers take targets
@@ -211,7 +213,7 @@ export class Settler {
   /** Checks and copies per-layer values (inputs or targets) into `dest`; reports every problem at once. */
   private loadValues(given: LayerInputs | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[]): Issue[] {
     if (given === undefined || given === null || typeof given !== "object") {
-      return [issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, String(given))];
+      return [issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, describeValue(given))];
     }
     // ndarray-like entries as flat row-major values (a view when contiguous)
     const flat = flatLayerValues(given, this.layerSizes, this.batch, what);
@@ -223,6 +225,10 @@ export class Settler {
       const want = this.batch * layer.size;
       if (v === undefined) {
         problems.push(issueText("shape_mismatch", `${what}.${layer.name}`, `${want} values (batch ${this.batch} × size ${layer.size})`, "missing"));
+        continue;
+      }
+      if (v === null || typeof v !== "object") {
+        problems.push(issueText("shape_mismatch", `${what}.${layer.name}`, `${want} values (batch ${this.batch} × size ${layer.size})`, describeValue(v)));
         continue;
       }
       if (v.length !== want) {
@@ -239,12 +245,12 @@ export class Settler {
       for (let i = 0; i < want; i++) {
         const x = v[i] as number;
         if (typeof x !== "number" || !Number.isFinite(x)) {
-          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, "a finite number", String(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
+          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, "a finite number", describeValue(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
           break;
         }
         d[i] = x;
         if (!Number.isFinite(d[i] as number)) {
-          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, `a number within the range of ${this.net.dtype}`, String(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
+          problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, `a number within the range of ${this.net.dtype}`, describeValue(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
           break;
         }
       }
@@ -265,6 +271,7 @@ export class Settler {
   settle(options: PhaseOptions, out?: Snapshot): Snapshot {
     const { net, batch } = this;
     const dyn = net.spec.dynamics;
+    if (options === null || typeof options !== "object") fail("invalid_parameter", "options", "phase options: { phase, inputs, targets? }", options);
     refuseUnknownOptions(options, PHASE_OPTIONS);
     const phase = options.phase;
     if (phase !== "free" && phase !== "clamped" && phase !== "nudged") fail("invalid_parameter", "phase", "free, clamped or nudged", phase);

@@ -6,10 +6,11 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, describeValue, formatPath, issueText, joinPath, valueAt, type Issue } from "../errors/index.js";
+import { EbbflowError, capIssues, describeValue, formatPath, inputShapeIssues, issueText, joinPath, valueAt, type Issue } from "../errors/index.js";
 import { finiteField, integerField, nonNegativeField, positiveField } from "../errors/fields.js";
 import { builtinUnits } from "../units/builtins.js";
 import { carriedIssue, reportIssues, type UnitRegistry, type UnitSpecInput } from "../units/registry.js";
+import { valueIssues } from "./checks.js";
 
 /** Copies plain data (objects, arrays, numbers, strings): a unit spec kept as written. */
 function copyData<T>(v: T): T {
@@ -172,7 +173,7 @@ export function issuesFromZod(error: z.ZodError, input: unknown, prefix: readonl
     if (zi.code === "invalid_union" && "options" in zi) expected = `one of ${(zi.options as unknown[]).map(String).join(", ")}`;
     out.push(issueText("invalid_config", formatPath(path), expected, describeValue(valueAt(input, zi.path))));
   }
-  return out;
+  return capIssues(out);
 }
 
 /** Cross-field checks that a schema alone cannot express. Returns every problem found. */
@@ -235,6 +236,7 @@ function crossCheck(spec: NetworkSpec): Issue[] {
       if (!reach[i]) problems.push(issueText("invalid_config", `layers[${i}]`, "a layer reachable from an input layer through connections", `layer ${JSON.stringify(l.name)} is unreachable`));
     });
   }
+  problems.push(...valueIssues(spec));
   return problems;
 }
 
@@ -250,6 +252,8 @@ export type ParseResult<T> = { readonly ok: true; readonly value: T } | { readon
  * @category Network
  */
 export function safeParseNetwork(input: unknown, units: UnitRegistry = builtinUnits): ParseResult<NetworkSpec> {
+  const shape = inputShapeIssues(input);
+  if (shape.length > 0) return { ok: false, issues: shape };
   const result = networkSchemaFor(units).safeParse(input);
   if (!result.success) return { ok: false, issues: issuesFromZod(result.error, input) };
   const problems = crossCheck(result.data);

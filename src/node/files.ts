@@ -6,7 +6,7 @@
 import { promises as fs } from "node:fs";
 import path from "node:path";
 import { randomBytes } from "node:crypto";
-import { fail } from "../errors/index.js";
+import { ioFail } from "./io.js";
 import type { Network } from "../network/network.js";
 import { modelFromData, modelToJson } from "../config/modelFile.js";
 
@@ -30,7 +30,7 @@ export async function writeFileAtomic(file: string, data: string | Uint8Array): 
   } catch (e) {
     if (handle !== undefined) await handle.close().catch(() => undefined);
     await fs.rm(tmp, { force: true }).catch(() => undefined);
-    fail("io_error", file, "a writable path", (e as Error).message);
+    ioFail(e, file, "a writable path");
   }
 }
 
@@ -45,7 +45,7 @@ export async function loadModel(file: string): Promise<Network> {
   try {
     text = await fs.readFile(file, "utf8");
   } catch (e) {
-    return fail("io_error", file, "a readable model file", (e as Error).message);
+    return ioFail(e, file, "a readable model file");
   }
   return modelFromData(text);
 }

@@ -7,7 +7,8 @@
 import seedrandom from "seedrandom";
 import { z } from "zod";
 import type { FloatArray } from "../types/index.js";
-import { requireFinite, requireInteger, requireNonNegative, fail } from "../errors/index.js";
+import { savedDataIssues } from "../errors/saved.js";
+import { EbbflowError, issue, requireFinite, requireInteger, requireNonNegative, fail, type Issue } from "../errors/index.js";
 
 /** The ARC4 generator's state (the key schedule `S` and the two indices), as plain JSON data. @category Random */
 export interface Arc4State {
@@ -129,12 +130,32 @@ export class RandomStream {
     return { name: this.name, prng: structuredCloneState(this.prng.state()), spare: this.spare };
   }
 
-  /** Restores a stream saved with {@link RandomStream.saveState}. */
-  static fromState(state: RandomStreamState): RandomStream {
+  /**
+   * Restores a stream saved with {@link RandomStream.saveState}. The state is checked in full first (see
+   * {@link randomStateIssues}): a damaged one is an error, never a stream that hangs or draws other numbers.
+   * @param path - Where the state sits, for errors (e.g. `trainer.shuffle`).
+   * @throws {@link EbbflowError} `parse_error` naming the bad field.
+   */
+  static fromState(state: RandomStreamState, path = "state"): RandomStream {
+    const problems = randomStateIssues(state, path);
+    if (problems.length > 0) throw new EbbflowError(problems);
     const s = new RandomStream(state.name, structuredCloneState(state.prng));
     s.spare = state.spare;
     return s;
   }
+}
+
+/**
+ * Problems of a saved random-stream state, checked with {@link randomStreamStateSchema}, each with its path
+ * under `path` (e.g. `trainer.shuffle.prng.S[7]`).
+ * @param state - The state as data.
+ * @param path - Its path, for the issues.
+ * @returns The problems (empty when the state is valid; at most 20).
+ * @category Random
+ */
+export function randomStateIssues(state: unknown, path = "state"): Issue[] {
+  const r = randomStreamStateSchema.safeParse(state);
+  return r.success ? [] : savedDataIssues(r.error.issues, state, [path]);
 }
 
 function structuredCloneState(state: Arc4State | seedrandom.State.Arc4): Arc4State {

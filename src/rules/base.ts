@@ -62,12 +62,38 @@ export type RuleState = Readonly<Record<string, unknown>>;
 
 /** Number of patterns in a batch, from the first input layer's values. @category Rules */
 export function batchSizeOf(net: Network, batch: Batch): number {
+  if (batch === null || typeof batch !== "object") return fail("invalid_parameter", "batch", "a batch: { inputs, targets }", batch);
+  if (batch.inputs === null || typeof batch.inputs !== "object") return fail("shape_mismatch", "inputs", "an object mapping each input layer name to its values", batch.inputs);
+  if (batch.targets !== undefined && (batch.targets === null || typeof batch.targets !== "object")) return fail("shape_mismatch", "targets", "an object mapping each output layer name to its values", batch.targets);
   const first = net.inputLayers[0];
   if (first === undefined) return fail("invalid_config", "layers", "an input layer", "none");
   const v = batch.inputs[first.name];
-  if (v === undefined) return fail("shape_mismatch", `inputs.${first.name}`, "input values", undefined);
-  if (v.length === 0 || v.length % first.size !== 0) fail("shape_mismatch", `inputs.${first.name}`, `a non-empty multiple of ${first.size} values`, `${v.length} values`);
+  if (v === undefined || v === null || typeof v !== "object") return fail("shape_mismatch", `inputs.${first.name}`, "input values", v);
+  if (typeof v.length !== "number" || v.length === 0 || v.length % first.size !== 0) fail("shape_mismatch", `inputs.${first.name}`, `a non-empty multiple of ${first.size} values`, `${v.length} values`);
   return v.length / first.size;
+}
+
+/**
+ * A layer's values of a batch, checked: `count` finite numbers (an array or a typed array). For rules that
+ * read inputs or targets themselves rather than through the settler, which checks them the same way.
+ * @param values - The batch's inputs or targets.
+ * @param layer - The layer's name.
+ * @param count - Values expected (batch × size).
+ * @param what - `inputs` or `targets`, for the error path.
+ * @returns The values.
+ * @throws {@link EbbflowError} `shape_mismatch` naming the layer (and the first bad value).
+ * @category Rules
+ */
+export function checkedLayerValues(values: LayerValues | undefined, layer: string, count: number, what: "inputs" | "targets"): ArrayLike<number> {
+  const v = values?.[layer] as unknown;
+  if (v === null || typeof v !== "object" || typeof (v as { length?: unknown }).length !== "number") return fail("shape_mismatch", `${what}.${layer}`, `${count} values`, v === undefined ? "missing" : v);
+  const a = v as ArrayLike<unknown>;
+  if (a.length !== count) fail("shape_mismatch", `${what}.${layer}`, `${count} values`, `${a.length} values`);
+  for (let k = 0; k < count; k++) {
+    const x = a[k];
+    if (typeof x !== "number" || !Number.isFinite(x)) fail("shape_mismatch", `${what}.${layer}[${k}]`, "a finite number", x);
+  }
+  return a as ArrayLike<number>;
 }
 
 /** Learning rate of a connection: the rule's per-connection override or its rate, times the connection's own multiplier. @category Rules */

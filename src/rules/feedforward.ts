@@ -10,7 +10,7 @@ import { fillUnit } from "../kernels/units.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
 import { ParameterDelta } from "./delta.js";
-import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
+import { batchSizeOf, checkedLayerValues, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import { commonRuleFields, defineRule, type RuleConfigBase } from "./descriptor.js";
 import { lossNameSchema, patternLossGradient, type LossName } from "../train/loss.js";
 
@@ -85,8 +85,7 @@ export function runForward(net: Network, order: readonly number[], batch: Batch,
     const l = net.layers[i]!;
     const x = pass.activity[i] as FloatArray;
     if (l.role === "input") {
-      const v = batch.inputs[l.name];
-      if (v === undefined || v.length !== B * l.size) fail("shape_mismatch", `inputs.${l.name}`, `${B * l.size} values`, v === undefined ? "missing" : `${v.length} values`);
+      const v = checkedLayerValues(batch.inputs, l.name, B * l.size, "inputs");
       for (let k = 0; k < x.length; k++) x[k] = v[k] as number;
       continue;
     }
@@ -101,9 +100,8 @@ export function runForward(net: Network, order: readonly number[], batch: Batch,
 /** Writes into the output layers' `delta` the error `∂L/∂y ⊙ f'(a)` (squared error: `(y − t) ⊙ f'(a)`). */
 function outputError(net: Network, batch: Batch, pass: ForwardPass, loss: LossName): void {
   for (const l of net.outputLayers) {
-    const t = batch.targets[l.name];
     const n = pass.batch * l.size;
-    if (t === undefined || t.length !== n) fail("shape_mismatch", `targets.${l.name}`, `${n} values`, t === undefined ? "missing" : `${t.length} values`);
+    const t = checkedLayerValues(batch.targets, l.name, n, "targets");
     const d = pass.delta[l.index] as FloatArray;
     const y = pass.activity[l.index] as FloatArray;
     const s = pass.slope[l.index] as FloatArray;

@@ -8,7 +8,7 @@ import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import type { Snapshot } from "../network/settle.js";
 import { ParameterDelta } from "./delta.js";
-import { batchSizeOf, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
+import { batchSizeOf, checkedLayerValues, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "./feedforward.js";
 import { commonRuleFields, defineRule } from "./descriptor.js";
 import type { BatchInput } from "../interop/ndarray.js";
@@ -89,8 +89,7 @@ export class PredictiveCoding implements LearningRule {
       const v = w.value[l.index] as FloatArray;
       if (l.role === "input") v.set(w.pass.activity[l.index] as FloatArray);
       else if (l.role === "output") {
-        const t = batch.targets[l.name];
-        if (t === undefined || t.length !== v.length) fail("shape_mismatch", `targets.${l.name}`, `${v.length} values`, t === undefined ? "missing" : `${t.length} values`);
+        const t = checkedLayerValues(batch.targets, l.name, v.length, "targets");
         for (let k = 0; k < v.length; k++) v[k] = t[k] as number;
       } else v.set(w.pass.netInput[l.index] as FloatArray);
     }

@@ -5,7 +5,7 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, fail, issueText, type Issue } from "../errors/index.js";
+import { EbbflowError, fail, inputShapeIssues, issueText, type Issue } from "../errors/index.js";
 import { describeValue } from "../errors/index.js";
 import type { Network } from "../network/network.js";
 import { issuesFromZod } from "../network/spec.js";
@@ -161,6 +161,9 @@ export class Registry {
    */
   parseRule(input: unknown, prefix = "rule"): AnyRuleConfig {
     if (input === null || typeof input !== "object" || Array.isArray(input)) fail("invalid_config", prefix, `a rule config object with "rule" (${this.ruleNames.join(", ")})`, input);
+    // deep nesting and reserved keys (which records such as rates would drop silently) are refused first
+    const shape = inputShapeIssues(input, prefix);
+    if (shape.length > 0) throw new EbbflowError(shape);
     const d = this.rule((input as { rule?: unknown }).rule, `${prefix}.rule`);
     const r = d.schema.safeParse(input);
     if (!r.success) throw new EbbflowError(issuesFromZod(r.error, input, [prefix]));

@@ -11,6 +11,7 @@ import type { NetworkSpec } from "../network/spec.js";
 import { builtinRegistry, type AnyRuleConfig, type Registry } from "../rules/registry.js";
 import { parseTraining, type TrainingOptions } from "../train/loop.js";
 import { createRandom } from "../random/index.js";
+import { requireRuns } from "../limits/index.js";
 import { canonicalJson, contentId } from "./hash.js";
 import { formatConfigPath, lookupPath, parseConfigPath, pathContains, setPath, type PathSegment } from "./paths.js";
 import { parseSweepFile, type DrawSpec, type SweepFile } from "./schema.js";
@@ -181,7 +182,8 @@ function drawValue(seed: number | string, d: number, path: string, spec: DrawSpe
 }
 
 function clone<T>(v: T): T {
-  return JSON.parse(JSON.stringify(v)) as T;
+  // undefined (a value only code can give, no file) has no JSON text: kept as it is
+  return v === undefined ? v : (JSON.parse(JSON.stringify(v)) as T);
 }
 
 /**
@@ -269,8 +271,10 @@ export function expandSweep(sweepInput: unknown, base: unknown, options: { where
   }
   if (problems.length > 0) throw new EbbflowError(problems);
 
-  // 4. combinations: grid points (last path fastest) times draws
+  // 4. combinations: grid points (last path fastest) times draws; their number is checked before any is made
   const gridDims = dims.filter((d) => d.values !== undefined);
+  const combinations = gridDims.reduce((n, d) => n * (d.values as readonly unknown[]).length, 1) * (sweep.draws?.count ?? 1);
+  requireRuns(gridDims.length > 0 ? "grid" : "draws.count", combinations * sweep.seeds.length);
   const drawDims = dims.filter((d) => d.draw !== undefined);
   let points: { assignment: SweepAssignment; dim: Dimension; valueIndex: number | null }[][] = [[]];
   for (const d of gridDims) {

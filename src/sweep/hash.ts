@@ -13,6 +13,9 @@ const K = new Uint32Array([
   0x19a4c116, 0x1e376c08, 0x2748774c, 0x34b0bcb5, 0x391c0cb3, 0x4ed8aa4a, 0x5b9cca4f, 0x682e6ff3, 0x748f82ee, 0x78a5636f, 0x84c87814, 0x8cc70208, 0x90befffa, 0xa4506ceb, 0xbef9a3f7, 0xc67178f2,
 ]);
 
+/** The round constants as int32 (same bits), for the int32 arithmetic of {@link sha256Bytes}. */
+const KI = new Int32Array(K.buffer);
+
 /** Initial hash value: the first 32 bits of the fractional parts of the square roots of the first 8 primes (NIST FIPS 180-4, 2015, sec. 5.3.3). */
 const H0 = [0x6a09e667, 0xbb67ae85, 0x3c6ef372, 0xa54ff53a, 0x510e527f, 0x9b05688c, 0x1f83d9ab, 0x5be0cd19];
 
@@ -27,54 +30,71 @@ const H0 = [0x6a09e667, 0xbb67ae85, 0x3c6ef372, 0xa54ff53a, 0x510e527f, 0x9b0568
  * ```
  */
 export function sha256Bytes(bytes: Uint8Array): Uint8Array {
-  const bitLength = bytes.length * 8;
-  const padded = new Uint8Array(Math.ceil((bytes.length + 9) / 64) * 64);
+  const n = bytes.length;
+  const padded = new Uint8Array(Math.ceil((n + 9) / 64) * 64);
   padded.set(bytes);
-  padded[bytes.length] = 0x80;
-  const view = new DataView(padded.buffer);
+  padded[n] = 0x80;
   // the message length in bits as a 64-bit big-endian integer
-  view.setUint32(padded.length - 8, Math.floor(bitLength / 0x100000000));
-  view.setUint32(padded.length - 4, bitLength >>> 0);
-  const h = H0.slice();
-  const w = new Uint32Array(64);
-  for (let block = 0; block < padded.length; block += 64) {
-    for (let t = 0; t < 16; t++) w[t] = view.getUint32(block + 4 * t);
+  const bits = n * 8;
+  const hi = Math.floor(bits / 0x100000000);
+  const lo = bits >>> 0;
+  const end = padded.length;
+  padded[end - 8] = hi >>> 24;
+  padded[end - 7] = (hi >>> 16) & 255;
+  padded[end - 6] = (hi >>> 8) & 255;
+  padded[end - 5] = hi & 255;
+  padded[end - 4] = lo >>> 24;
+  padded[end - 3] = (lo >>> 16) & 255;
+  padded[end - 2] = (lo >>> 8) & 255;
+  padded[end - 1] = lo & 255;
+  // 32-bit arithmetic in int32 (| 0): the same bits as unsigned arithmetic modulo 2^32, and faster in engines
+  let h0 = H0[0]! | 0, h1 = H0[1]! | 0, h2 = H0[2]! | 0, h3 = H0[3]! | 0, h4 = H0[4]! | 0, h5 = H0[5]! | 0, h6 = H0[6]! | 0, h7 = H0[7]! | 0;
+  const w = new Int32Array(64);
+  const k = KI;
+  for (let block = 0; block < end; block += 64) {
+    for (let t = 0, o = block; t < 16; t++, o += 4) w[t] = (padded[o]! << 24) | (padded[o + 1]! << 16) | (padded[o + 2]! << 8) | padded[o + 3]!;
     for (let t = 16; t < 64; t++) {
-      const a = w[t - 15] as number;
-      const b = w[t - 2] as number;
-      const s0 = ((a >>> 7) | (a << 25)) ^ ((a >>> 18) | (a << 14)) ^ (a >>> 3);
-      const s1 = ((b >>> 17) | (b << 15)) ^ ((b >>> 19) | (b << 13)) ^ (b >>> 10);
-      w[t] = ((w[t - 16] as number) + s0 + (w[t - 7] as number) + s1) >>> 0;
+      const x = w[t - 15]!;
+      const y = w[t - 2]!;
+      const s0 = ((x >>> 7) | (x << 25)) ^ ((x >>> 18) | (x << 14)) ^ (x >>> 3);
+      const s1 = ((y >>> 17) | (y << 15)) ^ ((y >>> 19) | (y << 13)) ^ (y >>> 10);
+      w[t] = (w[t - 16]! + s0 + w[t - 7]! + s1) | 0;
     }
-    let [a, b, c, d, e, f, g, hh] = h as [number, number, number, number, number, number, number, number];
+    let a = h0, b = h1, c = h2, d = h3, e = h4, f = h5, g = h6, hh = h7;
     for (let t = 0; t < 64; t++) {
       const S1 = ((e >>> 6) | (e << 26)) ^ ((e >>> 11) | (e << 21)) ^ ((e >>> 25) | (e << 7));
       const ch = (e & f) ^ (~e & g);
-      const t1 = (hh + S1 + ch + (K[t] as number) + (w[t] as number)) >>> 0;
+      const t1 = (hh + S1 + ch + k[t]! + w[t]!) | 0;
       const S0 = ((a >>> 2) | (a << 30)) ^ ((a >>> 13) | (a << 19)) ^ ((a >>> 22) | (a << 10));
       const maj = (a & b) ^ (a & c) ^ (b & c);
-      const t2 = (S0 + maj) >>> 0;
+      const t2 = (S0 + maj) | 0;
       hh = g;
       g = f;
       f = e;
-      e = (d + t1) >>> 0;
+      e = (d + t1) | 0;
       d = c;
       c = b;
       b = a;
-      a = (t1 + t2) >>> 0;
+      a = (t1 + t2) | 0;
     }
-    h[0] = ((h[0] as number) + a) >>> 0;
-    h[1] = ((h[1] as number) + b) >>> 0;
-    h[2] = ((h[2] as number) + c) >>> 0;
-    h[3] = ((h[3] as number) + d) >>> 0;
-    h[4] = ((h[4] as number) + e) >>> 0;
-    h[5] = ((h[5] as number) + f) >>> 0;
-    h[6] = ((h[6] as number) + g) >>> 0;
-    h[7] = ((h[7] as number) + hh) >>> 0;
+    h0 = (h0 + a) | 0;
+    h1 = (h1 + b) | 0;
+    h2 = (h2 + c) | 0;
+    h3 = (h3 + d) | 0;
+    h4 = (h4 + e) | 0;
+    h5 = (h5 + f) | 0;
+    h6 = (h6 + g) | 0;
+    h7 = (h7 + hh) | 0;
   }
   const out = new Uint8Array(32);
-  const outView = new DataView(out.buffer);
-  for (let i = 0; i < 8; i++) outView.setUint32(4 * i, h[i] as number);
+  const words = [h0, h1, h2, h3, h4, h5, h6, h7];
+  for (let i = 0; i < 8; i++) {
+    const v = words[i]!;
+    out[4 * i] = v >>> 24;
+    out[4 * i + 1] = (v >>> 16) & 255;
+    out[4 * i + 2] = (v >>> 8) & 255;
+    out[4 * i + 3] = v & 255;
+  }
   return out;
 }
 

@@ -10,3 +10,4 @@ export * from "./schema.js";
 export * from "./expand.js";
 export * from "./stats.js";
 export * from "./summary.js";
+export * from "./plan.js";

@@ -3,6 +3,7 @@
  * parsing, formatting, and reading or writing the value they name inside a run's config.
  * @module
  */
+import { RESERVED_KEYS } from "../errors/index.js";
 
 /** One step of a config path: an object key or an array index. @category Sweeps */
 export type PathSegment = string | number;
@@ -50,6 +51,9 @@ export function parseConfigPath(text: string): { readonly ok: true; readonly seg
       rest = rest.slice(quoted[0].length);
     } else return { ok: false, problem: `"." or "[" at ${JSON.stringify(rest)}` };
   }
+  // keys that name the object machinery are never config fields (and must never be followed or set)
+  const reserved = segments.find((s) => typeof s === "string" && RESERVED_KEYS.has(s));
+  if (reserved !== undefined) return { ok: false, problem: `no reserved key such as ${JSON.stringify(reserved)}` };
   return { ok: true, segments };
 }
 

@@ -14,9 +14,10 @@
  * @module
  */
 import { z } from "zod";
-import { EbbflowError, describeValue, issueText, valueAt, type Issue } from "../errors/index.js";
+import { EbbflowError, capIssues, describeValue, inputShapeIssues, issueText, valueAt, type Issue } from "../errors/index.js";
 import { experimentSchema } from "../config/experiment.js";
 import { canonicalJson } from "./hash.js";
+import { requireRuns } from "../limits/index.js";
 
 const finite = (what = "a finite number") => z.number({ error: what }).refine(Number.isFinite, { error: what });
 const positive = (what: string) => z.number({ error: what }).refine((v) => Number.isFinite(v) && v > 0, { error: what });
@@ -115,7 +116,7 @@ function issuesOf(error: z.ZodError, input: unknown): Issue[] {
     const expected = zi.message.replace(/^Invalid input: expected /, "").replace(/, received \w+$/, "");
     out.push(issueText("invalid_config", formatSweepPath(zi.path), expected, describeValue(valueAt(input, zi.path))));
   }
-  return out;
+  return capIssues(out);
 }
 
 /** Repeated seeds (compared as text: 1 and "1" seed the same streams) and repeated values within a grid path. */
@@ -160,6 +161,12 @@ function repeats(input: unknown): Issue[] {
  * @category Sweeps
  */
 export function parseSweepFile(input: unknown): SweepFile {
+  const shape = inputShapeIssues(input);
+  if (shape.length > 0) throw new EbbflowError(shape);
+  // lists longer than a sweep may be are refused before their entries are checked one by one
+  const raw = (input ?? {}) as { seeds?: unknown; grid?: unknown };
+  if (Array.isArray(raw.seeds)) requireRuns("seeds", raw.seeds.length);
+  if (raw.grid !== null && typeof raw.grid === "object") for (const [k, v] of Object.entries(raw.grid)) if (Array.isArray(v)) requireRuns(`grid[${JSON.stringify(k)}]`, v.length);
   const r = sweepSchema.safeParse(input);
   // repeated seeds and grid values are checked on the raw input too, so that they are reported with the shape problems
   const problems: Issue[] = [...(r.success ? [] : issuesOf(r.error, input)), ...repeats(input)];

@@ -84,9 +84,10 @@ export function summarizeRuns(plan: SweepPlan, finals: ReadonlyMap<string, RunFi
         byMetric.set(name, list);
       }
     }
-    const metrics: Record<string, SampleSummary> = {};
+    // a record without a prototype: a metric named "constructor" or "__proto__" is a name like any other
+    const metrics: Record<string, SampleSummary> = Object.create(null) as Record<string, SampleSummary>;
     for (const [name, values] of byMetric) metrics[name] = summarizeSample(values, level);
-    const value = metrics[metric] ?? null;
+    const value = Object.prototype.hasOwnProperty.call(metrics, metric) ? (metrics[metric] ?? null) : null;
     if (value !== null) reported = true;
     return { configuration: c.id, index: c.index, label: c.label, assignments: c.assignments, runs: runs.length, unfinished, value, metrics, epochs: epochs.length > 0 ? summarizeSample(epochs, level) : null };
   });

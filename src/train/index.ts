@@ -8,3 +8,4 @@ export * from "./loss.js";
 export * from "./schedule.js";
 export * from "./loop.js";
 export * from "./optimizer.js";
+export * from "./state.js";

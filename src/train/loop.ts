@@ -20,6 +20,8 @@ import { lossNameSchema } from "./loss.js";
 import { Optimizer, optimizerSchema, type OptimizerState } from "./optimizer.js";
 import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
 import { scheduleFactor, scheduleSchema } from "./schedule.js";
+import { loadRuleState, trainerStateIssues } from "./state.js";
+import { requireBytes } from "../limits/index.js";
 
 const METRIC_NAMES = ["sse", "loss", "binaryCrossEntropy", "softmaxCrossEntropy", "accuracy", "cosine"] as const;
 const metricName = z.enum(METRIC_NAMES, { error: `one of ${METRIC_NAMES.join(", ")}` });
@@ -201,6 +203,7 @@ export class Trainer {
     this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && this.descriptor?.readout === "forward");
     this.order = this.forward ? forwardOrder(net) : [];
     this.optimizer = this.options.optimizer === undefined ? null : new Optimizer(net, this.rule, this.options.optimizer);
+    if (this.options.persistentStates) requireBytes("training.persistentStates", `persistent states of ${train.size} examples`, train.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
   }
 
@@ -291,7 +294,7 @@ export class Trainer {
     const n = ds.size;
     const idx = this.options.shuffle ? this.shuffleStream.permutation(n) : Int32Array.from({ length: n }, (_, i) => i);
     const factor = scheduleFactor(this.options.schedule, epoch);
-    const bs = this.options.batchSize;
+    const bs = Math.min(this.options.batchSize, n);
     const batches = Math.ceil(n / bs);
     const inBuf = new Float64Array(bs * ds.inputSize);
     const tBuf = new Float64Array(bs * ds.targetSize);
@@ -384,12 +387,19 @@ export class Trainer {
     };
   }
 
-  /** Restores a state saved by {@link Trainer.saveState} (the network must hold the matching weights). */
+  /**
+   * Restores a state saved by {@link Trainer.saveState} (the network must hold the matching weights). The
+   * state is checked in full first (see `trainerStateIssues`); the rule's own state is checked by the rule.
+   * @throws {@link EbbflowError} `parse_error` naming the field (paths under `trainer`), nothing restored.
+   */
   loadState(state: TrainerState): void {
+    const problems = trainerStateIssues(state, { layers: this.net.layers, examples: this.train.size, persistentStates: this.options.persistentStates });
+    if (problems.length > 0) throw new EbbflowError(problems);
+    const shuffle = RandomStream.fromState(state.shuffle, "trainer.shuffle");
+    // a damaged rule state is a typed error naming the field (checked against the rule's state schema, then by the rule)
+    loadRuleState(this.rule, this.descriptor === null ? state.rule : this.registry.checkState(this.rule.config, state.rule, "trainer.rule"), "trainer.rule");
     this.epoch = state.epoch;
-    this.shuffleStream = RandomStream.fromState(state.shuffle);
-    // a damaged rule state is a typed error naming the field (checked against the rule's state schema)
-    this.rule.loadState(this.descriptor === null ? state.rule : this.registry.checkState(this.rule.config, state.rule, "trainer.rule"));
+    this.shuffleStream = shuffle;
     this.history.length = 0;
     this.history.push(...state.history);
     this.best = state.best;

@@ -72,7 +72,9 @@ describe("the ebbflow command", () => {
     const dir = workdir();
     expect(run(["train", "experiment.json", "--out", "whole", "--epochs", "8", "--json"], dir).code).toBe(0);
     expect(run(["train", "experiment.json", "--out", "part", "--epochs", "4", "--checkpoint-every", "2", "--json"], dir).code).toBe(0);
-    expect(run(["train", "experiment.json", "--out", "part", "--epochs", "8", "--resume", "--json"], dir).code).toBe(0);
+    // the epoch limit differs from the checkpoint's experiment: refused unless accepted (and then recorded)
+    expect(run(["train", "experiment.json", "--out", "part", "--epochs", "8", "--resume", "--json"], dir).code).toBe(2);
+    expect(run(["train", "experiment.json", "--out", "part", "--epochs", "8", "--resume", "--accept-changes", "--json"], dir).code).toBe(0);
     const weights = (f: string) => (JSON.parse(readFileSync(path.join(dir, f, "model.json"), "utf8")) as { parameters: unknown }).parameters;
     expect(weights("part")).toEqual(weights("whole"));
     const strip = (f: string) => readResults(readFileSync(path.join(dir, f, "results.jsonl"), "utf8"), f).epochs.map(({ seconds: _s, ...e }) => e);
@@ -120,6 +122,36 @@ describe("the ebbflow command", () => {
     expect(bad.err).toMatch(/rule\.beta/);
     const dbg = run(["train", "missing.json", "--data", "xor", "--debug"], dir);
     expect(dbg.err).toMatch(/\n\s+at /);
+  });
+
+  it("numbers are read strictly, errors are JSON with --json, and a closed pipe ends the output quietly", () => {
+    const dir = workdir();
+    for (const [option, value] of [["--epochs", "0x3"], ["--epochs", "1e1"], ["--epochs", " 3"], ["--test-fraction", "-0.5"], ["--test-fraction", "0.95"], ["--batch-size", "2.5"], ["--rate", "0"]] as const) {
+      const r = run(["train", "experiment.json", option, value, "--out", "o"], dir);
+      expect(r.code, `${option} ${value}`).toBe(2);
+      expect(r.err, `${option} ${value}`).toContain(option);
+    }
+    const usage = run(["train", "experiment.json", "--epochs", "0x3", "--json"], dir);
+    expect(JSON.parse(usage.err) as unknown).toMatchObject({ error: { code: "usage" } });
+    const typed = run(["train", "experiment.json", "--data", "nonsense", "--json"], dir);
+    expect(typed.code).toBe(2);
+    expect(JSON.parse(typed.err) as unknown).toMatchObject({ error: { code: "unknown_name", path: "--data" } });
+    // the previous crash: `sweep list | head` with the reader gone (here: stdout closed after the first line)
+    writeFileSync(path.join(dir, "s.sweep.json"), JSON.stringify({ base: { ...experiment, rules: [experiment.rules[0]] }, grid: { "rule.rate": Array.from({ length: 400 }, (_, i) => (i + 1) / 100) }, seeds: [1, 2, 3] }));
+    const piped = spawnSync("bash", ["-c", `"${process.execPath}" "${bin}" sweep list s.sweep.json | head -1; echo "status \${PIPESTATUS[0]}"`], { cwd: dir, encoding: "utf8" });
+    expect(piped.stderr).toBe("");
+    expect(piped.stdout).toMatch(/status 0/);
+  });
+
+  it("an existing run folder is never overwritten silently", () => {
+    const dir = workdir();
+    expect(run(["train", "experiment.json", "--out", "o", "--epochs", "3", "--json"], dir).code).toBe(0);
+    const again = run(["train", "experiment.json", "--out", "o", "--epochs", "2"], dir);
+    expect(again.code).toBe(2);
+    expect(again.err).toMatch(/--out: expected an empty or new folder/);
+    expect(readResults(readFileSync(path.join(dir, "o", "results.jsonl"), "utf8"), "r").epochs).toHaveLength(3);
+    expect(run(["train", "experiment.json", "--out", "o", "--epochs", "2", "--overwrite", "--json"], dir).code).toBe(0);
+    expect(readResults(readFileSync(path.join(dir, "o", "results.jsonl"), "utf8"), "r").epochs).toHaveLength(2);
   });
 
   it("a bad model file reports every problem with its path", () => {

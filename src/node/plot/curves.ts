@@ -127,7 +127,7 @@ function series(path: string, results: Results, metric: string, split: "train" |
     }
     last = record.epoch;
     const metrics: ResultsMetrics | undefined = record[split];
-    const value = metrics?.[metric];
+    const value = metrics !== undefined && Object.prototype.hasOwnProperty.call(metrics, metric) ? metrics[metric] : undefined;
     if (value === undefined) continue;
     if (typeof value !== "number" || !Number.isFinite(value)) fail("invalid_parameter", `${where}.${split}.${metric}`, "a finite number", value);
     if (log && value < 0) fail("invalid_parameter", `${where}.${split}.${metric}`, "a value >= 0 (the y axis is logarithmic)", value);

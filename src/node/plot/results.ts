@@ -49,6 +49,10 @@ export interface ResultsHeaderLine {
   readonly config: Readonly<Record<string, unknown>>;
   /** Start time as an ISO 8601 date-time. */
   readonly started: string;
+  /** Hash of the config (the run's identity; SHA-256 of its canonical JSON), when the writer recorded it. */
+  readonly configHash?: string | undefined;
+  /** Changes of experiment accepted when the run was resumed (see `ConfigChange`), oldest first. */
+  readonly changes?: readonly Readonly<Record<string, unknown>>[] | undefined;
 }
 
 /** One epoch of training. @category Plots */
@@ -167,8 +171,11 @@ function readHeader(line: LineIssues, obj: Obj): ResultsHeaderLine | undefined {
   if (typeof started !== "string" || !ISO_DATE.test(started) || !Number.isFinite(Date.parse(started))) {
     line.add("started", "an ISO 8601 date-time such as 2025-01-31T12:00:00.000Z", started);
   }
+  if (obj.configHash !== undefined && (typeof obj.configHash !== "string" || !/^[0-9a-f]{64}$/.test(obj.configHash))) line.add("configHash", "64 lowercase hexadecimal digits", obj.configHash);
+  if (obj.changes !== undefined && (!Array.isArray(obj.changes) || !obj.changes.every(isObject))) line.add("changes", "an array of change records", obj.changes);
   if (line.list.length > before) return undefined;
-  return { kind: "header", ebbflow: ebbflow as string, seed: seed as number | string, config: config as Obj, started: started as string };
+  const header: ResultsHeaderLine = { kind: "header", ebbflow: ebbflow as string, seed: seed as number | string, config: config as Obj, started: started as string };
+  return { ...header, ...(obj.configHash !== undefined ? { configHash: obj.configHash as string } : {}), ...(obj.changes !== undefined ? { changes: obj.changes as Obj[] } : {}) };
 }
 
 function readEpoch(line: LineIssues, obj: Obj): ResultsEpochLine | undefined {

@@ -8,8 +8,10 @@ import path from "node:path";
 import { EbbflowError, fail, issueText } from "../../errors/index.js";
 import { expandSweep, SWEEP_PLAN_FORMAT, type SweepPlan, type SweepRun } from "../../sweep/expand.js";
 import { parseSweepFile } from "../../sweep/schema.js";
+import { parseSweepPlan } from "../../sweep/plan.js";
 import { readResults, type Results } from "../plot/results.js";
 import { writeFileAtomic } from "../files.js";
+import { cleanTemporaryFiles, ensureFolder } from "../run/folder.js";
 import { loadPlugins, resolvePlugin } from "../plugins.js";
 
 async function readJsonFile(file: string, what: string): Promise<unknown> {
@@ -129,7 +131,9 @@ export function runFiles(dir: string, id: string): RunFiles {
  */
 export async function writeSweepPlan(dir: string, plan: SweepPlan): Promise<void> {
   const f = sweepFolder(dir);
-  await fs.mkdir(f.runs, { recursive: true });
+  await ensureFolder(f.runs, "--out");
+  // temporary files of writers that died (other live runners' are left alone)
+  await cleanTemporaryFiles(f.dir, { deadOnly: true });
   if (await exists(f.plan)) {
     const existing = await readSweepPlan(dir);
     const a = existing.runs.map((r) => r.id).join(",");
@@ -149,10 +153,13 @@ export async function writeSweepPlan(dir: string, plan: SweepPlan): Promise<void
 export async function readSweepPlan(dir: string): Promise<SweepPlan> {
   const file = sweepFolder(dir).plan;
   const raw = (await readJsonFile(file, "sweep plan (runs.json; start the sweep with ebbflow sweep run)")) as Partial<SweepPlan> | null;
-  if (raw === null || typeof raw !== "object" || raw.format !== SWEEP_PLAN_FORMAT || !Array.isArray(raw.runs) || !Array.isArray(raw.configurations)) {
+  if (raw === null || typeof raw !== "object" || raw.format !== SWEEP_PLAN_FORMAT) {
     fail("parse_error", file, `a sweep plan (format ${JSON.stringify(SWEEP_PLAN_FORMAT)})`, raw === null || typeof raw !== "object" ? raw : raw.format);
   }
-  return raw as SweepPlan;
+  // rules of the user's own come from the plan's plugins (absolute paths or URLs): loaded before the runs are checked
+  const plugins = (raw as { plugins?: unknown }).plugins;
+  const registry = Array.isArray(plugins) && plugins.length > 0 && plugins.every((p) => typeof p === "string") ? await loadPlugins(plugins as string[]) : undefined;
+  return parseSweepPlan(raw, file, registry);
 }
 
 /** What a run's folder shows. @category Sweeps */

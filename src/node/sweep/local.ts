@@ -32,6 +32,8 @@ export interface LocalSweepReport {
   readonly runs: readonly RunReport[];
   readonly finished: number;
   readonly skipped: number;
+  /** Runs another process was running (their folders were locked): left to it. */
+  readonly busy: number;
   readonly failed: number;
 }
 
@@ -97,6 +99,7 @@ export async function runSweepLocally(plan: SweepPlan, options: LocalSweepOption
     runs: reports,
     finished: reports.filter((o) => o.status === "finished").length,
     skipped: reports.filter((o) => o.status === "skipped").length,
+    busy: reports.filter((o) => o.status === "busy").length,
     failed: reports.filter((o) => o.status === "failed").length,
   };
 }

@@ -10,9 +10,11 @@
 import { execFile } from "node:child_process";
 import { promises as fs } from "node:fs";
 import path from "node:path";
+import { z } from "zod";
 import { EbbflowError, fail, issueText, requireInteger } from "../../errors/index.js";
 import type { SweepPlan } from "../../sweep/expand.js";
 import { writeFileAtomic } from "../files.js";
+import { ensureFolder } from "../run/folder.js";
 import { readRunProgress, readSweepPlan, sweepFolder, writeSweepPlan } from "./files.js";
 
 /** Options of the batch script. @category Sweeps */
@@ -164,6 +166,23 @@ export function batchScript(dir: string, name: string, options: SlurmOptions): s
 
 const SUBMISSIONS_FORMAT = "ebbflow-sweep-submissions";
 
+/** Schema of `slurm/submissions.json`. */
+const submissionsSchema = z
+  .object({
+    format: z.literal(SUBMISSIONS_FORMAT, { error: JSON.stringify(SUBMISSIONS_FORMAT) }),
+    submissions: z.array(
+      z
+        .object({
+          job: z.string().regex(/^[0-9]+(;[\w.-]+)?$/, { error: "a job id as sbatch printed it" }),
+          indices: z.array(z.number().int().min(0)),
+          array: z.string().regex(/^[0-9,\-%]+$/, { error: "an --array value" }),
+          submitted: z.string().refine((s) => Number.isFinite(Date.parse(s)), { error: "an ISO 8601 date-time" }),
+        })
+        .strict(),
+    ),
+  })
+  .strict();
+
 /**
  * The submissions recorded in a sweep folder (none for a local sweep).
  * @param dir - The sweep folder.
@@ -178,13 +197,19 @@ export async function readSubmissions(dir: string): Promise<SlurmSubmission[]> {
   } catch {
     return [];
   }
+  let data: unknown;
   try {
-    const data = JSON.parse(text) as { format?: unknown; submissions?: SlurmSubmission[] };
-    if (data.format !== SUBMISSIONS_FORMAT || !Array.isArray(data.submissions)) throw new Error("format");
-    return data.submissions;
-  } catch {
-    return fail("parse_error", file, `a submissions record (format ${JSON.stringify(SUBMISSIONS_FORMAT)})`, "something else");
+    data = JSON.parse(text) as unknown;
+  } catch (e) {
+    return fail("parse_error", file, `a submissions record (format ${JSON.stringify(SUBMISSIONS_FORMAT)})`, `unreadable JSON (${(e as Error).message})`);
   }
+  const r = submissionsSchema.safeParse(data);
+  if (!r.success) {
+    const zi = r.error.issues[0]!;
+    const where = zi.code === "unrecognized_keys" ? [...zi.path, zi.keys[0] ?? ""] : zi.path;
+    return fail("parse_error", `${file}: ${where.map((k) => (typeof k === "number" ? `[${k}]` : `.${String(k)}`)).join("").replace(/^\./, "") || "(root)"}`, zi.code === "unrecognized_keys" ? "no such field (unknown key)" : zi.message.replace(/^Invalid input: expected /, "").replace(/, received \w+$/, ""), zi.code);
+  }
+  return r.data.submissions as SlurmSubmission[];
 }
 
 /** Submits the batch script for the given indices as one array job and records it. */
@@ -221,8 +246,8 @@ export async function submitSweep(plan: SweepPlan, out: string, options: SlurmOp
   checkOptions(options);
   const f = sweepFolder(out);
   await writeSweepPlan(f.dir, plan);
-  await fs.mkdir(f.logs, { recursive: true });
-  await fs.mkdir(f.slurm, { recursive: true });
+  await ensureFolder(f.logs, "--out");
+  await ensureFolder(f.slurm, "--out");
   await writeFileAtomic(path.join(f.slurm, "task.sh"), batchScript(f.dir, plan.name, options));
   await fs.chmod(path.join(f.slurm, "task.sh"), 0o755);
   const status = await sweepStatus(f.dir);

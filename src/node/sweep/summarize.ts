@@ -11,6 +11,7 @@ import { formatSummaryTable, summarizeRuns, type RunFinal, type SweepSummary } f
 import { bandCurveSvg, type BandKind, type RunGroup } from "../plot/curves.js";
 import type { Results } from "../plot/results.js";
 import { writeFileAtomic } from "../files.js";
+import { ensureFolder } from "../run/folder.js";
 import { readRunProgress, readSweepPlan, sweepFolder } from "./files.js";
 
 /** Options of {@link summarizeSweepFolder}. @category Sweeps */
@@ -90,7 +91,7 @@ export async function summarizeSweepFolder(dir: string, options: SummarizeOption
   await writeFileAtomic(json, JSON.stringify(summary, null, 1) + "\n");
   if (svg === undefined) return { summary, table, plotSkipped, files: { json } };
   const svgFile = path.join(f.dir, "plots", `${metric}-${split}.svg`);
-  await fs.mkdir(path.dirname(svgFile), { recursive: true });
+  await ensureFolder(path.dirname(svgFile));
   await writeFileAtomic(svgFile, svg);
   return { summary, table, svg, files: { json, svg: svgFile } };
 }

@@ -10,6 +10,7 @@
 import { refuseUnknownOptions } from "../../errors/options.js";
 import { fail } from "../../errors/index.js";
 import { makeDataset, type Dataset } from "./dataset.js";
+import { requireBytes } from "../../limits/index.js";
 import { IssueList, describeCell, parseDecimal } from "./issues.js";
 
 /**
@@ -351,6 +352,7 @@ export function parseCsvDataset(text: string, options: CsvDatasetOptions): Datas
   const targetSize = oneHotFlag ? classNames.length : targetCols.length;
   let targetValues: Float64Array;
   if (lab !== undefined) {
+    requireBytes(source, `one-hot targets of ${dataRows} rows × ${targetSize} classes`, dataRows * targetSize * 8);
     targetValues = new Float64Array(dataRows * targetSize);
     for (let i = 0; i < dataRows; i++) targetValues[i * targetSize + (lab[i] as number)] = 1;
   } else {

@@ -6,6 +6,7 @@
 import { refuseUnknownOptions } from "../../errors/options.js";
 import { describeValue, fail, requireInteger } from "../../errors/index.js";
 import { isNdArrayLike, rowMajorValues, type NdArrayLike } from "../../interop/ndarray.js";
+import { requireBytes } from "../../limits/index.js";
 
 /**
  * A set of examples: `size` rows of `inputSize` inputs and `targetSize` targets.
@@ -261,6 +262,7 @@ export function createDataset(
  */
 export function oneHot(labels: ArrayLike<number>, classes: number): Float64Array {
   requireInteger("classes", classes, 1);
+  requireBytes("classes", `one-hot targets of ${labels.length} examples × ${classes} classes`, labels.length * classes * 8);
   const out = new Float64Array(labels.length * classes);
   for (let i = 0; i < labels.length; i++) {
     const l: unknown = labels[i];

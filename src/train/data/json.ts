@@ -28,6 +28,7 @@
  */
 import { describeValue, fail, requireInteger } from "../../errors/index.js";
 import { checkLabels, makeDataset, type Dataset } from "./dataset.js";
+import { requireBytes } from "../../limits/index.js";
 import { IssueList } from "./issues.js";
 
 const KEYS = ["name", "inputs", "targets", "labels", "classNames", "inputNames"] as const;
@@ -168,6 +169,7 @@ export function parseJsonDataset(text: string, source: string): Dataset {
     const lab = rawLabels as number[];
     const classes = classNames?.length ?? lab.reduce((m, v) => Math.max(m, v), 0) + 1;
     targetSize = classes;
+    requireBytes(`${source}:labels`, `one-hot targets of ${n} examples × ${classes} classes (the largest label + 1)`, n * classes * 8);
     targets = new Float64Array(n * classes);
     labels = new Int32Array(n);
     for (let i = 0; i < n; i++) {
