@@ -17,7 +17,7 @@ import type { FloatArray } from "../types/index.js";
 import type { BuildOptions, Network } from "../network/network.js";
 import { safeParseNetwork } from "../network/spec.js";
 import { encodeFloats } from "../config/encoding.js";
-import { MODEL_FORMAT, MODEL_VERSION, modelFromData, modelToData } from "../config/modelFile.js";
+import { contentChecksum, MODEL_FORMAT, MODEL_VERSION, modelFromData, modelToData } from "../config/modelFile.js";
 import { biasView, feedbackView, isRowMajor, rowMajorValues, weightView, type NdArrayLike, type NdView } from "./ndarray.js";
 import { decodeNpy, decodeNpyText, encodeNpy, encodeNpyText, rowMajorBytes, type NpyArray } from "./npy.js";
 import { readZip, writeZip } from "./zip.js";
@@ -130,7 +130,9 @@ export function modelFromNpz(bytes: Uint8Array, options: BuildOptions = {}): Net
   for (const l of spec.layers) if (l.role !== "input") take(`bias.${namePart(l.name)}`, [l.size], parameters.biases, l.name);
   for (const key of entries.keys()) if (!used.has(key)) problems.push(issueText("unknown_name", `npz:${key}`, "an entry naming a parameter of the declared network", key));
   if (problems.length > 0) throw new EbbflowError(problems);
-  return modelFromData({ format: MODEL_FORMAT, version: MODEL_VERSION, network: declaration, parameters }, options);
+  // the archive's entries are checked by their CRC-32; the rebuilt model file carries its own checksum
+  const body = { format: MODEL_FORMAT, version: MODEL_VERSION, network: declaration, parameters };
+  return modelFromData({ ...body, checksum: contentChecksum(body) }, options);
 }
 
 /** The values of a decoded float array in row-major order (Fortran-order files are reordered, by bytes). */

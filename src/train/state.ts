@@ -22,7 +22,9 @@ const SLACK = 1e-9;
 export const metricsSchema = z
   .object({
     sse: nonNegative(),
-    crossEntropy: nonNegative(),
+    loss: nonNegative(),
+    binaryCrossEntropy: nonNegative(),
+    softmaxCrossEntropy: nonNegative(),
     accuracy: z.number({ error: "a fraction in [0, 1]" }).refine((v) => v >= -SLACK && v <= 1 + SLACK, { error: "a fraction in [0, 1]" }),
     cosine: z.number({ error: "a number in [-1, 1]" }).refine((v) => v >= -1 - SLACK && v <= 1 + SLACK, { error: "a number in [-1, 1]" }),
     ties: count(0),
@@ -52,6 +54,8 @@ export const trainerStateSchema = z
     best: finite().nullable(),
     sinceBest: count(0),
     persistent: z.array(z.array(finite()).nullable(), { error: "an array per layer (null for input layers)" }).nullable(),
+    /** The optimizer's step count and moments (checked against the network by `Optimizer.loadState`). */
+    optimizer: z.object({ steps: count(0), moments: z.array(z.array(finite())) }).strict().nullable().optional(),
   })
   .strict();
 
