@@ -16,6 +16,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   parallel: () => import("./parallel.js"),
   agreement: () => import("./agreement.js"),
   digits: () => import("./digits.js"),
+  runs: () => import("./runs.js"),
   fuzz: () => import("./fuzz.js"),
 };
 

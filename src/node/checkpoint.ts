@@ -145,7 +145,7 @@ const checkpointSchema = z
  * @param where - The file's name, put before every error path (`checkpoint.json: trainer.epoch`).
  * @param options - Where to build the network (kernels, allocation).
  * @returns The network, the trainer state and the run's record.
- * @throws {@link EbbflowError} `parse_error` naming the field, or the checksum when only it disagrees.
+ * @throws `EbbflowError` `parse_error` naming the field, or the checksum when only it disagrees.
  * @category Files
  */
 export function checkpointFromData(data: unknown, where: string, options: BuildOptions = {}, resultsText?: string): LoadedCheckpoint {
@@ -192,7 +192,7 @@ export function checkpointFromData(data: unknown, where: string, options: BuildO
  * @param file - The checkpoint file.
  * @param options - Where to build the network.
  * @returns The checkpoint.
- * @throws {@link EbbflowError} `io_error` when unreadable, `parse_error` naming the damaged field.
+ * @throws `EbbflowError` `io_error` when unreadable, `parse_error` naming the damaged field.
  * @category Files
  */
 export async function loadCheckpoint(file: string, options: BuildOptions = {}): Promise<LoadedCheckpoint> {

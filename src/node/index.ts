@@ -4,7 +4,7 @@
  */
 export * from "./files.js";
 export * from "./checkpoint.js";
-export { runFolderFiles, ensureFolder, acquireRunLock, cleanTemporaryFiles, claimRunFolder, isFolderBusy, inspectResults, configHashOf, configDifferences, findRunStart, restoreTrainer, driveRun, type RunFolderFiles, type RunLock, type RunFolderMode, type ResultsInspection, type ConfigChange, type RunStart, type RunStartOptions, type DriveOptions, type DriveResult } from "./run/index.js";
+export { runFolderFiles, ensureFolder, acquireRunLock, cleanTemporaryFiles, claimRunFolder, isFolderBusy, inspectResults, configHashOf, configDifferences, findRunStart, restoreTrainer, driveRun, type RunFolderFiles, type RunLock, type RunFolderMode, type ResultsInspection, type ConfigChange, type RunStart, type RunStartOptions, type DriveOptions, type DriveResult, type HistoryReference } from "./run/index.js";
 export { ioErrorText, ioFail } from "./io.js";
 export * from "./data.js";
 export * from "./plot.js";

@@ -41,7 +41,7 @@ export function ioErrorText(e: unknown): string {
  * @param e - The caught error.
  * @param path - The file or folder.
  * @param expected - What was needed, e.g. `a writable folder`.
- * @throws {@link EbbflowError} `io_error`, always.
+ * @throws `EbbflowError` `io_error`, always.
  * @category Files
  */
 export function ioFail(e: unknown, path: string, expected: string): never {

@@ -132,7 +132,7 @@ export class RandomStream {
 
   /**
    * Restores a stream saved with {@link RandomStream.saveState}. The state is checked in full first (see
-   * {@link randomStateIssues}): a damaged one is an error, never a stream that hangs or draws other numbers.
+   * `randomStateIssues`): a damaged one is an error, never a stream that hangs or draws other numbers.
    * @param path - Where the state sits, for errors (e.g. `trainer.shuffle`).
    * @throws {@link EbbflowError} `parse_error` naming the bad field.
    */

@@ -126,7 +126,8 @@ describe("the ebbflow command", () => {
 
   it("numbers are read strictly, errors are JSON with --json, and a closed pipe ends the output quietly", () => {
     const dir = workdir();
-    for (const [option, value] of [["--epochs", "0x3"], ["--epochs", "1e1"], ["--epochs", " 3"], ["--test-fraction", "-0.5"], ["--test-fraction", "0.95"], ["--batch-size", "2.5"], ["--rate", "0"]] as const) {
+    // the two of the report (more values: the cli-numbers kind of the fuzz suite)
+    for (const [option, value] of [["--epochs", "0x3"], ["--test-fraction", "-0.5"]] as const) {
       const r = run(["train", "experiment.json", option, value, "--out", "o"], dir);
       expect(r.code, `${option} ${value}`).toBe(2);
       expect(r.err, `${option} ${value}`).toContain(option);

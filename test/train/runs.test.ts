@@ -3,6 +3,7 @@ import { appendFileSync, existsSync, mkdtempSync, readFileSync, readdirSync, wri
 import { tmpdir, hostname } from "node:os";
 import path from "node:path";
 import { createHash } from "node:crypto";
+import { spawnSync } from "node:child_process";
 import { buildNetwork, EbbflowError, modelFromData, modelToJson, Trainer, xorDataset, type NetworkSpecInput, type RuleConfigInput } from "../../src/index.js";
 import {
   acquireRunLock,
@@ -172,6 +173,18 @@ describe("run folders", () => {
     await expect(claimRunFolder(path.join(dir, "file", "below"), "new")).rejects.toThrow(EbbflowError);
     await expect(claimRunFolder(path.join(dir, "x".repeat(300)), "new")).rejects.toThrow(/at most 255 bytes/);
     await expect(claimRunFolder(`/proc/ebbflow-test-${process.pid}/x`, "new")).rejects.toThrow(EbbflowError);
+  });
+
+  it("report a read-only file system as read-only (EROFS), not as a missing folder", async (ctx) => {
+    // needs the right to mount (root in a container or VM); skipped elsewhere
+    const dir = tmp();
+    const mounted = spawnSync("mount", ["-t", "tmpfs", "-o", "ro,size=1m", "tmpfs", dir]).status === 0;
+    if (!mounted) return ctx.skip();
+    try {
+      await expect(claimRunFolder(path.join(dir, "a", "b"), "new")).rejects.toThrow(/read-only file system \(EROFS\)/);
+    } finally {
+      spawnSync("umount", [dir]);
+    }
   });
 });
 

@@ -54,7 +54,7 @@ export interface RunStartOptions {
  * @param files - The run folder's files.
  * @param options - The config now and whether to accept changes.
  * @returns Where the run starts.
- * @throws {@link EbbflowError} `invalid_config` for another experiment; `parse_error`/`io_error` for a damaged checkpoint.
+ * @throws `EbbflowError` `invalid_config` for another experiment; `parse_error`/`io_error` for a damaged checkpoint.
  * @category Training
  */
 export async function findRunStart(files: RunFolderFiles, options: RunStartOptions): Promise<RunStart> {
@@ -81,7 +81,7 @@ export async function findRunStart(files: RunFolderFiles, options: RunStartOptio
  * change of rule (another rule name), the rule starts from a fresh state.
  * @param trainer - A trainer built on the checkpoint's network.
  * @param start - From {@link findRunStart}.
- * @throws {@link EbbflowError} `parse_error` when the state does not fit the trainer.
+ * @throws `EbbflowError` `parse_error` when the state does not fit the trainer.
  * @category Training
  */
 export function restoreTrainer(trainer: Trainer, start: RunStart): void {
@@ -130,7 +130,7 @@ export interface DriveResult {
  * module notes.
  * @param o - Trainer, files, config, seed, checkpoint interval, start.
  * @returns Why and when training stopped.
- * @throws {@link EbbflowError} from training or from the files (`io_error`).
+ * @throws `EbbflowError` from training or from the files (`io_error`).
  * @category Training
  */
 export async function driveRun(o: DriveOptions): Promise<DriveResult> {

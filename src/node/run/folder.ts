@@ -57,7 +57,7 @@ const missing = (e: unknown) => (e as NodeJS.ErrnoException).code === "ENOENT";
  * @param dir - The folder.
  * @param what - How to name it in errors (e.g. `--out`).
  * @returns The absolute path.
- * @throws {@link EbbflowError} `io_error` for a path through a file, a read-only or unwritable place, a name
+ * @throws `EbbflowError` `io_error` for a path through a file, a read-only or unwritable place, a name
  *   too long, or any other failure, in words.
  * @category Files
  */
@@ -152,7 +152,7 @@ const TORN_LOCK_AGE = 10_000;
  * @param dir - The folder (must exist).
  * @param what - How to name the folder in errors (e.g. `--out`).
  * @returns The lock; release it when the run ends.
- * @throws {@link EbbflowError} `io_error` when another live process (or another host) holds the lock.
+ * @throws `EbbflowError` `io_error` when another live process (or another host) holds the lock.
  * @category Files
  */
 export async function acquireRunLock(dir: string, what = dir): Promise<RunLock> {
@@ -260,7 +260,7 @@ const RUN_FILE_NAMES = ["results.jsonl", "model.json", "checkpoint.json", "failu
  * @param mode - See above.
  * @param what - How to name the folder in errors (default `--out`).
  * @returns The folder's files and the held lock (release it when done, also on failure).
- * @throws {@link EbbflowError} `io_error` (folder, lock), `invalid_config` (a non-empty folder in `new` mode).
+ * @throws `EbbflowError` `io_error` (folder, lock), `invalid_config` (a non-empty folder in `new` mode).
  * @category Files
  */
 export async function claimRunFolder(dir: string, mode: RunFolderMode, what = "--out"): Promise<{ files: RunFolderFiles; lock: RunLock }> {

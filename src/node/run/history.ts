@@ -37,7 +37,7 @@ export interface HistoryReference {
  * @param ref - The checkpoint's reference.
  * @param where - The results file's name, for errors.
  * @returns The records.
- * @throws {@link EbbflowError} `parse_error` when lines are missing, unreadable or differ from the chain.
+ * @throws `EbbflowError` `parse_error` when lines are missing, unreadable or differ from the chain.
  * @category Files
  */
 export function historyFromResults(text: string, ref: HistoryReference, where: string): EpochRecord[] {
