@@ -4,7 +4,6 @@
  * gradient-agreement table, and writes SVG learning curves.
  * @module
  */
-import { promises as fs } from "node:fs";
 import path from "node:path";
 import { EbbflowError } from "../errors/index.js";
 import { DEMO_RULES, demoAgreement, demoRun, type DemoRun } from "../demo/run.js";
@@ -71,7 +70,6 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
   const reports = demoAgreement(4, 1);
   for (const r of reports) say(formatAgreement(r).split("\n").map((l) => "   " + l).join("\n") + "\n");
 
-  await ensureFolder(out, "--out");
   const written: string[] = [];
   let plotSkipped: string | undefined;
   try {
@@ -80,7 +78,8 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
     if (!(e instanceof EbbflowError)) throw e;
     plotSkipped = e.message;
   }
-  if (plotSkipped === undefined) await fs.mkdir(out, { recursive: true });
+  // the folder is made (and checked) only when there are curves to write
+  if (plotSkipped === undefined) await ensureFolder(out, "--out");
   for (const rule of plotSkipped === undefined ? DEMO_RULES : []) {
     const name = ruleDisplayName(rule.config);
     const runs = hidden[name] ?? [];
