@@ -44,7 +44,8 @@ function shuffleKeys(v: unknown, order: (keys: string[]) => string[]): unknown {
   if (v !== null && typeof v === "object") {
     const o = v as Record<string, unknown>;
     const out: Record<string, unknown> = {};
-    for (const k of order(Object.keys(o))) out[k] = shuffleKeys(o[k], order);
+    // defined, not assigned: a key named "__proto__" (fast-check draws it) stays an own key instead of setting the prototype
+    for (const k of order(Object.keys(o))) Object.defineProperty(out, k, { value: shuffleKeys(o[k], order), enumerable: true, writable: true, configurable: true });
     return out;
   }
   return v;
