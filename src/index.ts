@@ -11,7 +11,7 @@
 // Building and settling networks
 export { Network, buildNetwork, parameterBuffers, parameterSlots, type BuildOptions, type Connection, type Feedback, type Layer, type LayerRole, type ParameterSlot } from "./network/network.js";
 export { Settler, Snapshot, energy, type LayerValues, type Phase, type PhaseOptions } from "./network/settle.js";
-export { clipKeepsFixedPoints, clippedLayers } from "./network/clip.js";
+export { clipKeepsFixedPoints, clippedLayers, type RangedUnit } from "./network/clip.js";
 export { initSchema, networkJsonSchema, networkSchema, parseNetwork, safeParseNetwork, type ConnectionSpec, type DynamicsSpec, type FeedbackSpec, type InhibitionSpec, type InitSpecData, type LayerSpec, type NetworkSpec, type NetworkSpecInput, type ParseResult } from "./network/spec.js";
 
 // Learning rules

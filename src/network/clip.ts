@@ -4,8 +4,8 @@
  */
 import type { Network } from "./network.js";
 
-/** The parts of a unit the clipping decision reads. */
-interface RangedUnit {
+/** The parts of a unit the clipping decision reads (its range and rate). @category Network */
+export interface RangedUnit {
   readonly lower: number;
   readonly upper: number;
   value(x: number): number;

@@ -14,7 +14,7 @@ import { loadDataset, type LoadDatasetOptions } from "./data.js";
 
 /**
  * Reads an index file: 0-based row numbers below `size`, without repeats.
- * @throws {@link EbbflowError} `io_error` naming the file, `parse_error` naming the offending entry.
+ * @throws `EbbflowError` `io_error` naming the file, `parse_error` naming the offending entry.
  * @category Data
  */
 export async function readIndexFile(file: string, size: number): Promise<Int32Array> {
@@ -61,7 +61,7 @@ export async function splitByIndexFiles(ds: Dataset, trainFile: string, testFile
 /**
  * Loads a CSV file split by one of its columns: each row's value there is `train` or `test`; the column is
  * not an input. `options` are the file's load options (target columns, one-hot, ...).
- * @throws {@link EbbflowError} `invalid_config` at `data.split.column` for another value or a part left empty.
+ * @throws `EbbflowError` `invalid_config` at `data.split.column` for another value or a part left empty.
  * @category Data
  */
 export async function loadSplitByColumn(file: string, column: string | number, options: LoadDatasetOptions): Promise<DatasetSplit> {

@@ -16,7 +16,7 @@ export type Metrics = {
   readonly binaryCrossEntropy: number;
   /** Mean over examples of −Σ t ln softmax(y)_k (the outputs read as logits of one categorical prediction). */
   readonly softmaxCrossEntropy: number;
-  /** Fraction of examples classified correctly (see {@link accumulateMetrics} for the readout). */
+  /** Fraction of examples classified correctly (arg-max read-out after the free phase, ties scored by the tie policy). */
   readonly accuracy: number;
   /** Mean cosine between output and target vectors (0 for a zero vector). */
   readonly cosine: number;
