@@ -108,6 +108,9 @@ export const kernelExports = [
   { name: "addRowVector", typed: true, params: "out: ptr, bias: ptr, rows: i32, cols: i32", result: "void", impl: "addRowVector<T>", from: "./vector", doc: "each row of out += bias" },
   { name: "sumRows", typed: true, params: "out: ptr, a: ptr, rows: i32, cols: i32, alpha: f64, beta: f64", result: "void", impl: "sumRows<T>", from: "./vector", doc: "out = alpha (column sums of a) + beta out" },
   { name: "unitFill", typed: true, params: "code: i32, gain: f64, offset: f64, out: ptr, x: ptr, n: i32", result: "void", impl: "unitFill#", from: "./units", doc: "unit function or slope, elementwise (code: see unitKernels)" },
+  { name: "sparseDrive", typed: true, params: "out: ptr, values: ptr, rowStart: ptr, columnIndex: ptr, x: ptr, rows: i32, cols: i32, batch: i32, alpha: f64, beta: f64", result: "void", impl: "sparseDrive<T>", from: "./sparse", doc: "out = alpha X Wᵀ + beta out, W row-compressed (sparse.ts)" },
+  { name: "sparseDriveTransposed", typed: true, params: "out: ptr, values: ptr, rowStart: ptr, columnIndex: ptr, z: ptr, rows: i32, cols: i32, batch: i32, alpha: f64, beta: f64", result: "void", impl: "sparseDriveTransposed<T>", from: "./sparse", doc: "out = alpha Z W + beta out, W row-compressed" },
+  { name: "sparseSampledProduct", typed: true, params: "values: ptr, rowStart: ptr, columnIndex: ptr, post: ptr, pre: ptr, rows: i32, cols: i32, batch: i32, alpha: f64, beta: f64", result: "void", impl: "sparseSampledProduct<T>", from: "./sparse", doc: "values = alpha (post pre) at the stored entries + beta values" },
   {
     name: "rateStep",
     typed: true,

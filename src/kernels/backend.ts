@@ -12,6 +12,7 @@ import type { ger } from "./ger.js";
 import type { add, axpby, axpy, copy, fill, mul, scale, sub } from "./elementwise.js";
 import type { allFinite, dot, maxAbs, maxAbsDiff, sumSquares } from "./reductions.js";
 import type { addRowVector, sumRows } from "./rows.js";
+import type { SparseKernels } from "./sparse.js";
 
 /**
  * Name of a kernel backend: the TypeScript loops, the WebAssembly kernels
@@ -83,6 +84,11 @@ export interface KernelBackend {
   readonly addRowVector: typeof addRowVector;
   /** Column sums, as {@link sumRows}. */
   readonly sumRows: typeof sumRows;
+  /**
+   * Optional: the row-compressed sparse kernels (see `sparseDrive`); both built-in backends define them.
+   * Code that finds none uses the TypeScript kernels (`typescriptSparseKernels`).
+   */
+  readonly sparse?: SparseKernels | undefined;
   /**
    * Optional: a unit (activation) function or its slope, elementwise:
    * `out[i] = f(x[i])` (or `f'(x[i])` when `slope`) for `i < n`, with the

@@ -23,3 +23,16 @@ export { checkGemm, checkGemv, checkGer, kernelsChecked } from "./checked.js";
 export type { BackendName, KernelBackend } from "./backend.js";
 export { typescriptBackend } from "./typescript-backend.js";
 export { fillUnit, type UnitFillKind } from "./units.js";
+export {
+  compressRows,
+  expandRows,
+  gatherRows,
+  storedEntries,
+  sparseDrive,
+  sparseDriveTransposed,
+  sparseSampledProduct,
+  typescriptSparseKernels,
+  type RowCompressed,
+  type SparseAllocator,
+  type SparseKernels,
+} from "./sparse.js";

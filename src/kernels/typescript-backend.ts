@@ -10,6 +10,7 @@ import { gemv } from "./gemv.js";
 import { ger } from "./ger.js";
 import { allFinite, dot, maxAbs, maxAbsDiff, sumSquares } from "./reductions.js";
 import { addRowVector, sumRows } from "./rows.js";
+import { typescriptSparseKernels } from "./sparse.js";
 
 /**
  * The TypeScript kernels as a {@link KernelBackend}: the functions of the
@@ -47,4 +48,5 @@ export const typescriptBackend: KernelBackend = Object.freeze({
   sumSquares,
   addRowVector,
   sumRows,
+  sparse: typescriptSparseKernels,
 } as const);

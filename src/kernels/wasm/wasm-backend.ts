@@ -11,6 +11,7 @@ import { createArena } from "./arena.js";
 import { wasmKernels } from "./generated/kernels.js";
 import type { WasmBuild, WasmModule } from "./platform.js";
 import { createStaging } from "./staging.js";
+import { createSparseKernels } from "./sparse.js";
 import { createRateStep, createUnitFill } from "./units.js";
 
 /**
@@ -168,6 +169,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
     sumSquares: (a: ReadonlyFloatArray, n: number = a.length): number => kernels.dot(a, a, n),
     unitFill: createUnitFill(arena.X, own),
     rateStep: createRateStep(arena.X, own),
+    sparse: createSparseKernels(arena.X, own, arena.allocate),
   };
   return backend;
 }
