@@ -38,6 +38,38 @@ export function sparseDrive<T>(out: usize, values: usize, rowStart: usize, colum
   const bz = beta == 0;
   let b = 0;
   if (alpha != 0) {
+    // four patterns per pass: each stored entry's index and value are loaded once for four sums
+    for (; b + 4 <= batch; b += 4) {
+      const x0 = x + <usize>b * xRow;
+      const x1 = x0 + xRow;
+      const x2 = x1 + xRow;
+      const x3 = x2 + xRow;
+      const y0 = out + <usize>b * yRow;
+      const y1 = y0 + yRow;
+      const y2 = y1 + yRow;
+      const y3 = y2 + yRow;
+      for (let i = 0; i < rows; i++) {
+        const k0 = load<i32>(rowStart + (<usize>i << 2));
+        const k1 = load<i32>(rowStart + (<usize>(i + 1) << 2));
+        let s = f64x2.splat(0);
+        let t = f64x2.splat(0);
+        for (let k = k0; k < k1; k++) {
+          const c = <usize>load<i32>(columnIndex + (<usize>k << 2)) * S;
+          const v = f64x2.splat(ld<T>(values + <usize>k * S));
+          s = vmadd<f64>(v, pair<T>(x0 + c, x1 + c), s);
+          t = vmadd<f64>(v, pair<T>(x2 + c, x3 + c), t);
+        }
+        const o = <usize>i * S;
+        const r0 = alpha * f64x2.extract_lane(s, 0);
+        const r1 = alpha * f64x2.extract_lane(s, 1);
+        const r2 = alpha * f64x2.extract_lane(t, 0);
+        const r3 = alpha * f64x2.extract_lane(t, 1);
+        st<T>(y0 + o, bz ? r0 : r0 + beta * ld<T>(y0 + o));
+        st<T>(y1 + o, bz ? r1 : r1 + beta * ld<T>(y1 + o));
+        st<T>(y2 + o, bz ? r2 : r2 + beta * ld<T>(y2 + o));
+        st<T>(y3 + o, bz ? r3 : r3 + beta * ld<T>(y3 + o));
+      }
+    }
     for (; b + 2 <= batch; b += 2) {
       const x0 = x + <usize>b * xRow;
       const x1 = x0 + xRow;

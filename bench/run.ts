@@ -17,6 +17,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   agreement: () => import("./agreement.js"),
   digits: () => import("./digits.js"),
   runs: () => import("./runs.js"),
+  sparse: () => import("./sparse.js"),
   fuzz: () => import("./fuzz.js"),
 };
 

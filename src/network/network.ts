@@ -12,6 +12,8 @@ import { createRandom, initialize, type InitSpec } from "../random/index.js";
 import { type Dtype, type FloatArray } from "../types/index.js";
 import type { KernelBackend } from "../kernels/backend.js";
 import { typescriptBackend } from "../kernels/typescript-backend.js";
+import type { RowCompressed } from "../kernels/sparse.js";
+import { sparseFormFor } from "./storage.js";
 import { fail } from "../errors/index.js";
 import { requireParameterMemory } from "./checks.js";
 import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
@@ -53,6 +55,12 @@ export interface Connection {
   readonly spec: ConnectionSpec;
   /** `"layerA->layerB"`, used in reports and file formats. */
   readonly label: string;
+  /**
+   * The row-compressed form the settler's products use when the connection's storage is sparse (see
+   * `sparseFormFor`), else null or absent. `weights` stays the parameters of record; the settler gathers
+   * these values from it at the start of every settling.
+   */
+  readonly sparse?: RowCompressed | null | undefined;
 }
 
 /** Applies a connection's sign and bound constraints to its weights in place. @category Network */
@@ -159,6 +167,7 @@ export class Network {
     const connections = this.connections.map((c) => ({
       ...c,
       weights: dup(c.weights),
+      sparse: c.sparse ? { ...c.sparse, values: dup(c.sparse.values) } : c.sparse,
       feedback: c.feedback.kind === "separate" ? { ...c.feedback, weights: dup(c.feedback.weights) } : c.feedback,
     }));
     return new Network(this.spec, layers, connections, this.kernels, this.units);
@@ -287,7 +296,8 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
       if (!options.keepValues) initialize(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
       feedback = { kind: "separate", learned: cs.feedback.learned, weights: fw };
     } else feedback = cs.feedback;
-    return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label };
+    const sparse = sparseFormFor(cs, null, to.size, from.size, spec.dtype, weights, kernels, `connections[${index}].storage`);
+    return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label, sparse };
   });
   return new Network(spec, layers, connections, kernels, units);
 }

@@ -7,6 +7,8 @@
 import { EbbflowError, describeValue, fail, issueText, requireFinite, requireInteger, requirePositive, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/units.js";
+import { typescriptSparseKernels } from "../kernels/sparse.js";
+import { refreshSparseForms } from "./storage.js";
 import type { Network } from "./network.js";
 import { flatLayerValues, sizesByName, type LayerInputs } from "../interop/ndarray.js";
 import { clippedLayers } from "./clip.js";
@@ -289,6 +291,9 @@ export class Settler {
     if (snap.batch !== batch) fail("shape_mismatch", "out", `a snapshot of batch ${batch}`, `batch ${snap.batch}`);
     if (options.start !== undefined && options.start.batch !== batch) fail("shape_mismatch", "start", `a snapshot of batch ${batch}`, `batch ${options.start.batch}`);
 
+    // sparse connections compute from their compressed form: take the weights as they are now
+    refreshSparseForms(net.connections);
+
     // which layers are held fixed in this phase
     for (const l of net.layers) this.clamped[l.index] = l.role === "input" || (phase === "clamped" && l.role === "output");
     const problems = this.loadValues(options.inputs, "input", "inputs", snap.activity);
@@ -472,19 +477,26 @@ export class Settler {
   private accumulate(eta: FloatArray, i: number, act: FloatArray[], mask: readonly boolean[], want: boolean): void {
     const { net, batch } = this;
     const gemm = net.kernels.gemm;
+    const sparse = net.kernels.sparse ?? typescriptSparseKernels;
     const n = net.layers[i]!.size;
     for (const c of net.incoming[i] as readonly import("./network.js").Connection[]) {
       if (mask[c.from] !== want) continue;
       const m = net.layers[c.from]!.size;
+      const sp = c.sparse;
       // eta (B×n) += X_from (B×m) · Wᵀ (m×n)
-      gemm(eta, act[c.from] as FloatArray, c.weights, batch, n, m, false, true, 1, 1);
+      if (sp) sparse.sparseDrive(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.from] as FloatArray, n, m, batch, 1, 1);
+      else gemm(eta, act[c.from] as FloatArray, c.weights, batch, n, m, false, true, 1, 1);
     }
     for (const c of net.feedbackInto[i] as readonly import("./network.js").Connection[]) {
       if (mask[c.to] !== want) continue;
       const m = net.layers[c.to]!.size;
       if (c.feedback.kind === "tied") {
         // eta (B×n) += gain · X_to (B×m) · W (m×n)
-        if (c.feedback.gain !== 0) gemm(eta, act[c.to] as FloatArray, c.weights, batch, n, m, false, false, c.feedback.gain, 1);
+        const sp = c.sparse;
+        if (c.feedback.gain === 0) continue;
+        // W is m×n (to × from): the transposed drive of its compressed form
+        if (sp) sparse.sparseDriveTransposed(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.to] as FloatArray, m, n, batch, c.feedback.gain, 1);
+        else gemm(eta, act[c.to] as FloatArray, c.weights, batch, n, m, false, false, c.feedback.gain, 1);
       } else if (c.feedback.kind === "separate") {
         // eta (B×n) += X_to (B×m) · Fᵀ, F is n×m
         gemm(eta, act[c.to] as FloatArray, c.feedback.weights, batch, n, m, false, true, 1, 1);

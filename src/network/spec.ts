@@ -91,6 +91,8 @@ function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
       bounds: z.enum(["none", "soft"], { error: "one of none, soft" }).default("none"),
       frozen: z.boolean().default(false),
       rate: positiveField("a learning-rate multiplier > 0").optional(),
+      // weight storage: "dense" (full matrix, zeros outside the pattern), "sparse" (row-compressed products), "auto" (by density)
+      storage: z.enum(["dense", "sparse", "auto"], { error: "one of dense, sparse, auto" }).optional(),
     })
     .strict();
 

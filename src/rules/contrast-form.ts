@@ -15,6 +15,7 @@
 import type { Objective } from "../train/loss.js";
 import type { FloatArray } from "../types/index.js";
 import type { KernelBackend } from "../kernels/backend.js";
+import { typescriptSparseKernels, type RowCompressed } from "../kernels/sparse.js";
 import type { Network } from "../network/network.js";
 import type { Phase, PhaseOptions, Snapshot } from "../network/settle.js";
 import { applyDelta, ParameterDelta } from "./delta.js";
@@ -88,6 +89,12 @@ export interface ConnectionPlan {
   /** Sending units (columns). */
   readonly m: number;
   readonly products: readonly Product[];
+  /**
+   * The connection's row-compressed form when its storage is sparse: the change is then computed at the
+   * stored entries only (a sampled product, in the form's values as scratch) and written there; entries
+   * outside the pattern are left alone (adding) or zero (overwriting).
+   */
+  readonly sparse?: RowCompressed | null | undefined;
 }
 
 /** The change of one layer's biases: `(perPattern / B) · Σ_patterns (activity[add] − activity[subtract])`. @category Rules */
@@ -133,7 +140,7 @@ export function contrastPlan(net: Network, config: RuleConfigBase, form: Contras
   const connections: ConnectionPlan[] = trained.map((c) => {
     const input = net.layers[c.from]!.role === "input";
     if (!input) senders[c.from] = true;
-    return { index: c.index, from: c.from, to: c.to, n: net.layers[c.to]!.size, m: net.layers[c.from]!.size, products: form.products(connectionRate(config, c) * form.scale * factor(c.to), input) };
+    return { index: c.index, from: c.from, to: c.to, n: net.layers[c.to]!.size, m: net.layers[c.from]!.size, products: form.products(connectionRate(config, c) * form.scale * factor(c.to), input), sparse: c.sparse ?? null };
   });
   const biases: BiasPlan[] = net.layers
     .filter((l) => l.role !== "input")
@@ -197,6 +204,10 @@ export function contrastRows(k: KernelBackend, plan: ContrastPlan, arrays: Phase
     const [r0, r1] = rowBlock(cp.n, part, parts);
     const rows = r1 - r0;
     if (rows <= 0) continue;
+    if (cp.sparse) {
+      sparseContrastRows(k, cp, cp.sparse, arrays, target, r0, r1, scale, scratch);
+      continue;
+    }
     const w = (target.weights[cp.index] as FloatArray).subarray(r0 * cp.m, r1 * cp.m);
     let first = !target.add;
     for (const pr of cp.products) {
@@ -223,6 +234,31 @@ export function contrastRows(k: KernelBackend, plan: ContrastPlan, arrays: Phase
       out[j] = target.add ? (out[j] as number) + round(alpha * s) : alpha * s;
     }
   }
+}
+
+/**
+ * Rows [r0, r1) of a sparse connection's change: the sampled product of each of the form's products at the
+ * stored entries (in the compressed values, which the next settling gathers afresh), then written into the
+ * dense array: added to the weights (the values start from them, so each entry is `alpha Σ + w` rounded once,
+ * as the dense path) or, for a change, written with zeros elsewhere.
+ */
+function sparseContrastRows(k: KernelBackend, cp: ConnectionPlan, sp: RowCompressed, arrays: PhaseArrays, target: ContrastTarget, r0: number, r1: number, scale: number, scratch: ContrastScratch): void {
+  const B = arrays.batch;
+  const m = cp.m;
+  const w = target.weights[cp.index] as FloatArray;
+  const { rowStart, columnIndex, values } = sp;
+  const kernels = k.sparse ?? typescriptSparseKernels;
+  const starts = rowStart.subarray(r0, r1 + 1);
+  if (target.add) for (let i = r0; i < r1; i++) for (let q = rowStart[i]!; q < rowStart[i + 1]!; q++) values[q] = w[i * m + columnIndex[q]!]!;
+  let first = !target.add;
+  for (const pr of cp.products) {
+    const post = combine(k, scratch.post, pr.post, (p) => arrays.byUnit[p]![cp.to] as FloatArray, r0 * B, (r1 - r0) * B);
+    const pre = pr.pre === "input" ? arrays.input : combine(k, scratch.pre, pr.pre, (p) => arrays.byPattern[p]![cp.from] as FloatArray, 0, B * m);
+    kernels.sparseSampledProduct(values, starts, columnIndex, post, pre, r1 - r0, m, B, (scale * pr.perPattern) / B, first ? 0 : 1);
+    first = false;
+  }
+  if (!target.add) w.fill(0, r0 * m, r1 * m);
+  for (let i = r0; i < r1; i++) for (let q = rowStart[i]!; q < rowStart[i + 1]!; q++) w[i * m + columnIndex[q]!] = first ? 0 : values[q]!;
 }
 
 /** Index of a maximum in one slice's statistics. @category Rules */
