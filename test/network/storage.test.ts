@@ -1,0 +1,128 @@
+/**
+ * Sparse storage in the network: a connection declared `storage: "sparse"` settles to the states of the
+ * same network stored dense (the same products in another order: agreement to a few ulps of float64,
+ * an analytic property of the kernels, see src/kernels/sparse.ts), on the TypeScript and WebAssembly
+ * backends, with tied feedback through the transposed product; a contrast-form rule (CHL, Movellan 1990,
+ * as the registry's form) changes only the stored entries of a masked sparse connection and keeps every
+ * other weight exactly zero; model files round-trip the option (they hold the dense form).
+ */
+import fc from "fast-check";
+import { describe, expect, it } from "vitest";
+import { buildNetwork, Settler, type Connection, type NetworkSpecInput } from "../../src/index.js";
+import { compressRows, expandRows, type SparseKernels } from "../../src/kernels/index.js";
+import { chooseStorage, localMask, maskDensity, SPARSE_DENSITY_CROSSOVER } from "../../src/kernels/storage.js";
+import { modelFromData, modelToData } from "../../src/config/modelFile.js";
+import { builtinRegistry, FormRule, parseRule } from "../../src/rules/index.js";
+import { EbbflowError } from "../../src/errors/index.js";
+import { check } from "../helpers/property.js";
+import { simd } from "../kernels-wasm/backends.js";
+
+function spec(storage: "dense" | "sparse" | undefined, hidden: number, seed: number, tied: boolean): NetworkSpecInput {
+  return {
+    seed,
+    layers: [
+      { name: "in", size: 5, role: "input" },
+      { name: "h", size: hidden, role: "hidden" },
+      { name: "out", size: 3, role: "output" },
+    ],
+    connections: [
+      { from: "in", to: "h", ...(storage ? { storage } : {}) },
+      { from: "h", to: "out", ...(storage ? { storage } : {}), ...(tied ? { feedback: { kind: "tied" as const, gain: 1 } } : {}) },
+    ],
+    dynamics: { maxSteps: 40, tolerance: Number.MIN_VALUE },
+  };
+}
+
+describe("sparse storage in the network", () => {
+  it("settles to the dense network's states (free and clamped, tied feedback, TypeScript and WASM)", () => {
+    check(
+      fc.property(fc.integer({ min: 1, max: 9 }), fc.integer({ min: 0, max: 1000 }), fc.integer({ min: 1, max: 4 }), fc.boolean(), fc.boolean(), (hidden, seed, B, tied, wasm) => {
+        const backend = wasm ? simd : undefined;
+        const dense = buildNetwork(spec("dense", hidden, seed, tied), { backend });
+        const sparse = buildNetwork(spec("sparse", hidden, seed, tied), { backend });
+        expect(sparse.connections.every((c) => c.sparse)).toBe(true);
+        expect(dense.connections.every((c) => !c.sparse)).toBe(true);
+        const inputs = { in: Array.from({ length: 5 * B }, (_, q) => Math.sin(seed + q)) };
+        const targets = { out: Array.from({ length: 3 * B }, (_, q) => 0.5 + 0.4 * Math.cos(seed * q)) };
+        for (const phase of ["free", "clamped"] as const) {
+          const a = new Settler(dense, B).settle({ phase, inputs, targets: phase === "free" ? undefined : targets });
+          const b = new Settler(sparse, B).settle({ phase, inputs, targets: phase === "free" ? undefined : targets });
+          for (let l = 0; l < 3; l++) {
+            const x = a.activity[l]!;
+            const y = b.activity[l]!;
+            for (let q = 0; q < x.length; q++) expect(Math.abs(x[q]! - y[q]!), `layer ${l}[${q}] ${phase}`).toBeLessThanOrEqual(1e-12);
+          }
+        }
+      }),
+      40,
+    );
+  });
+
+  it("sees weight changes made between settlings (the compressed values are gathered afresh)", () => {
+    const net = buildNetwork(spec("sparse", 4, 3, false));
+    const twin = buildNetwork(spec("dense", 4, 3, false));
+    const settler = new Settler(net, 1);
+    const inputs = { in: [1, 0.5, -0.5, 0.25, 0] };
+    const before = Float64Array.from(settler.settle({ phase: "free", inputs }).activity[2]!);
+    net.connections[1]!.weights.fill(0);
+    twin.connections[1]!.weights.fill(0);
+    const after = settler.settle({ phase: "free", inputs }).activity[2]!;
+    const want = new Settler(twin, 1).settle({ phase: "free", inputs }).activity[2]!;
+    // all weights into the output are zero: the output no longer depends on the hidden layer
+    for (let q = 0; q < 3; q++) expect(Math.abs(after[q]! - want[q]!)).toBeLessThanOrEqual(1e-15);
+    expect(Math.abs(before[0]! - after[0]!)).toBeGreaterThan(1e-6);
+  });
+
+  it("a contrast-form rule changes only the stored entries of a masked sparse connection", () => {
+    check(
+      fc.property(fc.integer({ min: 0, max: 1000 }), fc.double({ min: 0.05, max: 0.6, noNaN: true }), (seed, density) => {
+        const net = buildNetwork(spec("sparse", 6, seed, false));
+        // install a random pattern on in->h (the pattern declaration does this in the built network)
+        const c = net.connections[0] as Connection & { sparse: unknown };
+        const mask = Uint8Array.from({ length: 30 }, (_, q) => (Math.sin(seed * 7 + q * 13) * 0.5 + 0.5 < density ? 1 : 0));
+        const sp = compressRows(mask, 6, 5, "float64", c.weights, (net.kernels.sparse as SparseKernels).allocator);
+        expandRows(c.weights, sp);
+        (c as { sparse: unknown }).sparse = sp;
+        const config = parseRule({ rule: "chl", rate: 0.5 });
+        const form = builtinRegistry.rule("chl").contrast!(config as never, net)!;
+        const rule = new FormRule(net, config, form);
+        const before = Float64Array.from(c.weights);
+        const batch = { inputs: { in: [1, 0, 0.5, -1, 0.25, 0, 1, 1, -0.5, 0.5] }, targets: { out: [1, 0, 1, 0, 1, 0] } };
+        // the dense twin with the same (masked) weights: its first change agrees on the stored entries
+        const twin = buildNetwork(spec("dense", 6, seed, false));
+        twin.connections[0]!.weights.set(c.weights);
+        new FormRule(twin, config, builtinRegistry.rule("chl").contrast!(config as never, twin)!).step(batch);
+        rule.step(batch);
+        for (let q = 0; q < 30; q++) if (mask[q]) expect(Math.abs(c.weights[q]! - twin.connections[0]!.weights[q]!), `stored weight ${q}`).toBeLessThanOrEqual(1e-12);
+        for (let s = 0; s < 2; s++) rule.step(batch);
+        let changed = 0;
+        for (let q = 0; q < 30; q++) {
+          if (!mask[q]) expect(c.weights[q], `off-pattern weight ${q}`).toBe(0);
+          else if (c.weights[q] !== before[q]) changed++;
+        }
+        if (mask.some((v) => v === 1)) expect(changed).toBeGreaterThan(0);
+      }),
+      30,
+    );
+  });
+
+  it("round-trips through a model file (dense form with zeros; the option is kept)", () => {
+    const net = buildNetwork(spec("sparse", 4, 9, false));
+    const back = modelFromData(JSON.parse(JSON.stringify(modelToData(net))));
+    expect(back.spec.connections.map((c) => c.storage)).toEqual(["sparse", "sparse"]);
+    expect(back.connections.every((c) => c.sparse)).toBe(true);
+    net.connections.forEach((c, i) => expect(Array.from(back.connections[i]!.weights)).toEqual(Array.from(c.weights)));
+  });
+
+  it("chooses by density under auto and refuses an unknown storage with a typed error", () => {
+    expect(chooseStorage("auto", SPARSE_DENSITY_CROSSOVER)).toBe("sparse");
+    expect(chooseStorage(undefined, 1)).toBe("dense");
+    expect(chooseStorage("dense", 0.01)).toBe("dense");
+    // a 3×3 field between 64×64 sheets: 36,100 stored entries of 4096² (hand count: 62² interior units see 9,
+    // 4·62 edge units 6, 4 corners 4 → 34596 + 1488 + 16), density 0.2%: sparse
+    const m = localMask(64, 64, 64, 64, 3, 1);
+    expect(maskDensity(m) * m.length).toBe(36100);
+    expect(chooseStorage("auto", maskDensity(m))).toBe("sparse");
+    expect(() => buildNetwork({ ...spec(undefined, 2, 0, false), connections: [{ from: "in", to: "h", storage: "compressed" as never }, { from: "h", to: "out" }] })).toThrow(EbbflowError);
+  });
+});
