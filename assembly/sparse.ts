@@ -123,6 +123,34 @@ export function sparseDriveTransposed<T>(out: usize, values: usize, rowStart: us
   const zRow = <usize>rows * S;
   const yRow = <usize>cols * S;
   let b = 0;
+  for (; b + 4 <= batch; b += 4) {
+    const z0 = z + <usize>b * zRow;
+    const z1 = z0 + zRow;
+    const z2 = z1 + zRow;
+    const z3 = z2 + zRow;
+    const y0 = out + <usize>b * yRow;
+    const y1 = y0 + yRow;
+    const y2 = y1 + yRow;
+    const y3 = y2 + yRow;
+    const va = f64x2.splat(alpha);
+    for (let i = 0; i < rows; i++) {
+      const o = <usize>i * S;
+      const za = f64x2.mul(va, pair<T>(z0 + o, z1 + o));
+      const zb = f64x2.mul(va, pair<T>(z2 + o, z3 + o));
+      const k0 = load<i32>(rowStart + (<usize>i << 2));
+      const k1 = load<i32>(rowStart + (<usize>(i + 1) << 2));
+      for (let k = k0; k < k1; k++) {
+        const c = <usize>load<i32>(columnIndex + (<usize>k << 2)) * S;
+        const v = f64x2.splat(ld<T>(values + <usize>k * S));
+        const r = vmadd<f64>(v, za, pair<T>(y0 + c, y1 + c));
+        const t = vmadd<f64>(v, zb, pair<T>(y2 + c, y3 + c));
+        st<T>(y0 + c, f64x2.extract_lane(r, 0));
+        st<T>(y1 + c, f64x2.extract_lane(r, 1));
+        st<T>(y2 + c, f64x2.extract_lane(t, 0));
+        st<T>(y3 + c, f64x2.extract_lane(t, 1));
+      }
+    }
+  }
   for (; b + 2 <= batch; b += 2) {
     const z0 = z + <usize>b * zRow;
     const z1 = z0 + zRow;
@@ -167,6 +195,31 @@ export function sparseSampledProduct<T>(values: usize, rowStart: usize, columnIn
     const k1 = load<i32>(rowStart + (<usize>(i + 1) << 2));
     let k = k0;
     if (alpha != 0) {
+      // four stored entries per pass over the batch: each post value is loaded once for four sums
+      for (; k + 4 <= k1; k += 4) {
+        const c0 = <usize>load<i32>(columnIndex + (<usize>k << 2)) * S;
+        const c1 = <usize>load<i32>(columnIndex + (<usize>(k + 1) << 2)) * S;
+        const c2 = <usize>load<i32>(columnIndex + (<usize>(k + 2) << 2)) * S;
+        const c3 = <usize>load<i32>(columnIndex + (<usize>(k + 3) << 2)) * S;
+        let s = f64x2.splat(0);
+        let t = f64x2.splat(0);
+        let q = pre;
+        for (let b = 0; b < batch; b++) {
+          const pb = f64x2.splat(ld<T>(p + <usize>b * S));
+          s = vmadd<f64>(pb, pair<T>(q + c0, q + c1), s);
+          t = vmadd<f64>(pb, pair<T>(q + c2, q + c3), t);
+          q += preRow;
+        }
+        const v0 = values + <usize>k * S;
+        const r0 = alpha * f64x2.extract_lane(s, 0);
+        const r1 = alpha * f64x2.extract_lane(s, 1);
+        const r2 = alpha * f64x2.extract_lane(t, 0);
+        const r3 = alpha * f64x2.extract_lane(t, 1);
+        st<T>(v0, bz ? r0 : r0 + beta * ld<T>(v0));
+        st<T>(v0 + S, bz ? r1 : r1 + beta * ld<T>(v0 + S));
+        st<T>(v0 + 2 * S, bz ? r2 : r2 + beta * ld<T>(v0 + 2 * S));
+        st<T>(v0 + 3 * S, bz ? r3 : r3 + beta * ld<T>(v0 + 3 * S));
+      }
       for (; k + 2 <= k1; k += 2) {
         const c0 = <usize>load<i32>(columnIndex + (<usize>k << 2)) * S;
         const c1 = <usize>load<i32>(columnIndex + (<usize>(k + 1) << 2)) * S;

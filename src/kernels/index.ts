@@ -36,3 +36,24 @@ export {
   type SparseAllocator,
   type SparseKernels,
 } from "./sparse.js";
+export { chooseStorage, localMask, maskDensity, SPARSE_DENSITY_CROSSOVER, type StorageOption } from "./storage.js";
+export {
+  convolve,
+  convolveTransposed,
+  convolutionChange,
+  convolutionChangeByRows,
+  convolutionChangeDirect,
+  convolutionGeometry,
+  convolutionMatrix,
+  convolveByRows,
+  convolveDirect,
+  convolveTransposedByRows,
+  convolveTransposedDirect,
+  fieldRowsLength,
+  fieldSize,
+  fieldsToRows,
+  inputUnits,
+  outputUnits,
+  rowsToFields,
+  type ConvolutionGeometry,
+} from "./convolution.js";

@@ -4,24 +4,26 @@
  * @module
  */
 import { fail, requireInteger } from "../errors/index.js";
+import type { Dtype } from "../types/index.js";
 
 /**
  * How a connection's weights are stored: `"dense"` (full matrix with a mask), `"sparse"` (row-compressed,
  * only the pattern's entries), or `"auto"` (sparse when the pattern's density is at most
- * {@link SPARSE_DENSITY_CROSSOVER}, else dense).
+ * {@link SPARSE_DENSITY_CROSSOVER} for the network's dtype, else dense).
  * @category Kernels
  */
 export type StorageOption = "dense" | "sparse" | "auto";
 
 /**
- * The density (stored entries / rows × columns) at or below which `"auto"` storage is row-compressed.
- * Measured by `npm run bench -- sparse` (density sweep, 512 × 512, batch 16; figures in docs/architecture.md,
- * section "Sparse storage"): the sparse drive costs as much as the dense masked product between densities of
- * about 0.3 and 0.5 on the WebAssembly backends; the value is set on the cautious side of that range, so
- * `"auto"` never picks the slower storage by much and saves memory whenever it picks sparse.
+ * The density (stored entries / rows × columns) at or below which `"auto"` storage is row-compressed, per
+ * dtype. Measured by `npm run bench -- sparse` (density sweep, 512 × 512, batch 16; figures in
+ * docs/architecture.md, section "Sparse storage"): at these densities the sparse drive is faster than the
+ * dense masked product on every backend (TypeScript, WebAssembly SIMD and relaxed SIMD); the crossover lies
+ * near 0.3 on the TypeScript backend, near 0.25 (float64) and 0.12–0.15 (float32) on the WebAssembly
+ * backends, whose dense float32 product runs four lanes where the sparse kernels sum in float64.
  * @category Kernels
  */
-export const SPARSE_DENSITY_CROSSOVER = 0.25;
+export const SPARSE_DENSITY_CROSSOVER: Readonly<Record<Dtype, number>> = Object.freeze({ float32: 0.1, float64: 0.2 });
 
 /** Fraction of non-zero entries among the first `length` of `mask`. @category Kernels */
 export function maskDensity(mask: ArrayLike<number | boolean>, length = mask.length): number {
@@ -33,12 +35,12 @@ export function maskDensity(mask: ArrayLike<number | boolean>, length = mask.len
 
 /**
  * The storage a connection gets: the option when it is `"dense"` or `"sparse"`, else by density against
- * {@link SPARSE_DENSITY_CROSSOVER}.
+ * {@link SPARSE_DENSITY_CROSSOVER} of the dtype.
  * @throws {@link EbbflowError} `invalid_parameter` at `path` for an option other than the three.
  * @category Kernels
  */
-export function chooseStorage(option: StorageOption | undefined, density: number, path = "storage"): "dense" | "sparse" {
-  if (option === undefined || option === "auto") return density <= SPARSE_DENSITY_CROSSOVER ? "sparse" : "dense";
+export function chooseStorage(option: StorageOption | undefined, density: number, dtype: Dtype, path = "storage"): "dense" | "sparse" {
+  if (option === undefined || option === "auto") return density <= SPARSE_DENSITY_CROSSOVER[dtype] ? "sparse" : "dense";
   if (option === "dense" || option === "sparse") return option;
   return fail("invalid_parameter", path, '"dense", "sparse" or "auto"', option);
 }

@@ -31,7 +31,7 @@ export function sparseFormFor(
   path: string,
 ): RowCompressed | null {
   const density = mask === null ? 1 : maskDensity(mask, rows * columns);
-  if (chooseStorage(spec.storage, density, path) === "dense") return null;
+  if (chooseStorage(spec.storage, density, dtype, path) === "dense") return null;
   // a full connection stored sparse on request: every entry is stored
   return compressRows(mask ?? new Uint8Array(rows * columns).fill(1), rows, columns, dtype, weights, (kernels.sparse ?? typescriptSparseKernels).allocator);
 }

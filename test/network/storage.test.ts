@@ -115,14 +115,16 @@ describe("sparse storage in the network", () => {
   });
 
   it("chooses by density under auto and refuses an unknown storage with a typed error", () => {
-    expect(chooseStorage("auto", SPARSE_DENSITY_CROSSOVER)).toBe("sparse");
-    expect(chooseStorage(undefined, 1)).toBe("dense");
-    expect(chooseStorage("dense", 0.01)).toBe("dense");
+    expect(chooseStorage("auto", SPARSE_DENSITY_CROSSOVER.float64, "float64")).toBe("sparse");
+    expect(chooseStorage("auto", 0.15, "float32")).toBe("dense");
+    expect(chooseStorage(undefined, 1, "float64")).toBe("dense");
+    expect(chooseStorage("dense", 0.01, "float64")).toBe("dense");
+    expect(chooseStorage("sparse", 1, "float32")).toBe("sparse");
     // a 3×3 field between 64×64 sheets: 36,100 stored entries of 4096² (hand count: 62² interior units see 9,
     // 4·62 edge units 6, 4 corners 4 → 34596 + 1488 + 16), density 0.2%: sparse
     const m = localMask(64, 64, 64, 64, 3, 1);
     expect(maskDensity(m) * m.length).toBe(36100);
-    expect(chooseStorage("auto", maskDensity(m))).toBe("sparse");
+    expect(chooseStorage("auto", maskDensity(m), "float32")).toBe("sparse");
     expect(() => buildNetwork({ ...spec(undefined, 2, 0, false), connections: [{ from: "in", to: "h", storage: "compressed" as never }, { from: "h", to: "out" }] })).toThrow(EbbflowError);
   });
 });
