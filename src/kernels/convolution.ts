@@ -315,9 +315,9 @@ export function convolutionMatrix<T extends FloatArray>(out: T, kernel: Readonly
 
 /**
  * The convolution products to use: the im2col forms, measured faster than the direct loops in every case of
- * `npm run bench -- sparse` (forward 1.4–20×, transposed 2–30×, kernel change 2.6–35× on the TypeScript and
- * WebAssembly backends, both dtypes; figures in docs/architecture.md, section "Sparse storage"). Each takes a
- * work array of {@link fieldRowsLength} elements.
+ * `npm run bench -- sparse` (about 2–20× on the TypeScript and WebAssembly backends, both dtypes, forward,
+ * transposed and kernel change; figures in docs/architecture.md, section "Sparse storage"). Each takes a work
+ * array of {@link fieldRowsLength} elements.
  * @category Kernels
  */
 export const convolve = convolveByRows;
