@@ -153,8 +153,8 @@ describe("convolution kernels", () => {
         const zs = tf.tensor4d(z, [B, g.outHeight, g.outWidth, g.outChannels]);
         const y = tf.conv2d(xs, ks, g.stride, pad).dataSync();
         // d/dx Σ z·conv(x) = convᵀ(z); d/dk Σ z·conv(x) = Σ over positions z ⊗ field(x)
-        const gradX = tf.grad((t: tf.Tensor4D) => tf.sum(tf.mul(tf.conv2d(t, ks, g.stride, pad), zs)))(xs).dataSync();
-        const gradK = tf.grad((t: tf.Tensor4D) => tf.sum(tf.mul(tf.conv2d(xs, t, g.stride, pad), zs)))(ks).dataSync();
+        const gradX = tf.grad((t: tf.Tensor) => tf.sum(tf.mul(tf.conv2d(t as tf.Tensor4D, ks, g.stride, pad), zs)))(xs).dataSync();
+        const gradK = tf.grad((t: tf.Tensor) => tf.sum(tf.mul(tf.conv2d(xs, t as tf.Tensor4D, g.stride, pad), zs)))(ks).dataSync();
         tf.dispose([xs, ks, zs]);
         const tol = 8 * (F * B * g.outHeight * g.outWidth + 4) * EPS32;
         const near = (a: number, b: number) => Math.abs(a - b) <= tol * Math.max(1, Math.abs(b));
