@@ -55,7 +55,7 @@ export { Registry, builtinRegistry, builtinRules, type AnyRuleConfig, type AnyRu
 export { TOUCH_PATTERNS, touchStripDataset } from "./demo/touchStrip.js";
 export { parseCsvDataset, type CsvDatasetOptions } from "./train/data/csv.js";
 export { createDataset, oneHot, subset, type Dataset, type DatasetOptions } from "./train/data/dataset.js";
-export { parityDataset, randomAssociation, type BinaryCoding, type RandomAssociationOptions, xorDataset } from "./train/data/generators.js";
+export { orientedBarsDataset, parityDataset, randomAssociation, type BinaryCoding, type OrientedBarsOptions, type RandomAssociationOptions, xorDataset } from "./train/data/generators.js";
 export { datasetToJson, parseJsonDataset } from "./train/data/json.js";
 export { fitScaler, type Scaler, type ScalerKind } from "./train/data/scaling.js";
 export { kFold, trainTestSplit, type DatasetSplit, type SplitOptions } from "./train/data/split.js";
