@@ -9,9 +9,30 @@
  */
 
 // Building and settling networks
-export { Network, buildNetwork, parameterBuffers, parameterSlots, type BuildOptions, type Connection, type Feedback, type Layer, type LayerRole, type ParameterSlot } from "./network/network.js";
+export { Network, buildNetwork, parameterBuffers, parameterSlots, patternProblems, requirePatterns, type BuildOptions, type Connection, type Feedback, type Layer, type LayerRole, type ParameterSlot } from "./network/network.js";
 export { Settler, Snapshot, energy, type LayerValues, type Phase, type PhaseOptions } from "./network/settle.js";
 export { clipKeepsFixedPoints, clippedLayers, type RangedUnit } from "./network/clip.js";
+export {
+  compilePattern,
+  fullPattern,
+  layerGeometry,
+  maskTransposed,
+  parameterGradient,
+  parameterPositions,
+  patternIssues,
+  patternSchema,
+  patternViolation,
+  profileSchema,
+  projectArray,
+  type CompiledPattern,
+  type Geometry,
+  type PatternContext,
+  type PatternKind,
+  type PatternLayers,
+  type PatternSpec,
+  type ProfileSpec,
+  type TieMode,
+} from "./network/pattern.js";
 export { initSchema, networkJsonSchema, networkSchema, parseNetwork, safeParseNetwork, type ConnectionSpec, type DynamicsSpec, type FeedbackSpec, type InhibitionSpec, type InitSpecData, type LayerSpec, type NetworkSpec, type NetworkSpecInput, type ParseResult } from "./network/spec.js";
 
 // Learning rules
@@ -20,7 +41,7 @@ export { BcmRule, bcmRule } from "./rules/bcm.js";
 export { parseRule, ruleJsonSchema, ruleSchema, type RuleConfig, type RuleConfigInput, type RuleName } from "./rules/config.js";
 export { FormRule, type Combination, type ContrastForm, type PhaseStep, type Product } from "./rules/contrast-form.js";
 export { ContrastiveHebbian, GeneRec, SlidingThresholdRule, calciumRule, chlRule, generecRule, layerDepths, phaseContrast, xieSeungFactors, xieSeungRule } from "./rules/contrastive.js";
-export { ParameterDelta, applyDelta } from "./rules/delta.js";
+export { ParameterDelta, applyDelta, projectDelta } from "./rules/delta.js";
 export { commonRuleFields, defineRule, rateSchema, type RuleConfigBase, type RuleDescriptor, type RuleSplit } from "./rules/descriptor.js";
 export { EquilibriumPropagation, eqpropRule } from "./rules/eqprop.js";
 export { FeedforwardRule, backpropRule, createForwardPass, directFeedbackAlignmentRule, feedbackAlignmentRule, feedforwardGradient, forwardOrder, runForward, type FeedforwardConfig, type ForwardPass } from "./rules/feedforward.js";
@@ -34,7 +55,7 @@ export { Registry, builtinRegistry, builtinRules, type AnyRuleConfig, type AnyRu
 export { TOUCH_PATTERNS, touchStripDataset } from "./demo/touchStrip.js";
 export { parseCsvDataset, type CsvDatasetOptions } from "./train/data/csv.js";
 export { createDataset, oneHot, subset, type Dataset, type DatasetOptions } from "./train/data/dataset.js";
-export { parityDataset, randomAssociation, type BinaryCoding, type RandomAssociationOptions, xorDataset } from "./train/data/generators.js";
+export { orientedBarsDataset, parityDataset, randomAssociation, type BinaryCoding, type OrientedBarsOptions, type RandomAssociationOptions, xorDataset } from "./train/data/generators.js";
 export { datasetToJson, parseJsonDataset } from "./train/data/json.js";
 export { fitScaler, type Scaler, type ScalerKind } from "./train/data/scaling.js";
 export { kFold, trainTestSplit, type DatasetSplit, type SplitOptions } from "./train/data/split.js";

@@ -39,7 +39,7 @@ program
   .command("train")
   .description("train a model (experiment file, network declaration or saved model) and write results, weights and checkpoints")
   .argument("<model>", "MODEL.json")
-  .option("--data <source>", "touch-strip, xor, parity:N, iris, digits[:N] or a .csv/.json file")
+  .option("--data <source>", "touch-strip, xor, parity:N, oriented-bars[:N], iris, digits[:N] or a .csv/.json file")
   .option("--rule <rule>", "rule name, inline JSON or a JSON file (default: the experiment's first rule)")
   .option("--rate <rate>", "learning rate (with a bare rule name)", positive("--rate"))
   .option("--beta <beta>", "nudging strength, for rules that have one (with a bare rule name)", num("--beta"))

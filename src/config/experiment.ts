@@ -14,7 +14,7 @@ import { fixedSplitSchema } from "./split-schema.js";
 /** Schema of an experiment's data section. @category Files */
 export const dataSourceSchema = z
   .object({
-    /** A built-in set (`xor`, `parity:N`, `touch-strip`, `iris`, `digits` or `digits:N`) or a CSV/JSON file path. */
+    /** A built-in set (`xor`, `parity:N`, `touch-strip`, `oriented-bars[:N]`, `iris`, `digits` or `digits:N`) or a CSV/JSON file path. */
     source: z.string({ error: "a data source name or file path" }).min(1),
     /** Fraction held out for testing (seeded split), 0 for none. */
     testFraction: z.number().min(0).max(0.9, { error: "a fraction in [0, 0.9]" }).default(0),

@@ -19,7 +19,7 @@
  */
 import { EbbflowError, fail, inputShapeIssues, issueText, describeValue, type Issue } from "../errors/index.js";
 import { canonicalJson, sha256Hex } from "../sweep/hash.js";
-import { buildNetwork, type BuildOptions, type Network } from "../network/network.js";
+import { buildNetwork, requirePatterns, type BuildOptions, type Network } from "../network/network.js";
 import { safeParseNetwork, type NetworkSpec } from "../network/spec.js";
 import { decodeFloatsInto, encodeFloats } from "./encoding.js";
 
@@ -180,5 +180,7 @@ export function modelFromData(data: unknown, options: BuildOptions = {}): Networ
     const bad = checksumIssue(o, "checksum");
     if (bad !== null) throw new EbbflowError(bad);
   }
+  // weights outside a connection's pattern, untied shared positions or an asymmetric tied matrix: not a model this declaration trains
+  requirePatterns(net, "parameters", "parse_error");
   return net;
 }

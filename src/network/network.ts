@@ -14,8 +14,9 @@ import type { KernelBackend } from "../kernels/backend.js";
 import { typescriptBackend } from "../kernels/typescript-backend.js";
 import type { RowCompressed } from "../kernels/sparse.js";
 import { sparseFormFor } from "./storage.js";
-import { fail } from "../errors/index.js";
 import { requireParameterMemory } from "./checks.js";
+import { compilePattern, layerGeometry, maskTransposed, patternViolation, projectArray, type CompiledPattern, type Geometry } from "./pattern.js";
+import { EbbflowError, fail, issueText, type Issue } from "../errors/index.js";
 import { parseNetwork, type ConnectionSpec, type InhibitionSpec, type LayerSpec, type NetworkSpec, type NetworkSpecInput } from "./spec.js";
 
 /** Role of a layer in the phases. @category Network */
@@ -26,6 +27,8 @@ export interface Layer {
   readonly index: number;
   readonly name: string;
   readonly size: number;
+  /** Rows, columns and channels (`[1, size, 1]` for a 1-D layer); unit index `(row · columns + column) · channels + channel`. */
+  readonly geometry: Geometry;
   readonly role: LayerRole;
   /** The unit (activation) function; input layers take their clamped values as activity. */
   readonly unit: UnitFunction;
@@ -55,12 +58,46 @@ export interface Connection {
   readonly spec: ConnectionSpec;
   /** `"layerA->layerB"`, used in reports and file formats. */
   readonly label: string;
+  /** Which weights exist, which positions share a parameter, whether the matrix is tied symmetric (compiled from `spec.pattern`). */
+  readonly pattern: CompiledPattern;
   /**
    * The row-compressed form the settler's products use when the connection's storage is sparse (see
    * `sparseFormFor`), else null or absent. `weights` stays the parameters of record; the settler gathers
    * these values from it at the start of every settling.
    */
   readonly sparse?: RowCompressed | null | undefined;
+}
+
+/**
+ * Every weight array of `net` that breaks its connection's pattern (see {@link patternViolation}), as
+ * issues at `<prefix>["from->to"]` (a model file's or checkpoint's parameters). Separate feedback
+ * matrices must be zero where their forward weight does not exist.
+ * @category Network
+ */
+export function patternProblems(net: Network, prefix: string, code: Issue["code"] = "invalid_config"): Issue[] {
+  const out: Issue[] = [];
+  for (const c of net.connections) {
+    const v = patternViolation(c.pattern, c.weights);
+    if (v !== null) out.push(issueText(code, `${prefix}.weights["${c.label}"][${v.index}]`, `weights that respect the connection's ${c.pattern.kind} pattern`, v.reason));
+    if (c.feedback.kind === "separate" && c.pattern.stored < c.pattern.rows * c.pattern.cols) {
+      const { rows, cols, mask } = c.pattern;
+      for (let k = 0; k < rows * cols; k++) {
+        const i = Math.floor(k / cols);
+        const j = k % cols;
+        if (mask[k] === 0 && c.feedback.weights[j * rows + i] !== 0) {
+          out.push(issueText(code, `${prefix}.feedback["${c.label}"][${j * rows + i}]`, "0 where the forward weight is outside the pattern", String(c.feedback.weights[j * rows + i])));
+          break;
+        }
+      }
+    }
+  }
+  return out;
+}
+
+/** Throws {@link patternProblems} (nothing when every weight respects its pattern). @category Network */
+export function requirePatterns(net: Network, prefix: string, code: Issue["code"] = "invalid_config"): void {
+  const problems = patternProblems(net, prefix, code);
+  if (problems.length > 0) throw new EbbflowError(problems);
 }
 
 /** Applies a connection's sign and bound constraints to its weights in place. @category Network */
@@ -145,7 +182,8 @@ export class Network {
   /** Total number of parameters (weights, learned feedback matrices and biases). */
   get parameterCount(): number {
     let n = 0;
-    for (const c of this.connections) n += c.weights.length + (c.feedback.kind === "separate" ? c.feedback.weights.length : 0);
+    // a pattern's free parameters (stored weights, shared parameters, symmetric pairs); a separate feedback matrix has the pattern's stored entries
+    for (const c of this.connections) n += c.pattern.parameters + (c.feedback.kind === "separate" ? c.pattern.stored : 0);
     for (const l of this.layers) if (l.role !== "input") n += l.size;
     return n;
   }
@@ -275,29 +313,46 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
     } else if (Array.isArray(ls.bias)) bias.set(ls.bias);
     else bias.fill(ls.bias);
     const unit: UnitFunction = units.create(ls.unit, `layers[${index}].unit`);
-    return { index, name: ls.name, size: ls.size, role: ls.role, unit, bias, inhibition: ls.inhibition, spec: ls };
+    return { index, name: ls.name, size: ls.size, geometry: layerGeometry(ls), role: ls.role, unit, bias, inhibition: ls.inhibition, spec: ls };
   });
   const byName = new Map(layers.map((l) => [l.name, l]));
   const connections: Connection[] = spec.connections.map((cs, index) => {
     const from = byName.get(cs.from) as Layer;
     const to = byName.get(cs.to) as Layer;
     const label = `${cs.from}->${cs.to}`;
+    const lateral = from.index === to.index;
+    const pattern = compilePattern(cs.pattern, { from: from.spec, to: to.spec, lateral, random: root.child(`pattern/${label}`), path: `connections[${index}].pattern` });
+    // fan-in and fan-out of the initialisers: the pattern's stored weights per receiving and per sending unit, rounded (the sizes for a full pattern)
+    const fanIn = Math.max(1, Math.round(pattern.stored / to.size));
+    const fanOut = Math.max(1, Math.round(pattern.stored / from.size));
     const weights = alloc(spec.dtype, to.size * from.size);
     if (options.keepValues) {
       // the allocator supplied arrays that already hold the parameters
-    } else if (cs.weights !== undefined) weights.set(cs.weights);
-    else {
-      initialize(weights, cs.init as InitSpec, root.child(`weights/${label}`), from.size, to.size);
+    } else if (cs.weights !== undefined) {
+      weights.set(cs.weights);
+      const v = patternViolation(pattern, weights);
+      if (v !== null) throw new EbbflowError(issueText("invalid_config", `connections[${index}].weights[${v.index}]`, `weights that respect the connection's ${pattern.kind} pattern`, v.reason));
+    } else {
+      initialize(weights, cs.init as InitSpec, root.child(`weights/${label}`), fanIn, fanOut);
+      projectArray(pattern, weights, "first");
+      if (pattern.profile !== null) {
+        // a local pattern's profile sets the initial weights (the initialiser's draws are replaced)
+        for (let i = 0; i < pattern.rows; i++) for (let s = pattern.rowStart[i] as number; s < (pattern.rowStart[i + 1] as number); s++) weights[i * pattern.cols + (pattern.colIndex[s] as number)] = pattern.profile[s] as number;
+      }
       constrainWeights(weights, cs);
     }
     let feedback: Feedback;
     if (cs.feedback.kind === "separate") {
       const fw = alloc(spec.dtype, from.size * to.size);
-      if (!options.keepValues) initialize(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), to.size, from.size);
+      if (!options.keepValues) {
+        initialize(fw, (cs.feedback.init ?? cs.init) as InitSpec, root.child(`feedback/${label}`), fanOut, fanIn);
+        maskTransposed(pattern, fw);
+      }
       feedback = { kind: "separate", learned: cs.feedback.learned, weights: fw };
     } else feedback = cs.feedback;
-    const sparse = sparseFormFor(cs, null, to.size, from.size, spec.dtype, weights, kernels, `connections[${index}].storage`);
-    return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label, sparse };
+    // storage: the pattern's density decides under "auto" (a plain pattern is full: dense)
+    const sparse = sparseFormFor(cs, pattern.plain ? null : pattern.mask, to.size, from.size, spec.dtype, weights, kernels, `connections[${index}].storage`);
+    return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label, pattern, sparse };
   });
   return new Network(spec, layers, connections, kernels, units);
 }

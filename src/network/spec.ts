@@ -11,6 +11,7 @@ import { finiteField, integerField, nonNegativeField, positiveField } from "../e
 import { builtinUnits } from "../units/builtins.js";
 import { carriedIssue, reportIssues, type UnitRegistry, type UnitSpecInput } from "../units/registry.js";
 import { valueIssues } from "./checks.js";
+import { patternIssues, patternSchema } from "./pattern.js";
 
 /** Copies plain data (objects, arrays, numbers, strings): a unit spec kept as written. */
 function copyData<T>(v: T): T {
@@ -62,13 +63,27 @@ function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
   const layerSchema = z
     .object({
       name: z.string({ error: "a non-empty name" }).min(1, { error: "a non-empty name" }),
-      size: integerField("a positive integer"),
+      // size or shape (or both, agreeing): a layer built from `shape` alone gets size = the product of its dimensions
+      size: integerField("a positive integer").optional(),
+      shape: z.array(integerField("a positive integer"), { error: "an array [n], [rows, columns] or [rows, columns, channels]" }).min(1, { error: "1 to 3 dimensions" }).max(3, { error: "1 to 3 dimensions" }).optional(),
       role: z.enum(["input", "hidden", "output"], { error: "one of input, hidden, output" }),
       unit: unit.default({ kind: "logistic" }),
       bias: z.union([finiteField(), z.array(finiteField())], { error: "a finite number or an array of finite numbers" }).default(0),
       inhibition: inhibitionSchema.default({ kind: "none" }),
     })
-    .strict();
+    .strict()
+    .transform((l, ctx) => {
+      const fromShape = l.shape?.reduce((a, b) => a * b, 1);
+      if (l.size === undefined && fromShape === undefined) {
+        ctx.addIssue({ code: "custom", path: ["size"], message: "a positive integer (or a shape)", input: undefined });
+        return z.NEVER;
+      }
+      if (l.size !== undefined && fromShape !== undefined && l.size !== fromShape) {
+        ctx.addIssue({ code: "custom", path: ["size"], message: `the product of the shape's dimensions (${fromShape})`, input: l.size });
+        return z.NEVER;
+      }
+      return { ...l, size: (l.size ?? fromShape) as number };
+    });
 
   const feedbackSchema = z.discriminatedUnion(
     "kind",
@@ -91,6 +106,8 @@ function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
       bounds: z.enum(["none", "soft"], { error: "one of none, soft" }).default("none"),
       frozen: z.boolean().default(false),
       rate: positiveField("a learning-rate multiplier > 0").optional(),
+      // which weights exist and which share one value (absent: full)
+      pattern: patternSchema.optional(),
       // weight storage: "dense" (full matrix, zeros outside the pattern), "sparse" (row-compressed products), "auto" (by density)
       storage: z.enum(["dense", "sparse", "auto"], { error: "one of dense, sparse, auto" }).optional(),
     })
@@ -206,6 +223,9 @@ function crossCheck(spec: NetworkSpec): Issue[] {
     if (from !== undefined && to !== undefined && c.weights !== undefined) {
       const n = (spec.layers[from]?.size ?? 0) * (spec.layers[to]?.size ?? 0);
       if (c.weights.length !== n) problems.push(issueText("invalid_config", `connections[${i}].weights`, `an array of |to|*|from| = ${n} numbers (row-major, rows = receiving units)`, `array of length ${c.weights.length}`));
+    }
+    if (from !== undefined && to !== undefined && c.pattern !== undefined) {
+      problems.push(...patternIssues(c.pattern, { from: spec.layers[from] as LayerSpec, to: spec.layers[to] as LayerSpec, lateral: from === to }, `connections[${i}].pattern`));
     }
     if (from !== undefined && from === to && c.feedback.kind !== "none") {
       problems.push(issueText("invalid_config", `connections[${i}].feedback`, "kind none for a lateral (within-layer) connection", c.feedback.kind));

@@ -5,12 +5,12 @@
 import { EbbflowError, fail, issueText } from "../errors/index.js";
 import { loadSplitByColumn, splitByIndexFiles, type FixedSplit } from "./fixed-split.js";
 import type { Dataset } from "../train/data/index.js";
-import { parityDataset, xorDataset, trainTestSplit, fitScaler } from "../train/data/index.js";
+import { orientedBarsDataset, parityDataset, xorDataset, trainTestSplit, fitScaler } from "../train/data/index.js";
 import { touchStripDataset } from "../demo/touchStrip.js";
 import { irisDataset, digitsDataset, loadDataset } from "./data.js";
 
 /**
- * Resolves a data source and splits it: built-in sets and files; `touch-strip`, `xor`, `parity:N`, `iris`, `digits[:N]`, or a `.csv`/`.json` path.
+ * Resolves a data source and splits it: built-in sets and files; `touch-strip`, `xor`, `parity:N`, `oriented-bars[:N]`, `iris`, `digits[:N]`, or a `.csv`/`.json` path.
  * The split is seeded (`testFraction`) or fixed (`split`: index files, or a CSV column of `train`/`test`).
  * @category Data
  */
@@ -46,9 +46,10 @@ async function loadSource(source: string, options: { targetColumns?: readonly (n
   if (name === "xor") ds = xorDataset();
   else if (name === "touch-strip") ds = touchStripDataset(options.low !== undefined ? { low: options.low, high: 1 - options.low } : {});
   else if (name === "parity") ds = parityDataset(Number(arg ?? 3));
+  else if (name === "oriented-bars") ds = orientedBarsDataset(arg !== undefined ? { size: Number(arg) } : {});
   else if (name === "iris") ds = await irisDataset();
   else if (name === "digits" || name === "mnist") ds = await digitsDataset(arg !== undefined ? { count: Number(arg) } : {});
   else if (/\.(csv|json)$/i.test(source)) ds = await loadDataset(source, { ...(options.targetColumns !== undefined ? { targetColumns: options.targetColumns as readonly string[] } : {}), oneHot: options.oneHot });
-  else throw new EbbflowError(issueText("unknown_name", "--data", "touch-strip, xor, parity:N, iris, digits (or mnist), digits:N, or a .csv/.json file", JSON.stringify(source)));
+  else throw new EbbflowError(issueText("unknown_name", "--data", "touch-strip, xor, parity:N, oriented-bars[:N], iris, digits (or mnist), digits:N, or a .csv/.json file", JSON.stringify(source)));
   return ds;
 }

@@ -239,7 +239,7 @@ export interface ContrastTerm {
 
 /**
  * Adds contrast terms straight into the weights, with no change matrix, when that is provably safe: no
- * term's connection has a sign or bound constraint, and every changed weight stays finite (checked
+ * term's connection has a sign or bound constraint or a pattern other than a plain full one, and every changed weight stays finite (checked
  * from bounds in O(B·(n + m)) plus one pass over each weight matrix: |Δw| ≤ |α|·B·(max|y_A|·max|x_A| +
  * max|y_B|·max|x_B|)). Returns false, changing nothing, when it cannot prove that; the caller then takes
  * the change-matrix path, which reports a non-finite update exactly.
@@ -249,7 +249,7 @@ export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[],
   const largest = net.dtype === "float32" ? 3.4028234663852886e38 : Number.MAX_VALUE;
   for (const t of terms) {
     const c = t.connection;
-    if (c.spec.sign !== "any" || c.spec.bounds !== "none") return false;
+    if (c.spec.sign !== "any" || c.spec.bounds !== "none" || !c.pattern.plain) return false;
     const bound = Math.abs(t.alpha) * batch * (K.maxAbs(t.postA) * K.maxAbs(t.preA) + K.maxAbs(t.postB) * K.maxAbs(t.preB));
     if (!Number.isFinite(bound) || !(K.maxAbs(c.weights) + bound < largest)) return false;
   }

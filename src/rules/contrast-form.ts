@@ -134,7 +134,8 @@ export function rowBlock(n: number, part: number, parts: number): [number, numbe
  */
 export function contrastPlan(net: Network, config: RuleConfigBase, form: ContrastForm, constrained: "refuse" | "allow" = "refuse"): ContrastPlan | null {
   const trained = net.connections.filter((c) => !c.spec.frozen);
-  if (constrained === "refuse" && trained.some((c) => c.spec.sign !== "any" || c.spec.bounds !== "none")) return null;
+  // adding in place skips applyDelta: only for unconstrained connections whose pattern needs no projection
+  if (constrained === "refuse" && trained.some((c) => c.spec.sign !== "any" || c.spec.bounds !== "none" || !c.pattern.plain)) return null;
   const factor = (layer: number): number => form.layerFactors?.[layer] ?? 1;
   const senders = net.layers.map(() => false);
   const connections: ConnectionPlan[] = trained.map((c) => {

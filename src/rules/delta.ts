@@ -6,6 +6,7 @@
 import { EbbflowError, issueText } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
+import { maskTransposed, projectArray, type TieMode } from "../network/pattern.js";
 
 /**
  * A change (or a gradient) for every parameter of a network: one array per
@@ -70,8 +71,26 @@ function constrained(w: number, dw: number, sign: string, bounds: string): numbe
 }
 
 /**
+ * Projects a change onto the connections' patterns, in place (see `projectArray`): entries outside a
+ * pattern become 0, a shared parameter's positions take the sum of their changes (`tie` `"sum"`, a
+ * rule's change per position) or their mean (`"mean"`, a change already tied, as the optimizer's), a
+ * symmetric lateral matrix takes the symmetrised change `(Δ + Δᵀ)/2`, and a separate feedback matrix
+ * is masked. Plain (full) connections are left as they are.
+ * @category Rules
+ */
+export function projectDelta(net: Network, delta: ParameterDelta, tie: TieMode = "sum"): void {
+  for (const c of net.connections) {
+    if (c.pattern.plain) continue;
+    projectArray(c.pattern, delta.weights[c.index] as FloatArray, tie);
+    const f = delta.feedback[c.index];
+    if (f) maskTransposed(c.pattern, f);
+  }
+}
+
+/**
  * Adds `delta` to the network's parameters, respecting each connection's
- * constraints: frozen connections do not change, sign-constrained weights
+ * pattern (the change is first projected onto it, in place, see {@link projectDelta}: `tie` says how a
+ * shared parameter's positions combine) and constraints: frozen connections do not change, sign-constrained weights
  * stop at zero, soft-bounded magnitudes stay in [0, 1] (growth scaled by
  * 1 − |w|, shrinkage by |w|). Biases of a layer change unless every
  * connection into it is frozen.
@@ -81,8 +100,9 @@ function constrained(w: number, dw: number, sign: string, bounds: string): numbe
  * @throws {@link EbbflowError} `non_finite_update`.
  * @category Rules
  */
-export function applyDelta(net: Network, delta: ParameterDelta): void {
+export function applyDelta(net: Network, delta: ParameterDelta, tie: "sum" | "mean" = "sum"): void {
   const K = net.kernels;
+  projectDelta(net, delta, tie);
   const problems = [];
   // w + d stays finite when d is finite and max|w| + max|d| is below the largest finite value of the dtype;
   // only when that quick test fails are the sums checked one by one

@@ -9,6 +9,7 @@ import type { FloatArray } from "../types/index.js";
 import { fillUnit } from "../kernels/units.js";
 import type { Network } from "../network/network.js";
 import { createRandom, fillNormal } from "../random/index.js";
+import { maskTransposed } from "../network/pattern.js";
 import { ParameterDelta } from "./delta.js";
 import { batchSizeOf, checkedLayerValues, checkRates, computeAndApply, connectionRate, type Batch, type LearningRule, type RuleState } from "./base.js";
 import { commonRuleFields, defineRule, type RuleConfigBase } from "./descriptor.js";
@@ -240,7 +241,10 @@ export class FeedforwardRule implements LearningRule {
       if (this.carrier !== "feedback" || c.feedback.kind === "separate" || net.layers[c.from]!.role === "input") return null;
       const n = net.layers[c.to]!.size;
       const m = net.layers[c.from]!.size;
-      return fillNormal(net.allocate(m * n), root.child(`fixed-feedback/${c.label}`), 0, 1 / Math.sqrt(n));
+      // the fixed matrix takes the connection's pattern: zero where the forward weight does not exist
+      const b = fillNormal(net.allocate(m * n), root.child(`fixed-feedback/${c.label}`), 0, 1 / Math.sqrt(n));
+      maskTransposed(c.pattern, b);
+      return b;
     });
   }
 

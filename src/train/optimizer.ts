@@ -154,7 +154,8 @@ export class Optimizer {
         delta[k] = step;
       }
     }
-    applyDelta(this.net, this.delta);
+    // the rule's change was already projected onto the patterns (a shared parameter's positions hold its summed change): keep it tied
+    applyDelta(this.net, this.delta, "mean");
   }
 
   /** The step count and moments, as plain numbers (bit-exact through JSON). */

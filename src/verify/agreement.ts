@@ -7,7 +7,7 @@ import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { fail } from "../errors/index.js";
 import { builtinRegistry, type Registry } from "../rules/registry.js";
-import { ParameterDelta } from "../rules/delta.js";
+import { ParameterDelta, projectDelta } from "../rules/delta.js";
 import { connectionRate, type Batch, type LearningRule } from "../rules/base.js";
 import type { RuleConfigInput } from "../rules/config.js";
 import { feedforwardGradient } from "../rules/feedforward.js";
@@ -125,11 +125,14 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly
   if (lossName !== undefined && loss.loss !== lossName) fail("invalid_config", "rule.loss", `a rule following the loss ${lossName} (options.loss)`, loss.loss);
   const basinTolerance = options.basinTolerance ?? 1e-6;
   if (typeof basinTolerance !== "number" || !(basinTolerance > 0)) fail("invalid_parameter", "options.basinTolerance", "a number > 0", basinTolerance);
+  // the change the rule applies: projected onto the connections' patterns (shared positions summed, symmetric changes symmetrised)
   const update = r.computeDelta(batch, new ParameterDelta(net));
+  projectDelta(net, update, "sum");
   const settling = { tolerance: options.tolerance, maxSteps: options.maxSteps, loss };
   const tight = { tolerance: options.tolerance ?? 1e-13, maxSteps: options.maxSteps ?? 100000, basinTolerance };
   const phases = (r.lastPhases?.length ?? 0) > 0 ? phaseReports(net, r, batch, settleFree(net, batch.inputs, batchSizeOf(net, batch), tight), tight) : [];
   const grad = reference === "recurrent" ? recurrentGradient(net, batch, settling) : reference === "finite-difference" ? finiteDifferenceGradient(net, batch, settling) : feedforwardGradient(net, batch, undefined, loss.loss);
+  symmetrisedReference(net, grad);
   const rows: AgreementRow[] = [];
   const uAll: number[] = [];
   const gAll: number[] = [];
@@ -147,6 +150,21 @@ export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly
   });
   const warning = phases.some((p) => !p.converged || p.basinJump);
   return { rule: descriptor?.label(r.config) ?? r.config.rule, reference, loss, rows, overall: measures(Float64Array.from(uAll), Float64Array.from(gAll), 1), phases, warning };
+}
+
+/**
+ * A symmetric lateral connection is reported against the symmetrised gradient `G + Gᵀ`: the pattern's
+ * parameter gradient holds `g_ij + g_ji` off the diagonal; its diagonal is doubled here, since the
+ * energy's lateral term `½ ρᵀWρ` gives each self-weight half of the per-entry contrast that EqProp and
+ * CHL apply (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24, Eq. 1 with a symmetric W).
+ */
+function symmetrisedReference(net: Network, grad: ParameterDelta): void {
+  for (const c of net.connections) {
+    if (!c.pattern.symmetric) continue;
+    const g = grad.weights[c.index] as FloatArray;
+    const n = c.pattern.rows;
+    for (let i = 0; i < n; i++) g[i * n + i] = 2 * (g[i * n + i] as number);
+  }
 }
 
 /** Renders a report as a fixed-width text table. @category Verification */

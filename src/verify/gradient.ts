@@ -6,6 +6,7 @@
 import { fail } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import { parameterArraysOf, parameterSlots, slotArray, type Network } from "../network/network.js";
+import { maskTransposed, parameterGradient, parameterPositions } from "../network/pattern.js";
 import { Settler, type Snapshot, type LayerValues } from "../network/settle.js";
 import { ParameterDelta } from "../rules/delta.js";
 import { batchSizeOf, type Batch } from "../rules/base.js";
@@ -75,7 +76,9 @@ function curvature(slope: (x: number) => number, x: number): number {
  * feedback matrix and bias, by recurrent backprop (Almeida 1987; Pineda 1987, Phys. Rev. Lett.
  * 59:2229): with `h(s) = 0` the fixed-point condition (rate: `f(η) − x`; energy:
  * `ρ'(u) η − u`), solve `(∂h/∂s)ᵀ λ = ∂J/∂s` and read `dJ/dθ = −λᵀ ∂h/∂θ`. For a network without
- * feedback this is plain backprop. Dense, O(n³) per pattern in the number n of free units:
+ * feedback this is plain backprop. For a connection with a pattern, θ are the pattern's free parameters
+ * (see `parameterGradient`): zero outside the pattern, a shared parameter's gradient (the sum over its
+ * positions) at each of its positions, a symmetric pair's `g_ij + g_ji` at both. Dense, O(n³) per pattern in the number n of free units:
  * meant for verification on small and medium networks.
  * @throws {@link EbbflowError} `unsupported` for k-winners-take-all layers (not differentiable),
  *   `divergence` if settling does not converge or the fixed point is not stable.
@@ -222,6 +225,13 @@ export function recurrentGradient(net: Network, batch: Batch, opts: VerifyOption
       for (let i = 0; i < l.size; i++) gb[i] = (gb[i] as number) + (delta[o + i] as number);
     }
   }
+  // a connection with a pattern: the gradient of its free parameters (shared positions summed, symmetric pairs g_ij + g_ji), at their positions
+  for (const c of net.connections) {
+    if (c.pattern.plain) continue;
+    parameterGradient(c.pattern, grad.weights[c.index] as FloatArray);
+    const gf = grad.feedback[c.index];
+    if (gf) maskTransposed(c.pattern, gf);
+  }
   return grad;
 }
 
@@ -241,7 +251,8 @@ export function parameterArrays(net: Network, d: ParameterDelta): { name: string
 
 /**
  * The gradient of {@link freeLoss} (the loss `opts.loss`) by central finite differences, `(J(θ+h) − J(θ−h)) / 2h` per
- * parameter, each evaluation settling the free phase from rest. Costs two settlings per parameter.
+ * parameter, each evaluation settling the free phase from rest. Costs two settlings per parameter. A
+ * pattern's free parameter moves all its positions together (entries outside the pattern stay 0).
  * The network is restored exactly afterwards.
  * @category Verification
  */
@@ -253,7 +264,26 @@ export function finiteDifferenceGradient(net: Network, batch: Batch, opts: Verif
   const grad = out ?? new ParameterDelta(net);
   grad.clear();
   const loss = () => freeLoss(net, settleFree(net, batch.inputs, B, opts), batch.targets, objective);
+  const positions = new Map<FloatArray, Int32Array[]>();
+  for (const c of net.connections) if (!c.pattern.plain) positions.set(c.weights, parameterPositions(c.pattern));
   for (const { param, delta } of parameterArrays(net, grad)) {
+    const tied = positions.get(param);
+    if (tied !== undefined) {
+      // one free parameter of a pattern: its positions move together
+      for (const at of tied) {
+        const keep = param[at[0] as number] as number;
+        const set = (v: number) => {
+          for (const k of at) param[k] = v;
+        };
+        set(keep + h);
+        const up = loss();
+        set(keep - h);
+        const down = loss();
+        set(keep);
+        for (const k of at) delta[k] = (up - down) / (2 * h);
+      }
+      continue;
+    }
     for (let k = 0; k < param.length; k++) {
       const keep = param[k] as number;
       param[k] = keep + h;
@@ -263,6 +293,10 @@ export function finiteDifferenceGradient(net: Network, batch: Batch, opts: Verif
       param[k] = keep;
       delta[k] = (up - down) / (2 * h);
     }
+  }
+  for (const c of net.connections) {
+    const gf = grad.feedback[c.index];
+    if (gf && !c.pattern.plain) maskTransposed(c.pattern, gf);
   }
   return grad;
 }

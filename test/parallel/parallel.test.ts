@@ -1,5 +1,5 @@
 import { describe, it, expect } from "vitest";
-import { buildNetwork, createRule, randomAssociation, ParameterDelta, EbbflowError, loadWasmKernelsSync, wasmSimdSupported, type NetworkSpecInput } from "../../src/index.js";
+import { buildNetwork, createRule, patternViolation, randomAssociation, ParameterDelta, EbbflowError, loadWasmKernelsSync, wasmSimdSupported, type NetworkSpecInput } from "../../src/index.js";
 import { ParallelRule } from "../../src/node/index.js";
 
 const spec: NetworkSpecInput = {
@@ -19,6 +19,37 @@ const data = randomAssociation({ patterns: 16, inputSize: 12, targetSize: 4, see
 const batch = { inputs: { in: data.inputs }, targets: { out: data.targets } };
 
 describe("multi-core training (worker threads, shared parameters)", () => {
+  it("a network with connection patterns is split by slices and stays in its patterns (zero outside, tied, symmetric), tracking one thread", async () => {
+    const patterned: NetworkSpecInput = {
+      seed: 8,
+      layers: [
+        { name: "in", shape: [3, 4], role: "input" },
+        { name: "hid", shape: [2, 3, 2], role: "hidden" },
+        { name: "out", size: 4, role: "output" },
+      ],
+      connections: [
+        { from: "in", to: "hid", pattern: { kind: "convolution", kernel: 2 }, feedback: { kind: "tied", gain: 1 } },
+        { from: "hid", to: "hid", pattern: { kind: "local", radius: 1, selfConnections: false, symmetric: true } },
+        { from: "hid", to: "out", pattern: { kind: "random", fanIn: 5 }, feedback: { kind: "tied", gain: 1 } },
+      ],
+      dynamics: { dt: 0.5, maxSteps: 200, tolerance: 1e-8 },
+    };
+    const par = await ParallelRule.create(buildNetwork(patterned), { rule: "chl", rate: 0.3 }, 2);
+    try {
+      expect(par.split).toBe("slices");
+      for (let i = 0; i < 4; i++) await par.step(batch);
+      const single = buildNetwork(patterned);
+      const rule = createRule(single, { rule: "chl", rate: 0.3 });
+      for (let i = 0; i < 4; i++) rule.step(batch);
+      par.net.connections.forEach((c, i) => {
+        expect(patternViolation(c.pattern, c.weights), c.label).toBeNull();
+        c.weights.forEach((v, k) => expect(Math.abs(v - single.connections[i]!.weights[k]!)).toBeLessThan(1e-6));
+      });
+    } finally {
+      await par.close();
+    }
+  });
+
   it("the change computed on 2 workers equals one thread's within float32 tolerance", async () => {
     const net = buildNetwork(spec);
     const one = createRule(net, { rule: "eqprop", beta: 0.3, rate: 0.2 }).computeDelta(batch, new ParameterDelta(net));

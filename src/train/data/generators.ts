@@ -184,3 +184,68 @@ export function randomAssociation(options: RandomAssociationOptions): Dataset {
   for (let p = 0; p < patterns; p++) drawPattern(outRng, scratch, targets, p * targetSize, targetSize, activeTargets);
   return makeDataset({ name: "random-association", size: patterns, inputSize, targetSize, inputs, targets });
 }
+
+/** Options of {@link orientedBarsDataset}. @category Data */
+export interface OrientedBarsOptions {
+  /** Rows and columns of the square sensor sheet (default 8). */
+  readonly size?: number | undefined;
+  /** Number of bar orientations, evenly spaced over 180° from horizontal (default 4: 0°, 45°, 90°, 135°). */
+  readonly orientations?: number | undefined;
+  /** Offsets of the bar from the sheet's centre per orientation, evenly spaced over ±size/2 (default 2·size − 1). */
+  readonly offsets?: number | undefined;
+  /** Width σ of a bar's Gaussian cross-section, in sensor spacings (default 0.6). */
+  readonly width?: number | undefined;
+}
+
+/**
+ * Oriented bars on a square sensor sheet: every orientation at every offset across the sheet, each
+ * sensor's value `exp(−d²/2σ²)` for its distance d from the bar's centre line (a scenario of our own
+ * for topographic maps). Targets are one-hot orientations (labels 0..orientations−1); inputs are
+ * row-major over the sheet (the layer shape `[size, size]`).
+ * @category Data
+ * @param options - Sheet size, orientations, offsets and bar width.
+ * @returns A set named `oriented-bars-<size>` with orientations × offsets examples.
+ * @throws {@link EbbflowError} `invalid_parameter` naming the option.
+ * @example
+ * ```ts
+ * const bars = orientedBarsDataset({ size: 8 });
+ * bars.size; // 60 (4 orientations × 15 offsets)
+ * ```
+ */
+export function orientedBarsDataset(options: OrientedBarsOptions = {}): Dataset {
+  refuseUnknownOptions(options, ["size", "orientations", "offsets", "width"]);
+  const size = requireInteger("size", options.size ?? 8, 2);
+  const k = requireInteger("orientations", options.orientations ?? 4, 2);
+  const offsets = requireInteger("offsets", options.offsets ?? 2 * size - 1, 1);
+  const sigma = requireFinite("width", options.width ?? 0.6);
+  if (!(sigma > 0)) fail("invalid_parameter", "width", "a width > 0", sigma);
+  if (size > 256) fail("invalid_parameter", "size", "an integer in [2, 256]", size);
+  const n = k * offsets;
+  const inputs = new Float64Array(n * size * size);
+  const targets = new Float64Array(n * k);
+  const labels = new Int32Array(n);
+  const c = (size - 1) / 2;
+  let p = 0;
+  for (let o = 0; o < k; o++) {
+    const theta = (o * Math.PI) / k;
+    // the bar's normal (−sin θ, cos θ): a sensor at (row, col) lies at signed distance ((col − c)(−sin θ) ... ) from the centre line
+    const nx = -Math.sin(theta);
+    const ny = Math.cos(theta);
+    for (let s = 0; s < offsets; s++) {
+      const shift = offsets === 1 ? 0 : -size / 2 + (s * size) / (offsets - 1);
+      for (let r = 0; r < size; r++)
+        for (let q = 0; q < size; q++) {
+          // x to the right, y upwards (row 0 at the top)
+          const x = q - c;
+          const y = c - r;
+          const d = x * nx + y * ny - shift;
+          inputs[p * size * size + r * size + q] = Math.exp((-d * d) / (2 * sigma * sigma));
+        }
+      targets[p * k + o] = 1;
+      labels[p] = o;
+      p++;
+    }
+  }
+  const classNames = Array.from({ length: k }, (_, o) => `${Math.round((o * 180) / k)}°`);
+  return makeDataset({ name: `oriented-bars-${size}`, size: n, inputSize: size * size, targetSize: k, inputs, targets, labels, classNames });
+}

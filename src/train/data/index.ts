@@ -9,5 +9,5 @@ export { createDataset, oneHot, subset, type Dataset, type DatasetOptions } from
 export { parseCsvDataset, type CsvDatasetOptions } from "./csv.js";
 export { parseJsonDataset, datasetToJson } from "./json.js";
 export { trainTestSplit, kFold, type DatasetSplit, type SplitOptions } from "./split.js";
-export { xorDataset, parityDataset, randomAssociation, type BinaryCoding, type RandomAssociationOptions } from "./generators.js";
+export { xorDataset, parityDataset, randomAssociation, orientedBarsDataset, type BinaryCoding, type OrientedBarsOptions, type RandomAssociationOptions } from "./generators.js";
 export { fitScaler, type Scaler, type ScalerKind } from "./scaling.js";
