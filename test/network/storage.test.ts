@@ -8,7 +8,7 @@
  */
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
-import { buildNetwork, Settler, type Connection, type NetworkSpecInput } from "../../src/index.js";
+import { buildNetwork, createRule, Settler, type Connection, type NetworkSpecInput } from "../../src/index.js";
 import { compressRows, expandRows, type SparseKernels } from "../../src/kernels/index.js";
 import { chooseStorage, localMask, maskDensity, SPARSE_DENSITY_CROSSOVER } from "../../src/kernels/storage.js";
 import { modelFromData, modelToData } from "../../src/config/modelFile.js";
@@ -126,5 +126,49 @@ describe("sparse storage in the network", () => {
     expect(maskDensity(m) * m.length).toBe(36100);
     expect(chooseStorage("auto", maskDensity(m), "float32")).toBe("sparse");
     expect(() => buildNetwork({ ...spec(undefined, 2, 0, false), connections: [{ from: "in", to: "h", storage: "compressed" as never }, { from: "h", to: "out" }] })).toThrow(EbbflowError);
+  });
+
+  it("declared patterns: local, convolution and symmetric lateral connections stored sparse train as stored dense", () => {
+    // a topographic net: 8×8 sheet → 6×6 map through local 3×3 fields (density 14%: "auto" stores it sparse in
+    // float64), a convolution into a 2-channel map with tied feedback, a symmetric lateral pattern without self-weights
+    const decl = (storage: "dense" | "auto", seed: number): NetworkSpecInput => ({
+      seed,
+      layers: [
+        { name: "sheet", shape: [8, 8], role: "input" },
+        { name: "map", shape: [6, 6], role: "hidden" },
+        { name: "feat", shape: [5, 5, 2], role: "output" },
+      ],
+      connections: [
+        { from: "sheet", to: "map", pattern: { kind: "local", kernel: 3 }, storage },
+        { from: "map", to: "feat", pattern: { kind: "convolution", kernel: 2 }, feedback: { kind: "tied", gain: 0.5 }, storage },
+        { from: "map", to: "map", pattern: { kind: "local", radius: 1, selfConnections: false, symmetric: true }, storage },
+      ],
+      dynamics: { maxSteps: 30, tolerance: Number.MIN_VALUE },
+    });
+    for (const rule of ["chl", "eqprop", "generec"]) {
+      const seed = rule.length;
+      const dense = buildNetwork(decl("dense", seed));
+      const sparse = buildNetwork(decl("auto", seed));
+      expect(sparse.connections.map((c) => Boolean(c.sparse))).toEqual([true, true, true]);
+      expect(dense.connections.map((c) => Boolean(c.sparse))).toEqual([false, false, false]);
+      const batch = {
+        inputs: { sheet: Array.from({ length: 2 * 64 }, (_, q) => ((q * 7) % 11) / 11) },
+        targets: { feat: Array.from({ length: 2 * 50 }, (_, q) => ((q * 3) % 5) / 5) },
+      };
+      const config = { rule, rate: 0.1, ...(rule === "eqprop" ? { beta: 0.5 } : {}) };
+      const rd = createRule(dense, config as never);
+      const rs = createRule(sparse, config as never);
+      for (let s = 0; s < 3; s++) {
+        rd.step(batch);
+        rs.step(batch);
+      }
+      sparse.connections.forEach((c, i) => {
+        const d = dense.connections[i]!.weights;
+        for (let q = 0; q < d.length; q++) {
+          expect(Math.abs(c.weights[q]! - d[q]!), `${rule} ${c.label}[${q}]`).toBeLessThanOrEqual(1e-10);
+          if (!c.pattern.mask[q]) expect(c.weights[q]).toBe(0);
+        }
+      });
+    }
   });
 });
