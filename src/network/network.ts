@@ -13,7 +13,7 @@ import { type Dtype, type FloatArray } from "../types/index.js";
 import type { KernelBackend } from "../kernels/backend.js";
 import { typescriptBackend } from "../kernels/typescript-backend.js";
 import type { RowCompressed } from "../kernels/sparse.js";
-import { sparseFormFor } from "./storage.js";
+import { convolutionFormFor, sparseFormFor, type ConvolutionForm } from "./storage.js";
 import { requireParameterMemory } from "./checks.js";
 import { compilePattern, layerGeometry, maskTransposed, patternViolation, projectArray, type CompiledPattern, type Geometry } from "./pattern.js";
 import { EbbflowError, fail, issueText, type Issue } from "../errors/index.js";
@@ -66,6 +66,12 @@ export interface Connection {
    * these values from it at the start of every settling.
    */
   readonly sparse?: RowCompressed | null | undefined;
+  /**
+   * A weight-shared convolution connection's kernel in the convolution kernels' layout (see
+   * `convolutionFormFor`), else null or absent: the settler's drives then run as im2col products. Gathered
+   * from `weights` at the start of every settling, like `sparse`.
+   */
+  readonly convolution?: ConvolutionForm | null | undefined;
 }
 
 /**
@@ -206,6 +212,7 @@ export class Network {
       ...c,
       weights: dup(c.weights),
       sparse: c.sparse ? { ...c.sparse, values: dup(c.sparse.values) } : c.sparse,
+      convolution: c.convolution ? { ...c.convolution, kernel: dup(c.convolution.kernel) } : c.convolution,
       feedback: c.feedback.kind === "separate" ? { ...c.feedback, weights: dup(c.feedback.weights) } : c.feedback,
     }));
     return new Network(this.spec, layers, connections, this.kernels, this.units);
@@ -351,8 +358,11 @@ export function buildNetwork(input: NetworkSpecInput | NetworkSpec, options: Bui
       feedback = { kind: "separate", learned: cs.feedback.learned, weights: fw };
     } else feedback = cs.feedback;
     // storage: the pattern's density decides under "auto" (a plain pattern is full: dense)
-    const sparse = sparseFormFor(cs, pattern.plain ? null : pattern.mask, to.size, from.size, spec.dtype, weights, kernels, `connections[${index}].storage`);
-    return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label, pattern, sparse };
+    // a convolution pattern under "auto" runs as im2col products (measured faster than either storage); else the storage
+    const oneD = (from.spec.shape?.length ?? 1) === 1;
+    const convolution = convolutionFormFor(cs, pattern, from.geometry, to.geometry, oneD, (n) => kernels.allocate(spec.dtype, n));
+    const sparse = convolution ? null : sparseFormFor(cs, pattern.plain ? null : pattern.mask, to.size, from.size, spec.dtype, weights, kernels, `connections[${index}].storage`);
+    return { index, from: from.index, to: to.index, weights, feedback, spec: cs, label, pattern, sparse, convolution };
   });
   return new Network(spec, layers, connections, kernels, units);
 }

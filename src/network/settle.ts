@@ -8,7 +8,8 @@ import { EbbflowError, describeValue, fail, issueText, requireFinite, requireInt
 import type { FloatArray } from "../types/index.js";
 import { fillUnit, unitKernelArgs } from "../kernels/units.js";
 import { typescriptSparseKernels } from "../kernels/sparse.js";
-import { refreshSparseForms } from "./storage.js";
+import { refreshConvolutionForms, refreshSparseForms } from "./storage.js";
+import { convolve, convolveTransposed, fieldRowsLength } from "../kernels/convolution.js";
 import type { Network } from "./network.js";
 import { flatLayerValues, sizesByName, type LayerInputs } from "../interop/ndarray.js";
 import { clippedLayers } from "./clip.js";
@@ -179,6 +180,8 @@ export class Settler {
   private readonly fusedUnit: ReturnType<typeof unitKernelArgs>[];
   /** Size of each layer by name (to read ndarray-like values of shape [batch, size]). */
   private readonly layerSizes: ReadonlyMap<string, number>;
+  /** Per connection: the im2col work array of a convolution connection, else null. */
+  private readonly fieldRows: (FloatArray | null)[];
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -200,6 +203,8 @@ export class Settler {
     this.newlyClamped = net.layers.map(() => false);
     this.fusedUnit = net.layers.map((l) => unitKernelArgs(l.unit));
     this.layerSizes = sizesByName(net);
+    // im2col work arrays of the convolution connections (one per connection: their sizes differ)
+    this.fieldRows = net.connections.map((c) => (c.convolution ? net.allocate(fieldRowsLength(c.convolution.geometry, batch)) : null));
   }
 
   /**
@@ -293,6 +298,7 @@ export class Settler {
 
     // sparse connections compute from their compressed form: take the weights as they are now
     refreshSparseForms(net.connections);
+    refreshConvolutionForms(net.connections);
 
     // which layers are held fixed in this phase
     for (const l of net.layers) this.clamped[l.index] = l.role === "input" || (phase === "clamped" && l.role === "output");
@@ -483,8 +489,10 @@ export class Settler {
       if (mask[c.from] !== want) continue;
       const m = net.layers[c.from]!.size;
       const sp = c.sparse;
+      const cv = c.convolution;
       // eta (B×n) += X_from (B×m) · Wᵀ (m×n)
-      if (sp) sparse.sparseDrive(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.from] as FloatArray, n, m, batch, 1, 1);
+      if (cv) convolve(net.kernels, eta, cv.kernel, act[c.from] as FloatArray, cv.geometry, batch, 1, 1, this.fieldRows[c.index] as FloatArray);
+      else if (sp) sparse.sparseDrive(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.from] as FloatArray, n, m, batch, 1, 1);
       else gemm(eta, act[c.from] as FloatArray, c.weights, batch, n, m, false, true, 1, 1);
     }
     for (const c of net.feedbackInto[i] as readonly import("./network.js").Connection[]) {
@@ -493,9 +501,11 @@ export class Settler {
       if (c.feedback.kind === "tied") {
         // eta (B×n) += gain · X_to (B×m) · W (m×n)
         const sp = c.sparse;
+        const cv = c.convolution;
         if (c.feedback.gain === 0) continue;
-        // W is m×n (to × from): the transposed drive of its compressed form
-        if (sp) sparse.sparseDriveTransposed(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.to] as FloatArray, m, n, batch, c.feedback.gain, 1);
+        // W is m×n (to × from): the transposed convolution, or the transposed drive of the compressed form
+        if (cv) convolveTransposed(net.kernels, eta, cv.kernel, act[c.to] as FloatArray, cv.geometry, batch, c.feedback.gain, 1, this.fieldRows[c.index] as FloatArray);
+        else if (sp) sparse.sparseDriveTransposed(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.to] as FloatArray, m, n, batch, c.feedback.gain, 1);
         else gemm(eta, act[c.to] as FloatArray, c.weights, batch, n, m, false, false, c.feedback.gain, 1);
       } else if (c.feedback.kind === "separate") {
         // eta (B×n) += X_to (B×m) · Fᵀ, F is n×m

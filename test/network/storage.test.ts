@@ -149,7 +149,8 @@ describe("sparse storage in the network", () => {
       const seed = rule.length;
       const dense = buildNetwork(decl("dense", seed));
       const sparse = buildNetwork(decl("auto", seed));
-      expect(sparse.connections.map((c) => Boolean(c.sparse))).toEqual([true, true, true]);
+      // the convolution runs as im2col products, the local patterns row-compressed
+      expect(sparse.connections.map((c) => (c.convolution ? "convolution" : c.sparse ? "sparse" : "dense"))).toEqual(["sparse", "convolution", "sparse"]);
       expect(dense.connections.map((c) => Boolean(c.sparse))).toEqual([false, false, false]);
       const batch = {
         inputs: { sheet: Array.from({ length: 2 * 64 }, (_, q) => ((q * 7) % 11) / 11) },
@@ -170,5 +171,46 @@ describe("sparse storage in the network", () => {
         }
       });
     }
+  });
+
+  it("a declared convolution runs as im2col products and settles as the dense masked product (random geometry, tied feedback)", () => {
+    check(
+      fc.property(
+        fc.record({ h: fc.integer({ min: 2, max: 7 }), w: fc.integer({ min: 2, max: 7 }), c: fc.integer({ min: 1, max: 3 }), co: fc.integer({ min: 1, max: 3 }), k: fc.integer({ min: 1, max: 3 }), s: fc.integer({ min: 1, max: 2 }), p: fc.integer({ min: 0, max: 1 }) }),
+        fc.integer({ min: 0, max: 1000 }),
+        fc.boolean(),
+        ({ h, w, c, co, k, s, p }, seed, wasm) => {
+          fc.pre(h + 2 * p >= k && w + 2 * p >= k);
+          const ho = Math.floor((h + 2 * p - k) / s) + 1;
+          const wo = Math.floor((w + 2 * p - k) / s) + 1;
+          const decl = (storage: "dense" | "auto"): NetworkSpecInput => ({
+            seed,
+            layers: [
+              { name: "in", shape: [h, w, c], role: "input" },
+              { name: "f", shape: [ho, wo, co], role: "hidden" },
+              { name: "out", size: 2, role: "output" },
+            ],
+            connections: [
+              { from: "in", to: "f", pattern: { kind: "convolution", kernel: k, stride: s, padding: p }, init: { kind: "normal", std: 0.5 }, storage },
+              { from: "f", to: "out", feedback: { kind: "tied", gain: 1 } },
+            ],
+            dynamics: { maxSteps: 20, tolerance: Number.MIN_VALUE },
+          });
+          const backend = wasm ? simd : undefined;
+          const a = buildNetwork(decl("dense"), { backend });
+          const b = buildNetwork(decl("auto"), { backend });
+          expect(b.connections[0]!.convolution, "convolution form").toBeTruthy();
+          expect(a.connections[0]!.convolution ?? null).toBe(null);
+          const inputs = { in: Array.from({ length: 2 * h * w * c }, (_, q) => Math.sin(q + seed)) };
+          const targets = { out: [0.2, 0.8, 0.7, 0.1] };
+          for (const phase of ["free", "clamped"] as const) {
+            const x = new Settler(a, 2).settle({ phase, inputs, targets: phase === "free" ? undefined : targets });
+            const y = new Settler(b, 2).settle({ phase, inputs, targets: phase === "free" ? undefined : targets });
+            for (let l = 1; l < 3; l++) for (let q = 0; q < x.activity[l]!.length; q++) expect(Math.abs(x.activity[l]![q]! - y.activity[l]![q]!)).toBeLessThanOrEqual(1e-12);
+          }
+        },
+      ),
+      40,
+    );
   });
 });
