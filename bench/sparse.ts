@@ -31,6 +31,7 @@ import {
 } from "../src/kernels/convolution.js";
 import { localMask } from "../src/kernels/storage.js";
 import { createRandom, fillUniform } from "../src/random/index.js";
+import { buildNetwork, Settler, type NetworkSpecInput } from "../src/index.js";
 import type { Dtype, FloatArray } from "../src/types/index.js";
 import { consume } from "./machine.js";
 
@@ -133,6 +134,45 @@ function convCase(be: KernelBackend, dtype: Dtype, g: ConvolutionGeometry, B: nu
   return measure(variants);
 }
 
+/** One free settling (20 steps) of a declared network per storage choice, on one backend. */
+function settleCase(be: KernelBackend, dtype: Dtype, decl: (storage: "dense" | "sparse" | "auto") => NetworkSpecInput, storages: readonly ("dense" | "sparse" | "auto")[], B: number): [string, number][] {
+  const variants = storages.map((st) => {
+    const net = buildNetwork({ ...decl(st), dtype }, { backend: be });
+    const first = net.inputLayers[0]!;
+    const inputs = { [first.name]: Array.from({ length: B * first.size }, (_, q) => Math.sin(q)) };
+    const settler = new Settler(net, B);
+    return [`settle ${st}`, () => consume(settler.settle({ phase: "free", inputs }).activity[net.layers.length - 1]!)] as [string, () => void];
+  });
+  return measure(variants);
+}
+
+const topographic = (storage: "dense" | "sparse" | "auto"): NetworkSpecInput => ({
+  layers: [
+    { name: "sheet", shape: [32, 32], role: "input" },
+    { name: "map", shape: [32, 32], role: "hidden" },
+    { name: "out", size: 10, role: "output" },
+  ],
+  connections: [
+    { from: "sheet", to: "map", pattern: { kind: "local", kernel: 3, padding: 1 }, storage },
+    { from: "map", to: "map", pattern: { kind: "local", radius: 1.5, selfConnections: false, symmetric: true }, storage },
+    { from: "map", to: "out", feedback: { kind: "tied", gain: 1 } },
+  ],
+  dynamics: { maxSteps: 20, tolerance: Number.MIN_VALUE },
+});
+
+const convolutional = (storage: "dense" | "sparse" | "auto"): NetworkSpecInput => ({
+  layers: [
+    { name: "image", shape: [28, 28, 1], role: "input" },
+    { name: "features", shape: [24, 24, 8], role: "hidden" },
+    { name: "out", size: 10, role: "output" },
+  ],
+  connections: [
+    { from: "image", to: "features", pattern: { kind: "convolution", kernel: 5 }, feedback: { kind: "tied", gain: 1 }, storage },
+    { from: "features", to: "out", feedback: { kind: "tied", gain: 1 } },
+  ],
+  dynamics: { maxSteps: 20, tolerance: Number.MIN_VALUE },
+});
+
 type Case = (list: KernelBackend[]) => Row;
 
 function cases(dtype: Dtype): Case[] {
@@ -150,6 +190,8 @@ function cases(dtype: Dtype): Case[] {
   const g1 = convolutionGeometry({ height: 28, width: 28, channels: 1, kernelHeight: 5, kernelWidth: 5, outChannels: 16, stride: 1, padding: 2 });
   const g2 = convolutionGeometry({ height: 16, width: 16, channels: 8, kernelHeight: 3, kernelWidth: 3, outChannels: 16, stride: 1, padding: 1 });
   const g3 = convolutionGeometry({ height: 28, width: 28, channels: 1, kernelHeight: 4, kernelWidth: 4, outChannels: 8, stride: 2, padding: 1 });
+  out.push(per("settle 20 steps: 32×32 sheet → 32×32 map (local 3×3) + lateral radius 1.5 + 10 outputs, batch 16", (be) => settleCase(be, dtype, topographic, ["dense", "auto"], B)));
+  out.push(per("settle 20 steps: 28×28 image → 24×24×8 convolution 5×5 (tied feedback) + 10 outputs, batch 16", (be) => settleCase(be, dtype, convolutional, ["dense", "sparse", "dense", "auto"], B)));
   out.push(per("conv 28×28×1 → 5×5×16 pad 2, batch 16", (be) => convCase(be, dtype, g1, B)));
   out.push(per("conv 16×16×8 → 3×3×16 pad 1, batch 16", (be) => convCase(be, dtype, g2, B)));
   out.push(per("conv 28×28×1 → 4×4×8 stride 2, batch 16", (be) => convCase(be, dtype, g3, B)));

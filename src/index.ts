@@ -10,6 +10,7 @@
 
 // Building and settling networks
 export { Network, buildNetwork, parameterBuffers, parameterSlots, patternProblems, requirePatterns, type BuildOptions, type Connection, type Feedback, type Layer, type LayerRole, type ParameterSlot } from "./network/network.js";
+export { type ConvolutionForm } from "./network/storage.js";
 export { Settler, Snapshot, energy, type LayerValues, type Phase, type PhaseOptions } from "./network/settle.js";
 export { clipKeepsFixedPoints, clippedLayers, type RangedUnit } from "./network/clip.js";
 export {

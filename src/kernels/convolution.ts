@@ -36,7 +36,7 @@ export interface ConvolutionGeometry {
 
 /**
  * The geometry of a convolution, with the output size computed.
- * @throws {@link EbbflowError} `invalid_parameter` for sizes that are not positive integers (padding ≥ 0) or a
+ * @throws `EbbflowError` `invalid_parameter` for sizes that are not positive integers (padding ≥ 0) or a
  * kernel larger than the padded input.
  * @category Kernels
  */

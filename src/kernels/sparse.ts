@@ -56,7 +56,7 @@ const ordinary: SparseAllocator = {
 /**
  * The row-compressed form of the entries of a rows × columns matrix where `mask` is non-zero, with values
  * taken from `dense` (row-major, same shape) when given, else zero.
- * @throws {@link EbbflowError} `invalid_parameter` when `mask` or `dense` is shorter than rows × columns or the
+ * @throws `EbbflowError` `invalid_parameter` when `mask` or `dense` is shorter than rows × columns or the
  * sizes are not integers ≥ 0.
  * @category Kernels
  * @example

@@ -36,7 +36,7 @@ export function maskDensity(mask: ArrayLike<number | boolean>, length = mask.len
 /**
  * The storage a connection gets: the option when it is `"dense"` or `"sparse"`, else by density against
  * {@link SPARSE_DENSITY_CROSSOVER} of the dtype.
- * @throws {@link EbbflowError} `invalid_parameter` at `path` for an option other than the three.
+ * @throws `EbbflowError` `invalid_parameter` at `path` for an option other than the three.
  * @category Kernels
  */
 export function chooseStorage(option: StorageOption | undefined, density: number, dtype: Dtype, path = "storage"): "dense" | "sparse" {
