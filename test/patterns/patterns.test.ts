@@ -334,7 +334,7 @@ describe("Equilibrium Propagation on a convolutional network", () => {
     // measured here: relative errors 0.060 / 0.031 one-sided, 0.0054 / 0.0013 symmetric at β = 0.005 / 0.0025
     const one = [err("one-sided", 0.005), err("one-sided", 0.0025)];
     const sym = [err("symmetric", 0.005), err("symmetric", 0.0025)];
-    // halving β halves the one-sided error and quarters the symmetric one
+    // halving β halves the one-sided error and divides the symmetric one by four
     expect(one[0]! / one[1]!).toBeGreaterThan(1.8);
     expect(one[0]! / one[1]!).toBeLessThan(2.2);
     expect(sym[0]! / sym[1]!).toBeGreaterThan(3.6);
