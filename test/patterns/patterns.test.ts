@@ -15,7 +15,6 @@ import {
   parseNetwork,
   patternViolation,
   recurrentGradient,
-  EbbflowError,
   Optimizer,
   optimizerSchema,
   type Network,
@@ -25,24 +24,11 @@ import {
 } from "../../src/index.js";
 import { check } from "../helpers/property.js";
 import { relativeError } from "../helpers/tolerance.js";
+import { thrown } from "../helpers/errors.js";
 
-function flat(d: ParameterDelta): number[] {
-  const out: number[] = [];
-  for (const w of d.weights) out.push(...w);
-  for (const f of d.feedback) if (f) out.push(...f);
-  for (const b of d.biases) out.push(...b);
-  return out;
-}
-
-function errorOf(f: () => unknown): EbbflowError {
-  try {
-    f();
-  } catch (e) {
-    if (e instanceof EbbflowError) return e;
-    throw e;
-  }
-  throw new Error("expected an EbbflowError");
-}
+/** Every parameter of a change or gradient in one list (weights, feedback, biases). */
+const flat = (d: ParameterDelta): number[] => [...d.weights, ...d.feedback.filter((f) => f !== null), ...d.biases].flatMap((a) => Array.from(a));
+const errorOf = thrown;
 
 /** Every connection's weights respect its pattern exactly (zeros outside, tied shared positions, W = Wᵀ). */
 function expectInPattern(net: Network): void {
