@@ -183,7 +183,7 @@ describe("gradients of patterned networks", () => {
         const net = patternedNet(seed, f, l, "rate");
         const batch = { inputs, targets };
         const rbp = recurrentGradient(net, batch);
-        const fd = finiteDifferenceGradient(net, batch, { step: 1e-5 });
+        const fd = finiteDifferenceGradient(net, batch, { step: 1e-6 });
         expect(relativeError(flat(rbp), flat(fd))).toBeLessThan(1e-7);
         // the gradient lives in the pattern: zero outside, one value per shared parameter, symmetric where tied
         net.connections.forEach((c) => expect(patternViolation(c.pattern, rbp.weights[c.index]!), c.label).toBeNull());
@@ -197,7 +197,7 @@ describe("gradients of patterned networks", () => {
       fc.property(fc.integer({ min: 0, max: 1e6 }), fc.integer({ min: 0, max: 5 }), fc.integer({ min: 0, max: 3 }), (seed, f, l) => {
         const net = patternedNet(seed, f, [0, 1, 2, 5][l]!, "energy");
         const batch = { inputs: { in: inputs.in.slice(0, 9) }, targets: { out: [0.3, 0.6] } };
-        expect(relativeError(flat(recurrentGradient(net, batch)), flat(finiteDifferenceGradient(net, batch, { step: 1e-5 })))).toBeLessThan(1e-6);
+        expect(relativeError(flat(recurrentGradient(net, batch)), flat(finiteDifferenceGradient(net, batch, { step: 1e-6 })))).toBeLessThan(1e-6);
       }),
       10,
     );
