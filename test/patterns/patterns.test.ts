@@ -34,7 +34,11 @@ const errorOf = thrown;
 function expectInPattern(net: Network): void {
   for (const c of net.connections) {
     expect(patternViolation(c.pattern, c.weights), c.label).toBeNull();
-    for (let k = 0; k < c.weights.length; k++) if (c.pattern.mask[k] === 0) expect(Object.is(c.weights[k], 0) || c.weights[k] === 0, `${c.label}[${k}]`).toBe(true);
+    for (let k = 0; k < c.weights.length; k++) if (c.pattern.mask[k] === 0) expect(c.weights[k] === 0, `${c.label}[${k}] = ${c.weights[k]}`).toBe(true); // −0 counts (an inhibitory sign constraint writes −|0|)
+    if (c.feedback.kind === "separate") {
+      const { rows, cols, mask } = c.pattern;
+      for (let k = 0; k < rows * cols; k++) if (mask[k] === 0) expect(c.feedback.weights[(k % cols) * rows + Math.floor(k / cols)] === 0, `${c.label} feedback`).toBe(true);
+    }
   }
 }
 
@@ -220,7 +224,7 @@ const settlingRules = [
   { rule: "chl", rate: 0.3 },
   { rule: "generec", rate: 0.3 },
   { rule: "generec", variant: "symmetric", rate: 0.3 },
-  { rule: "xie-seung", rate: 0.3 },
+  { rule: "xie-seung", rate: 0.3, gamma: 0.5 },
   { rule: "eqprop", beta: 0.5, rate: 0.3 },
   { rule: "eqprop", beta: 0.5, mode: "symmetric", rate: 0.3 },
   { rule: "eqprop", beta: 0.5, mode: "random-sign", rate: 0.3 },
@@ -244,11 +248,19 @@ describe("every rule keeps its network in the pattern", () => {
         fc.constantFrom("any", "excitatory", "inhibitory"),
         fc.constantFrom("none", "soft"),
         fc.constantFrom(null, "sgd", "momentum", "adam"),
-        (seed, f, l, r, sign, bounds, optimizer) => {
+        fc.boolean(),
+        (seed, f, l, r, sign, bounds, optimizer, separate) => {
           const feedforward = r >= settlingRules.length;
           const config = feedforward ? feedforwardRules[r - settlingRules.length]! : settlingRules[r]!;
           const base = patternedNet(seed, f, feedforward ? 0 : l, "rate");
-          const spec = { ...base.spec, connections: base.spec.connections.map((c, i) => ({ ...c, sign: i === 0 ? sign : c.sign, bounds: i === 0 ? bounds : c.bounds, feedback: feedforward || c.from === c.to ? { kind: "none" as const } : c.feedback.kind === "none" ? { kind: "tied" as const, gain: 0.5 } : c.feedback })), dynamics: { ...base.spec.dynamics, tolerance: 1e-6, maxSteps: 400 } };
+          // with `separate`: learned separate feedback matrices (settling rules) or fixed ones (feedback alignment), and a random pattern on h->out
+          const feedbackOf = (c: (typeof base.spec.connections)[number]) => {
+            if (c.from === c.to || (feedforward && !separate)) return { kind: "none" as const };
+            if (separate) return { kind: "separate" as const, learned: !feedforward, init: { kind: "normal" as const, std: 0.3 } };
+            return feedforward ? { kind: "none" as const } : c.feedback.kind === "none" ? { kind: "tied" as const, gain: 0.5 } : c.feedback;
+          };
+          const connections = base.spec.connections.map((c, i) => ({ ...c, sign: i === 0 ? sign : c.sign, bounds: i === 0 ? bounds : c.bounds, feedback: feedbackOf(c), ...(i === 1 && separate ? { pattern: { kind: "random" as const, fanIn: 5 } } : {}) }));
+          const spec = { ...base.spec, connections, dynamics: { ...base.spec.dynamics, tolerance: 1e-6, maxSteps: 400 } };
           const net = buildNetwork(spec);
           expectInPattern(net);
           const rule = createRule(net, config as never);
