@@ -7,7 +7,7 @@ import { promises as fs } from "node:fs";
 import path from "node:path";
 import { fail } from "../errors/index.js";
 import { loadModel } from "../node/files.js";
-import { learningCurveSvg, readResults, receptiveFieldsSvg, weightMatrixSvg, writeSvg } from "../node/plot.js";
+import { connectionFieldsSvg, learningCurveSvg, readResults, receptiveFieldsSvg, weightMatrixSvg, writeSvg } from "../node/plot.js";
 
 /** Options of `ebbflow plot`. */
 export interface PlotCommandOptions {
@@ -52,6 +52,9 @@ export async function plotCommand(files: string[], o: PlotCommandOptions): Promi
       const [w, h] = o.image.split("x").map(Number);
       if (!w || !h || w * h !== cols) fail("invalid_parameter", "--image", `WIDTHxHEIGHT with WIDTH*HEIGHT = ${cols} (the sending layer's size)`, o.image);
       await writeSvg(base, await receptiveFieldsSvg(c.weights, rows, cols, w, h, { title: o.title ?? `receptive fields of ${c.label}` }));
+    } else if (net.layers[c.from]!.geometry[0] > 1) {
+      // a sending layer with a 2-D shape: fields drawn as images of it, in a grid that follows the receiving layer
+      await writeSvg(base, await connectionFieldsSvg(net, c, { title: o.title ?? `receptive fields of ${c.label}` }));
     } else await writeSvg(base, await weightMatrixSvg(c.weights, rows, cols, { title: o.title ?? `weights ${c.label}`, rowLabel: net.layers[c.to]!.name, colLabel: net.layers[c.from]!.name }));
     written.push(base);
   }

@@ -10,5 +10,5 @@ export { renderSvg, writeSvg, PLOT_INSTALL } from "./plot/render.js";
 export type { ChartSpec } from "./plot/render.js";
 export { learningCurveSpec, learningCurveSvg, summarizeEpochs, bandCurveSpec, bandCurveSvg } from "./plot/curves.js";
 export type { CurveSplit, LabelledRun, LearningCurveOptions, BandKind, BandCurveOptions, RunGroup, BandPoint } from "./plot/curves.js";
-export { weightMatrixSpec, weightMatrixSvg, receptiveFieldsSpec, receptiveFieldsSvg } from "./plot/heatmaps.js";
+export { weightMatrixSpec, weightMatrixSvg, receptiveFieldsSpec, receptiveFieldsSvg, connectionFieldLayout, connectionFieldsSvg } from "./plot/heatmaps.js";
 export type { WeightMatrixOptions, FieldScaling, ReceptiveFieldOptions } from "./plot/heatmaps.js";

@@ -93,10 +93,10 @@ describe("the topographic map example", () => {
     const trained = selectivity(net);
     const controls = [1, 2, 3, 4, 5].map((s) => selectivity(shuffledFields(net, s)));
     const control = controls.reduce((a, b) => a + b, 0) / controls.length;
-    // measured here (deterministic: one seed): 0.024 before training, 0.791 after; shuffled controls 0.629-0.694 (mean 0.671)
+    // measured here (deterministic: one seed): 0.021 before training, 0.892 after; shuffled controls 0.554-0.673 (mean 0.607)
     expect(before).toBeLessThan(0.2);
-    expect(trained).toBeGreaterThan(0.7);
-    expect(trained - control).toBeGreaterThan(0.1);
+    expect(trained).toBeGreaterThan(0.8);
+    expect(trained - control).toBeGreaterThan(0.2);
     expect(trained).toBeGreaterThan(Math.max(...controls));
   });
 

@@ -5,6 +5,7 @@
  */
 import { fail, requireInteger, requirePositive } from "../../errors/index.js";
 import type { FloatArray } from "../../types/index.js";
+import type { Connection, Network } from "../../network/network.js";
 import { type ChartSpec, VEGA_LITE_SCHEMA, choice, pixels, renderSvg, titleText } from "./render.js";
 
 /** Diverging colour scheme: blue for negative, light grey-white at 0, orange for positive. */
@@ -296,4 +297,47 @@ export async function receptiveFieldsSvg(
   options?: ReceptiveFieldOptions,
 ): Promise<string> {
   return renderSvg(receptiveFieldsSpec(weights, rows, cols, imageWidth, imageHeight, options));
+}
+
+/**
+ * The layout of a connection's receptive fields taken from its layers' shapes: the sending layer's
+ * geometry gives each field's image (`width` = its columns, `height` = its rows × channels, channel
+ * planes stacked top to bottom), the receiving layer's gives the grid (one grid row per row of the
+ * receiving sheet: `columns` = its columns × channels), and `weights` holds each unit's field in that
+ * image order (a copy; the network's own array when the sending layer has one channel).
+ * @param net - The network.
+ * @param connection - The connection's label (`from->to`) or the connection itself.
+ * @returns The fields' weights (|to| × |from|) in image order, image size and grid columns.
+ * @throws EbbflowError `unknown_name` for a label that names no connection.
+ * @category Plots
+ */
+export function connectionFieldLayout(net: Network, connection: string | Connection): { weights: FloatArray; rows: number; cols: number; imageWidth: number; imageHeight: number; columns: number } {
+  const c = typeof connection === "string" ? net.connections.find((x) => x.label === connection) : connection;
+  if (c === undefined) return fail("unknown_name", "connection", `a connection label (${net.connections.map((x) => x.label).join(", ")})`, connection);
+  const [h, w, ch] = net.layers[c.from]!.geometry;
+  const post = net.layers[c.to]!.geometry;
+  const rows = c.pattern.rows;
+  const cols = c.pattern.cols;
+  let weights = c.weights;
+  if (ch > 1) {
+    // (r, c, k) → plane k, row r: image index (k·h + r)·w + c
+    weights = new Float64Array(rows * cols);
+    for (let u = 0; u < rows; u++) for (let r = 0; r < h; r++) for (let q = 0; q < w; q++) for (let k = 0; k < ch; k++) weights[u * cols + (k * h + r) * w + q] = c.weights[u * cols + (r * w + q) * ch + k] as number;
+  }
+  return { weights, rows, cols, imageWidth: w, imageHeight: h * ch, columns: post[0] > 1 ? post[1] * post[2] : Math.ceil(Math.sqrt(rows)) };
+}
+
+/**
+ * Draws a connection's receptive fields laid out by its layers' shapes (see {@link connectionFieldLayout}):
+ * each receiving unit's field as an image of the sending sheet, in a grid that follows the receiving
+ * sheet. Options as {@link receptiveFieldsSvg} (default: every unit, up to 1024).
+ * @category Plots
+ * @example
+ * ```ts
+ * const svg = await connectionFieldsSvg(net, "sensors->map", { scaling: "unit" });
+ * ```
+ */
+export async function connectionFieldsSvg(net: Network, connection: string | Connection, options: ReceptiveFieldOptions = {}): Promise<string> {
+  const l = connectionFieldLayout(net, connection);
+  return receptiveFieldsSvg(l.weights, l.rows, l.cols, l.imageWidth, l.imageHeight, { units: Math.min(l.rows, 1024), columns: l.columns, ...options });
 }
