@@ -219,7 +219,7 @@ describe("gradients of patterned networks", () => {
   });
 });
 
-/** Rule configs that settle phases (they accept lateral connections) and those on the feedforward pass. */
+/** Rule configs that settle phases (they accept lateral connections) and those built on the feedforward pass (no lateral connections). */
 const settlingRules = [
   { rule: "chl", rate: 0.3 },
   { rule: "generec", rate: 0.3 },
@@ -235,6 +235,7 @@ const feedforwardRules = [
   { rule: "backprop", rate: 0.3 },
   { rule: "feedback-alignment", rate: 0.3 },
   { rule: "direct-feedback-alignment", rate: 0.3 },
+  { rule: "predictive-coding", rate: 0.3 },
 ];
 
 describe("every rule keeps its network in the pattern", () => {
@@ -260,7 +261,9 @@ describe("every rule keeps its network in the pattern", () => {
             return feedforward ? { kind: "none" as const } : c.feedback.kind === "none" ? { kind: "tied" as const, gain: 0.5 } : c.feedback;
           };
           const connections = base.spec.connections.map((c, i) => ({ ...c, sign: i === 0 ? sign : c.sign, bounds: i === 0 ? bounds : c.bounds, feedback: feedbackOf(c), ...(i === 1 && separate ? { pattern: { kind: "random" as const, fanIn: 5 } } : {}) }));
-          const spec = { ...base.spec, connections, dynamics: { ...base.spec.dynamics, tolerance: 1e-6, maxSteps: 400 } };
+          // predictive coding reads its prediction from linear output units
+          const layers = config.rule === "predictive-coding" ? base.spec.layers.map((l) => (l.role === "output" ? { ...l, unit: { kind: "linear" } } : l)) : base.spec.layers;
+          const spec = { ...base.spec, layers, connections, dynamics: { ...base.spec.dynamics, tolerance: 1e-6, maxSteps: 400 } };
           const net = buildNetwork(spec);
           expectInPattern(net);
           const rule = createRule(net, config as never);
