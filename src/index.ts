@@ -10,7 +10,7 @@
 
 // Building and settling networks
 export { Network, buildNetwork, parameterBuffers, parameterSlots, type BuildOptions, type Connection, type Feedback, type Layer, type LayerRole, type ParameterSlot } from "./network/network.js";
-export { Settler, Snapshot, energy, type LayerValues, type Phase, type PhaseOptions } from "./network/settle.js";
+export { Settler, Snapshot, energy, type LayerValues, type ObservedTargets, type Phase, type PhaseOptions } from "./network/settle.js";
 export { clipKeepsFixedPoints, clippedLayers, type RangedUnit } from "./network/clip.js";
 export { initSchema, networkJsonSchema, networkSchema, parseNetwork, safeParseNetwork, type ConnectionSpec, type DynamicsSpec, type FeedbackSpec, type InhibitionSpec, type InitSpecData, type LayerSpec, type NetworkSpec, type NetworkSpecInput, type ParseResult } from "./network/spec.js";
 
@@ -40,7 +40,7 @@ export { fitScaler, type Scaler, type ScalerKind } from "./train/data/scaling.js
 export { kFold, trainTestSplit, type DatasetSplit, type SplitOptions } from "./train/data/split.js";
 export { Trainer, parseTraining, trainingSchema, type EpochRecord, type StopReason, type TrainerExtras, type TrainerHooks, type TrainerState, type TrainingOptions, type TrainingOptionsInput } from "./train/loop.js";
 export { type Metrics, type TiePolicy } from "./train/metrics.js";
-export { DEFAULT_OBJECTIVE, LOSS_NAMES, batchLoss, batchLossGradient, lossNameSchema, patternLoss, patternLossGradient, requireLoss, requireObjective, type LossName, type Objective } from "./train/loss.js";
+export { DEFAULT_OBJECTIVE, LOSS_NAMES, batchLoss, batchLossGradient, lossNameSchema, patternLoss, patternLossGradient, requireLoss, requireObjective, targetRowObserved, type LossName, type Objective } from "./train/loss.js";
 export { Optimizer, optimizerSchema, type OptimizerConfig, type OptimizerInput, type OptimizerState } from "./train/optimizer.js";
 export { scheduleFactor, scheduleSchema, type Schedule } from "./train/schedule.js";
 
