@@ -60,7 +60,7 @@ describe("data by layer name", () => {
     const ds = parseCsvDataset(text, { source: "g.csv", inputLayers: { sky: ["sun", "cloud"], soil: ["wet"] }, targetLayers: { valve: ["valve"], lamp: ["lamp_on", "lamp_off"] } });
     expect(ds.inputLayers).toEqual([{ layer: "sky", size: 2 }, { layer: "soil", size: 1 }]);
     expect(Array.from(ds.targets).map(String)).toEqual(["1", "0", "1", "0", "NaN", "NaN"]);
-    expect(() => parseCsvDataset(text.replace("0,,", "0,1,"), { source: "g.csv", targetLayers: { valve: ["valve"], lamp: ["lamp_on", "lamp_off"] } })).toThrow(/all numbers \(observed\) or all NaN/);
+    expect(() => parseCsvDataset(text.replace("0,,", "0,1,"), { source: "g.csv", targetLayers: { valve: ["valve"], lamp: ["lamp_on", "lamp_off"] } })).toThrow(/g\.csv:row 3, column 6.*all filled \(observed\) or all empty/);
     expect(() => parseCsvDataset(text, { source: "g.csv", inputLayers: { sky: ["sun", "cloud"] }, targetLayers: { valve: ["valve"], lamp: ["lamp_on", "lamp_off"] } })).toThrow(/every column in an input layer/);
   });
 

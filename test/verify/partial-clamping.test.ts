@@ -190,3 +190,24 @@ describe("every contrastive rule and EqProp use only what was observed", () => {
     );
   });
 });
+
+describe("the settler's observed option", () => {
+  it("holds the observed patterns at their targets in the clamped phase, leaves the others free, and reads every form of the mask", () => {
+    const net = buildNetwork(spec(7, 3, 0.5, "rate"));
+    const settler = new Settler(net, B);
+    const p = net.layer("p").index;
+    const q = net.layer("q").index;
+    const free = settler.settle({ phase: "free", inputs, tolerance: 1e-14, maxSteps: 100000 });
+    const freeQ = Array.from(free.activity[q]!);
+    // q observed in no pattern and p only in pattern 1: q moves away from its free state only through p
+    const held = settler.settle({ phase: "clamped", inputs, targets: { p: fullTargets.p }, observed: { p: [false, true, false], q: false }, tolerance: 1e-14, maxSteps: 100000 });
+    expect(Array.from(held.activity[p]!.subarray(2, 4))).toEqual(fullTargets.p.slice(2, 4));
+    expect(held.converged).toBe(true);
+    // patterns settle independently: where nothing is observed the clamped state is the free one
+    for (const k of [0, 2]) expect(Math.abs(held.activity[q]![k]! - freeQ[k]!)).toBeLessThan(1e-12);
+    expect(Math.abs(held.activity[q]![1]! - freeQ[1]!)).toBeGreaterThan(1e-6);
+    expect(() => settler.settle({ phase: "clamped", inputs, targets: fullTargets, observed: { p: [1, 0] } })).toThrow(/observed\.p/);
+    expect(() => settler.settle({ phase: "clamped", inputs, targets: fullTargets, observed: { h: false } })).toThrow(/observed\.h.*output layer/);
+    expect(() => settler.settle({ phase: "clamped", inputs, targets: { p: fullTargets.p } })).toThrow(/targets\.q/);
+  });
+});

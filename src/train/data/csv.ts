@@ -397,7 +397,20 @@ export function parseCsvDataset(text: string, options: CsvDatasetOptions): Datas
       }
       labels.push(index);
     } else {
+      const from = targets.length;
       for (const c of targetCols) if (!readNumber(fields, row, c, targets)) return false;
+      // a layer's group of target cells is all empty (not observed) or all numbers
+      let off = from;
+      for (const b of targetBlocks ?? []) {
+        const empty = Number.isNaN(targets[off] as number);
+        for (let k = 1; k < b.size; k++) {
+          if (Number.isNaN(targets[off + k] as number) !== empty) {
+            const col = targetCols[off - from + k] as number;
+            return issues.add("parse_error", where(row, col), `the target cells of layer ${JSON.stringify(b.layer)} all filled (observed) or all empty (not observed)`, describeCell(fields[col] as string), detail(col));
+          }
+        }
+        off += b.size;
+      }
     }
     return true;
   });

@@ -49,9 +49,11 @@ function readRows(value: unknown, key: string, source: string, issues: IssueList
     issues.add("parse_error", path, "a non-empty array of rows (arrays of numbers)", describeValue(value));
     return undefined;
   }
-  const first: unknown = value[0];
+  // targets may start with rows that are not observed (null): the width comes from the first array
+  const at = key === "targets" ? Math.max(0, value.findIndex((r: unknown) => r !== null)) : 0;
+  const first: unknown = value[at];
   if (!Array.isArray(first) || first.length === 0) {
-    issues.add("parse_error", `${path}[0]`, "a non-empty array of numbers", describeValue(first));
+    issues.add("parse_error", `${path}[${at}]`, "a non-empty array of numbers", describeValue(first));
     return undefined;
   }
   const width = first.length;
@@ -59,7 +61,7 @@ function readRows(value: unknown, key: string, source: string, issues: IssueList
   let ok = true;
   for (let r = 0; r < value.length && !issues.full; r++) {
     const row: unknown = value[r];
-    if (row === null && key === "targets" && r > 0) {
+    if (row === null && key === "targets") {
       // a target row not observed
       flat.fill(Number.NaN, r * width, (r + 1) * width);
       continue;
