@@ -323,7 +323,11 @@ export class Settler {
       let count = 0;
       for (let p = 0; p < this.batch; p++) {
         let on: boolean;
-        if (mask === false) on = false;
+        const f: unknown = perPattern ? (mask as ArrayLike<unknown>)[p] : mask;
+        if (perPattern && typeof f !== "number" && typeof f !== "boolean") {
+          problems.push(issueText("invalid_parameter", `observed.${l.name}[${p}]`, "a flag: true/false or a number (non-zero: observed)", describeValue(f)));
+          on = false;
+        } else if (f === false || (perPattern && !f)) on = false; // masked off: its values are not read
         else {
           try {
             on = targetRowObserved(t, p * l.size, l.size, `targets.${l.name}`);
@@ -331,13 +335,6 @@ export class Settler {
             if (!(e instanceof EbbflowError)) throw e;
             problems.push(...e.issues);
             on = false;
-          }
-          if (perPattern) {
-            const f = (mask as ArrayLike<unknown>)[p];
-            if (typeof f !== "number" && typeof f !== "boolean") {
-              problems.push(issueText("invalid_parameter", `observed.${l.name}[${p}]`, "a flag: true/false or a number (non-zero: observed)", describeValue(f)));
-              on = false;
-            } else if (!f) on = false;
           }
         }
         if (!on) t.fill(Number.NaN, p * l.size, (p + 1) * l.size);

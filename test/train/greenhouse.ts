@@ -1,3 +1,5 @@
+import type { NetworkSpecInput } from "../../src/index.js";
+
 /**
  * The greenhouse: a scenario of our own invention for networks with two input and two output layers.
  * Inputs: `sky` (2 units: sun, cloud; each on or off) and `soil` (1 unit: 1 wet, 0 dry).
@@ -24,7 +26,7 @@ export const greenhouse = (() => {
 })();
 
 /** A 2-input, 2-output network for the greenhouse (hidden layer of 6 logistic units, tied feedback). */
-export const greenhouseNetwork = {
+export const greenhouseNetwork: NetworkSpecInput = {
   seed: 5,
   layers: [
     { name: "sky", size: 2, role: "input" },
@@ -40,4 +42,4 @@ export const greenhouseNetwork = {
     { from: "hidden", to: "lamp", init: { kind: "uniform", low: -1, high: 1 }, feedback: { kind: "tied", gain: 1 } },
   ],
   dynamics: { dt: 0.5, maxSteps: 300, tolerance: 1e-6 },
-} as const;
+};
