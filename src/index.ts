@@ -11,7 +11,7 @@
 // Building and settling networks
 export { Network, buildNetwork, parameterBuffers, parameterSlots, patternProblems, requirePatterns, type BuildOptions, type Connection, type Feedback, type Layer, type LayerRole, type ParameterSlot } from "./network/network.js";
 export { type ConvolutionForm } from "./network/storage.js";
-export { Settler, Snapshot, energy, type LayerValues, type Phase, type PhaseOptions } from "./network/settle.js";
+export { Settler, Snapshot, energy, type LayerValues, type ObservedTargets, type Phase, type PhaseOptions } from "./network/settle.js";
 export { clipKeepsFixedPoints, clippedLayers, type RangedUnit } from "./network/clip.js";
 export {
   compilePattern,
@@ -55,14 +55,15 @@ export { Registry, builtinRegistry, builtinRules, type AnyRuleConfig, type AnyRu
 // Training and data
 export { TOUCH_PATTERNS, touchStripDataset } from "./demo/touchStrip.js";
 export { parseCsvDataset, type CsvDatasetOptions } from "./train/data/csv.js";
-export { createDataset, oneHot, subset, type Dataset, type DatasetOptions } from "./train/data/dataset.js";
+export { createDataset, oneHot, subset, type DataBlock, type Dataset, type DatasetOptions } from "./train/data/dataset.js";
+export { createLayeredDataset, layerValues, type LayerRows, type LayeredValues } from "./train/data/layered.js";
 export { orientedBarsDataset, parityDataset, randomAssociation, type BinaryCoding, type OrientedBarsOptions, type RandomAssociationOptions, xorDataset } from "./train/data/generators.js";
 export { datasetToJson, parseJsonDataset } from "./train/data/json.js";
 export { fitScaler, type Scaler, type ScalerKind } from "./train/data/scaling.js";
 export { kFold, trainTestSplit, type DatasetSplit, type SplitOptions } from "./train/data/split.js";
-export { Trainer, parseTraining, trainingSchema, type EpochRecord, type StopReason, type TrainerExtras, type TrainerHooks, type TrainerState, type TrainingOptions, type TrainingOptionsInput } from "./train/loop.js";
+export { Trainer, datasetBatch, parseTraining, trainingSchema, type EpochRecord, type StopReason, type TrainerExtras, type TrainerHooks, type TrainerState, type TrainingOptions, type TrainingOptionsInput } from "./train/loop.js";
 export { type Metrics, type TiePolicy } from "./train/metrics.js";
-export { DEFAULT_OBJECTIVE, LOSS_NAMES, batchLoss, batchLossGradient, lossNameSchema, patternLoss, patternLossGradient, requireLoss, requireObjective, type LossName, type Objective } from "./train/loss.js";
+export { DEFAULT_OBJECTIVE, LOSS_NAMES, batchLoss, batchLossGradient, lossNameSchema, patternLoss, patternLossGradient, requireLoss, requireObjective, targetRowObserved, type LossName, type Objective } from "./train/loss.js";
 export { Optimizer, optimizerSchema, type OptimizerConfig, type OptimizerInput, type OptimizerState } from "./train/optimizer.js";
 export { scheduleFactor, scheduleSchema, type Schedule } from "./train/schedule.js";
 

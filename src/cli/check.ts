@@ -5,6 +5,7 @@
 import { fail } from "../errors/index.js";
 import { gradientAgreement, formatAgreement, type GradientReference } from "../verify/agreement.js";
 import { readModelArgument, readRuleArgument, resolveData } from "./inputs.js";
+import { datasetBatch } from "../train/loop.js";
 
 /** Options of `ebbflow check`. */
 export interface CheckCommandOptions {
@@ -27,11 +28,15 @@ export async function checkCommand(modelFile: string, o: CheckCommandOptions): P
   if (rules.length === 0) fail("invalid_config", "--rule", "at least one rule (on the command line or in the experiment's rules)", "none");
   const source = o.data ?? experiment.data?.source;
   if (source === undefined) fail("invalid_config", "--data", "a data source", "none");
-  const { train } = await resolveData(source, { testFraction: 0, seed: experiment.network.seed });
+  const d = experiment.data;
+  const { train } = await resolveData(source, {
+    testFraction: 0,
+    seed: experiment.network.seed,
+    ...(o.data === undefined || o.data === d?.source ? { targetColumns: d?.targetColumns, oneHot: d?.oneHot, targetLayers: d?.targetLayers, inputLayers: d?.inputLayers } : {}),
+  });
   const n = Math.min(o.examples ?? 16, train.size);
-  const input = net.inputLayers[0]!;
-  const output = net.outputLayers[0]!;
-  const batch = { inputs: { [input.name]: train.inputs.subarray(0, n * train.inputSize) }, targets: { [output.name]: train.targets.subarray(0, n * train.targetSize) } };
+  // every input and output layer from its block of the data (by layer name); unobserved targets stay NaN rows
+  const batch = datasetBatch(net, train, n);
   const reports = rules.map((rule) => {
     // each rule sees the same weights, with tight settling so that rule and reference compare fixed points
     const tight = net.withDynamics({ tolerance: Math.min(net.spec.dynamics.tolerance, 1e-12), maxSteps: Math.max(net.spec.dynamics.maxSteps, 100000) });

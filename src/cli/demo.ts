@@ -12,6 +12,7 @@ import { TOUCH_PATTERNS, touchStripDataset } from "../demo/touchStrip.js";
 import { formatAgreement } from "../verify/agreement.js";
 import { learningCurveSvg, writeSvg } from "../node/plot.js";
 import { loadPlotStack } from "../node/plot/render.js";
+import { resultsMetrics } from "../node/plot/results.js";
 import { VERSION } from "./version.js";
 import { ensureFolder } from "../node/run/folder.js";
 
@@ -84,7 +85,7 @@ export async function demoCommand(o: DemoCommandOptions): Promise<void> {
     const name = ruleDisplayName(rule.config);
     const runs = hidden[name] ?? [];
     const svg = await learningCurveSvg(
-      runs.map((r) => ({ label: `seed ${r.seed}`, results: { source: `${name} seed ${r.seed}`, header: { kind: "header" as const, ebbflow: VERSION, seed: r.seed, config: { rule: rule.config }, started: new Date(0).toISOString() }, epochs: r.history } })),
+      runs.map((r) => ({ label: `seed ${r.seed}`, results: { source: `${name} seed ${r.seed}`, header: { kind: "header" as const, ebbflow: VERSION, seed: r.seed, config: { rule: rule.config }, started: new Date(0).toISOString() }, epochs: r.history.map((e) => ({ ...e, train: resultsMetrics(e.train), test: resultsMetrics(e.test) })) } })),
       { metric: "sse", split: "train", title: `${name}: sum squared error per epoch (touch strip)`, logY: true },
     );
     const file = path.join(out, `${name.replace(/[^A-Za-z0-9]+/g, "-").replace(/-$/, "").toLowerCase()}-curves.svg`);

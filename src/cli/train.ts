@@ -69,12 +69,13 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
   const training = parseTraining(trainingInput);
   const split = fixedSplitOption(o) ?? experiment.data?.split;
   const testFraction = o.testFraction ?? (split !== undefined ? 0 : (experiment.data?.testFraction ?? 0));
-  const { train, test } = await resolveData(source, { testFraction, seed, targetColumns: experiment.data?.targetColumns, oneHot: experiment.data?.oneHot, scale: o.scale ?? experiment.data?.scale ?? false, split });
+  const layerColumns = { ...(experiment.data?.targetLayers !== undefined ? { targetLayers: experiment.data.targetLayers } : {}), ...(experiment.data?.inputLayers !== undefined ? { inputLayers: experiment.data.inputLayers } : {}) };
+  const { train, test } = await resolveData(source, { testFraction, seed, targetColumns: experiment.data?.targetColumns, oneHot: experiment.data?.oneHot, scale: o.scale ?? experiment.data?.scale ?? false, split, ...layerColumns });
   const out = o.out ?? path.join("runs", `${experiment.name ?? path.basename(modelFile, ".json")}-${rule.rule}-${seed}`);
   if (o.resume && o.overwrite) fail("invalid_parameter", "--overwrite", "either --resume or --overwrite", "both");
   if (o.acceptChanges && !o.resume) fail("invalid_parameter", "--accept-changes", "--resume (it accepts a changed experiment when resuming)", "no --resume");
   // the resolved config: everything that decides the run's results (its hash is the run's identity)
-  const data = { source, testFraction, scale: o.scale ?? experiment.data?.scale ?? false, ...(experiment.data?.targetColumns !== undefined ? { targetColumns: experiment.data.targetColumns } : {}), ...(experiment.data?.oneHot !== undefined ? { oneHot: experiment.data.oneHot } : {}), ...(split !== undefined ? { split } : {}) };
+  const data = { source, testFraction, scale: o.scale ?? experiment.data?.scale ?? false, ...(experiment.data?.targetColumns !== undefined ? { targetColumns: experiment.data.targetColumns } : {}), ...(experiment.data?.oneHot !== undefined ? { oneHot: experiment.data.oneHot } : {}), ...layerColumns, ...(split !== undefined ? { split } : {}) };
   const config: Record<string, unknown> = { network: experiment.network, rule, training, data, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
   const every = o.checkpointEvery ?? 10;
   const { files, lock } = await claimRunFolder(out, o.resume ? "resume" : o.overwrite ? "overwrite" : "new", "--out");
@@ -103,8 +104,12 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
     if (o.json) process.stdout.write(JSON.stringify(summary) + "\n");
     else {
       process.stdout.write(result.alreadyFinished ? `already finished: ${result.epochs} epochs (${result.reason}); results in ${out}\n` : `trained ${result.epochs} epochs (${result.reason})${result.resumedFrom > 0 ? `, resumed from epoch ${result.resumedFrom}` : ""}; results in ${out}\n`);
-      if (last?.train) process.stdout.write(`train: sse ${last.train.sse.toFixed(5)}, accuracy ${(last.train.accuracy * 100).toFixed(2)}%\n`);
-      if (last?.test) process.stdout.write(`test:  sse ${last.test.sse.toFixed(5)}, accuracy ${(last.test.accuracy * 100).toFixed(2)}%\n`);
+      for (const [split, m] of [["train: ", last?.train], ["test:  ", last?.test]] as const) {
+        if (m === undefined) continue;
+        process.stdout.write(`${split}sse ${m.sse.toFixed(5)}, accuracy ${(m.accuracy * 100).toFixed(2)}%\n`);
+        // each output layer's own metrics, over the examples where it was observed
+        for (const [layer, lm] of Object.entries(m.layers ?? {})) process.stdout.write(`  ${layer}: sse ${lm.sse.toFixed(5)}, accuracy ${(lm.accuracy * 100).toFixed(2)}% (${lm.examples} observed)\n`);
+      }
     }
   } finally {
     await lock.release();

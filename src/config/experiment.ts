@@ -20,6 +20,10 @@ export const dataSourceSchema = z
     testFraction: z.number().min(0).max(0.9, { error: "a fraction in [0, 0.9]" }).default(0),
     /** For CSV files: the columns that hold the targets (0-based indices or header names). */
     targetColumns: z.array(z.union([z.number().int().min(0), z.string()])).optional(),
+    /** For CSV files: the column groups of the output layers (layer name → columns), instead of targetColumns; a group of empty cells is a target not observed. */
+    targetLayers: z.record(z.string(), z.array(z.union([z.number().int().min(0), z.string()])).min(1, { error: "at least one column" })).optional(),
+    /** For CSV files: the column groups of the input layers (layer name → columns). */
+    inputLayers: z.record(z.string(), z.array(z.union([z.number().int().min(0), z.string()])).min(1, { error: "at least one column" })).optional(),
     /** For CSV files: one-hot encode the (single) target column as class labels. */
     oneHot: z.boolean().optional(),
     /** Scale inputs to [0, 1] with the training split's minimum and maximum. */

@@ -268,19 +268,61 @@ function isIssue(r: ArrayLike<number> | Issue): r is Issue {
 
 /**
  * A batch whose per-layer values may be `ndarray`-like (`[batch, units]` each), as `rule.step` takes it.
+ * A target row of NaN (every value of a layer for one pattern) marks that layer as not observed for that
+ * pattern; `observed` says the same as a mask (see `ObservedTargets`).
  * @category Interop
  */
 export interface BatchInput {
   readonly inputs: LayerInputs;
   readonly targets: LayerInputs;
+  /**
+   * Per output layer: `true`, `false`, or one flag per pattern (non-zero: observed); a layer not named is
+   * observed wherever its targets are not NaN. An unobserved output is free in the clamped phase and takes
+   * no nudging and no loss.
+   */
+  readonly observed?: Readonly<Record<string, boolean | ArrayLike<number | boolean>>> | undefined;
+}
+
+/**
+ * The targets with the `observed` mask written in as NaN rows (copies of the masked layers only).
+ * @throws {@link EbbflowError} `unknown_name` for a mask on a layer that is not an output layer, `shape_mismatch` for a mask of the wrong length.
+ */
+function maskTargets(net: Network, targets: Readonly<Record<string, ArrayLike<number>>>, observed: NonNullable<BatchInput["observed"]>, batchSize: number | undefined): Readonly<Record<string, ArrayLike<number>>> {
+  if (observed === null || typeof observed !== "object") fail("invalid_parameter", "observed", "an object mapping output layer names to true, false or one flag per pattern", observed);
+  const out: Record<string, ArrayLike<number>> = { ...targets };
+  for (const name of Object.keys(observed)) {
+    const layer = net.outputLayers.find((l) => l.name === name);
+    if (layer === undefined) fail("unknown_name", `observed.${name}`, `an output layer name (${net.outputLayers.map((l) => l.name).join(", ")})`, JSON.stringify(name));
+    const mask: unknown = observed[name];
+    if (mask === true) continue;
+    const t = targets[name];
+    const B = batchSize ?? (t !== undefined && t !== null && typeof t.length === "number" ? Math.floor(t.length / layer.size) : 0);
+    const masked = new Float64Array(B * layer.size);
+    if (mask === false) {
+      masked.fill(Number.NaN);
+      out[name] = masked;
+      continue;
+    }
+    if (mask === null || typeof mask !== "object" || typeof (mask as ArrayLike<unknown>).length !== "number" || (mask as ArrayLike<unknown>).length !== B) {
+      fail("shape_mismatch", `observed.${name}`, `true, false or ${B} flags (one per pattern)`, mask);
+    }
+    if (t === undefined || t === null || t.length !== B * layer.size) fail("shape_mismatch", `targets.${name}`, `${B * layer.size} values`, t === undefined ? "missing" : t);
+    for (let p = 0; p < B; p++) {
+      const f = (mask as ArrayLike<unknown>)[p];
+      if (typeof f !== "number" && typeof f !== "boolean") fail("invalid_parameter", `observed.${name}[${p}]`, "a flag: true/false or a number (non-zero: observed)", f);
+      for (let k = 0; k < layer.size; k++) masked[p * layer.size + k] = f ? (t[p * layer.size + k] as number) : Number.NaN;
+    }
+    out[name] = masked;
+  }
+  return out;
 }
 
 /**
  * The batch with `ndarray`-like entries read as flat row-major arrays (no copy
- * when contiguous; see {@link rowMajorValues}); a batch without such entries
- * is returned as is.
+ * when contiguous; see {@link rowMajorValues}) and an `observed` mask written into
+ * the targets as NaN rows; a batch without either is returned as is.
  * @throws {@link EbbflowError} `shape_mismatch` / `invalid_parameter` naming the entry (e.g. `inputs.touch.shape`).
- * @category Interop
+ * @internal
  */
 export function flatBatch(net: Network, batch: BatchInput): { readonly inputs: Readonly<Record<string, ArrayLike<number>>>; readonly targets: Readonly<Record<string, ArrayLike<number>>> } {
   if (batch === null || typeof batch !== "object") return fail("invalid_parameter", "batch", "an object with inputs and targets", batch);
@@ -289,6 +331,12 @@ export function flatBatch(net: Network, batch: BatchInput): { readonly inputs: R
   const targets = batch.targets !== null && typeof batch.targets === "object" ? flatLayerValues(batch.targets, sizes, undefined, "targets") : undefined;
   const issues = [...(inputs?.issues ?? []), ...(targets?.issues ?? [])];
   if (issues.length > 0) throw new EbbflowError(issues);
+  if (batch.observed !== undefined && targets !== undefined) {
+    const first = net.inputLayers[0];
+    const x = first === undefined ? undefined : inputs?.values[first.name];
+    const B = first !== undefined && x !== undefined && x !== null && typeof x.length === "number" ? x.length / first.size : undefined;
+    return { inputs: inputs?.values ?? (batch.inputs as Readonly<Record<string, ArrayLike<number>>>), targets: maskTargets(net, targets.values, batch.observed, B !== undefined && Number.isInteger(B) ? B : undefined) };
+  }
   if (inputs?.values === batch.inputs && targets?.values === batch.targets) return batch as ReturnType<typeof flatBatch>;
   return { inputs: inputs?.values ?? (batch.inputs as Readonly<Record<string, ArrayLike<number>>>), targets: targets?.values ?? (batch.targets as Readonly<Record<string, ArrayLike<number>>>) };
 }

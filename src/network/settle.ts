@@ -16,8 +16,8 @@ import { clippedLayers } from "./clip.js";
 import { refuseUnknownOptions } from "../errors/options.js";
 
 /** The keys of {@link PhaseOptions} (others are refused). */
-const PHASE_OPTIONS = ["phase", "inputs", "targets", "beta", "cost", "start", "maxSteps", "tolerance", "record", "requireConvergence", "onStep", "reuseDrive"];
-import { batchLoss, batchLossGradient, requireObjective, type Objective } from "../train/loss.js";
+const PHASE_OPTIONS = ["phase", "inputs", "targets", "observed", "beta", "cost", "start", "maxSteps", "tolerance", "record", "requireConvergence", "onStep", "reuseDrive"];
+import { batchLoss, batchLossGradient, DEFAULT_OBJECTIVE, requireObjective, targetRowObserved, type Objective } from "../train/loss.js";
 import { requireStateMemory } from "./checks.js";
 
 /** The three phases: free (the prediction: only inputs clamped), clamped and nudged (target-driven states: outputs clamped to, or pulled toward, the targets). @category Settling */
@@ -26,14 +26,33 @@ export type Phase = "free" | "clamped" | "nudged";
 /** Per-layer values for a batch: layer name → B×N flat array (row = pattern). @category Settling */
 export type LayerValues = Readonly<Record<string, ArrayLike<number>>>;
 
+/**
+ * Which output layers' targets are observed in a phase, per layer name: `true` (every pattern: the
+ * default for a layer not named), `false` (no pattern: the layer is free in the clamped phase and feels no
+ * nudging; its targets may then be left out), or one entry per pattern of the batch, non-zero (or `true`)
+ * for observed. A target row of NaN (every value of the layer for that pattern) is not observed either,
+ * whatever the mask says: the mask's convenient form. A row mixing NaN and numbers is refused.
+ * @category Settling
+ */
+export type ObservedTargets = Readonly<Record<string, boolean | ArrayLike<number | boolean>>>;
+
 /** Options of one phase. @category Settling */
 export interface PhaseOptions {
   /** Which phase to settle. */
   readonly phase: Phase;
   /** Values of every input layer, B×N each (flat row-major, or `ndarray`-like of shape [B, N]: read without a copy when contiguous). */
   readonly inputs: LayerInputs;
-  /** Targets of every output layer (clamped and nudged phases), as `inputs`. */
+  /**
+   * Targets of every output layer (clamped and nudged phases), as `inputs`. A pattern's row of NaN marks
+   * the layer's targets for that pattern as not observed (see {@link ObservedTargets}).
+   */
   readonly targets?: LayerInputs | undefined;
+  /**
+   * Which output layers are clamped (clamped phase) or nudged (nudged phase), per layer and pattern
+   * (default: all). An output unobserved for a pattern settles freely in that pattern, like a hidden unit,
+   * and adds no nudging cost.
+   */
+  readonly observed?: ObservedTargets | undefined;
   /** Nudging strength (nudged phase; may be negative, not 0). */
   readonly beta?: number | undefined;
   /**
@@ -182,6 +201,10 @@ export class Settler {
   private readonly layerSizes: ReadonlyMap<string, number>;
   /** Per connection: the im2col work array of a convolution connection, else null. */
   private readonly fieldRows: (FloatArray | null)[];
+  /** Per output layer and pattern: 1 when the pattern's targets of the layer are observed in this phase. */
+  private readonly rows: Uint8Array[];
+  /** Per layer in this phase: 0 no pattern observed, 1 every pattern, 2 some (partial clamping or nudging). */
+  private readonly coverage: Int8Array;
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -205,6 +228,8 @@ export class Settler {
     this.layerSizes = sizesByName(net);
     // im2col work arrays of the convolution connections (one per connection: their sizes differ)
     this.fieldRows = net.connections.map((c) => (c.convolution ? net.allocate(fieldRowsLength(c.convolution.geometry, batch)) : null));
+    this.rows = net.layers.map((l) => new Uint8Array(l.role === "output" ? batch : 0));
+    this.coverage = new Int8Array(net.layers.length);
   }
 
   /**
@@ -218,7 +243,7 @@ export class Settler {
   }
 
   /** Checks and copies per-layer values (inputs or targets) into `dest`; reports every problem at once. */
-  private loadValues(given: LayerInputs | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[]): Issue[] {
+  private loadValues(given: LayerInputs | undefined, role: "input" | "output", what: "inputs" | "targets", dest: FloatArray[], observed?: ObservedTargets): Issue[] {
     if (given === undefined || given === null || typeof given !== "object") {
       return [issueText("shape_mismatch", what, `an object mapping each ${role} layer name to ${this.batch}×size values`, describeValue(given))];
     }
@@ -230,6 +255,11 @@ export class Settler {
       if (layer.role !== role || flat.failed.has(layer.name)) continue;
       const v = values[layer.name];
       const want = this.batch * layer.size;
+      if (v === undefined && observed?.[layer.name] === false) {
+        // a layer observed in no pattern needs no targets
+        (dest[layer.index] as FloatArray).fill(Number.NaN);
+        continue;
+      }
       if (v === undefined) {
         problems.push(issueText("shape_mismatch", `${what}.${layer.name}`, `${want} values (batch ${this.batch} × size ${layer.size})`, "missing"));
         continue;
@@ -251,6 +281,11 @@ export class Settler {
       }
       for (let i = 0; i < want; i++) {
         const x = v[i] as number;
+        if (observed !== undefined && typeof x === "number" && Number.isNaN(x)) {
+          // a target row of NaN: not observed (rows are checked whole in observedRows)
+          d[i] = x;
+          continue;
+        }
         if (typeof x !== "number" || !Number.isFinite(x)) {
           problems.push(issueText("shape_mismatch", `${what}.${layer.name}[${i}]`, "a finite number", describeValue(x), `pattern ${Math.floor(i / layer.size)}, unit ${i % layer.size}`));
           break;
@@ -267,6 +302,63 @@ export class Settler {
       if (l === undefined || l.role !== role) problems.push(issueText("unknown_name", `${what}.${name}`, `an ${role} layer name`, JSON.stringify(name)));
     }
     return problems;
+  }
+
+  /** Reads which patterns of each output layer are observed (NaN rows, the `observed` mask) into rows/coverage. */
+  private observedRows(observed: ObservedTargets | undefined): Issue[] {
+    const problems: Issue[] = [];
+    if (observed !== undefined && (observed === null || typeof observed !== "object")) {
+      return [issueText("invalid_parameter", "observed", "an object mapping output layer names to true, false or one flag per pattern", describeValue(observed))];
+    }
+    for (const name of Object.keys(observed ?? {})) {
+      const l = this.net.layers.find((x) => x.name === name);
+      if (l === undefined || l.role !== "output") problems.push(issueText("unknown_name", `observed.${name}`, "an output layer name", JSON.stringify(name)));
+    }
+    for (const l of this.net.layers) {
+      if (l.role !== "output") continue;
+      const rows = this.rows[l.index] as Uint8Array;
+      const t = this.targetBuf[l.index] as FloatArray;
+      const mask: unknown = observed?.[l.name];
+      const perPattern = mask !== undefined && typeof mask !== "boolean";
+      if (perPattern) {
+        const m = mask as ArrayLike<unknown>;
+        if (m === null || typeof m !== "object" || m.length !== this.batch) {
+          problems.push(issueText("shape_mismatch", `observed.${l.name}`, `true, false or ${this.batch} flags (one per pattern)`, describeValue(mask)));
+          continue;
+        }
+      }
+      let count = 0;
+      for (let p = 0; p < this.batch; p++) {
+        let on: boolean;
+        const f: unknown = perPattern ? (mask as ArrayLike<unknown>)[p] : mask;
+        if (perPattern && typeof f !== "number" && typeof f !== "boolean") {
+          problems.push(issueText("invalid_parameter", `observed.${l.name}[${p}]`, "a flag: true/false or a number (non-zero: observed)", describeValue(f)));
+          on = false;
+        } else if (f === false || (perPattern && !f)) on = false; // masked off: its values are not read
+        else {
+          try {
+            on = targetRowObserved(t, p * l.size, l.size, `targets.${l.name}`);
+          } catch (e) {
+            if (!(e instanceof EbbflowError)) throw e;
+            problems.push(...e.issues);
+            on = false;
+          }
+        }
+        if (!on) t.fill(Number.NaN, p * l.size, (p + 1) * l.size);
+        rows[p] = on ? 1 : 0;
+        if (on) count++;
+      }
+      this.coverage[l.index] = count === 0 ? 0 : count === this.batch ? 1 : 2;
+    }
+    return problems;
+  }
+
+  /** Holds the observed patterns' rows of a partly clamped layer at their targets. */
+  private holdObserved(i: number, values: FloatArray): void {
+    const n = this.net.layers[i]!.size;
+    const rows = this.rows[i] as Uint8Array;
+    const t = this.targetBuf[i] as FloatArray;
+    for (let p = 0; p < this.batch; p++) if (rows[p] === 1) values.set(t.subarray(p * n, (p + 1) * n), p * n);
   }
 
   /**
@@ -300,11 +392,14 @@ export class Settler {
     refreshSparseForms(net.connections);
     refreshConvolutionForms(net.connections);
 
-    // which layers are held fixed in this phase
-    for (const l of net.layers) this.clamped[l.index] = l.role === "input" || (phase === "clamped" && l.role === "output");
     const problems = this.loadValues(options.inputs, "input", "inputs", snap.activity);
-    if (phase !== "free") problems.push(...this.loadValues(options.targets, "output", "targets", this.targetBuf));
+    const observed = options.observed ?? {};
+    if (phase !== "free") problems.push(...this.loadValues(options.targets, "output", "targets", this.targetBuf, observed));
+    if (phase !== "free" && problems.length === 0) problems.push(...this.observedRows(options.observed));
     if (problems.length > 0) throw new EbbflowError(problems);
+    // which layers are held fixed in this phase: inputs, and in the clamped phase the outputs observed in
+    // every pattern; an output observed in some patterns is settled as free and held in those (partial clamping)
+    for (const l of net.layers) this.clamped[l.index] = l.role === "input" || (phase === "clamped" && l.role === "output" && this.coverage[l.index] === 1);
 
     // starting state
     const energy = dyn.kind === "energy";
@@ -325,6 +420,10 @@ export class Settler {
       } else {
         st.fill(0);
         if (energy) l.unit.fill(act, st);
+      }
+      if (phase === "clamped" && l.role === "output" && this.coverage[i] === 2) {
+        this.holdObserved(i, st);
+        if (energy) this.holdObserved(i, act);
       }
     }
 
@@ -372,7 +471,11 @@ export class Settler {
         this.accumulate(eta, i, snap.activity, this.clamped, false);
         this.inhibit(eta, i, snap.activity[i] as FloatArray);
         const dt = dyn.dt;
-        const nudge = phase === "nudged" && l.role === "output";
+        const nudge = phase === "nudged" && l.role === "output" && this.coverage[i] !== 0;
+        // partly observed outputs: the clamped phase holds the observed patterns; nudging goes through the
+        // force, which is zero for the patterns not observed
+        const held = phase === "clamped" && l.role === "output" && this.coverage[i] === 2;
+        const masked = nudge && this.coverage[i] === 2;
         const tgt = this.targetBuf[i] as FloatArray;
         // every pass below is a kernel call (WebAssembly SIMD on that backend): x + dt·(f(η) − x), with
         // η formed in the buffer being updated, and x + dt·(ρ'(u)·η − u [+ β(t − u)])
@@ -381,11 +484,12 @@ export class Settler {
           // so the fixed point is a stationary point of the continuous-Hopfield energy plus beta * cost.
           // One fused kernel pass when the backend has it (same bits as the separate calls below)
           const fu = this.fusedUnit[i];
-          if (nudge && !plainCost) {
+          if (nudge && (!plainCost || masked)) {
             // eta − β·factor·∂L/∂x: the fixed point is a stationary point of the energy plus β·cost
+            const c = cost ?? DEFAULT_OBJECTIVE;
             const f = this.force[i] as FloatArray;
-            batchLossGradient((cost as Objective).loss, x, tgt, batch, n, f);
-            K.axpy(nx, f, -beta * (cost as Objective).factor, len);
+            batchLossGradient(c.loss, x, tgt, batch, n, f);
+            K.axpy(nx, f, -beta * c.factor, len);
             fillUnit(K, l.unit, false, nx, nx, len);
             K.sub(nx, nx, x, len);
             K.axpby(nx, x, nx, 1, dt, len);
@@ -395,7 +499,7 @@ export class Settler {
             if (d > change) change = d;
             continue;
           }
-          const fused = fu !== null && fu !== undefined && K.rateStep !== undefined ? K.rateStep(fu.kind, fu.gain, fu.offset, x, nx, nudge ? tgt : null, beta, dt, bound, len) : null;
+          const fused = !held && fu !== null && fu !== undefined && K.rateStep !== undefined ? K.rateStep(fu.kind, fu.gain, fu.offset, x, nx, nudge ? tgt : null, beta, dt, bound, len) : null;
           if (fused !== null) {
             if (fused < 0) this.diverged(l.index, K.maxAbs(nx, len), bound, phase, step);
             if (fused > change) change = fused;
@@ -411,17 +515,17 @@ export class Settler {
         } else {
           // energy dynamics: u += dt (rho'(u) eta - u) [+ dt beta (t - u)]  (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24)
           fillUnit(K, l.unit, true, nx, x, len); // rho'(u)
-          if (nudge && !plainCost) {
+          if (nudge && (!plainCost || masked)) {
             // force = factor · ∂L/∂v, v = u (cost on the state) or ρ(u) (cost on the rate, chain rule: · ρ'(u))
-            const c = cost as Objective;
+            const c = cost ?? DEFAULT_OBJECTIVE;
             const f = this.force[i] as FloatArray;
             batchLossGradient(c.loss, c.on === "rate" ? (snap.activity[i] as FloatArray) : x, tgt, batch, n, f);
             if (c.on === "rate") K.mul(f, f, nx, len);
           }
           K.mul(nx, nx, eta, len); // rho'(u) eta
           K.sub(nx, nx, x, len); // rho'(u) eta - u
-          if (nudge && !plainCost) {
-            K.axpy(nx, this.force[i] as FloatArray, -beta * (cost as Objective).factor, len);
+          if (nudge && (!plainCost || masked)) {
+            K.axpy(nx, this.force[i] as FloatArray, -beta * (cost ?? DEFAULT_OBJECTIVE).factor, len);
           } else if (nudge) {
             K.sub(eta, tgt, x, len); // eta is free now: t - u
             K.axpy(nx, eta, beta, len);
@@ -436,6 +540,7 @@ export class Settler {
             }
           }
         }
+        if (held) this.holdObserved(i, nx);
         // one pass: maxAbs is NaN when a NaN is present and Infinity for an infinity, so both fail the test
         const largest = K.maxAbs(nx, len);
         if (!(largest <= bound)) this.diverged(i, largest, bound, phase, step);
@@ -448,6 +553,8 @@ export class Settler {
         if (this.clamped[i]) continue;
         net.kernels.copy(snap.state[i] as FloatArray, this.next[i] as FloatArray);
         if (energy) fillUnit(net.kernels, l.unit, false, snap.activity[i] as FloatArray, snap.state[i] as FloatArray);
+        // a held pattern's activity is its target, as for a clamped layer
+        if (energy && phase === "clamped" && l.role === "output" && this.coverage[i] === 2) this.holdObserved(i, snap.activity[i] as FloatArray);
       }
       if (snap.record !== null) snap.record.push(snap.activity.map((a) => a.slice()));
       if (options.onStep !== undefined) options.onStep(snap, step);
@@ -591,7 +698,8 @@ export function energy(net: Network, snap: Snapshot, targets?: LayerValues, beta
         continue;
       }
       const u = snap.state[l.index] as FloatArray;
-      for (let k = 0; k < u.length; k++) e += beta * 0.5 * ((u[k] as number) - (t[k] as number)) ** 2;
+      // a NaN target (a pattern not observed) adds no cost
+      for (let k = 0; k < u.length; k++) if (!Number.isNaN(t[k] as number)) e += beta * 0.5 * ((u[k] as number) - (t[k] as number)) ** 2;
     }
   }
   return e;

@@ -26,6 +26,10 @@ export interface LoadDatasetOptions {
   readonly format?: "csv" | "tsv" | "json" | undefined;
   /** CSV/TSV: target columns, indices from 0 (negative from the end) or header names; required for these formats. */
   readonly targetColumns?: CsvDatasetOptions["targetColumns"] | undefined;
+  /** CSV/TSV: column groups of the output layers (layer name → columns), instead of `targetColumns`; an all-empty group is a target not observed. */
+  readonly targetLayers?: CsvDatasetOptions["targetLayers"] | undefined;
+  /** CSV/TSV: column groups of the input layers (layer name → columns). */
+  readonly inputLayers?: CsvDatasetOptions["inputLayers"] | undefined;
   /** CSV/TSV: whether the first record is a header (default: true when columns are referred to by name). */
   readonly header?: boolean | undefined;
   /** CSV/TSV: read the single target column as class labels, one-hot coded. */
@@ -63,7 +67,7 @@ export async function loadDataset(file: string, options: LoadDatasetOptions = {}
   const format = options.format ?? (ext === ".csv" ? "csv" : ext === ".tsv" ? "tsv" : ext === ".json" ? "json" : undefined);
   if (format === undefined) return fail("unsupported", file, "a file ending in .csv, .tsv or .json (or the format option)", ext === "" ? "no extension" : ext);
   if (format !== "csv" && format !== "tsv" && format !== "json") return fail("invalid_parameter", "format", 'one of "csv", "tsv", "json"', format);
-  if (format !== "json" && options.targetColumns === undefined) {
+  if (format !== "json" && options.targetColumns === undefined && options.targetLayers === undefined) {
     fail("invalid_parameter", "targetColumns", "the target columns of the CSV file (indices from 0 or header names)", undefined);
   }
   let text: string;
@@ -79,7 +83,8 @@ export async function loadDataset(file: string, options: LoadDatasetOptions = {}
     return makeDataset({ ...ds, name: options.name });
   }
   return parseCsvDataset(text, {
-    targetColumns: options.targetColumns as CsvDatasetOptions["targetColumns"],
+    ...(options.targetLayers !== undefined ? { targetLayers: options.targetLayers } : { targetColumns: options.targetColumns as CsvDatasetOptions["targetColumns"] }),
+    ...(options.inputLayers !== undefined ? { inputLayers: options.inputLayers } : {}),
     header: options.header,
     oneHot: options.oneHot,
     classNames: options.classNames,

@@ -68,7 +68,7 @@ export async function loadSplitByColumn(file: string, column: string | number, o
   const ignore = [...(options.ignoreColumns ?? [])];
   const ds = await loadDataset(file, { ...options, ignoreColumns: [...ignore, column] });
   // the column read as class labels, every other column skipped
-  const membership = await loadDataset(file, { format: options.format, header: options.header, delimiter: options.delimiter, targetColumns: [column], oneHot: true, ignoreColumns: [...ignore, ...(options.targetColumns ?? [])] });
+  const membership = await loadDataset(file, { format: options.format, header: options.header, delimiter: options.delimiter, targetColumns: [column], oneHot: true, ignoreColumns: [...ignore, ...(options.targetColumns ?? []), ...Object.values(options.targetLayers ?? {}).flat()] });
   const names = membership.classNames ?? [];
   const labels = membership.labels;
   const other = names.filter((n) => n !== "train" && n !== "test");

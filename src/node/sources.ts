@@ -9,6 +9,17 @@ import { orientedBarsDataset, parityDataset, xorDataset, trainTestSplit, fitScal
 import { touchStripDataset } from "../demo/touchStrip.js";
 import { irisDataset, digitsDataset, loadDataset } from "./data.js";
 
+/** CSV column groups per layer name (see `CsvDatasetOptions.targetLayers` and `inputLayers`). @category Data */
+export interface LayerColumns {
+  readonly targetLayers?: Readonly<Record<string, readonly (number | string)[]>> | undefined;
+  readonly inputLayers?: Readonly<Record<string, readonly (number | string)[]>> | undefined;
+}
+
+/** The column groups that are given, as loader options. */
+function layerColumns(o: LayerColumns): LayerColumns {
+  return { ...(o.targetLayers !== undefined ? { targetLayers: o.targetLayers } : {}), ...(o.inputLayers !== undefined ? { inputLayers: o.inputLayers } : {}) };
+}
+
 /**
  * Resolves a data source and splits it: built-in sets and files; `touch-strip`, `xor`, `parity:N`, `oriented-bars[:N]`, `iris`, `digits[:N]`, or a `.csv`/`.json` path.
  * The split is seeded (`testFraction`) or fixed (`split`: index files, or a CSV column of `train`/`test`).
@@ -16,7 +27,7 @@ import { irisDataset, digitsDataset, loadDataset } from "./data.js";
  */
 export async function resolveData(
   source: string,
-  options: { testFraction: number; seed: number | string; targetColumns?: readonly (number | string)[] | undefined; oneHot?: boolean | undefined; scale?: boolean | undefined; low?: number | undefined; split?: FixedSplit | undefined },
+  options: { testFraction: number; seed: number | string; targetColumns?: readonly (number | string)[] | undefined; oneHot?: boolean | undefined; scale?: boolean | undefined; low?: number | undefined; split?: FixedSplit | undefined } & LayerColumns,
 ): Promise<{ train: Dataset; test: Dataset | undefined }> {
   const split = options.split;
   if (split !== undefined) {
@@ -25,7 +36,7 @@ export async function resolveData(
     let parts: { train: Dataset; test: Dataset };
     if ("column" in split) {
       if (!/\.(csv|tsv)$/i.test(source)) fail("invalid_config", "data.split.column", "a CSV or TSV file as the data source (the column is one of its columns)", source);
-      parts = await loadSplitByColumn(source, split.column, { ...(options.targetColumns !== undefined ? { targetColumns: options.targetColumns as readonly string[] } : {}), oneHot: options.oneHot });
+      parts = await loadSplitByColumn(source, split.column, { ...(options.targetColumns !== undefined ? { targetColumns: options.targetColumns as readonly string[] } : {}), oneHot: options.oneHot, ...layerColumns(options) });
     } else parts = await splitByIndexFiles(await loadSource(source, options), split.train, split.test);
     if (!options.scale) return parts;
     const scaler = fitScaler(parts.train);
@@ -40,7 +51,7 @@ export async function resolveData(
 }
 
 /** Loads a data source by name or path, whole. */
-async function loadSource(source: string, options: { targetColumns?: readonly (number | string)[] | undefined; oneHot?: boolean | undefined; low?: number | undefined }): Promise<Dataset> {
+async function loadSource(source: string, options: { targetColumns?: readonly (number | string)[] | undefined; oneHot?: boolean | undefined; low?: number | undefined } & LayerColumns): Promise<Dataset> {
   let ds: Dataset;
   const [name, arg] = source.split(":");
   if (name === "xor") ds = xorDataset();
@@ -49,7 +60,7 @@ async function loadSource(source: string, options: { targetColumns?: readonly (n
   else if (name === "oriented-bars") ds = orientedBarsDataset(arg !== undefined ? { size: Number(arg) } : {});
   else if (name === "iris") ds = await irisDataset();
   else if (name === "digits" || name === "mnist") ds = await digitsDataset(arg !== undefined ? { count: Number(arg) } : {});
-  else if (/\.(csv|json)$/i.test(source)) ds = await loadDataset(source, { ...(options.targetColumns !== undefined ? { targetColumns: options.targetColumns as readonly string[] } : {}), oneHot: options.oneHot });
+  else if (/\.(csv|json)$/i.test(source)) ds = await loadDataset(source, { ...(options.targetColumns !== undefined ? { targetColumns: options.targetColumns as readonly string[] } : {}), oneHot: options.oneHot, ...layerColumns(options) });
   else throw new EbbflowError(issueText("unknown_name", "--data", "touch-strip, xor, parity:N, oriented-bars[:N], iris, digits (or mnist), digits:N, or a .csv/.json file", JSON.stringify(source)));
   return ds;
 }

@@ -10,8 +10,14 @@ import { Settler, Snapshot, type LayerValues, type PhaseOptions } from "../netwo
 import { applyDelta, ParameterDelta } from "./delta.js";
 import type { RuleConfigBase } from "./descriptor.js";
 import { flatBatch, type BatchInput } from "../interop/ndarray.js";
+import { targetRowObserved } from "../train/loss.js";
 
-/** A batch of patterns: values per input layer and targets per output layer, B×N flat. @category Rules */
+/**
+ * A batch of patterns: values per input layer and targets per output layer, B×N flat. A pattern's target
+ * row of NaN (all of a layer's values for that pattern) is not observed: the layer is free for that
+ * pattern in the clamped phase, feels no nudging and takes no loss (partial clamping).
+ * @category Rules
+ */
 export interface Batch {
   readonly inputs: LayerValues;
   readonly targets: LayerValues;
@@ -80,18 +86,24 @@ export function batchSizeOf(net: Network, batch: Batch): number {
  * @param layer - The layer's name.
  * @param count - Values expected (batch × size).
  * @param what - `inputs` or `targets`, for the error path.
+ * @param unobservedRows - The layer's size when rows of NaN (patterns not observed) are allowed.
  * @returns The values.
  * @throws {@link EbbflowError} `shape_mismatch` naming the layer (and the first bad value).
  * @category Rules
  */
-export function checkedLayerValues(values: LayerValues | undefined, layer: string, count: number, what: "inputs" | "targets"): ArrayLike<number> {
+export function checkedLayerValues(values: LayerValues | undefined, layer: string, count: number, what: "inputs" | "targets", unobservedRows?: number): ArrayLike<number> {
   const v = values?.[layer] as unknown;
   if (v === null || typeof v !== "object" || typeof (v as { length?: unknown }).length !== "number") return fail("shape_mismatch", `${what}.${layer}`, `${count} values`, v === undefined ? "missing" : v);
   const a = v as ArrayLike<unknown>;
   if (a.length !== count) fail("shape_mismatch", `${what}.${layer}`, `${count} values`, `${a.length} values`);
   for (let k = 0; k < count; k++) {
     const x = a[k];
-    if (typeof x !== "number" || !Number.isFinite(x)) fail("shape_mismatch", `${what}.${layer}[${k}]`, "a finite number", x);
+    if (unobservedRows !== undefined && typeof x === "number" && Number.isNaN(x)) {
+      // a row of NaN: not observed (all-or-nothing, checked per row)
+      targetRowObserved(a as ArrayLike<number>, k - (k % unobservedRows), unobservedRows, `${what}.${layer}`);
+      continue;
+    }
+    if (typeof x !== "number" || !Number.isFinite(x)) fail("shape_mismatch", `${what}.${layer}[${k}]`, what === "targets" ? "a finite number (this rule needs every target observed)" : "a finite number", x);
   }
   return a as ArrayLike<number>;
 }

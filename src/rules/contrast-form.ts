@@ -22,6 +22,7 @@ import { applyDelta, ParameterDelta } from "./delta.js";
 import { SettlingRule, batchSizeOf, connectionRate, type Batch } from "./base.js";
 import type { RuleConfigBase } from "./descriptor.js";
 import { flatBatch, type BatchInput } from "../interop/ndarray.js";
+import { fail } from "../errors/index.js";
 
 /**
  * One phase a rule settles, with its settling options; every phase after the first starts from the first
@@ -412,6 +413,8 @@ export class FormRule<C extends RuleConfigBase = RuleConfigBase> extends Settlin
 
   constructor(net: Network, config: C, form: ContrastForm) {
     super(net, config);
+    // the form's arrays hold one input layer's values (see settleAll)
+    if (net.inputLayers.length !== 1) fail("unsupported", "layers", "exactly one input layer for a rule declared by its contrast form", `${net.inputLayers.length} input layers`);
     this.form = form;
     this.phases = form.phases.map((p) => p.phase + (p.beta !== undefined ? ` β=${p.beta}` : ""));
     const plan = contrastPlan(net, config, form);

@@ -102,14 +102,11 @@ export function runForward(net: Network, order: readonly number[], batch: Batch,
 function outputError(net: Network, batch: Batch, pass: ForwardPass, loss: LossName): void {
   for (const l of net.outputLayers) {
     const n = pass.batch * l.size;
-    const t = checkedLayerValues(batch.targets, l.name, n, "targets");
+    // a target row of NaN (not observed) gives no error (patternLossGradient writes zeros)
+    const t = checkedLayerValues(batch.targets, l.name, n, "targets", l.size);
     const d = pass.delta[l.index] as FloatArray;
     const y = pass.activity[l.index] as FloatArray;
     const s = pass.slope[l.index] as FloatArray;
-    if (loss === "squared-error") {
-      for (let k = 0; k < n; k++) d[k] = ((y[k] as number) - (t[k] as number)) * (s[k] as number);
-      continue;
-    }
     for (let p = 0; p < pass.batch; p++) patternLossGradient(loss, y, t, p * l.size, l.size, d);
     for (let k = 0; k < n; k++) d[k] = (d[k] as number) * (s[k] as number);
   }

@@ -6,7 +6,7 @@
  */
 import { refuseUnknownOptions } from "../errors/options.js";
 import { z } from "zod";
-import { EbbflowError, fail, issueText } from "../errors/index.js";
+import { EbbflowError, fail, issueText, type Issue } from "../errors/index.js";
 import { allocate, type FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
 import { Settler, Snapshot } from "../network/settle.js";
@@ -14,7 +14,7 @@ import { issuesFromZod } from "../network/spec.js";
 import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
 import { builtinRegistry, type AnyRuleDescriptor, type LearningRule, type Registry, type RuleConfigInput, type RuleState } from "../rules/index.js";
 import { createForwardPass, forwardOrder, runForward, type ForwardPass } from "../rules/feedforward.js";
-import type { Dataset } from "./data/index.js";
+import type { Dataset } from "./data/dataset.js";
 import { accumulateMetrics, MetricSums, type Metrics } from "./metrics.js";
 import { lossNameSchema } from "./loss.js";
 import { Optimizer, optimizerSchema, type OptimizerState } from "./optimizer.js";
@@ -108,6 +108,98 @@ export interface TrainerHooks {
   readonly onBatch?: ((info: { epoch: number; batch: number; batches: number; size: number }) => void) | undefined;
 }
 
+/** Where one network layer's values sit in a data set's rows. */
+interface Slot {
+  readonly name: string;
+  readonly index: number;
+  readonly size: number;
+  /** Offset of the layer's block in a row. */
+  readonly offset: number;
+}
+
+/** How a data set's rows map to the network's input and output layers. */
+interface DataLayout {
+  readonly inputs: readonly Slot[];
+  readonly outputs: readonly Slot[];
+}
+
+/**
+ * Maps a data set's blocks (or its whole rows, for a network with one input and one output layer) to the
+ * network's layers by name; problems are added to `problems` with paths under `data.<what>`.
+ */
+function dataLayout(net: Network, ds: Dataset, what: string, problems: Issue[]): DataLayout | null {
+  const side = (role: "input" | "output"): Slot[] | null => {
+    const layers = role === "input" ? net.inputLayers : net.outputLayers;
+    const key = role === "input" ? "inputs" : "targets";
+    const width = role === "input" ? ds.inputSize : ds.targetSize;
+    const given = role === "input" ? ds.inputLayers : ds.targetLayers;
+    const names = layers.map((l) => JSON.stringify(l.name)).join(", ");
+    if (given === undefined) {
+      const only = layers[0];
+      if (layers.length !== 1 || only === undefined) {
+        problems.push(issueText("shape_mismatch", `data.${what}.${key}`, `values for each of the network's ${layers.length} ${role} layers (${names}): a data set with ${role === "input" ? "inputLayers" : "targetLayers"} (see createLayeredDataset)`, `one block of ${width} values per example`));
+        return null;
+      }
+      if (width !== only.size) {
+        problems.push(issueText("shape_mismatch", `data.${what}.${key}`, `${only.size} values per example (layer ${JSON.stringify(only.name)})`, `${width}`));
+        return null;
+      }
+      return [{ name: only.name, index: only.index, size: only.size, offset: 0 }];
+    }
+    const slots: Slot[] = [];
+    let offset = 0;
+    let ok = true;
+    for (const b of given) {
+      const l = layers.find((x) => x.name === b.layer);
+      if (l === undefined) {
+        problems.push(issueText("unknown_name", `data.${what}.${key}.${b.layer}`, `one of the network's ${role} layers (${names})`, JSON.stringify(b.layer)));
+        ok = false;
+      } else if (l.size !== b.size) {
+        problems.push(issueText("shape_mismatch", `data.${what}.${key}.${b.layer}`, `${l.size} values per example (the layer's size)`, `${b.size}`));
+        ok = false;
+      } else slots.push({ name: l.name, index: l.index, size: l.size, offset });
+      offset += b.size;
+    }
+    for (const l of layers) {
+      if (!given.some((b) => b.layer === l.name)) {
+        problems.push(issueText("shape_mismatch", `data.${what}.${key}.${l.name}`, `values for the ${role} layer ${JSON.stringify(l.name)}`, "missing"));
+        ok = false;
+      }
+    }
+    return ok ? slots : null;
+  };
+  const inputs = side("input");
+  const outputs = side("output");
+  return inputs === null || outputs === null ? null : { inputs, outputs };
+}
+
+/**
+ * The first `count` examples of a data set as a batch by layer name: each input and output layer's
+ * block of the rows (the whole rows for a network with one input and one output layer). Targets not
+ * observed stay NaN rows.
+ * @throws {@link EbbflowError} `shape_mismatch` / `unknown_name` (paths under `data.<what>`) when the data set's layers do not match the network's.
+ * @category Training
+ */
+export function datasetBatch(net: Network, ds: Dataset, count = ds.size, what = "train"): { inputs: Record<string, Float64Array>; targets: Record<string, Float64Array> } {
+  const problems: Issue[] = [];
+  const layout = dataLayout(net, ds, what, problems);
+  if (layout === null) throw new EbbflowError(problems);
+  const n = Math.max(0, Math.min(count, ds.size));
+  const inputs: Record<string, Float64Array> = {};
+  const targets: Record<string, Float64Array> = {};
+  for (const s of layout.inputs) gatherBlock(ds.inputs, ds.inputSize, s, null, 0, n, (inputs[s.name] = new Float64Array(n * s.size)));
+  for (const s of layout.outputs) gatherBlock(ds.targets, ds.targetSize, s, null, 0, n, (targets[s.name] = new Float64Array(n * s.size)));
+  return { inputs, targets };
+}
+
+/** Copies one layer's block of rows `from .. from+B` (or of the rows `idx[from ..]`) into `out` (B×size). */
+function gatherBlock(all: Float64Array, width: number, slot: Slot, idx: Int32Array | null, from: number, B: number, out: Float64Array): void {
+  for (let p = 0; p < B; p++) {
+    const e = idx === null ? from + p : (idx[from + p] as number);
+    out.set(all.subarray(e * width + slot.offset, e * width + slot.offset + slot.size), p * slot.size);
+  }
+}
+
 /** Is `x` a rule instance (rather than a config)? */
 function isRuleInstance(x: unknown): x is LearningRule {
   return typeof x === "object" && x !== null && typeof (x as LearningRule).computeDelta === "function" && typeof (x as LearningRule).step === "function";
@@ -152,9 +244,10 @@ export class Trainer {
   private readonly seed: number | string;
   private best: number | null = null;
   private sinceBest = 0;
-  private readonly inputName: string;
-  private readonly outputName: string;
-  private readonly outputIndex: number;
+  /** Where each input and output layer's values sit in the training set's rows. */
+  private readonly layout: DataLayout;
+  /** Layouts of the data sets evaluated. */
+  private readonly layouts = new WeakMap<Dataset, DataLayout>();
   private readonly order: number[];
   private readonly persistent: (FloatArray | null)[] | null;
   private readonly forward: boolean;
@@ -181,22 +274,18 @@ export class Trainer {
     this.train = train;
     this.test = extras.test;
     this.hooks = extras.hooks ?? {};
-    const inputs = net.inputLayers;
-    const outputs = net.outputLayers;
-    if (inputs.length !== 1 || outputs.length !== 1) fail("unsupported", "layers", "exactly one input and one output layer for training from a data set", `${inputs.length} input and ${outputs.length} output layers`);
-    const input = inputs[0]!;
-    const output = outputs[0]!;
-    this.inputName = input.name;
-    this.outputName = output.name;
-    this.outputIndex = output.index;
-    const problems = [];
+    // data by layer name: each input and output layer's block of the rows (the whole rows for one of each)
+    const problems: Issue[] = [];
+    let layout: DataLayout | null = null;
     for (const [ds, what] of [[train, "train"], [extras.test, "test"]] as const) {
       if (ds === undefined) continue;
       if (ds.size === 0) problems.push(issueText("shape_mismatch", `data.${what}`, "at least one example", "an empty data set"));
-      if (ds.inputSize !== input.size) problems.push(issueText("shape_mismatch", `data.${what}.inputs`, `${input.size} values per example (layer ${JSON.stringify(input.name)})`, `${ds.inputSize}`));
-      if (ds.targetSize !== output.size) problems.push(issueText("shape_mismatch", `data.${what}.targets`, `${output.size} values per example (layer ${JSON.stringify(output.name)})`, `${ds.targetSize}`));
+      const l = dataLayout(net, ds, what, problems);
+      if (l !== null) this.layouts.set(ds, l);
+      if (what === "train") layout = l;
     }
-    if (problems.length > 0) throw new EbbflowError(problems);
+    if (problems.length > 0 || layout === null) throw new EbbflowError(problems);
+    this.layout = layout;
     if (this.options.earlyStopping?.split === "test" && this.test === undefined) fail("invalid_config", "training.earlyStopping.split", '"train" (no test set was given)', "test");
     this.seed = extras.seed ?? net.spec.seed;
     this.shuffleStream = createRandom(this.seed).child("train/shuffle");
@@ -212,17 +301,43 @@ export class Trainer {
     return this.descriptor?.label(this.rule.config) ?? this.rule.config.rule;
   }
 
-  /** Evaluates the network (free phase, or the feedforward pass) on a data set. */
+  /** The layout of a data set evaluated (checked once per set). */
+  private layoutOf(ds: Dataset): DataLayout {
+    let l = this.layouts.get(ds);
+    if (l === undefined) {
+      const problems: Issue[] = [];
+      l = dataLayout(this.net, ds, "evaluated", problems) ?? undefined;
+      if (l === undefined) throw new EbbflowError(problems);
+      this.layouts.set(ds, l);
+    }
+    return l;
+  }
+
+  /**
+   * Evaluates the network (free phase, or the feedforward pass) on a data set: the metrics over every
+   * observed read-out, and per output layer when the network has several (`layers`).
+   */
   evaluate(ds: Dataset): Metrics {
     // random tie-breaking draws from a stream fixed by the seed, the data set's name and the epoch (no state to save)
     const ties = this.options.ties === "random" ? createRandom(this.seed).child(`train/ties/${ds.name}/${this.epoch}`) : null;
-    const sums = new MetricSums(this.options.loss, this.options.ties, ties === null ? null : () => ties.uniform());
+    const layout = this.layoutOf(ds);
+    const perLayer = layout.outputs.map(() => new MetricSums(this.options.loss, this.options.ties, ties === null ? null : () => ties.uniform()));
     const chunk = Math.min(256, ds.size);
-    const k = ds.targetSize;
+    // one block per layer is a view of the rows; several are copied out per chunk
+    const whole = (slots: readonly Slot[], width: number) => slots.length === 1 && slots[0]!.size === width;
+    const inBufs = whole(layout.inputs, ds.inputSize) ? null : layout.inputs.map((s) => new Float64Array(chunk * s.size));
+    const tBufs = whole(layout.outputs, ds.targetSize) ? null : layout.outputs.map((s) => new Float64Array(chunk * s.size));
     for (let start = 0; start < ds.size; start += chunk) {
       const B = Math.min(chunk, ds.size - start);
-      const inputs = { [this.inputName]: ds.inputs.subarray(start * ds.inputSize, (start + B) * ds.inputSize) };
-      let y: FloatArray;
+      const inputs: Record<string, Float64Array> = {};
+      layout.inputs.forEach((s, i) => {
+        if (inBufs === null) inputs[s.name] = ds.inputs.subarray(start * ds.inputSize, (start + B) * ds.inputSize);
+        else {
+          gatherBlock(ds.inputs, ds.inputSize, s, null, start, B, inBufs[i]!);
+          inputs[s.name] = inBufs[i]!.subarray(0, B * s.size);
+        }
+      });
+      let activity: readonly FloatArray[];
       if (this.forward) {
         let pass = this.evalPasses.get(B);
         if (pass === undefined) {
@@ -230,28 +345,40 @@ export class Trainer {
           this.evalPasses.set(B, pass);
         }
         runForward(this.net, this.order, { inputs, targets: {} }, pass);
-        y = pass.activity[this.outputIndex] as FloatArray;
+        activity = pass.activity;
       } else {
         let s = this.evalSettlers.get(B);
         if (s === undefined) {
           s = new Settler(this.net, B);
           this.evalSettlers.set(B, s);
         }
-        y = s.settle({ phase: "free", inputs }).activity[this.outputIndex] as FloatArray;
+        activity = s.settle({ phase: "free", inputs }).activity;
       }
-      accumulateMetrics(sums, y, ds.targets.subarray(start * k, (start + B) * k), B, k);
+      layout.outputs.forEach((s, i) => {
+        let t: Float64Array;
+        if (tBufs === null) t = ds.targets.subarray(start * ds.targetSize, (start + B) * ds.targetSize);
+        else {
+          gatherBlock(ds.targets, ds.targetSize, s, null, start, B, tBufs[i]!);
+          t = tBufs[i]!.subarray(0, B * s.size);
+        }
+        accumulateMetrics(perLayer[i]!, activity[s.index] as FloatArray, t, B, s.size);
+      });
     }
-    return sums.result();
+    if (perLayer.length === 1) return perLayer[0]!.result();
+    const overall = new MetricSums(this.options.loss, this.options.ties, null);
+    const layers: Record<string, Metrics> = {};
+    layout.outputs.forEach((s, i) => {
+      overall.add(perLayer[i]!);
+      layers[s.name] = perLayer[i]!.result();
+    });
+    return { ...overall.result(), layers };
   }
 
-  /** Gathers a mini-batch's examples (rows `idx`) into flat arrays. */
-  private gather(idx: Int32Array, from: number, B: number, inBuf: Float64Array, tBuf: Float64Array): void {
+  /** Gathers a mini-batch's examples (rows `idx`) into one flat array per layer. */
+  private gather(idx: Int32Array, from: number, B: number, inBufs: readonly Float64Array[], tBufs: readonly Float64Array[]): void {
     const ds = this.train;
-    for (let p = 0; p < B; p++) {
-      const e = idx[from + p] as number;
-      inBuf.set(ds.inputs.subarray(e * ds.inputSize, (e + 1) * ds.inputSize), p * ds.inputSize);
-      tBuf.set(ds.targets.subarray(e * ds.targetSize, (e + 1) * ds.targetSize), p * ds.targetSize);
-    }
+    this.layout.inputs.forEach((s, i) => gatherBlock(ds.inputs, ds.inputSize, s, idx, from, B, inBufs[i]!));
+    this.layout.outputs.forEach((s, i) => gatherBlock(ds.targets, ds.targetSize, s, idx, from, B, tBufs[i]!));
   }
 
   private persistentStart(idx: Int32Array, from: number, B: number): Snapshot {
@@ -296,13 +423,17 @@ export class Trainer {
     const factor = scheduleFactor(this.options.schedule, epoch);
     const bs = Math.min(this.options.batchSize, n);
     const batches = Math.ceil(n / bs);
-    const inBuf = new Float64Array(bs * ds.inputSize);
-    const tBuf = new Float64Array(bs * ds.targetSize);
+    const inBufs = this.layout.inputs.map((s) => new Float64Array(bs * s.size));
+    const tBufs = this.layout.outputs.map((s) => new Float64Array(bs * s.size));
     for (let b = 0; b < batches; b++) {
       const from = b * bs;
       const B = Math.min(bs, n - from);
-      this.gather(idx, from, B, inBuf, tBuf);
-      const batch = { inputs: { [this.inputName]: inBuf.subarray(0, B * ds.inputSize) }, targets: { [this.outputName]: tBuf.subarray(0, B * ds.targetSize) } };
+      this.gather(idx, from, B, inBufs, tBufs);
+      const inputs: Record<string, Float64Array> = {};
+      const targets: Record<string, Float64Array> = {};
+      this.layout.inputs.forEach((s, i) => (inputs[s.name] = inBufs[i]!.subarray(0, B * s.size)));
+      this.layout.outputs.forEach((s, i) => (targets[s.name] = tBufs[i]!.subarray(0, B * s.size)));
+      const batch = { inputs, targets };
       this.rule.freeStart = this.persistent ? this.persistentStart(idx, from, B) : null;
       if (this.optimizer === null) this.rule.step(batch, factor);
       else {

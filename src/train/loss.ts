@@ -62,6 +62,23 @@ export function requireObjective(path: string, value: unknown): Objective {
 
 const EPS = 1e-12;
 
+/**
+ * Whether the target row `t[off .. off+n)` of one pattern is observed: true when it holds no NaN, false
+ * when every value is NaN (the pattern's targets of that layer are not observed: it takes no loss and no
+ * gradient). Rows are all-or-nothing: a row mixing NaN with numbers is refused.
+ * @throws {@link EbbflowError} `shape_mismatch` naming `path` (and the pattern) for a partly-NaN row.
+ * @category Training
+ */
+export function targetRowObserved(t: ArrayLike<number>, off: number, n: number, path = "targets"): boolean {
+  const first = Number.isNaN(t[off] as number);
+  for (let k = 1; k < n; k++) {
+    if (Number.isNaN(t[off + k] as number) !== first) {
+      fail("shape_mismatch", `${path}[${off + k}]`, "a target row that is all numbers (observed) or all NaN (not observed)", `a row mixing NaN and numbers`, `values ${off} to ${off + n - 1}`);
+    }
+  }
+  return !first;
+}
+
 /** softmax of `v[off .. off+n)` into `out[off ..)`, shifted by the maximum for stability; returns ln Σ exp(v − max) + max. */
 export function softmaxInto(v: ArrayLike<number>, off: number, n: number, out: { [k: number]: number }): number {
   let m = Number.NEGATIVE_INFINITY;
@@ -77,11 +94,13 @@ export function softmaxInto(v: ArrayLike<number>, off: number, n: number, out: {
 }
 
 /**
- * The loss of one pattern, the values `v[off .. off+n)` against `t[off ..)` (without any factor).
+ * The loss of one pattern, the values `v[off .. off+n)` against `t[off ..)` (without any factor); 0 for a
+ * target row of NaN (not observed, see {@link targetRowObserved}).
  * @category Training
  */
 export function patternLoss(loss: LossName, v: ArrayLike<number>, t: ArrayLike<number>, off: number, n: number): number {
   let j = 0;
+  if (!targetRowObserved(t, off, n)) return 0;
   if (loss === "squared-error") {
     for (let k = 0; k < n; k++) j += 0.5 * ((v[off + k] as number) - (t[off + k] as number)) ** 2;
   } else if (loss === "binary-cross-entropy") {
@@ -105,10 +124,15 @@ export function patternLoss(loss: LossName, v: ArrayLike<number>, t: ArrayLike<n
 /**
  * The derivative of {@link patternLoss} with respect to the values, written to `out[off .. off+n)`:
  * `v − t` (squared error); `(v − t) / (v (1 − v))` with v clipped as in the loss (binary cross-entropy);
- * `p Σt − t`, the softmax's exact Jacobian `diag(p) − p pᵀ` applied to `−t/p` (softmax cross-entropy).
+ * `p Σt − t`, the softmax's exact Jacobian `diag(p) − p pᵀ` applied to `−t/p` (softmax cross-entropy);
+ * zeros for a target row of NaN (not observed).
  * @category Training
  */
 export function patternLossGradient(loss: LossName, v: ArrayLike<number>, t: ArrayLike<number>, off: number, n: number, out: { [k: number]: number }): void {
+  if (!targetRowObserved(t, off, n)) {
+    for (let k = 0; k < n; k++) out[off + k] = 0;
+    return;
+  }
   if (loss === "squared-error") {
     for (let k = 0; k < n; k++) out[off + k] = (v[off + k] as number) - (t[off + k] as number);
   } else if (loss === "binary-cross-entropy") {

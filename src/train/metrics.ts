@@ -3,10 +3,15 @@
  * @module
  */
 import type { FloatArray } from "../types/index.js";
-import { patternLoss, requireLoss, type LossName } from "./loss.js";
+import { patternLoss, requireLoss, targetRowObserved, type LossName } from "./loss.js";
 import { fail } from "../errors/index.js";
 
-/** Metrics of one evaluation. @category Training */
+/**
+ * Metrics of one evaluation. Each observed read-out (an example's output layer whose targets are not
+ * NaN) counts once: with one output layer a read-out is an example; with several, the overall metrics
+ * pool the read-outs of every output layer and `layers` holds each layer's own.
+ * @category Training
+ */
 export type Metrics = {
   /** Sum over examples and output units of (y − t)². */
   readonly sse: number;
@@ -22,8 +27,10 @@ export type Metrics = {
   readonly cosine: number;
   /** Examples whose largest output was shared by two or more units (scored by the tie policy, see {@link TiePolicy}). */
   readonly ties: number;
-  /** Number of examples. */
+  /** Number of observed read-outs (examples, with one output layer and every target observed). */
   readonly examples: number;
+  /** Per output layer, when the network has more than one: the same metrics over that layer's observed read-outs. */
+  readonly layers?: Readonly<Record<string, Metrics>> | undefined;
 };
 
 /**
@@ -63,6 +70,19 @@ export class MetricSums {
     this.uniform = uniform;
   }
 
+  /** Adds another set of sums (of the same loss) into these: pooling read-outs of several output layers. */
+  add(other: MetricSums): this {
+    this.sse += other.sse;
+    this.loss += other.loss;
+    this.binaryCrossEntropy += other.binaryCrossEntropy;
+    this.softmaxCrossEntropy += other.softmaxCrossEntropy;
+    this.correct += other.correct;
+    this.cosine += other.cosine;
+    this.ties += other.ties;
+    this.examples += other.examples;
+    return this;
+  }
+
   /** The averaged metrics. */
   result(): Metrics {
     const n = Math.max(1, this.examples);
@@ -84,11 +104,13 @@ export class MetricSums {
  * Readout (common practice): with one output unit, the class is `y > 0.5` against `t > 0.5`; with
  * several, the arg-max of the outputs against the arg-max of the targets. When the largest output is
  * shared by two or more units (saturated outputs tie), the example counts as a tie and is scored by the
- * sums' tie policy ({@link TiePolicy}; by default as wrong).
+ * sums' tie policy ({@link TiePolicy}; by default as wrong). A pattern whose target row is NaN (not
+ * observed) is skipped.
  * @category Training
  */
 export function accumulateMetrics(sums: MetricSums, y: FloatArray, t: ArrayLike<number>, batch: number, k: number): void {
   for (let p = 0; p < batch; p++) {
+    if (!targetRowObserved(t, p * k, k)) continue;
     let sse = 0;
     let yy = 0;
     let tt = 0;

@@ -14,6 +14,7 @@ import { feedforwardGradient } from "../rules/feedforward.js";
 import { finiteDifferenceGradient, parameterArrays, recurrentGradient, settleFree, type VerifySettling } from "./gradient.js";
 import { phaseReports, type PhaseReport } from "./phases.js";
 import { batchSizeOf } from "../rules/base.js";
+import { flatBatch, type BatchInput } from "../interop/ndarray.js";
 import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
 import { requireLoss, type LossName, type Objective } from "../train/loss.js";
 
@@ -102,6 +103,7 @@ const AGREEMENT_OPTIONS = ["reference", "registry", "tolerance", "maxSteps", "lo
 /**
  * Compares a rule's update on `batch` with the exact negative gradient of the loss (`options.loss`,
  * default the squared error; see {@link AgreementOptions.loss}) at the free fixed point, per connection (and per learned feedback matrix and bias), and overall.
+ * Targets not observed (NaN rows, or `observed`) take no loss: the reference is the gradient of the loss over the observed entries.
  * The network is not changed. Rules whose rate differs per connection are divided by that rate.
  * `rule` is a config (looked up in `options.registry`) or a rule instance bound to `net`.
  * @throws {@link EbbflowError} `invalid_parameter` for an option it does not know.
@@ -112,7 +114,9 @@ const AGREEMENT_OPTIONS = ["reference", "registry", "tolerance", "maxSteps", "lo
  * console.log(formatAgreement(report));
  * ```
  */
-export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>> | LearningRule, batch: Batch, options: AgreementOptions = {}): AgreementReport {
+export function gradientAgreement(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>> | LearningRule, given: Batch | BatchInput, options: AgreementOptions = {}): AgreementReport {
+  // ndarray-like values read flat; an `observed` mask written into the targets as NaN rows
+  const batch: Batch = flatBatch(net, given);
   for (const key of Object.keys(options)) if (!AGREEMENT_OPTIONS.includes(key)) fail("invalid_parameter", `options.${key}`, `one of the options ${AGREEMENT_OPTIONS.join(", ")}`, key);
   const reference = options.reference ?? "recurrent";
   if (!(["recurrent", "finite-difference", "feedforward"] as unknown[]).includes(reference)) fail("invalid_parameter", "options.reference", "recurrent, finite-difference or feedforward", reference);

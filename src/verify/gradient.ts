@@ -10,6 +10,7 @@ import { maskTransposed, parameterGradient, parameterPositions } from "../networ
 import { Settler, type Snapshot, type LayerValues } from "../network/settle.js";
 import { ParameterDelta } from "../rules/delta.js";
 import { batchSizeOf, type Batch } from "../rules/base.js";
+import { flatBatch, type BatchInput } from "../interop/ndarray.js";
 import { solveInPlace } from "./linalg.js";
 import { refuseUnknownOptions } from "../errors/options.js";
 import { batchLoss, DEFAULT_OBJECTIVE, patternLossGradient, requireObjective, type LossName, type Objective } from "../train/loss.js";
@@ -42,7 +43,8 @@ export function objectiveOf(opts: { readonly loss?: LossName | Objective | undef
  * The loss ebbflow verifies against: `J = (1/B) Σ_b factor · L(v_b, t_b)` over the output layers at the
  * free fixed point, v the output activity (rate dynamics) or, under energy dynamics, the output state u
  * (`on: "state"`, the default: the quantity the default nudging cost acts on) or the rate ρ(u)
- * (`on: "rate"`). Default: `L = ½‖v − t‖²`.
+ * (`on: "rate"`). Default: `L = ½‖v − t‖²`. A pattern's target row of NaN (not observed) adds nothing: with
+ * a mask, J is the sum over the observed entries (still divided by the batch size B).
  * @category Verification
  */
 export function freeLoss(net: Network, free: Snapshot, targets: LayerValues, objective: Objective = DEFAULT_OBJECTIVE): number {
@@ -84,8 +86,9 @@ function curvature(slope: (x: number) => number, x: number): number {
  *   `divergence` if settling does not converge or the fixed point is not stable.
  * @category Verification
  */
-export function recurrentGradient(net: Network, batch: Batch, opts: VerifyOptions = {}, out?: ParameterDelta): ParameterDelta {
+export function recurrentGradient(net: Network, given: Batch | BatchInput, opts: VerifyOptions = {}, out?: ParameterDelta): ParameterDelta {
   refuseUnknownOptions(opts, VERIFY_OPTIONS);
+  const batch: Batch = flatBatch(net, given);
   const objective = objectiveOf(opts);
   for (const l of net.layers) if (l.inhibition.kind === "kwta") fail("unsupported", `layers[${l.index}].inhibition`, "no k-winners-take-all (its inhibition is not differentiable)", "kwta");
   const B = batchSizeOf(net, batch);
@@ -256,8 +259,9 @@ export function parameterArrays(net: Network, d: ParameterDelta): { name: string
  * The network is restored exactly afterwards.
  * @category Verification
  */
-export function finiteDifferenceGradient(net: Network, batch: Batch, opts: VerifyOptions & { readonly step?: number | undefined } = {}, out?: ParameterDelta): ParameterDelta {
+export function finiteDifferenceGradient(net: Network, given: Batch | BatchInput, opts: VerifyOptions & { readonly step?: number | undefined } = {}, out?: ParameterDelta): ParameterDelta {
   refuseUnknownOptions(opts, [...VERIFY_OPTIONS, "step"]);
+  const batch: Batch = flatBatch(net, given);
   const objective = objectiveOf(opts);
   const h = opts.step ?? 1e-6;
   const B = batchSizeOf(net, batch);

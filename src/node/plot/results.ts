@@ -18,7 +18,8 @@ import { EbbflowError, fail, issueText, describeValue, type Issue } from "../../
 /**
  * Metrics measured on one split in one epoch. The four named keys are the
  * ones the training loop reports; any key may be missing and further keys are
- * allowed. Every present value is a finite number.
+ * allowed. Every present value is a finite number. Per-layer metrics (a network with several output
+ * layers) are read as the keys `layers.<layer>.<metric>`.
  * @category Plots
  */
 export interface ResultsMetrics {
@@ -68,6 +69,20 @@ export interface ResultsEpochLine {
   readonly train?: ResultsMetrics | undefined;
   /** Metrics on the test split, when measured this epoch. */
   readonly test?: ResultsMetrics | undefined;
+}
+
+/**
+ * Metrics as a results file reader gives them, from the metrics of an evaluation (per-layer metrics as `layers.<layer>.<metric>`).
+ * @category Plots
+ */
+export function resultsMetrics(m: { readonly [name: string]: unknown } | undefined): ResultsMetrics | undefined {
+  if (m === undefined) return undefined;
+  const out: Record<string, number> = {};
+  for (const [k, v] of Object.entries(m)) {
+    if (typeof v === "number") out[k] = v;
+    else if (k === "layers" && isObject(v)) for (const [layer, inner] of Object.entries(v)) for (const [name, x] of Object.entries(resultsMetrics(inner as Record<string, unknown>) ?? {})) out[`layers.${layer}.${name}`] = x as number;
+  }
+  return out;
 }
 
 /** Why a run stopped. @category Plots */
@@ -153,6 +168,15 @@ function readMetrics(line: LineIssues, value: unknown, split: "train" | "test"):
   const out: Record<string, number> = {};
   let ok = true;
   for (const [name, v] of Object.entries(value)) {
+    if (name === "layers" && isObject(v)) {
+      // per output layer metrics, read as the keys `layers.<layer>.<metric>`
+      for (const [layer, m] of Object.entries(v)) {
+        const inner = isObject(m) ? readMetrics(line, m, `${split}.layers.${layer}` as "train") : (line.add(`${split}.layers.${layer}`, "an object of metrics (name: finite number)", m), undefined);
+        if (inner === undefined) ok = false;
+        else for (const [k, x] of Object.entries(inner)) out[`layers.${layer}.${k}`] = x as number;
+      }
+      continue;
+    }
     const [lo, hi, expected] = metricRange(name);
     if (!isFiniteNumber(v) || v < lo || v > hi) {
       line.add(`${split}.${name}`, expected, v);

@@ -81,6 +81,8 @@ export async function executeRun(task: RunTask): Promise<RunReport> {
       testFraction: config.data.testFraction,
       seed,
       targetColumns: config.data.targetColumns,
+      targetLayers: config.data.targetLayers,
+      inputLayers: config.data.inputLayers,
       oneHot: config.data.oneHot,
       scale: config.data.scale,
       split: config.data.split === undefined ? undefined : resolveSplitPaths(config.data.split, task.baseDir),

@@ -9,7 +9,7 @@
  */
 import { refuseUnknownOptions } from "../../errors/options.js";
 import { fail } from "../../errors/index.js";
-import { makeDataset, type Dataset } from "./dataset.js";
+import { checkUnobservedRows, makeDataset, type Dataset } from "./dataset.js";
 import { requireBytes } from "../../limits/index.js";
 import { IssueList, describeCell, parseDecimal } from "./issues.js";
 
@@ -24,7 +24,18 @@ export interface CsvDatasetOptions {
    * Target columns: indices counted from 0 (negative counts from the end, `-1` = last column)
    * or header names. Every other column, except `ignoreColumns`, is an input.
    */
-  readonly targetColumns: readonly (number | string)[];
+  readonly targetColumns?: readonly (number | string)[] | undefined;
+  /**
+   * Column groups of the output layers instead of `targetColumns`: layer name → its columns (indices or
+   * header names), in the layer's unit order. An example whose cells of one group are all empty has that
+   * layer not observed (NaN targets: partial clamping); a group partly empty is an error.
+   */
+  readonly targetLayers?: Readonly<Record<string, readonly (number | string)[]>> | undefined;
+  /**
+   * Column groups of the input layers: layer name → its columns. With it, every column must belong to an
+   * input group, a target column or `ignoreColumns`. Default: every other column is one input block.
+   */
+  readonly inputLayers?: Readonly<Record<string, readonly (number | string)[]>> | undefined;
   /** Whether the first non-blank record is a header of column names. Default: true when any of `targetColumns` or `ignoreColumns` is a name, else false. */
   readonly header?: boolean | undefined;
   /**
@@ -187,9 +198,17 @@ function resolveColumns(
 /** Checks the options that do not depend on the text. */
 function checkOptions(options: CsvDatasetOptions): { delimiter: number; header: boolean; oneHot: boolean } {
   if (typeof options !== "object" || options === null) fail("invalid_parameter", "options", "an options object with source and targetColumns", options);
-  refuseUnknownOptions(options, ["source", "targetColumns", "header", "oneHot", "classNames", "ignoreColumns", "delimiter", "name"]);
+  refuseUnknownOptions(options, ["source", "targetColumns", "targetLayers", "inputLayers", "header", "oneHot", "classNames", "ignoreColumns", "delimiter", "name"]);
   if (typeof options.source !== "string" || options.source === "") fail("invalid_parameter", "source", "a non-empty string (a file name)", options.source);
-  if (!Array.isArray(options.targetColumns) || options.targetColumns.length === 0) {
+  for (const key of ["targetLayers", "inputLayers"] as const) {
+    const g: unknown = options[key];
+    if (g === undefined) continue;
+    if (g === null || typeof g !== "object" || Array.isArray(g) || Object.keys(g).length === 0) fail("invalid_parameter", key, "an object mapping layer names to their columns", g);
+    for (const [layer, cols] of Object.entries(g)) if (!Array.isArray(cols) || cols.length === 0) fail("invalid_parameter", `${key}.${layer}`, "a non-empty array of column indices or header names", cols);
+  }
+  if (options.targetLayers !== undefined && options.targetColumns !== undefined) fail("invalid_parameter", "targetLayers", "either targetColumns or targetLayers, not both", "both");
+  if (options.targetLayers !== undefined && options.oneHot === true) fail("invalid_parameter", "oneHot", "false with targetLayers (targets per layer are numbers)", true);
+  if (options.targetLayers === undefined && (!Array.isArray(options.targetColumns) || options.targetColumns.length === 0)) {
     fail("invalid_parameter", "targetColumns", "a non-empty array of column indices or header names", options.targetColumns);
   }
   const d = options.delimiter ?? ",";
@@ -197,12 +216,13 @@ function checkOptions(options: CsvDatasetOptions): { delimiter: number; header: 
     fail("invalid_parameter", "delimiter", 'one character other than a quote, CR or LF', d);
   }
   const named = (refs: readonly unknown[] | undefined): boolean => Array.isArray(refs) && refs.some((r) => typeof r === "string");
-  const header = options.header ?? (named(options.targetColumns) || named(options.ignoreColumns));
+  const groups = (g: Readonly<Record<string, readonly unknown[]>> | undefined): unknown[] => Object.values(g ?? {}).flat();
+  const header = options.header ?? (named(options.targetColumns) || named(options.ignoreColumns) || named(groups(options.targetLayers)) || named(groups(options.inputLayers)));
   if (typeof header !== "boolean") fail("invalid_parameter", "header", "true or false", header);
   const oneHotFlag = options.oneHot ?? false;
   if (typeof oneHotFlag !== "boolean") fail("invalid_parameter", "oneHot", "true or false", oneHotFlag);
-  if (oneHotFlag && options.targetColumns.length !== 1) {
-    fail("invalid_parameter", "targetColumns", "exactly one column when oneHot is true", `${options.targetColumns.length} columns`);
+  if (oneHotFlag && options.targetColumns?.length !== 1) {
+    fail("invalid_parameter", "targetColumns", "exactly one column when oneHot is true", `${options.targetColumns?.length ?? 0} columns`);
   }
   if (options.classNames !== undefined) {
     if (!oneHotFlag) fail("invalid_parameter", "classNames", "to be given only with oneHot: true", options.classNames);
@@ -278,10 +298,32 @@ export function parseCsvDataset(text: string, options: CsvDatasetOptions): Datas
   const fixedClasses = options.classNames !== undefined;
   let dataRows = 0;
 
+  // column groups per layer (name, columns), when given
+  let targetBlocks: { layer: string; size: number }[] | undefined;
+  let inputBlocks: { layer: string; size: number }[] | undefined;
+  const targetColumnSet = new Set<number>();
   const setup = (fields: string[]): void => {
     width = fields.length;
     if (header) headerNames = fields.map((f) => f.trim());
-    targetCols = resolveColumns(options.targetColumns, "targetColumns", width, headerNames);
+    const resolveGroups = (g: Readonly<Record<string, readonly (number | string)[]>>, key: string): { cols: number[]; blocks: { layer: string; size: number }[] } => {
+      const cols: number[] = [];
+      const blocks: { layer: string; size: number }[] = [];
+      for (const [layer, refs] of Object.entries(g)) {
+        const c = resolveColumns(refs, `${key}.${layer}`, width, headerNames);
+        c.forEach((x, k) => {
+          if (cols.includes(x)) fail("invalid_parameter", `${key}.${layer}[${k}]`, "a column not listed for another layer", refs[k]);
+        });
+        cols.push(...c);
+        blocks.push({ layer, size: c.length });
+      }
+      return { cols, blocks };
+    };
+    if (options.targetLayers !== undefined) {
+      const t = resolveGroups(options.targetLayers, "targetLayers");
+      targetCols = t.cols;
+      targetBlocks = t.blocks;
+      for (const c of targetCols) targetColumnSet.add(c);
+    } else targetCols = resolveColumns(options.targetColumns as readonly (number | string)[], "targetColumns", width, headerNames);
     const ignored = options.ignoreColumns === undefined ? [] : resolveColumns(options.ignoreColumns, "ignoreColumns", width, headerNames);
     roles = new Uint8Array(width);
     for (const c of targetCols) roles[c] = TARGET;
@@ -290,7 +332,17 @@ export function parseCsvDataset(text: string, options: CsvDatasetOptions): Datas
       roles[c] = IGNORED;
     });
     inputCols = [];
-    for (let c = 0; c < width; c++) if (roles[c] === INPUT) inputCols.push(c);
+    if (options.inputLayers !== undefined) {
+      const g = resolveGroups(options.inputLayers, "inputLayers");
+      g.cols.forEach((c) => {
+        if (roles[c] !== INPUT) fail("invalid_parameter", "inputLayers", "input columns that are neither target nor ignored columns", headerNames?.[c] ?? c);
+      });
+      for (let c = 0; c < width; c++) {
+        if (roles[c] === INPUT && !g.cols.includes(c)) fail("invalid_parameter", "inputLayers", "every column in an input layer, a target layer or ignoreColumns", headerNames?.[c] ?? c, `column ${c + 1} belongs to none`);
+      }
+      inputCols = g.cols;
+      inputBlocks = g.blocks;
+    } else for (let c = 0; c < width; c++) if (roles[c] === INPUT) inputCols.push(c);
     if (inputCols.length === 0) fail("invalid_parameter", "targetColumns", "to leave at least one input column", `no input column among ${width} columns`);
   };
 
@@ -299,6 +351,11 @@ export function parseCsvDataset(text: string, options: CsvDatasetOptions): Datas
 
   const readNumber = (fields: string[], row: number, col: number, out: number[]): boolean => {
     const cell = fields[col] as string;
+    if (targetColumnSet.has(col) && cell.trim() === "") {
+      // an empty target cell of a layer group: not observed (whole groups are checked after reading)
+      out.push(Number.NaN);
+      return true;
+    }
     const v = parseDecimal(cell);
     if (Number.isNaN(v)) {
       out.push(0);
@@ -340,7 +397,20 @@ export function parseCsvDataset(text: string, options: CsvDatasetOptions): Datas
       }
       labels.push(index);
     } else {
+      const from = targets.length;
       for (const c of targetCols) if (!readNumber(fields, row, c, targets)) return false;
+      // a layer's group of target cells is all empty (not observed) or all numbers
+      let off = from;
+      for (const b of targetBlocks ?? []) {
+        const empty = Number.isNaN(targets[off] as number);
+        for (let k = 1; k < b.size; k++) {
+          if (Number.isNaN(targets[off + k] as number) !== empty) {
+            const col = targetCols[off - from + k] as number;
+            return issues.add("parse_error", where(row, col), `the target cells of layer ${JSON.stringify(b.layer)} all filled (observed) or all empty (not observed)`, describeCell(fields[col] as string), detail(col));
+          }
+        }
+        off += b.size;
+      }
     }
     return true;
   });
@@ -357,6 +427,7 @@ export function parseCsvDataset(text: string, options: CsvDatasetOptions): Datas
     for (let i = 0; i < dataRows; i++) targetValues[i * targetSize + (lab[i] as number)] = 1;
   } else {
     targetValues = Float64Array.from(targets);
+    if (targetBlocks !== undefined) checkUnobservedRows(targetValues, targetCols.length, targetBlocks, `${source}:targets`);
   }
   const names = headerNames === undefined ? undefined : inputCols.map((c) => (headerNames as string[])[c] as string);
   return makeDataset({
@@ -369,5 +440,7 @@ export function parseCsvDataset(text: string, options: CsvDatasetOptions): Datas
     labels: lab,
     classNames: lab === undefined ? undefined : classNames,
     inputNames: names !== undefined && usableNames(names) ? names : undefined,
+    inputLayers: inputBlocks,
+    targetLayers: targetBlocks,
   });
 }

@@ -9,11 +9,29 @@ import { isNdArrayLike, rowMajorValues, type NdArrayLike } from "../../interop/n
 import { requireBytes } from "../../limits/index.js";
 
 /**
+ * A block of a data set's rows that belongs to one layer of a network: `size` consecutive values, named by
+ * the layer. A data set's `inputLayers` (or `targetLayers`) list its blocks in row order.
+ * @category Data
+ */
+export interface DataBlock {
+  /** The layer's name. */
+  readonly layer: string;
+  /** Values per example (the layer's size). */
+  readonly size: number;
+}
+
+/**
  * A set of examples: `size` rows of `inputSize` inputs and `targetSize` targets.
  *
  * Layout: example `i` has inputs `inputs[i * inputSize .. (i + 1) * inputSize)` and
  * targets `targets[i * targetSize .. (i + 1) * targetSize)` (row = example), the
- * same batch-major layout a network's layers use. Every value is finite.
+ * same batch-major layout a network's layers use. Every input is finite; a target is finite or NaN, NaN
+ * only for a whole block of a row (every target of one layer, or of the whole row without blocks): that
+ * layer is not observed for that example (partial clamping).
+ *
+ * With `inputLayers` / `targetLayers`, a row is the concatenation of one block per layer, and training
+ * maps each block to the network layer of that name; without them the whole row belongs to the network's
+ * single input (or output) layer.
  * A data set never changes after it is built; functions that select or rescale
  * examples return a new one.
  * @category Data
@@ -41,6 +59,10 @@ export interface Dataset {
   readonly classNames?: readonly string[] | undefined;
   /** Names of the input columns (for example a CSV header); length `inputSize`. */
   readonly inputNames?: readonly string[] | undefined;
+  /** The input layers, block by block in row order (sizes summing to `inputSize`); absent: one block for the single input layer. */
+  readonly inputLayers?: readonly DataBlock[] | undefined;
+  /** The output layers, block by block in row order (sizes summing to `targetSize`); absent: one block for the single output layer. */
+  readonly targetLayers?: readonly DataBlock[] | undefined;
 }
 
 /**
@@ -71,6 +93,8 @@ interface DatasetFields {
   labels?: Int32Array | undefined;
   classNames?: readonly string[] | undefined;
   inputNames?: readonly string[] | undefined;
+  inputLayers?: readonly DataBlock[] | undefined;
+  targetLayers?: readonly DataBlock[] | undefined;
 }
 
 /**
@@ -89,6 +113,8 @@ export function makeDataset(fields: DatasetFields): Dataset {
   if (fields.labels !== undefined) ds.labels = fields.labels;
   if (fields.classNames !== undefined) ds.classNames = Object.freeze(fields.classNames.slice());
   if (fields.inputNames !== undefined) ds.inputNames = Object.freeze(fields.inputNames.slice());
+  if (fields.inputLayers !== undefined) ds.inputLayers = Object.freeze(fields.inputLayers.map((b) => Object.freeze({ layer: b.layer, size: b.size })));
+  if (fields.targetLayers !== undefined) ds.targetLayers = Object.freeze(fields.targetLayers.map((b) => Object.freeze({ layer: b.layer, size: b.size })));
   return Object.freeze(ds);
 }
 
@@ -114,10 +140,15 @@ function flattenRows(
     if (row.length !== w) fail("shape_mismatch", `${what}[${r}]`, `a row of ${w} numbers (the width of ${what}[0])`, `a row of ${row.length}`);
     for (let c = 0; c < w; c++) {
       const v: unknown = row[c];
-      if (typeof v !== "number" || !Number.isFinite(v)) fail("invalid_parameter", `${what}[${r}][${c}]`, "a finite number", v);
+      if (what === "targets" && typeof v === "number" && Number.isNaN(v)) {
+        flat[r * w + c] = v;
+        continue;
+      }
+      if (typeof v !== "number" || !Number.isFinite(v)) fail("invalid_parameter", `${what}[${r}][${c}]`, what === "targets" ? "a finite number, or NaN for every target of the row (not observed)" : "a finite number", v);
       flat[r * w + c] = v;
     }
   }
+  if (what === "targets") checkUnobservedRows(flat, w, [{ layer: "", size: w }], "targets");
   return { flat, width: w };
 }
 
@@ -129,9 +160,12 @@ function copyFlat(values: ArrayLike<number>, what: "inputs" | "targets", width: 
   }
   for (let i = 0; i < values.length; i++) {
     const v = values[i] as number;
-    if (!Number.isFinite(v)) fail("invalid_parameter", `${what}[${Math.floor(i / width)}][${i % width}]`, "a finite number", v);
+    if (what === "targets" && Number.isNaN(v)) continue;
+    if (!Number.isFinite(v)) fail("invalid_parameter", `${what}[${Math.floor(i / width)}][${i % width}]`, what === "targets" ? "a finite number, or NaN for every target of the row (not observed)" : "a finite number", v);
   }
-  return { flat: Float64Array.from(values), width };
+  const flat = Float64Array.from(values);
+  if (what === "targets") checkUnobservedRows(flat, width, [{ layer: "", size: width }], "targets");
+  return { flat, width };
 }
 
 /** Copies an `ndarray`-like matrix (shape [n, width]; read in row-major order, one copy), checking it as `copyFlat`. */
@@ -139,6 +173,28 @@ function copyMatrix(values: NdArrayLike, what: "inputs" | "targets", width: numb
   const w = values.shape[1];
   const flat = rowMajorValues(values, what, values.shape.length === 2 && w !== undefined ? [[values.shape[0] as number, width ?? w]] : [[values.shape[0] ?? 0, width ?? 1]]);
   return copyFlat(flat, what, width ?? w);
+}
+
+/**
+ * Checks that NaN targets fill whole blocks of a row (a layer not observed for that example).
+ * @throws {@link EbbflowError} `invalid_parameter` naming the row, the block's layer and the first mixed value.
+ * @internal
+ */
+export function checkUnobservedRows(targets: Float64Array, width: number, blocks: readonly DataBlock[], path: string): void {
+  const rows = width === 0 ? 0 : targets.length / width;
+  for (let r = 0; r < rows; r++) {
+    let off = r * width;
+    for (const b of blocks) {
+      const first = Number.isNaN(targets[off] as number);
+      for (let k = 1; k < b.size; k++) {
+        if (Number.isNaN(targets[off + k] as number) !== first) {
+          const column = off + k - r * width;
+          fail("invalid_parameter", `${path}[${r}][${column}]`, `targets${b.layer === "" ? "" : ` of layer ${JSON.stringify(b.layer)}`} that are all numbers (observed) or all NaN (not observed) in a row`, targets[off + k], "a row mixing NaN and numbers");
+        }
+      }
+      off += b.size;
+    }
+  }
 }
 
 /** Checks a list of distinct non-empty names of the given length. */
@@ -176,6 +232,11 @@ export function checkLabels(
     }
     const base = i * targetSize;
     const top = targets[base + l] as number;
+    // a row not observed has no largest value to agree with
+    if (Number.isNaN(top)) {
+      out[i] = l;
+      continue;
+    }
     for (let c = 0; c < targetSize; c++) {
       if (c !== l && (targets[base + c] as number) >= top) {
         fail("shape_mismatch", `${path}[${i}]`, `the position of the unique largest value of target row ${i}`, l,
@@ -326,5 +387,7 @@ export function gather(ds: Dataset, indices: ArrayLike<number>, name: string): D
     labels,
     classNames: ds.classNames,
     inputNames: ds.inputNames,
+    inputLayers: ds.inputLayers,
+    targetLayers: ds.targetLayers,
   });
 }

@@ -22,6 +22,14 @@
  * - `name` (default: the source), `inputNames` (one per input column).
  * - No other keys (a misspelt key is an error, not silently ignored).
  *
+ * Several input and output layers: `inputs` and `targets` are objects of rows per layer name, and a
+ * target row may be `null` (that layer is not observed for that example; see {@link createLayeredDataset}):
+ *
+ * ```json
+ * { "name": "lamp", "inputs": { "colour": [[1, 0], [0, 1]], "switch": [[1], [0]] },
+ *   "targets": { "light": [[1], [0]], "report": [[1, 0], null] } }
+ * ```
+ *
  * Error paths: `<source>:<key>[row][column]`, indices from 0 as in the JSON
  * arrays, e.g. `digits.json:inputs[3][2]`. Up to 20 problems are reported in one error.
  * @module
@@ -30,6 +38,7 @@ import { describeValue, fail, requireInteger } from "../../errors/index.js";
 import { checkLabels, makeDataset, type Dataset } from "./dataset.js";
 import { requireBytes } from "../../limits/index.js";
 import { IssueList } from "./issues.js";
+import { createLayeredDataset, layerValues, type LayeredValues } from "./layered.js";
 
 const KEYS = ["name", "inputs", "targets", "labels", "classNames", "inputNames"] as const;
 
@@ -40,9 +49,11 @@ function readRows(value: unknown, key: string, source: string, issues: IssueList
     issues.add("parse_error", path, "a non-empty array of rows (arrays of numbers)", describeValue(value));
     return undefined;
   }
-  const first: unknown = value[0];
+  // targets may start with rows that are not observed (null): the width comes from the first array
+  const at = key === "targets" ? Math.max(0, value.findIndex((r: unknown) => r !== null)) : 0;
+  const first: unknown = value[at];
   if (!Array.isArray(first) || first.length === 0) {
-    issues.add("parse_error", `${path}[0]`, "a non-empty array of numbers", describeValue(first));
+    issues.add("parse_error", `${path}[${at}]`, "a non-empty array of numbers", describeValue(first));
     return undefined;
   }
   const width = first.length;
@@ -50,6 +61,11 @@ function readRows(value: unknown, key: string, source: string, issues: IssueList
   let ok = true;
   for (let r = 0; r < value.length && !issues.full; r++) {
     const row: unknown = value[r];
+    if (row === null && key === "targets") {
+      // a target row not observed
+      flat.fill(Number.NaN, r * width, (r + 1) * width);
+      continue;
+    }
     if (!Array.isArray(row)) {
       ok = false;
       issues.add("parse_error", `${path}[${r}]`, `an array of ${width} numbers`, describeValue(row));
@@ -127,6 +143,12 @@ export function parseJsonDataset(text: string, source: string): Dataset {
     return fail("parse_error", source, "a JSON object with inputs and targets or labels", describeValue(data));
   }
   const obj = data as Record<string, unknown>;
+  if (obj.inputs !== null && typeof obj.inputs === "object" && !Array.isArray(obj.inputs)) {
+    // values per layer name
+    for (const key of Object.keys(obj)) if (key !== "name" && key !== "inputs" && key !== "targets") fail("parse_error", `${source}:${key}`, "only the keys name, inputs, targets (inputs given per layer)", "an unknown key");
+    if (obj.name !== undefined && (typeof obj.name !== "string" || obj.name === "")) fail("parse_error", `${source}:name`, "a non-empty string", describeValue(obj.name));
+    return createLayeredDataset((obj.name as string | undefined) ?? source, { inputs: obj.inputs as LayeredValues["inputs"], targets: obj.targets as LayeredValues["targets"] }, `${source}:`);
+  }
   const issues = new IssueList();
   for (const key of Object.keys(obj)) {
     if (!(KEYS as readonly string[]).includes(key)) issues.add("parse_error", `${source}:${key}`, `only the keys ${KEYS.join(", ")}`, "an unknown key");
@@ -228,7 +250,25 @@ export function datasetToJson(ds: Dataset, indent = 0): string {
     for (let i = 0; i < ds.size; i++) out.push(Array.from(flat.subarray(i * width, (i + 1) * width)));
     return out;
   };
-  const obj: Record<string, unknown> = { name: ds.name, inputs: rows(ds.inputs, ds.inputSize), targets: rows(ds.targets, ds.targetSize) };
+  if (ds.inputLayers !== undefined || ds.targetLayers !== undefined) {
+    // per layer name; a target row not observed is written as null
+    const group = (what: "inputs" | "targets", blocks: readonly { layer: string; size: number }[] | undefined, flat: Float64Array, width: number, single: string) => {
+      const out: Record<string, (number[] | null)[]> = {};
+      for (const b of blocks ?? [{ layer: single, size: width }]) {
+        const v = blocks === undefined ? flat : layerValues(ds, what, b.layer);
+        const r: (number[] | null)[] = [];
+        for (let i = 0; i < ds.size; i++) {
+          const row = Array.from(v.subarray(i * b.size, (i + 1) * b.size));
+          r.push(row.length > 0 && Number.isNaN(row[0] as number) ? null : row);
+        }
+        out[b.layer] = r;
+      }
+      return out;
+    };
+    return JSON.stringify({ name: ds.name, inputs: group("inputs", ds.inputLayers, ds.inputs, ds.inputSize, "inputs"), targets: group("targets", ds.targetLayers, ds.targets, ds.targetSize, "targets") }, null, indent);
+  }
+  const nullRows = (r: number[][]): (number[] | null)[] => r.map((row) => (row.length > 0 && Number.isNaN(row[0] as number) ? null : row));
+  const obj: Record<string, unknown> = { name: ds.name, inputs: rows(ds.inputs, ds.inputSize), targets: nullRows(rows(ds.targets, ds.targetSize)) };
   if (ds.labels !== undefined) obj.labels = Array.from(ds.labels);
   if (ds.classNames !== undefined) obj.classNames = ds.classNames;
   if (ds.inputNames !== undefined) obj.inputNames = ds.inputNames;
