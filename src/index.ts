@@ -12,7 +12,7 @@
 export { Network, buildNetwork, parameterBuffers, parameterSlots, type BuildOptions, type Connection, type Feedback, type Layer, type LayerRole, type ParameterSlot } from "./network/network.js";
 export { Settler, Snapshot, energy, type LayerValues, type Phase, type PhaseOptions } from "./network/settle.js";
 export { clipKeepsFixedPoints, clippedLayers, type RangedUnit } from "./network/clip.js";
-export { initSchema, networkJsonSchema, networkSchema, parseNetwork, safeParseNetwork, type ConnectionSpec, type DynamicsSpec, type FeedbackSpec, type InhibitionSpec, type InitSpecData, type LayerSpec, type NetworkSpec, type NetworkSpecInput, type ParseResult } from "./network/spec.js";
+export { adaptationSchema, depressionSchema, initSchema, networkJsonSchema, networkSchema, parseNetwork, safeParseNetwork, type AdaptationSpec, type ConnectionSpec, type DepressionSpec, type DynamicsSpec, type FeedbackSpec, type InhibitionSpec, type InitSpecData, type LayerSpec, type NetworkSpec, type NetworkSpecInput, type ParseResult } from "./network/spec.js";
 
 // Learning rules
 export { SettlingRule, batchSizeOf, connectionRate, type Batch, type LearningRule, type RuleState } from "./rules/base.js";
@@ -96,6 +96,7 @@ export { formatSummaryTable, summarizeRuns, type ConfigurationSummary, type RunF
 
 // Interop: ndarray-layout views and inputs, NumPy .npy / .npz files
 export { biasView, feedbackView, flatBatch, isNdArrayLike, ndView, recordView, rowMajorStrides, rowMajorValues, stateView, weightView, type BatchInput, type LayerInputs, type NdArrayLike, type NdView } from "./interop/ndarray.js";
+export { Recorder, type PatternLabel, type RecordChannel, type RecordedChannel, type RecorderOptions } from "./record/recorder.js";
 export { decodeNpy, decodeNpyText, encodeNpy, encodeNpyText, type NpyArray, type NumericArray } from "./interop/npy.js";
 export { crc32, readZip, writeZip } from "./interop/zip.js";
 export { arrayToCsv, modelArrays, modelFromNpz, modelToNpz, type ModelArray } from "./interop/model.js";
