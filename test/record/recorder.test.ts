@@ -9,7 +9,7 @@ import { mkdtempSync, readFileSync, rmSync } from "node:fs";
 import { tmpdir } from "node:os";
 import path from "node:path";
 import fc from "fast-check";
-import { buildNetwork, decodeNpy, EbbflowError, Recorder, Settler, type NetworkSpecInput } from "../../src/index.js";
+import { buildNetwork, decodeNpy, EbbflowError, Recorder, Settler, type NetworkSpecInput, type Snapshot } from "../../src/index.js";
 import { writeRecording, timelineSpec, timelineSvg } from "../../src/node/index.js";
 import { check } from "../helpers/property.js";
 
@@ -32,7 +32,7 @@ const spec: NetworkSpecInput = {
 };
 
 function recordSome(rec: Recorder, settler: Settler, patterns: number[][], steps: number[]) {
-  let last;
+  let last: Snapshot | undefined;
   patterns.forEach((x, p) => {
     const snap = settler.settle({ phase: "free", inputs: { touch: x }, maxSteps: steps[p]!, start: last, record: true, onStep: rec.onStep });
     rec.endPattern({ sequence: 0, position: p, phase: "free" });
