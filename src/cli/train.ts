@@ -69,12 +69,12 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
   const training = parseTraining(trainingInput);
   const split = fixedSplitOption(o) ?? experiment.data?.split;
   const testFraction = o.testFraction ?? (split !== undefined ? 0 : (experiment.data?.testFraction ?? 0));
-  const { train, test } = await resolveData(source, { testFraction, seed, targetColumns: experiment.data?.targetColumns, oneHot: experiment.data?.oneHot, scale: o.scale ?? experiment.data?.scale ?? false, split });
+  const { train, test } = await resolveData(source, { testFraction, seed, targetColumns: experiment.data?.targetColumns, oneHot: experiment.data?.oneHot, scale: o.scale ?? experiment.data?.scale ?? false, split, sequenceColumn: experiment.data?.sequenceColumn });
   const out = o.out ?? path.join("runs", `${experiment.name ?? path.basename(modelFile, ".json")}-${rule.rule}-${seed}`);
   if (o.resume && o.overwrite) fail("invalid_parameter", "--overwrite", "either --resume or --overwrite", "both");
   if (o.acceptChanges && !o.resume) fail("invalid_parameter", "--accept-changes", "--resume (it accepts a changed experiment when resuming)", "no --resume");
   // the resolved config: everything that decides the run's results (its hash is the run's identity)
-  const data = { source, testFraction, scale: o.scale ?? experiment.data?.scale ?? false, ...(experiment.data?.targetColumns !== undefined ? { targetColumns: experiment.data.targetColumns } : {}), ...(experiment.data?.oneHot !== undefined ? { oneHot: experiment.data.oneHot } : {}), ...(split !== undefined ? { split } : {}) };
+  const data = { source, testFraction, scale: o.scale ?? experiment.data?.scale ?? false, ...(experiment.data?.targetColumns !== undefined ? { targetColumns: experiment.data.targetColumns } : {}), ...(experiment.data?.oneHot !== undefined ? { oneHot: experiment.data.oneHot } : {}), ...(experiment.data?.sequenceColumn !== undefined ? { sequenceColumn: experiment.data.sequenceColumn } : {}), ...(split !== undefined ? { split } : {}) };
   const config: Record<string, unknown> = { network: experiment.network, rule, training, data, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
   const every = o.checkpointEvery ?? 10;
   const { files, lock } = await claimRunFolder(out, o.resume ? "resume" : o.overwrite ? "overwrite" : "new", "--out");

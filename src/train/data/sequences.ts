@@ -9,6 +9,7 @@ import { checkOptions, resolveColumns, tokenize, type CsvDatasetOptions } from "
 import { parseCsvDataset } from "./csv.js";
 import { createDataset, makeDataset, type Dataset } from "./dataset.js";
 import { IssueList } from "./issues.js";
+import { createRandom } from "../../random/index.js";
 import { parseJsonDataset } from "./json.js";
 
 /** A data set whose examples form sequences. @category Data */
@@ -186,4 +187,40 @@ export function parseJsonSequences(text: string, source: string): SequenceDatase
   });
   const ds = makeDataset({ name: (obj.name as string | undefined) ?? source, size, inputSize: a.inputSize, targetSize: a.targetSize, inputs, targets, labels, classNames: labels === undefined ? undefined : a.classNames, inputNames: a.inputNames });
   return withSequences(ds, starts);
+}
+
+/** Keeps the sequences `which` (in that order) of a sequence data set. */
+function sequenceSubset(ds: SequenceDataset, which: readonly number[], name: string): SequenceDataset {
+  const starts = [0];
+  const rows: number[] = [];
+  for (const s of which) {
+    for (let e = ds.sequenceStarts[s] as number; e < (ds.sequenceStarts[s + 1] as number); e++) rows.push(e);
+    starts.push(rows.length);
+  }
+  const inputs = new Float64Array(rows.length * ds.inputSize);
+  const targets = new Float64Array(rows.length * ds.targetSize);
+  rows.forEach((e, i) => {
+    inputs.set(ds.inputs.subarray(e * ds.inputSize, (e + 1) * ds.inputSize), i * ds.inputSize);
+    targets.set(ds.targets.subarray(e * ds.targetSize, (e + 1) * ds.targetSize), i * ds.targetSize);
+  });
+  const labels = ds.labels === undefined ? undefined : Int32Array.from(rows, (e) => ds.labels![e] as number);
+  return withSequences(makeDataset({ name, size: rows.length, inputSize: ds.inputSize, targetSize: ds.targetSize, inputs, targets, labels, classNames: ds.classNames, inputNames: ds.inputNames }), starts);
+}
+
+/**
+ * Holds out whole sequences: a seeded share `testFraction` of the sequences (at least one, and at least
+ * one left for training) goes to the test set, each set keeping its sequences in file order.
+ * @throws {@link EbbflowError} `invalid_parameter` for a fraction outside (0, 1) or fewer than 2 sequences.
+ * @category Data
+ */
+export function splitSequences(ds: SequenceDataset, testFraction: number, seed: number | string): { train: SequenceDataset; test: SequenceDataset } {
+  if (typeof testFraction !== "number" || !(testFraction > 0 && testFraction < 1)) fail("invalid_parameter", "testFraction", "a fraction in (0, 1)", testFraction);
+  const S = sequenceCount(ds);
+  if (S < 2) fail("invalid_parameter", "testFraction", "a data set of at least 2 sequences to split", `${S} sequence`);
+  const k = Math.min(S - 1, Math.max(1, Math.round(S * testFraction)));
+  const perm = createRandom(seed).child("split/sequences").permutation(S);
+  const test = Array.from(perm.subarray(0, k)).sort((a, b) => a - b);
+  const chosen = new Set(test);
+  const train = Array.from({ length: S }, (_, i) => i).filter((i) => !chosen.has(i));
+  return { train: sequenceSubset(ds, train, `${ds.name}/train`), test: sequenceSubset(ds, test, `${ds.name}/test`) };
 }
