@@ -36,7 +36,7 @@ export { parseCsvDataset, type CsvDatasetOptions } from "./train/data/csv.js";
 export { createDataset, oneHot, subset, type Dataset, type DatasetOptions } from "./train/data/dataset.js";
 export { parityDataset, randomAssociation, type BinaryCoding, type RandomAssociationOptions, xorDataset } from "./train/data/generators.js";
 export { datasetToJson, parseJsonDataset } from "./train/data/json.js";
-export { createSequenceDataset, isSequenceDataset, parseCsvSequences, parseJsonSequences, sequenceCount, withSequences, type CsvSequenceOptions, type SequenceDataset, type SequenceRows } from "./train/data/sequences.js";
+export { createSequenceDataset, isSequenceDataset, parseCsvSequences, parseJsonSequences, sequenceCount, splitSequences, withSequences, type CsvSequenceOptions, type SequenceDataset, type SequenceRows } from "./train/data/sequences.js";
 export { carriesTraces, sequenceBatches, sequenceOptionsSchema, SequenceRunner, type CarriesTraces, type SequenceProgress, type SequenceReset } from "./train/sequences.js";
 export { TEXTURE_SENSORS, textureMemoryDataset, textureMemoryNetwork, type TextureMemoryOptions } from "./demo/textureMemory.js";
 export { fitScaler, type Scaler, type ScalerKind } from "./train/data/scaling.js";
