@@ -37,7 +37,7 @@ export function runTextureMemory(rule: RuleConfigInput, epochs = 60, low = 0): T
   control.run();
   let no = 0;
   for (const t of test.targets) if (t < 0.5) no++;
-  return { rule: rule.rule, carried: carried.history.at(-1)!.test!.accuracy, control: control.history.at(-1)!.test!.accuracy, majority: no / test.size };
+  return { rule: String(rule.rule), carried: carried.history.at(-1)!.test!.accuracy, control: control.history.at(-1)!.test!.accuracy, majority: no / test.size };
 }
 
 /** Responses of the touch layer to five presentations of one stimulus, with and without adaptation. */
