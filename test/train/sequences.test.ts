@@ -11,6 +11,10 @@ import {
 } from "../../src/index.js";
 import { textureMemoryDataset, textureMemoryNetwork } from "../../src/demo/textureMemory.js";
 import { check } from "../helpers/property.js";
+import { loadCheckpoint, saveCheckpoint } from "../../src/node/index.js";
+import { mkdtempSync, rmSync } from "node:fs";
+import { tmpdir } from "node:os";
+import path from "node:path";
 
 const csv = "seq,a,b,y\ns1,1,0,0\ns1,0,1,1\ns1,1,1,0\ns2,0,0,1\ns3,1,0,1\ns3,0,1,0\n";
 const json = JSON.stringify({
@@ -112,6 +116,30 @@ describe("the Trainer's sequence mode", () => {
     b.run();
     const want = parameterBuffers(straight);
     parameterBuffers(resumed).forEach((p, i) => expect(Array.from(p)).toEqual(Array.from(want[i]!)));
+  });
+
+  it("resumes mid-sequence bit for bit through a checkpoint file (saveCheckpoint / loadCheckpoint, schema-checked)", async () => {
+    const rule = { rule: "calcium", rate: 0.2, trough: 0.02, timing: "continuous", freeSteps: 12, clampedSteps: 3 } as const;
+    const ds = textureMemoryDataset({ sequences: 4, length: 5, seed: 9, low: 0.05 });
+    const opts = { epochs: 2, batchSize: 2, sequences: { reset: "never" as const } };
+    const straight = buildNetwork(small());
+    new Trainer(straight, rule, ds, opts).run();
+    const a = new Trainer(buildNetwork(small()), rule, ds, opts);
+    for (let k = 0; k < 7; k++) a.sequenceStep();
+    const dir = mkdtempSync(path.join(tmpdir(), "ebbflow-seqck-"));
+    try {
+      const file = path.join(dir, "checkpoint.json");
+      await saveCheckpoint(file, a, { note: "mid-sequence" });
+      const loaded = await loadCheckpoint(file);
+      expect(loaded.state.sequence?.position).toBe(2);
+      const b = new Trainer(loaded.net, rule, ds, opts);
+      b.loadState(loaded.state);
+      b.run();
+      const want = parameterBuffers(straight);
+      parameterBuffers(loaded.net).forEach((p, i) => expect(Array.from(p)).toEqual(Array.from(want[i]!)));
+    } finally {
+      rmSync(dir, { recursive: true, force: true });
+    }
   });
 
   it("carrying the calcium rule's traces changes the step; resetting them before every step gives the bits of no carry", () => {

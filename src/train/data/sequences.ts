@@ -10,7 +10,7 @@ import { parseCsvDataset } from "./csv.js";
 import { createDataset, makeDataset, type Dataset } from "./dataset.js";
 import { IssueList } from "./issues.js";
 import { createRandom } from "../../random/index.js";
-import { parseJsonDataset } from "./json.js";
+import { jsonObjectOf, parseJsonDataset } from "./json.js";
 
 /** A data set whose examples form sequences. @category Data */
 export interface SequenceDataset extends Dataset {
@@ -151,16 +151,7 @@ export function parseCsvSequences(text: string, options: CsvSequenceOptions): Se
  * @category Data
  */
 export function parseJsonSequences(text: string, source: string): SequenceDataset {
-  if (typeof source !== "string" || source === "") fail("invalid_parameter", "source", "a non-empty string (a file name)", source);
-  if (typeof text !== "string") fail("invalid_parameter", "text", "a string", text);
-  let data: unknown;
-  try {
-    data = JSON.parse(text.charCodeAt(0) === 0xfeff ? text.slice(1) : text);
-  } catch (e) {
-    return fail("parse_error", source, "valid JSON", (e as Error).message);
-  }
-  if (data === null || typeof data !== "object" || Array.isArray(data)) return fail("parse_error", source, 'a JSON object { "sequences": [...] }', describeValue(data));
-  const obj = data as Record<string, unknown>;
+  const obj = jsonObjectOf(text, source, 'a JSON object { "sequences": [...] }');
   for (const k of Object.keys(obj)) if (k !== "name" && k !== "sequences") fail("parse_error", `${source}:${k}`, "no such key (name, sequences)", k);
   if (obj.name !== undefined && typeof obj.name !== "string") fail("parse_error", `${source}:name`, "a string", describeValue(obj.name));
   const seqs = obj.sequences;
