@@ -1,6 +1,6 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
-import { buildNetwork, Settler, EbbflowError, recurrentGradient, finiteDifferenceGradient, type NetworkSpecInput } from "../../src/index.js";
+import { buildNetwork, Settler, EbbflowError, recurrentGradient, finiteDifferenceGradient, loadWasmKernelsSync, wasmSimdSupported, type NetworkSpecInput } from "../../src/index.js";
 import { check } from "../helpers/property.js";
 import { expectClose } from "../helpers/tolerance.js";
 
@@ -188,5 +188,33 @@ describe("synaptic depression (Tsodyks & Markram 1997)", () => {
 
   it("refuses a utilisation outside (0, 1], with the path", () => {
     expect(() => buildNetwork(spec(1, 1.5))).toThrow(/connections\[0\]\.depression\.use/);
+  });
+});
+
+describe.skipIf(!wasmSimdSupported())("stateful units and tau on the WebAssembly SIMD kernels", () => {
+  it("settle like the TypeScript kernels (float64), their state in the kernels' memory", () => {
+    const spec: NetworkSpecInput = {
+      seed: 4,
+      layers: [
+        { name: "in", size: 9, role: "input" },
+        { name: "h", size: 7, role: "hidden", tau: 3, adaptation: { tau: 6, gain: 0.8 } },
+        { name: "out", size: 3, role: "output", unit: { kind: "tanh" } },
+      ],
+      connections: [
+        { from: "in", to: "h", depression: { recovery: 4, use: 0.4 }, feedback: { kind: "tied", gain: 1 } },
+        { from: "h", to: "out", feedback: { kind: "tied", gain: 1 } },
+      ],
+      dynamics: { dt: 0.3, maxSteps: 60 },
+    };
+    const wasm = loadWasmKernelsSync({ relaxed: false });
+    const a = buildNetwork(spec);
+    const b = buildNetwork(spec, { backend: wasm });
+    const x = Array.from({ length: 18 }, (_, k) => ((k * 37) % 11) / 11);
+    const sa = new Settler(a, 2).settle({ phase: "free", inputs: { in: x } });
+    const sb = new Settler(b, 2).settle({ phase: "free", inputs: { in: x } });
+    expect(wasm.isArenaView(sb.adaptation[1]!)).toBe(true);
+    for (let k = 0; k < 6; k++) expectClose(sb.activity[2]![k]!, sa.activity[2]![k]!, 1e-10, `out[${k}]`);
+    for (let k = 0; k < 14; k++) expectClose(sb.adaptation[1]![k]!, sa.adaptation[1]![k]!, 1e-10, `a[${k}]`);
+    for (let k = 0; k < 18; k++) expectClose(sb.resources[0]![k]!, sa.resources[0]![k]!, 1e-10, `R[${k}]`);
   });
 });
