@@ -34,7 +34,7 @@ export {
   type ProfileSpec,
   type TieMode,
 } from "./network/pattern.js";
-export { initSchema, networkJsonSchema, networkSchema, parseNetwork, safeParseNetwork, type ConnectionSpec, type DynamicsSpec, type FeedbackSpec, type InhibitionSpec, type InitSpecData, type LayerSpec, type NetworkSpec, type NetworkSpecInput, type ParseResult } from "./network/spec.js";
+export { adaptationSchema, depressionSchema, initSchema, networkJsonSchema, networkSchema, parseNetwork, safeParseNetwork, type AdaptationSpec, type ConnectionSpec, type DepressionSpec, type DynamicsSpec, type FeedbackSpec, type InhibitionSpec, type InitSpecData, type LayerSpec, type NetworkSpec, type NetworkSpecInput, type ParseResult } from "./network/spec.js";
 
 // Learning rules
 export { SettlingRule, batchSizeOf, connectionRate, type Batch, type LearningRule, type RuleState } from "./rules/base.js";
@@ -59,6 +59,9 @@ export { createDataset, oneHot, subset, type DataBlock, type Dataset, type Datas
 export { createLayeredDataset, layerValues, type LayerRows, type LayeredValues } from "./train/data/layered.js";
 export { orientedBarsDataset, parityDataset, randomAssociation, type BinaryCoding, type OrientedBarsOptions, type RandomAssociationOptions, xorDataset } from "./train/data/generators.js";
 export { datasetToJson, parseJsonDataset } from "./train/data/json.js";
+export { createSequenceDataset, isSequenceDataset, parseCsvSequences, parseJsonSequences, sequenceCount, splitSequences, withSequences, type CsvSequenceOptions, type SequenceDataset, type SequenceRows } from "./train/data/sequences.js";
+export { carriesTraces, sequenceBatches, sequenceOptionsSchema, SequenceRunner, type CarriesTraces, type SequenceProgress, type SequenceReset } from "./train/sequences.js";
+export { TEXTURE_SENSORS, textureMemoryDataset, textureMemoryNetwork, type TextureMemoryOptions } from "./demo/textureMemory.js";
 export { fitScaler, type Scaler, type ScalerKind } from "./train/data/scaling.js";
 export { kFold, trainTestSplit, type DatasetSplit, type SplitOptions } from "./train/data/split.js";
 export { Trainer, datasetBatch, parseTraining, trainingSchema, type EpochRecord, type StopReason, type TrainerExtras, type TrainerHooks, type TrainerState, type TrainingOptions, type TrainingOptionsInput } from "./train/loop.js";
@@ -119,6 +122,7 @@ export { formatSummaryTable, summarizeRuns, type ConfigurationSummary, type RunF
 
 // Interop: ndarray-layout views and inputs, NumPy .npy / .npz files
 export { biasView, feedbackView, flatBatch, isNdArrayLike, ndView, recordView, rowMajorStrides, rowMajorValues, stateView, weightView, type BatchInput, type LayerInputs, type NdArrayLike, type NdView } from "./interop/ndarray.js";
+export { Recorder, type PatternLabel, type RecordChannel, type RecordedChannel, type RecorderOptions } from "./record/recorder.js";
 export { decodeNpy, decodeNpyText, encodeNpy, encodeNpyText, type NpyArray, type NumericArray } from "./interop/npy.js";
 export { crc32, readZip, writeZip } from "./interop/zip.js";
 export { arrayToCsv, modelArrays, modelFromNpz, modelToNpz, type ModelArray } from "./interop/model.js";

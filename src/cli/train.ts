@@ -75,7 +75,7 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
   if (o.resume && o.overwrite) fail("invalid_parameter", "--overwrite", "either --resume or --overwrite", "both");
   if (o.acceptChanges && !o.resume) fail("invalid_parameter", "--accept-changes", "--resume (it accepts a changed experiment when resuming)", "no --resume");
   // the resolved config: everything that decides the run's results (its hash is the run's identity)
-  const data = { source, testFraction, scale: o.scale ?? experiment.data?.scale ?? false, ...(experiment.data?.targetColumns !== undefined ? { targetColumns: experiment.data.targetColumns } : {}), ...(experiment.data?.oneHot !== undefined ? { oneHot: experiment.data.oneHot } : {}), ...layerColumns, ...(split !== undefined ? { split } : {}) };
+  const data = { source, testFraction, scale: o.scale ?? experiment.data?.scale ?? false, ...(experiment.data?.targetColumns !== undefined ? { targetColumns: experiment.data.targetColumns } : {}), ...(experiment.data?.oneHot !== undefined ? { oneHot: experiment.data.oneHot } : {}), ...layerColumns, ...(experiment.data?.sequenceColumn !== undefined ? { sequenceColumn: experiment.data.sequenceColumn } : {}), ...(split !== undefined ? { split } : {}) };
   const config: Record<string, unknown> = { network: experiment.network, rule, training, data, seed, ...(registry.plugins.length > 0 ? { plugins: registry.plugins } : {}) };
   const every = o.checkpointEvery ?? 10;
   const { files, lock } = await claimRunFolder(out, o.resume ? "resume" : o.overwrite ? "overwrite" : "new", "--out");

@@ -26,6 +26,8 @@ export const dataSourceSchema = z
     inputLayers: z.record(z.string(), z.array(z.union([z.number().int().min(0), z.string()])).min(1, { error: "at least one column" })).optional(),
     /** For CSV files: one-hot encode the (single) target column as class labels. */
     oneHot: z.boolean().optional(),
+    /** For CSV files of sequences: the column naming each row's sequence (its rows consecutive). JSON files with a `sequences` key are read as sequences without it. */
+    sequenceColumn: z.union([z.number().int().min(0), z.string()]).optional(),
     /** Scale inputs to [0, 1] with the training split's minimum and maximum. */
     scale: z.boolean().default(false),
     /** A fixed split instead of `testFraction`: index files `{ train, test }` (relative to the working folder) or a CSV column `{ column }` of `train`/`test`. */

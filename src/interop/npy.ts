@@ -169,7 +169,8 @@ export function decodeNpy(bytes: Uint8Array, path = "npy"): NpyArray {
   const n = elementCount(shape);
   const byteLength = n * kind.size;
   if (bytes.length - dataStart < byteLength) return fail("parse_error", path, `${byteLength} data bytes (shape ${shapeTuple(shape)}, ${descr})`, `${bytes.length - dataStart} bytes`);
-  const copy = bytes.slice(dataStart, dataStart + byteLength);
+  // a real copy (a Node Buffer's own slice is a view into its shared pool, whose .buffer starts elsewhere)
+  const copy = Uint8Array.prototype.slice.call(bytes, dataStart, dataStart + byteLength);
   const bigEndian = m[1] === ">" || (m[1] === "=" && !LITTLE_ENDIAN);
   if (bigEndian === LITTLE_ENDIAN) swapBytes(copy, kind.size);
   const data = kind.make(copy.buffer, n);

@@ -108,6 +108,18 @@ export class Snapshot {
   phase: Phase = "free";
   /** Per-step activities if recording was asked for: `record[step][layer]`. */
   record: FloatArray[][] | null = null;
+  /**
+   * Adaptation variable per layer, B×N for a layer with `adaptation` (empty otherwise): the stateful
+   * units' state, carried from `start` like the layer state (0 at rest).
+   */
+  readonly adaptation: FloatArray[];
+  /**
+   * Available synaptic resources per connection, B×|from| for a connection with `depression` (empty
+   * otherwise), in [0, 1]: the effective weight of sending unit j is `W[:, j]·R[j]` (1 at rest).
+   */
+  readonly resources: FloatArray[];
+  /** Per layer, the last step's largest change in the stop rule's scale (state change times the layer's tau). */
+  readonly layerChange: Float64Array;
 
   /**
    * Allocates a zeroed snapshot for `net` and `batch` patterns. With `shareInputsWith`, the input layers'
@@ -119,6 +131,28 @@ export class Snapshot {
       shareInputsWith !== undefined && l.role === "input" && shareInputsWith.batch === batch ? (shareInputsWith[which][l.index] as FloatArray) : null;
     this.activity = net.layers.map((l) => inputOf(l, "activity") ?? net.allocate(batch * l.size));
     this.state = net.spec.dynamics.kind === "energy" ? net.layers.map((l) => inputOf(l, "state") ?? net.allocate(batch * l.size)) : this.activity;
+    this.adaptation = net.layers.map((l) => net.allocate(l.spec.adaptation !== undefined ? batch * l.size : 0));
+    this.resources = net.connections.map((c) => {
+      const r = net.allocate(c.spec.depression !== undefined ? batch * (net.layers[c.from]?.size ?? 0) : 0);
+      r.fill(1);
+      return r;
+    });
+    this.layerChange = new Float64Array(net.layers.length);
+  }
+
+  /** Puts the stateful units at rest: adaptation 0, synaptic resources 1. */
+  restUnits(): this {
+    for (const a of this.adaptation) a.fill(0);
+    for (const r of this.resources) r.fill(1);
+    return this;
+  }
+
+  /** Copies the stateful units' state (adaptation, resources) from `other` (same network and batch). */
+  copyUnitsFrom(other: Snapshot): this {
+    if (other === this) return this;
+    for (let i = 0; i < this.adaptation.length; i++) (this.adaptation[i] as FloatArray).set(other.adaptation[i] as FloatArray);
+    for (let i = 0; i < this.resources.length; i++) (this.resources[i] as FloatArray).set(other.resources[i] as FloatArray);
+    return this;
   }
 
   /** Activity of one pattern of one layer, as a copy. */
@@ -132,6 +166,8 @@ export class Snapshot {
   copyFrom(other: Snapshot): this {
     for (let i = 0; i < this.activity.length; i++) (this.activity[i] as FloatArray).set(other.activity[i] as FloatArray);
     if (this.state !== this.activity) for (let i = 0; i < this.state.length; i++) (this.state[i] as FloatArray).set(other.state[i] as FloatArray);
+    this.copyUnitsFrom(other);
+    this.layerChange.set(other.layerChange);
     this.steps = other.steps;
     this.converged = other.converged;
     this.lastChange = other.lastChange;
@@ -205,6 +241,14 @@ export class Settler {
   private readonly rows: Uint8Array[];
   /** Per layer in this phase: 0 no pattern observed, 1 every pattern, 2 some (partial clamping or nudging). */
   private readonly coverage: Int8Array;
+  /** Per layer: its time constant (1 unless declared); its step is dt / tau. */
+  private readonly tau: Float64Array;
+  /** Per connection with depression: the sending activity times the resources (B×|from|), recomputed every step. */
+  private readonly effectivePre: FloatArray[];
+  /** Any stateful unit (adaptation or depression) in the network? */
+  private readonly stateful: boolean;
+  /** The resources of the snapshot being settled (read by accumulate). */
+  private currentResources: FloatArray[] | null = null;
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -230,6 +274,9 @@ export class Settler {
     this.fieldRows = net.connections.map((c) => (c.convolution ? net.allocate(fieldRowsLength(c.convolution.geometry, batch)) : null));
     this.rows = net.layers.map((l) => new Uint8Array(l.role === "output" ? batch : 0));
     this.coverage = new Int8Array(net.layers.length);
+    this.tau = Float64Array.from(net.layers, (l) => l.spec.tau ?? 1);
+    this.effectivePre = net.connections.map((c) => net.allocate(c.spec.depression !== undefined ? batch * (net.layers[c.from]?.size ?? 0) : 0));
+    this.stateful = net.layers.some((l) => l.spec.adaptation !== undefined) || net.connections.some((c) => c.spec.depression !== undefined);
   }
 
   /**
@@ -427,6 +474,13 @@ export class Settler {
       }
     }
 
+    // stateful units start where `start` left them, or at rest
+    this.currentResources = snap.resources;
+    if (this.stateful) {
+      if (options.start !== undefined) snap.copyUnitsFrom(options.start);
+      else snap.restUnits();
+    }
+
     // clamp-aware drive: bias plus everything that comes from clamped layers, computed once per phase,
     // or carried over from the previous phase (adding only what newly clamped layers send)
     const prev = this.driveFrom;
@@ -449,6 +503,7 @@ export class Settler {
     }
     this.driveFrom = { inputs: options.inputs, targets: options.targets, clamped: this.clamped.slice() };
 
+    snap.layerChange.fill(0);
     snap.record = options.record ? [] : null;
     snap.phase = phase;
     snap.converged = false;
@@ -470,7 +525,11 @@ export class Settler {
         K.copy(eta, this.drive[i] as FloatArray, len);
         this.accumulate(eta, i, snap.activity, this.clamped, false);
         this.inhibit(eta, i, snap.activity[i] as FloatArray);
-        const dt = dyn.dt;
+        // spike-frequency adaptation subtracts its variable from the net input (Benda & Herz 2003)
+        if (l.spec.adaptation !== undefined) K.sub(eta, eta, snap.adaptation[i] as FloatArray, len);
+        // the layer's own time constant: its step is dt / tau; changes are scaled back by tau for the stop rule
+        const tauL = this.tau[i] as number;
+        const dt = dyn.dt / tauL;
         const nudge = phase === "nudged" && l.role === "output" && this.coverage[i] !== 0;
         // partly observed outputs: the clamped phase holds the observed patterns; nudging goes through the
         // force, which is zero for the patterns not observed
@@ -495,14 +554,17 @@ export class Settler {
             K.axpby(nx, x, nx, 1, dt, len);
             const largest = K.maxAbs(nx, len);
             if (!(largest <= bound)) this.diverged(i, largest, bound, phase, step);
-            const d = K.maxAbsDiff(nx, x, len);
+            const d = K.maxAbsDiff(nx, x, len) * tauL;
+            snap.layerChange[i] = d;
             if (d > change) change = d;
             continue;
           }
           const fused = !held && fu !== null && fu !== undefined && K.rateStep !== undefined ? K.rateStep(fu.kind, fu.gain, fu.offset, x, nx, nudge ? tgt : null, beta, dt, bound, len) : null;
           if (fused !== null) {
             if (fused < 0) this.diverged(l.index, K.maxAbs(nx, len), bound, phase, step);
-            if (fused > change) change = fused;
+            const d = fused * tauL;
+            snap.layerChange[i] = d;
+            if (d > change) change = d;
             continue;
           }
           if (nudge) {
@@ -544,8 +606,14 @@ export class Settler {
         // one pass: maxAbs is NaN when a NaN is present and Infinity for an infinity, so both fail the test
         const largest = K.maxAbs(nx, len);
         if (!(largest <= bound)) this.diverged(i, largest, bound, phase, step);
-        const d = K.maxAbsDiff(nx, x, len);
+        const d = K.maxAbsDiff(nx, x, len) * tauL;
+        snap.layerChange[i] = d;
         if (d > change) change = d;
+      }
+      // the stateful units move from the same step's activities (synchronous Euler step)
+      if (this.stateful) {
+        const u = this.stepUnits(snap, dyn.dt, bound, phase, step);
+        if (u > change) change = u;
       }
       // synchronous update: every layer moved from the previous step's activities
       for (const l of net.layers) {
@@ -573,6 +641,52 @@ export class Settler {
     return snap;
   }
 
+  /**
+   * One Euler step of the stateful units from the step's activities (before they move): adaptation
+   * `a += (dt/τ_a)(g·r − a)` (Benda & Herz 2003, Neural Computation 15:2523) and resources
+   * `R += dt·((1 − R)/τ_rec − U·R·r_pre)`, kept in [0, 1] (Tsodyks & Markram 1997, PNAS 94:719).
+   * Returns the largest change in the stop rule's scale (times the variable's own time constant).
+   */
+  private stepUnits(snap: Snapshot, dt: number, bound: number, phase: Phase, step: number): number {
+    const { net, batch } = this;
+    let change = 0;
+    for (const l of net.layers) {
+      const ad = l.spec.adaptation;
+      if (ad === undefined || this.clamped[l.index]) continue;
+      const a = snap.adaptation[l.index] as FloatArray;
+      const r = snap.activity[l.index] as FloatArray;
+      const k = dt / ad.tau;
+      let largest = 0;
+      for (let q = 0; q < a.length; q++) {
+        const old = a[q] as number;
+        const v = old + k * (ad.gain * (r[q] as number) - old);
+        a[q] = v;
+        const d = Math.abs(v - old);
+        if (d > largest) largest = d;
+        if (!(Math.abs(v) <= bound)) this.diverged(l.index, Math.abs(v), bound, phase, step);
+      }
+      if (largest * ad.tau > change) change = largest * ad.tau;
+    }
+    for (const c of net.connections) {
+      const dep = c.spec.depression;
+      if (dep === undefined) continue;
+      const R = snap.resources[c.index] as FloatArray;
+      const pre = snap.activity[c.from] as FloatArray;
+      const m = net.layers[c.from]!.size;
+      let largest = 0;
+      for (let q = 0; q < batch * m; q++) {
+        const old = R[q] as number;
+        let v = old + dt * ((1 - old) / dep.recovery - dep.use * old * (pre[q] as number));
+        v = v < 0 ? 0 : v > 1 ? 1 : Number.isNaN(v) ? old : v;
+        R[q] = v;
+        const d = Math.abs(v - old);
+        if (d > largest) largest = d;
+      }
+      if (largest * dep.recovery > change) change = largest * dep.recovery;
+    }
+    return change;
+  }
+
   /** Reports a layer whose state became non-finite or left ±bound. */
   private diverged(i: number, largest: number, bound: number, phase: Phase, step: number): never {
     const l = this.net.layers[i]!;
@@ -593,8 +707,17 @@ export class Settler {
     const sparse = net.kernels.sparse ?? typescriptSparseKernels;
     const n = net.layers[i]!.size;
     for (const c of net.incoming[i] as readonly import("./network.js").Connection[]) {
-      if (mask[c.from] !== want) continue;
       const m = net.layers[c.from]!.size;
+      if (c.spec.depression !== undefined) {
+        // a depressed connection's transmission changes every step: never part of the drive; each step
+        // eta += (X_from ⊙ R) · Wᵀ, whether or not the sender is clamped
+        if (want) continue;
+        const eff = this.effectivePre[c.index] as FloatArray;
+        net.kernels.mul(eff, act[c.from] as FloatArray, this.currentResources?.[c.index] as FloatArray, batch * m);
+        gemm(eta, eff, c.weights, batch, n, m, false, true, 1, 1);
+        continue;
+      }
+      if (mask[c.from] !== want) continue;
       const sp = c.sparse;
       const cv = c.convolution;
       // eta (B×n) += X_from (B×m) · Wᵀ (m×n)

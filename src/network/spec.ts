@@ -58,6 +58,30 @@ const inhibitionSchema = z.discriminatedUnion(
   { error: "an inhibition kind: none, pooled or kwta" },
 );
 
+/**
+ * Schema of a layer's spike-frequency adaptation, rate form of Benda & Herz (2003), Neural Computation 15:2523:
+ * `τ_a da/dt = g·r − a`, with `a` subtracted from the net input. `tau` in the time units of `dynamics.dt`.
+ * @category Network
+ */
+export const adaptationSchema = z
+  .object({
+    tau: positiveField("an adaptation time constant > 0 (in the time units of dynamics.dt)"),
+    gain: nonNegativeField("an adaptation gain >= 0"),
+  })
+  .strict();
+
+/**
+ * Schema of a connection's short-term depression, rate form of Tsodyks & Markram (1997), PNAS 94:719:
+ * `dR/dt = (1 − R)/τ_rec − U·R·r_pre`, effective weight `W·R` per sending unit; `recovery` is τ_rec.
+ * @category Network
+ */
+export const depressionSchema = z
+  .object({
+    recovery: positiveField("a recovery time constant > 0 (in the time units of dynamics.dt)"),
+    use: z.number({ error: "a utilisation fraction in (0, 1]" }).refine((v) => Number.isFinite(v) && v > 0 && v <= 1, { error: "a utilisation fraction in (0, 1]" }),
+  })
+  .strict();
+
 /** The network declaration's schema with the given schema of a layer's `unit`. */
 function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
   const layerSchema = z
@@ -70,6 +94,10 @@ function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
       unit: unit.default({ kind: "logistic" }),
       bias: z.union([finiteField(), z.array(finiteField())], { error: "a finite number or an array of finite numbers" }).default(0),
       inhibition: inhibitionSchema.default({ kind: "none" }),
+      // time constant of the layer's rate dynamics: its step is dynamics.dt / tau (default 1; the fixed point does not depend on it)
+      tau: positiveField("a time constant > 0 (in the time units of dynamics.dt)").optional(),
+      // spike-frequency adaptation: a variable with its own time constant subtracted from the net input
+      adaptation: adaptationSchema.optional(),
     })
     .strict()
     .transform((l, ctx) => {
@@ -110,6 +138,8 @@ function networkSchemaWith(unit: z.ZodType<UnitSpecInput, UnitSpecInput>) {
       pattern: patternSchema.optional(),
       // weight storage: "dense" (full matrix, zeros outside the pattern), "sparse" (row-compressed products), "auto" (by density)
       storage: z.enum(["dense", "sparse", "auto"], { error: "one of dense, sparse, auto" }).optional(),
+      // short-term synaptic depression of the forward path's effective weight (per sending unit)
+      depression: depressionSchema.optional(),
     })
     .strict();
 
@@ -205,6 +235,8 @@ function crossCheck(spec: NetworkSpec): Issue[] {
     if (layer.inhibition.kind === "kwta" && layer.inhibition.k > layer.size) {
       problems.push(issueText("invalid_config", `layers[${i}].inhibition.k`, `k <= size (${layer.size})`, String(layer.inhibition.k)));
     }
+    if (layer.role === "input" && layer.tau !== undefined) problems.push(issueText("invalid_config", `layers[${i}].tau`, "no time constant on an input layer (its values are clamped)", String(layer.tau)));
+    if (layer.role === "input" && layer.adaptation !== undefined) problems.push(issueText("invalid_config", `layers[${i}].adaptation`, "no adaptation on an input layer (its values are clamped)", "an adaptation"));
     if (Array.isArray(layer.bias) && layer.bias.length !== layer.size) {
       problems.push(issueText("invalid_config", `layers[${i}].bias`, `a number or an array of length ${layer.size}`, `array of length ${layer.bias.length}`));
     }
@@ -301,3 +333,8 @@ export function networkJsonSchema(): Record<string, unknown> {
   // the editors' schema lists the built-in kinds (a union on `kind`); validation goes through the registry
   return z.toJSONSchema(networkSchemaWith(builtinUnits.schema), { io: "input", unrepresentable: "any" }) as Record<string, unknown>;
 }
+
+/** A layer's spike-frequency adaptation (see {@link adaptationSchema}). @category Network */
+export type AdaptationSpec = z.output<typeof adaptationSchema>;
+/** A connection's short-term depression (see {@link depressionSchema}). @category Network */
+export type DepressionSpec = z.output<typeof depressionSchema>;

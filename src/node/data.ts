@@ -14,6 +14,17 @@ import { describeValue, fail, requireInteger } from "../errors/index.js";
 import { createDataset, makeDataset, type Dataset } from "../train/data/dataset.js";
 import { parseCsvDataset, type CsvDatasetOptions } from "../train/data/csv.js";
 import { parseJsonDataset } from "../train/data/json.js";
+import { isSequenceDataset, parseCsvSequences, parseJsonSequences, withSequences } from "../train/data/sequences.js";
+
+/** Is the text a JSON object with a `sequences` key (a sequence data set)? Invalid JSON is left to the reader. */
+function holdsSequences(text: string): boolean {
+  try {
+    const o: unknown = JSON.parse(text.charCodeAt(0) === 0xfeff ? text.slice(1) : text);
+    return o !== null && typeof o === "object" && !Array.isArray(o) && "sequences" in o;
+  } catch {
+    return false;
+  }
+}
 import type { DatasetSplit } from "../train/data/split.js";
 
 /**
@@ -42,6 +53,8 @@ export interface LoadDatasetOptions {
   readonly delimiter?: string | undefined;
   /** Name of the data set. */
   readonly name?: string | undefined;
+  /** CSV/TSV: the column naming each row's sequence: the result is a sequence data set (see `parseCsvSequences`). */
+  readonly sequenceColumn?: number | string | undefined;
 }
 
 /**
@@ -77,12 +90,16 @@ export async function loadDataset(file: string, options: LoadDatasetOptions = {}
     return fail("io_error", file, "a readable data file", (e as Error).message);
   }
   if (format === "json") {
-    const ds = parseJsonDataset(text, file);
+    // a JSON file with a "sequences" key holds sequences (see parseJsonSequences)
+    const ds = holdsSequences(text) ? parseJsonSequences(text, file) : parseJsonDataset(text, file);
     if (options.name === undefined) return ds;
     if (typeof options.name !== "string" || options.name === "") return fail("invalid_parameter", "name", "a non-empty string", options.name);
-    return makeDataset({ ...ds, name: options.name });
+    return isSequenceDataset(ds) ? withSequences(makeDataset({ ...ds, name: options.name }), ds.sequenceStarts) : makeDataset({ ...ds, name: options.name });
   }
-  return parseCsvDataset(text, {
+  if (options.sequenceColumn !== undefined && (options.targetLayers !== undefined || options.inputLayers !== undefined)) {
+    fail("unsupported", "sequenceColumn", "a sequence CSV with targetColumns (sequence mode takes one input and one output layer)", "column groups per layer");
+  }
+  const csvOptions = {
     ...(options.targetLayers !== undefined ? { targetLayers: options.targetLayers } : { targetColumns: options.targetColumns as CsvDatasetOptions["targetColumns"] }),
     ...(options.inputLayers !== undefined ? { inputLayers: options.inputLayers } : {}),
     header: options.header,
@@ -92,7 +109,8 @@ export async function loadDataset(file: string, options: LoadDatasetOptions = {}
     source: file,
     delimiter: options.delimiter ?? (format === "tsv" ? "\t" : ","),
     name: options.name ?? file,
-  });
+  };
+  return options.sequenceColumn === undefined ? parseCsvDataset(text, csvOptions) : parseCsvSequences(text, { ...csvOptions, sequenceColumn: options.sequenceColumn });
 }
 
 /** Throws the error of a missing optional package, naming the command that installs it. */

@@ -15,3 +15,4 @@ export * from "./sources.js";
 export * from "./export.js";
 export { loadPlugins, resolvePlugin } from "./plugins.js";
 export * from "./fixed-split.js";
+export * from "./record.js";

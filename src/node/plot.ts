@@ -12,3 +12,5 @@ export { learningCurveSpec, learningCurveSvg, summarizeEpochs, bandCurveSpec, ba
 export type { CurveSplit, LabelledRun, LearningCurveOptions, BandKind, BandCurveOptions, RunGroup, BandPoint } from "./plot/curves.js";
 export { weightMatrixSpec, weightMatrixSvg, receptiveFieldsSpec, receptiveFieldsSvg, connectionFieldLayout, connectionFieldsSvg } from "./plot/heatmaps.js";
 export type { WeightMatrixOptions, FieldScaling, ReceptiveFieldOptions } from "./plot/heatmaps.js";
+export { timelineSpec, timelineSvg } from "./plot/timeline.js";
+export type { TimelineOptions } from "./plot/timeline.js";

@@ -274,6 +274,14 @@ export class SlidingThresholdRule extends SettlingRule {
   private readonly means: FloatArray[];
   private scratch = new Map<number, { fastPre: FloatArray[]; slowPre: FloatArray[]; co: FloatArray; th: FloatArray; ch: FloatArray }>();
   private averagesStarted = false;
+  /**
+   * With `timing: "continuous"`: the fast and slow traces run on from the previous step (the previous
+   * pattern of a sequence) instead of starting at the trial's first state. Set by the Trainer in
+   * sequence mode; {@link SlidingThresholdRule.resetTraces} starts them afresh (a new sequence).
+   */
+  carryTraces = false;
+  /** Batch size of the traces left by the last step (0: none to carry). */
+  private tracesBatch = 0;
 
   constructor(net: Network, config: Cfg<"calcium">) {
     super(net, config);
@@ -313,14 +321,52 @@ export class SlidingThresholdRule extends SettlingRule {
     return s;
   }
 
+  /** The next step's traces start at its first state (a new sequence). */
+  resetTraces(): void {
+    this.tracesBatch = 0;
+  }
+
+  /** The continuous traces of the last step per layer (B×N; null before any continuous step): for recording. */
+  traces(batch: number): { fast: FloatArray[]; slow: FloatArray[] } | null {
+    const b = this.scratch.get(batch);
+    return b === undefined ? null : { fast: b.fastPre, slow: b.slowPre };
+  }
+
   override saveState(): RuleState {
-    return { started: this.averagesStarted, averages: this.averageTraces.map((t) => Array.from(t.value)) };
+    const base = { started: this.averagesStarted, averages: this.averageTraces.map((t) => Array.from(t.value)) };
+    const live = this.carryTraces && this.tracesBatch > 0 ? this.scratch.get(this.tracesBatch) : undefined;
+    if (live === undefined) return base;
+    // carried traces are part of the state: resuming mid-sequence continues them bit for bit
+    return { ...base, traces: { batch: this.tracesBatch, fast: live.fastPre.map((a) => Array.from(a)), slow: live.slowPre.map((a) => Array.from(a)) } };
   }
 
   override loadState(state: RuleState): void {
-    const s = layerArraysState(this.net, state, "averages", "averages");
+    const { traces, ...rest } = state as Record<string, unknown>;
+    const s = layerArraysState(this.net, rest, "averages", "averages");
+    let carried: { batch: number; fast: number[][]; slow: number[][] } | null = null;
+    if (traces !== undefined) {
+      const t = traces as { batch?: unknown; fast?: unknown; slow?: unknown };
+      const B = t?.batch;
+      if (typeof B !== "number" || !Number.isInteger(B) || B < 1) fail("invalid_config", "rule.traces.batch", "an integer >= 1", B);
+      for (const key of ["fast", "slow"] as const) {
+        const arrays = t[key];
+        if (!Array.isArray(arrays) || arrays.length !== this.net.layers.length) fail("invalid_config", `rule.traces.${key}`, `one array per layer (${this.net.layers.length})`, arrays);
+        (arrays as unknown[]).forEach((a, i) => {
+          const want = B * this.net.layers[i]!.size;
+          if (!Array.isArray(a) || a.length !== want || a.some((v) => typeof v !== "number" || !Number.isFinite(v))) fail("invalid_config", `rule.traces.${key}[${i}]`, `${want} finite numbers (batch × layer size)`, Array.isArray(a) ? `array of length ${a.length}` : a);
+        });
+      }
+      carried = { batch: B, fast: t.fast as number[][], slow: t.slow as number[][] };
+    }
     s.values.forEach((a, i) => (this.averageTraces[i] as VectorTrace).value.set(a));
     this.averagesStarted = s.started;
+    this.tracesBatch = 0;
+    if (carried !== null) {
+      const buf = this.buffers(carried.batch);
+      carried.fast.forEach((a, i) => (buf.fastPre[i] as FloatArray).set(a));
+      carried.slow.forEach((a, i) => (buf.slowPre[i] as FloatArray).set(a));
+      this.tracesBatch = carried.batch;
+    }
   }
 
   computeDelta(batch: Batch, out: ParameterDelta): ParameterDelta {
@@ -343,7 +389,8 @@ export class SlidingThresholdRule extends SettlingRule {
       const aSlow = smoothingCoefficient(cfg.slowTau);
       const tf = buf.fastPre;
       const ts = buf.slowPre;
-      let first = true;
+      // in sequence mode the traces run on from the previous pattern's step (same batch)
+      let first = !(this.carryTraces && this.tracesBatch === B);
       const feed = (s: Snapshot) => {
         if (first) {
           // both traces start at the trial's first state, so neither is biased toward zero
@@ -364,6 +411,7 @@ export class SlidingThresholdRule extends SettlingRule {
       const free = settler.settle({ phase: "free", inputs: batch.inputs, start: this.startFor(B), onStep: feed, maxSteps: cfg.freeSteps, tolerance: Number.MIN_VALUE }, snaps[0]);
       this.lastFree = free;
       settler.settle({ phase: "clamped", reuseDrive: true, inputs: batch.inputs, targets: batch.targets, start: free, onStep: feed, maxSteps: cfg.clampedSteps, tolerance: Number.MIN_VALUE }, snaps[1]);
+      this.tracesBatch = B;
       fast = tf;
       slow = ts;
     }
@@ -528,6 +576,14 @@ export const generecRule = defineRule({
   create: (net, c) => new GeneRec(net, c),
 });
 
+/** The calcium rule's saved state: long-term averages and, in sequence mode, the carried continuous traces. */
+const calciumStateSchema = (layerArraysSchema("averages") as unknown as z.ZodObject).extend({
+  traces: z
+    .object({ batch: z.number().int().min(1), fast: z.array(z.array(z.number().refine(Number.isFinite, { error: "a finite number" }))), slow: z.array(z.array(z.number().refine(Number.isFinite, { error: "a finite number" }))) })
+    .strict()
+    .optional(),
+});
+
 /** The sliding-threshold calcium rule. @category Rules */
 export const calciumRule = defineRule({
   name: "calcium",
@@ -538,6 +594,6 @@ export const calciumRule = defineRule({
   readout: "settle",
   // the long-term averages of the bcm and blend thresholds change from batch to batch
   split: (c) => (c.threshold === "error" ? "slices" : "none"),
-  state: layerArraysSchema("averages"),
+  state: calciumStateSchema,
   create: (net, c) => new SlidingThresholdRule(net, c),
 });

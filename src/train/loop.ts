@@ -22,6 +22,9 @@ import { configWithLoss, ruleObjective } from "../rules/loss-config.js";
 import { scheduleFactor, scheduleSchema } from "./schedule.js";
 import { loadRuleState, trainerStateIssues } from "./state.js";
 import { requireBytes } from "../limits/index.js";
+import { carriesTraces, requireSequences, sequenceOptionsSchema, sequenceProgressIssues, SequenceRunner, type SequenceProgress } from "./sequences.js";
+import { isSequenceDataset } from "./data/sequences.js";
+import type { Recorder } from "../record/recorder.js";
 
 const METRIC_NAMES = ["sse", "loss", "binaryCrossEntropy", "softmaxCrossEntropy", "accuracy", "cosine"] as const;
 const metricName = z.enum(METRIC_NAMES, { error: `one of ${METRIC_NAMES.join(", ")}` });
@@ -57,6 +60,8 @@ export const trainingSchema = z
     guard: z.boolean().default(true),
     // an optimizer applied to the rule's change (momentum, Adam, weight decay, bias rates per layer); none by default
     optimizer: optimizerSchema.optional(),
+    // sequence mode: the data set's sequences run pattern by pattern, state and traces carried over (see SequenceRunner)
+    sequences: sequenceOptionsSchema.optional(),
   })
   .strict();
 
@@ -98,6 +103,8 @@ export interface TrainerState {
   readonly persistent: (number[] | null)[] | null;
   /** The optimizer's step count and moments, when `training.optimizer` is set. */
   readonly optimizer?: OptimizerState | null | undefined;
+  /** Sequence mode: where the epoch stands (its plan and position) and the carried state. */
+  readonly sequence?: SequenceProgress | null | undefined;
 }
 
 /** Callbacks of a {@link Trainer}. @category Training */
@@ -256,6 +263,10 @@ export class Trainer {
   private evalSettlers = new Map<number, Settler>();
   private evalPasses = new Map<number, ForwardPass>();
   private starts = new Map<number, Snapshot>();
+  /** Sequence mode's runner (null unless `training.sequences`). */
+  private readonly sequenceRunner: SequenceRunner | null;
+  /** Start time of the epoch under way (sequence mode steps through it pattern by pattern). */
+  private epochStart = 0;
 
   constructor(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>> | LearningRule, train: Dataset, options: TrainingOptionsInput, extras: TrainerExtras = {}) {
     this.net = net;
@@ -294,6 +305,14 @@ export class Trainer {
     this.optimizer = this.options.optimizer === undefined ? null : new Optimizer(net, this.rule, this.options.optimizer);
     if (this.options.persistentStates) requireBytes("training.persistentStates", `persistent states of ${train.size} examples`, train.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
+    const seq = this.options.sequences;
+    if (seq !== undefined) {
+      if (this.options.persistentStates) fail("invalid_config", "training.persistentStates", "false with training.sequences (the carried state is the free phase's start)", true);
+      if (this.forward) fail("unsupported", "training.sequences", "a rule that settles (a feedforward pass keeps no state to carry)", this.rule.config.rule);
+      if (layout.inputs.length !== 1 || layout.outputs.length !== 1) fail("unsupported", "training.sequences", "one input and one output layer in sequence mode", `${layout.inputs.length} input and ${layout.outputs.length} output layers`);
+      this.sequenceRunner = new SequenceRunner(net, requireSequences(train, "data.train"), seq.reset, this.options.batchSize, layout.inputs[0]!.name, layout.outputs[0]!.name);
+      if (carriesTraces(this.rule)) this.rule.carryTraces = true;
+    } else this.sequenceRunner = null;
   }
 
   /** The rule's name as reports and results show it (its descriptor's label). */
@@ -317,11 +336,17 @@ export class Trainer {
    * Evaluates the network (free phase, or the feedforward pass) on a data set: the metrics over every
    * observed read-out, and per output layer when the network has several (`layers`).
    */
-  evaluate(ds: Dataset): Metrics {
+  evaluate(ds: Dataset, recorder?: Recorder): Metrics {
     // random tie-breaking draws from a stream fixed by the seed, the data set's name and the epoch (no state to save)
     const ties = this.options.ties === "random" ? createRandom(this.seed).child(`train/ties/${ds.name}/${this.epoch}`) : null;
     const layout = this.layoutOf(ds);
     const perLayer = layout.outputs.map(() => new MetricSums(this.options.loss, this.options.ties, ties === null ? null : () => ties.uniform()));
+    if (this.sequenceRunner !== null && isSequenceDataset(ds)) {
+      // sequence mode: free phases pattern by pattern with the state carried over (recorded if asked)
+      this.sequenceRunner.evaluate(ds, (B) => this.evalSettler(B), layout.outputs[0]!.index, perLayer[0]!, recorder);
+      return perLayer[0]!.result();
+    }
+    if (recorder !== undefined) fail("invalid_parameter", "recorder", "no recorder (recording is for sequence-mode evaluation; pass onStep to a Settler otherwise)", "a recorder");
     const chunk = Math.min(256, ds.size);
     // one block per layer is a view of the rows; several are copied out per chunk
     const whole = (slots: readonly Slot[], width: number) => slots.length === 1 && slots[0]!.size === width;
@@ -347,12 +372,7 @@ export class Trainer {
         runForward(this.net, this.order, { inputs, targets: {} }, pass);
         activity = pass.activity;
       } else {
-        let s = this.evalSettlers.get(B);
-        if (s === undefined) {
-          s = new Settler(this.net, B);
-          this.evalSettlers.set(B, s);
-        }
-        activity = s.settle({ phase: "free", inputs }).activity;
+        activity = this.evalSettler(B).settle({ phase: "free", inputs }).activity;
       }
       layout.outputs.forEach((s, i) => {
         let t: Float64Array;
@@ -372,6 +392,60 @@ export class Trainer {
       layers[s.name] = perLayer[i]!.result();
     });
     return { ...overall.result(), layers };
+  }
+
+  /** The evaluation settler of batch size B (made once). */
+  private evalSettler(B: number): Settler {
+    let s = this.evalSettlers.get(B);
+    if (s === undefined) {
+      s = new Settler(this.net, B);
+      this.evalSettlers.set(B, s);
+    }
+    return s;
+  }
+
+  /** The rule's step on one batch, through the optimizer when there is one. */
+  private applyStep(batch: import("../rules/base.js").Batch, factor: number): void {
+    if (this.optimizer === null) this.rule.step(batch, factor);
+    else {
+      this.optimizer.before();
+      this.rule.step(batch, factor);
+      this.optimizer.after(factor);
+    }
+  }
+
+  /**
+   * Sequence mode: trains on one pattern position of the current batch of sequences (starting an epoch
+   * when none is under way) and returns the epoch's record when that was the epoch's last pattern, else
+   * null. The trainer's state may be saved between any two calls (resuming mid-sequence).
+   * @throws {@link EbbflowError} `invalid_config` when `training.sequences` is not set.
+   */
+  sequenceStep(): EpochRecord | null {
+    const runner = this.sequenceRunner;
+    if (runner === null) return fail("invalid_config", "training.sequences", "sequence mode (training.sequences set) for sequenceStep", "not set");
+    const epoch = this.epoch + 1;
+    if (!runner.midEpoch) this.epochStart = performance.now();
+    const factor = scheduleFactor(this.options.schedule, epoch);
+    const done = runner.step(this.rule, this.options.shuffle ? this.shuffleStream : null, (batch) => this.applyStep(batch, factor));
+    this.hooks.onBatch?.({ epoch, batch: 0, batches: 0, size: 0 });
+    return done ? this.finishEpoch(this.epochStart, factor) : null;
+  }
+
+  /** The record of the epoch just trained (evaluations included), kept in the history. */
+  private finishEpoch(t0: number, factor: number): EpochRecord {
+    const epoch = this.epoch + 1;
+    const ds = this.train;
+    const record: EpochRecord = {
+      kind: "epoch",
+      epoch,
+      seconds: (performance.now() - t0) / 1000,
+      rate: this.rule.config.rate * factor,
+      ...(this.options.evaluateTrain ? { train: this.evaluate(ds) } : {}),
+      ...(this.test !== undefined ? { test: this.evaluate(this.test) } : {}),
+    };
+    this.epoch = epoch;
+    this.history.push(record);
+    return record;
   }
 
   /** Gathers a mini-batch's examples (rows `idx`) into one flat array per layer. */
@@ -415,6 +489,12 @@ export class Trainer {
 
   /** Runs one epoch and returns its record. */
   runEpoch(): EpochRecord {
+    if (this.sequenceRunner !== null) {
+      for (;;) {
+        const r = this.sequenceStep();
+        if (r !== null) return r;
+      }
+    }
     const t0 = performance.now();
     const epoch = this.epoch + 1;
     const ds = this.train;
@@ -435,27 +515,12 @@ export class Trainer {
       this.layout.outputs.forEach((s, i) => (targets[s.name] = tBufs[i]!.subarray(0, B * s.size)));
       const batch = { inputs, targets };
       this.rule.freeStart = this.persistent ? this.persistentStart(idx, from, B) : null;
-      if (this.optimizer === null) this.rule.step(batch, factor);
-      else {
-        this.optimizer.before();
-        this.rule.step(batch, factor);
-        this.optimizer.after(factor);
-      }
+      this.applyStep(batch, factor);
       if (this.persistent) this.keepPersistent(idx, from, B);
       this.hooks.onBatch?.({ epoch, batch: b + 1, batches, size: B });
     }
     this.rule.freeStart = null;
-    const record: EpochRecord = {
-      kind: "epoch",
-      epoch,
-      seconds: (performance.now() - t0) / 1000,
-      rate: this.rule.config.rate * factor,
-      ...(this.options.evaluateTrain ? { train: this.evaluate(ds) } : {}),
-      ...(this.test !== undefined ? { test: this.evaluate(this.test) } : {}),
-    };
-    this.epoch = epoch;
-    this.history.push(record);
-    return record;
+    return this.finishEpoch(t0, factor);
   }
 
   /**
@@ -515,6 +580,7 @@ export class Trainer {
       sinceBest: this.sinceBest,
       persistent: this.persistent ? this.persistent.map((p) => (p ? Array.from(p) : null)) : null,
       ...(this.optimizer !== null ? { optimizer: this.optimizer.saveState() } : {}),
+      ...(this.sequenceRunner !== null ? { sequence: this.sequenceRunner.save() } : {}),
     };
   }
 
@@ -525,6 +591,11 @@ export class Trainer {
    */
   loadState(state: TrainerState): void {
     const problems = trainerStateIssues(state, { layers: this.net.layers, examples: this.train.size, persistentStates: this.options.persistentStates });
+    const runner = this.sequenceRunner;
+    if (problems.length === 0 && runner !== null) {
+      if (state.sequence === undefined || state.sequence === null) problems.push(issueText("parse_error", "trainer.sequence", "the sequence progress of a run with training.sequences", "none"));
+      else problems.push(...sequenceProgressIssues(state.sequence, this.net, runner.train, runner.batchSize, "trainer.sequence"));
+    }
     if (problems.length > 0) throw new EbbflowError(problems);
     const shuffle = RandomStream.fromState(state.shuffle, "trainer.shuffle");
     // a damaged rule state is a typed error naming the field (checked against the rule's state schema, then by the rule)
@@ -539,6 +610,7 @@ export class Trainer {
       if (state.optimizer === undefined || state.optimizer === null) fail("invalid_config", "trainer.optimizer", "the optimizer state of a run with training.optimizer", "none");
       this.optimizer.loadState(state.optimizer);
     }
+    if (runner !== null && state.sequence) runner.load(state.sequence);
     if (this.persistent && state.persistent) {
       state.persistent.forEach((p, i) => {
         const store = this.persistent?.[i];

@@ -56,6 +56,8 @@ export const trainerStateSchema = z
     persistent: z.array(z.array(finite()).nullable(), { error: "an array per layer (null for input layers)" }).nullable(),
     /** The optimizer's step count and moments (checked against the network by `Optimizer.loadState`). */
     optimizer: z.object({ steps: count(0), moments: z.array(z.array(finite())) }).strict().nullable().optional(),
+    /** Sequence mode's progress and carried state (checked against the data set by the trainer, see `sequenceProgressIssues`). */
+    sequence: z.unknown().optional(),
   })
   .strict();
 

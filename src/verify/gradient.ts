@@ -91,6 +91,9 @@ export function recurrentGradient(net: Network, given: Batch | BatchInput, opts:
   const batch: Batch = flatBatch(net, given);
   const objective = objectiveOf(opts);
   for (const l of net.layers) if (l.inhibition.kind === "kwta") fail("unsupported", `layers[${l.index}].inhibition`, "no k-winners-take-all (its inhibition is not differentiable)", "kwta");
+  // stateful units change the fixed-point condition this derivation solves (per-layer tau does not)
+  for (const l of net.layers) if (l.spec.adaptation !== undefined) fail("unsupported", `layers[${l.index}].adaptation`, "no adaptation (recurrent backprop here assumes stateless units)", "an adaptation");
+  for (const c of net.connections) if (c.spec.depression !== undefined) fail("unsupported", `connections[${c.index}].depression`, "no depression (recurrent backprop here assumes static weights)", "a depression");
   const B = batchSizeOf(net, batch);
   const free = settleFree(net, batch.inputs, B, opts);
   const energy = net.spec.dynamics.kind === "energy";

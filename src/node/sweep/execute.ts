@@ -85,6 +85,7 @@ export async function executeRun(task: RunTask): Promise<RunReport> {
       inputLayers: config.data.inputLayers,
       oneHot: config.data.oneHot,
       scale: config.data.scale,
+      sequenceColumn: config.data.sequenceColumn,
       split: config.data.split === undefined ? undefined : resolveSplitPaths(config.data.split, task.baseDir),
     });
     const registry = await loadPlugins(task.plugins ?? []);

@@ -55,7 +55,7 @@ export interface CsvDatasetOptions {
 }
 
 /** One record as read by the tokenizer. */
-interface CsvRecord {
+export interface CsvRecord {
   readonly fields: string[];
   /** 1-based line on which the record starts. */
   readonly row: number;
@@ -88,8 +88,9 @@ function countLineBreaks(text: string, from: number, to: number): number {
  * line break does not start a record. Structural errors (a quote inside an
  * unquoted field, text after a closing quote, an unclosed quote) are added to
  * `issues` and end the reading.
+ * @internal
  */
-function tokenize(text: string, delimiter: number, source: string, issues: IssueList, onRecord: (r: CsvRecord) => boolean): void {
+export function tokenize(text: string, delimiter: number, source: string, issues: IssueList, onRecord: (r: CsvRecord) => boolean): void {
   const n = text.length;
   let i = text.charCodeAt(0) === 0xfeff ? 1 : 0;
   let line = 1;
@@ -163,8 +164,8 @@ const INPUT = 0;
 const TARGET = 1;
 const IGNORED = 2;
 
-/** Resolves column references (indices from 0, negative from the end, or header names) to indices. */
-function resolveColumns(
+/** Resolves column references (indices from 0, negative from the end, or header names) to indices. @internal */
+export function resolveColumns(
   refs: readonly (number | string)[],
   optionName: string,
   width: number,
@@ -195,8 +196,8 @@ function resolveColumns(
   return out;
 }
 
-/** Checks the options that do not depend on the text. */
-function checkOptions(options: CsvDatasetOptions): { delimiter: number; header: boolean; oneHot: boolean } {
+/** Checks the options that do not depend on the text. @internal */
+export function checkOptions(options: CsvDatasetOptions): { delimiter: number; header: boolean; oneHot: boolean } {
   if (typeof options !== "object" || options === null) fail("invalid_parameter", "options", "an options object with source and targetColumns", options);
   refuseUnknownOptions(options, ["source", "targetColumns", "targetLayers", "inputLayers", "header", "oneHot", "classNames", "ignoreColumns", "delimiter", "name"]);
   if (typeof options.source !== "string" || options.source === "") fail("invalid_parameter", "source", "a non-empty string (a file name)", options.source);

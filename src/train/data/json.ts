@@ -114,6 +114,25 @@ function readNames(value: unknown, key: string, source: string, issues: IssueLis
 }
 
 /**
+ * The JSON object in `text` (a leading byte-order mark skipped), read from `source`.
+ * @throws {@link EbbflowError} `invalid_parameter` for a bad source or text; `parse_error` (path `source`) for
+ *   invalid JSON or a top level that is not an object (`what` says what was expected).
+ * @internal
+ */
+export function jsonObjectOf(text: string, source: string, what: string): Record<string, unknown> {
+  if (typeof source !== "string" || source === "") fail("invalid_parameter", "source", "a non-empty string (a file name)", source);
+  if (typeof text !== "string") fail("invalid_parameter", "text", "a string", text);
+  let data: unknown;
+  try {
+    data = JSON.parse(text.charCodeAt(0) === 0xfeff ? text.slice(1) : text);
+  } catch (e) {
+    return fail("parse_error", source, "valid JSON", (e as Error).message);
+  }
+  if (typeof data !== "object" || data === null || Array.isArray(data)) return fail("parse_error", source, what, describeValue(data));
+  return data as Record<string, unknown>;
+}
+
+/**
  * Reads a data set written in ebbflow's JSON format (described in this
  * module's notes: `inputs`, `targets` and/or `labels`, optional `classNames`,
  * `inputNames`, `name`).
@@ -131,18 +150,7 @@ function readNames(value: unknown, key: string, source: string, issues: IssueLis
  * ```
  */
 export function parseJsonDataset(text: string, source: string): Dataset {
-  if (typeof source !== "string" || source === "") fail("invalid_parameter", "source", "a non-empty string (a file name)", source);
-  if (typeof text !== "string") fail("invalid_parameter", "text", "a string", text);
-  let data: unknown;
-  try {
-    data = JSON.parse(text.charCodeAt(0) === 0xfeff ? text.slice(1) : text);
-  } catch (e) {
-    return fail("parse_error", source, "valid JSON", (e as Error).message);
-  }
-  if (typeof data !== "object" || data === null || Array.isArray(data)) {
-    return fail("parse_error", source, "a JSON object with inputs and targets or labels", describeValue(data));
-  }
-  const obj = data as Record<string, unknown>;
+  const obj = jsonObjectOf(text, source, "a JSON object with inputs and targets or labels");
   if (obj.inputs !== null && typeof obj.inputs === "object" && !Array.isArray(obj.inputs)) {
     // values per layer name
     for (const key of Object.keys(obj)) if (key !== "name" && key !== "inputs" && key !== "targets") fail("parse_error", `${source}:${key}`, "only the keys name, inputs, targets (inputs given per layer)", "an unknown key");
