@@ -13,6 +13,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   settle: () => import("./settle.js"),
   training: () => import("./training.js"),
   step: () => import("./step.js"),
+  update: () => import("./update.js"),
   parallel: () => import("./parallel.js"),
   agreement: () => import("./agreement.js"),
   digits: () => import("./digits.js"),

@@ -121,6 +121,72 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 }
 
 /**
+ * Fraction of post units with a non-zero phase difference at or above which {@link diffOuterSum} takes
+ * the dense product; below it, only those rows are computed. Measured with `npm run bench -- update`
+ * (docs/guide/speed.md): the row-sparse update costs a scan, two gathers and a scatter besides its
+ * product, which pays for itself below 50–75 % active rows on both backends (784-500, batch 20 and 64).
+ * @category Rules
+ */
+export const SPARSE_UPDATE_CROSSOVER = 0.6;
+
+/** The crossover the rules use (benchmarks set 0 to time the dense update alone); not part of the public API. */
+let crossoverInUse = SPARSE_UPDATE_CROSSOVER;
+/** Sets the crossover the rules use (benchmarks only); returns the previous one. */
+export function setSparseUpdateCrossover(c: number): number {
+  const before = crossoverInUse;
+  crossoverInUse = c;
+  return before;
+}
+
+/** Per change array (weights or a change matrix): the compacted working arrays of the row-sparse update. */
+const rowSparseWork = new WeakMap<FloatArray, { rows: Int32Array; diffT: FloatArray; block: FloatArray }>();
+
+/**
+ * `out (n×m) = alpha · diffᵀ pre + beta · out` (diff B×n, pre B×m), skipping the rows of `out` (post
+ * units) whose difference is exactly zero in every pattern when they are more than 1 − crossover of
+ * them: the other rows' differences are gathered into an r×B block and their rows of `out` into an r×m
+ * block, the product is taken on the blocks with the same kernel (`gemm` with op(A) r×B) and the rows
+ * are scattered back. Bit for bit the dense product in its own order of summation: every row's
+ * entries are the same sums over the batch, and a skipped row's dense entries would be
+ * `beta · out + alpha · Σ (±0 · pre)`, i.e. `out` unchanged (or +0 for beta 0) as long as `pre` is
+ * finite — except that a weight of −0 in a skipped row stays −0 (the dense sum makes it +0).
+ * Returns false (and does nothing) when the dense product should run.
+ */
+export function rowSparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover = crossoverInUse): boolean {
+  if (batch === 1 || n < 2) return false;
+  let work = rowSparseWork.get(out);
+  if (work === undefined || work.rows.length < n || work.diffT.length < n * batch || work.block.length < n * m) {
+    const dtype = out instanceof Float32Array ? "float32" : "float64";
+    work = { rows: new Int32Array(n), diffT: k.allocate(dtype, n * batch), block: k.allocate(dtype, n * m) };
+  }
+  const { rows, diffT, block } = work;
+  const limit = crossover * n;
+  let r = 0;
+  for (let i = 0; i < n; i++) {
+    for (let b = 0; b < batch; b++) {
+      if ((diff[b * n + i] as number) !== 0) {
+        rows[r++] = i;
+        break;
+      }
+    }
+    if (r >= limit) return false;
+  }
+  rowSparseWork.set(out, work);
+  for (let q = 0; q < r; q++) {
+    const i = rows[q] as number;
+    for (let b = 0; b < batch; b++) diffT[q * batch + b] = diff[b * n + i] as number;
+    if (beta === 1) block.set(out.subarray(i * m, i * m + m), q * m);
+  }
+  if (r > 0) k.gemm(block, diffT, pre, r, m, batch, false, false, alpha, beta);
+  if (beta === 0) k.fill(out, 0, n * m);
+  for (let q = 0; q < r; q++) {
+    const i = rows[q] as number;
+    out.set(block.subarray(q * m, q * m + m), i * m);
+  }
+  return true;
+}
+
+/**
  * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
  * the clamped-minus-free coactivity of a connection. When the sending layer is clamped in both
  * phases (`samePre`: preA and preB hold the same values), it is computed as one product
@@ -129,7 +195,8 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 export function contrast(k: KernelBackend, out: FloatArray, alpha: number, postA: FloatArray, preA: FloatArray, postB: FloatArray, preB: FloatArray, batch: number, n: number, m: number, samePre = false, scratch?: FloatArray): void {
   if (samePre && scratch !== undefined) {
     k.sub(scratch, postA, postB, batch * n);
-    outerSum(k, out, alpha, scratch, preA, batch, n, m, 0);
+    // activity-sparse: rows whose phase difference is exactly zero are skipped (same bits)
+    if (!rowSparseOuterSum(k, out, alpha, scratch, preA, batch, n, m, 0)) outerSum(k, out, alpha, scratch, preA, batch, n, m, 0);
     return;
   }
   outerSum(k, out, alpha, postA, preA, batch, n, m, 0);
@@ -260,7 +327,7 @@ export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[],
     if (t.samePre) {
       const scratch = scratchFor(c.to);
       K.sub(scratch, t.postA, t.postB, batch * n);
-      outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1);
+      if (!rowSparseOuterSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1)) outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1);
     } else {
       outerSum(K, c.weights, t.alpha, t.postA, t.preA, batch, n, m, 1);
       outerSum(K, c.weights, -t.alpha, t.postB, t.preB, batch, n, m, 1);
