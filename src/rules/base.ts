@@ -154,12 +154,9 @@ const rowSparseWork = new WeakMap<FloatArray, { rows: Int32Array; diffT: FloatAr
  */
 export function rowSparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover = crossoverInUse): boolean {
   if (batch === 1 || n < 2) return false;
+  // the scan decides first; the working arrays are allocated (once per change array) only for the sparse path
   let work = rowSparseWork.get(out);
-  if (work === undefined || work.rows.length < n || work.diffT.length < n * batch || work.block.length < n * m) {
-    const dtype = out instanceof Float32Array ? "float32" : "float64";
-    work = { rows: new Int32Array(n), diffT: k.allocate(dtype, n * batch), block: k.allocate(dtype, n * m) };
-  }
-  const { rows, diffT, block } = work;
+  const rows = work !== undefined && work.rows.length >= n ? work.rows : new Int32Array(n);
   const limit = crossover * n;
   let r = 0;
   for (let i = 0; i < n; i++) {
@@ -169,9 +166,17 @@ export function rowSparseOuterSum(k: KernelBackend, out: FloatArray, alpha: numb
         break;
       }
     }
-    if (r >= limit) return false;
+    if (r >= limit) {
+      if (work === undefined) rowSparseWork.set(out, { rows, diffT: k.allocate(out instanceof Float32Array ? "float32" : "float64", 0), block: k.allocate(out instanceof Float32Array ? "float32" : "float64", 0) });
+      return false;
+    }
   }
-  rowSparseWork.set(out, work);
+  if (work === undefined || work.diffT.length < r * batch || work.block.length < n * m) {
+    const dtype = out instanceof Float32Array ? "float32" : "float64";
+    work = { rows, diffT: k.allocate(dtype, n * batch), block: k.allocate(dtype, n * m) };
+    rowSparseWork.set(out, work);
+  }
+  const { diffT, block } = work;
   for (let q = 0; q < r; q++) {
     const i = rows[q] as number;
     for (let b = 0; b < batch; b++) diffT[q * batch + b] = diff[b * n + i] as number;
