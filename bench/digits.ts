@@ -2,7 +2,8 @@
  * Handwritten digits, time to accuracy: the published Equilibrium Propagation setting (Scellier & Bengio
  * 2017; bench/experiments/digits-eqprop-2017.json, trained exactly as `ebbflow train` trains that file)
  * against a NumPy implementation of the same equations (bench/peers/numpy_eqprop_digits.py) with one BLAS
- * thread and with NumPy's default threads, on the same 8,000 / 2,000 split, in the same run: seconds per
+ * thread and with NumPy's default threads, on the same 8,000 / 2,000 split, in the same run, epoch by epoch
+ * in turn (ebbflow's epoch, then each peer's, so a shared machine's load falls on all alike): seconds per
  * epoch (training only, evaluation excluded), held-out accuracy per epoch, and training seconds until the
  * held-out accuracy first reaches 93% and 94%. Then `ebbflow bench` (EqProp 784-256-10, µs per example) at
  * batch 1, 20 and 64 with its NumPy peer.
@@ -45,30 +46,15 @@ function median(xs: number[]): number {
   return s[Math.floor(s.length / 2)] as number;
 }
 
-async function ebbflowRun(epochs: number | undefined, seed: number): Promise<Curve> {
-  const { experiment } = await readModelArgument(EXPERIMENT);
-  const backend = selectBackend("auto");
-  const net = buildNetwork(experiment.network, { backend });
-  const data = experiment.data!;
-  const { train, test } = await resolveData(data.source, { testFraction: data.testFraction, seed, split: data.split, scale: data.scale });
-  // the training accuracy is not needed here (it is not timed either way)
-  const training = { ...experiment.training!, evaluateTrain: false, ...(epochs !== undefined ? { epochs } : {}) };
-  const curve: Curve = { label: `ebbflow (${backend.name}, one thread)`, seed, epochs: [] };
-  const trainer = new Trainer(net, experiment.rules[0]!, train, training, {
-    test,
-    seed,
-    hooks: {
-      onEpoch: (r: EpochRecord) => {
-        curve.epochs.push({ seconds: r.seconds, test: r.test?.accuracy ?? 0 });
-        console.log(`  ${curve.label} seed ${seed} epoch ${r.epoch}: ${r.seconds.toFixed(2)} s, held-out ${((r.test?.accuracy ?? 0) * 100).toFixed(2)}%`);
-      },
-    },
-  });
-  trainer.run();
-  return curve;
+/** A NumPy peer process that trains one epoch per line written to it (lockstep with ebbflow's epochs). */
+interface Peer {
+  readonly curve: Curve;
+  /** Runs the peer's next epoch; resolves when its result line has arrived (false: the peer failed). */
+  epoch(): Promise<boolean>;
+  readonly failure: () => string;
 }
 
-async function numpyRun(epochs: number, seed: number, oneThread: boolean): Promise<Curve | string> {
+function startPeer(epochs: number, seed: number, oneThread: boolean): Peer | string {
   let digits: string;
   try {
     digits = path.dirname(createRequire(import.meta.url).resolve("mnist/src/digits/0.json"));
@@ -76,12 +62,13 @@ async function numpyRun(epochs: number, seed: number, oneThread: boolean): Promi
     return "skipped: the mnist package is not installed";
   }
   if (!existsSync(PEER)) return `skipped: ${PEER} not found`;
-  const env = oneThread ? { ...process.env, OPENBLAS_NUM_THREADS: "1", OMP_NUM_THREADS: "1", MKL_NUM_THREADS: "1" } : process.env;
+  const threads = oneThread ? { OPENBLAS_NUM_THREADS: "1", OMP_NUM_THREADS: "1", MKL_NUM_THREADS: "1" } : {};
   const label = `NumPy, ${oneThread ? "one BLAS thread" : "default BLAS threads"}`;
   const curve: Curve = { label, seed, epochs: [] };
-  const child = spawn("python3", [PEER, digits, String(epochs), String(seed)], { env, stdio: ["ignore", "pipe", "pipe"] });
+  const child = spawn("python3", [PEER, digits, String(epochs), String(seed)], { env: { ...process.env, ...threads, EBBFLOW_PEER_LOCKSTEP: "1" }, stdio: ["pipe", "pipe", "pipe"] });
   let out = "";
   let err = "";
+  let waiting: ((ok: boolean) => void) | null = null;
   child.stdout.on("data", (d: Buffer) => {
     out += d.toString();
     let nl: number;
@@ -91,15 +78,60 @@ async function numpyRun(epochs: number, seed: number, oneThread: boolean): Promi
       const r = JSON.parse(line) as { epoch: number; seconds: number; test: number; numpy: string };
       curve.epochs.push({ seconds: r.seconds, test: r.test });
       console.log(`  ${label} (NumPy ${r.numpy}) seed ${seed} epoch ${r.epoch}: ${r.seconds.toFixed(2)} s, held-out ${(r.test * 100).toFixed(2)}%`);
+      waiting?.(true);
+      waiting = null;
     }
   });
   child.stderr.on("data", (d: Buffer) => (err += d.toString()));
-  const code = await new Promise<number | null>((resolve) => {
-    child.on("error", () => resolve(-1));
-    child.on("close", resolve);
-  });
-  if (code !== 0) return `skipped: python3 with NumPy not available (${err.trim().split("\n").at(-1) ?? ""})`;
-  return curve;
+  const fail = () => {
+    waiting?.(false);
+    waiting = null;
+  };
+  child.on("error", fail);
+  child.on("close", fail);
+  return {
+    curve,
+    epoch: () =>
+      new Promise<boolean>((resolve) => {
+        if (child.exitCode !== null || child.killed) return resolve(false);
+        waiting = resolve;
+        child.stdin.write("\n");
+      }),
+    failure: () => `skipped: python3 with NumPy not available (${err.trim().split("\n").at(-1) ?? ""})`,
+  };
+}
+
+/** ebbflow on the experiment file and the NumPy peers, epoch by epoch in turn (the same machine load for each). */
+async function lockstep(epochs: number | undefined, seed: number, threadModes: boolean[], skipped: string[]): Promise<Curve[]> {
+  const { experiment } = await readModelArgument(EXPERIMENT);
+  const backend = selectBackend("auto");
+  const net = buildNetwork(experiment.network, { backend });
+  const data = experiment.data!;
+  const { train, test } = await resolveData(data.source, { testFraction: data.testFraction, seed, split: data.split, scale: data.scale });
+  // the training accuracy is not needed here (it is not timed either way)
+  const training = { ...experiment.training!, evaluateTrain: false, ...(epochs !== undefined ? { epochs } : {}) };
+  const curve: Curve = { label: `ebbflow (${backend.name}, one thread)`, seed, epochs: [] };
+  const trainer = new Trainer(net, experiment.rules[0]!, train, training, { test, seed });
+  const peers: Peer[] = [];
+  for (const one of threadModes) {
+    const p = startPeer(training.epochs, seed, one);
+    if (typeof p === "string") skipped.push(p);
+    else peers.push(p);
+  }
+  const live = new Set(peers);
+  for (let e = 1; e <= training.epochs; e++) {
+    const r = trainer.runEpoch();
+    curve.epochs.push({ seconds: r.seconds, test: r.test?.accuracy ?? 0 });
+    console.log(`  ${curve.label} seed ${seed} epoch ${r.epoch}: ${r.seconds.toFixed(2)} s, held-out ${((r.test?.accuracy ?? 0) * 100).toFixed(2)}%`);
+    for (const p of peers) {
+      if (!live.has(p)) continue;
+      if (!(await p.epoch())) {
+        live.delete(p);
+        if (p.curve.epochs.length === 0) skipped.push(p.failure());
+      }
+    }
+  }
+  return [curve, ...peers.filter((p) => p.curve.epochs.length > 0).map((p) => p.curve)];
 }
 
 export async function run(): Promise<void> {
@@ -113,15 +145,7 @@ export async function run(): Promise<void> {
   console.log(`digits, published EqProp setting (${EXPERIMENT}): ${n} epochs, seeds ${seeds.join(", ")}; the same split and equations for NumPy (${PEER})`);
   const curves: Curve[] = [];
   const skipped: string[] = [];
-  for (const seed of seeds) {
-    // interleaved per seed, so drift of a shared machine falls on every implementation alike
-    curves.push(await ebbflowRun(epochs, seed));
-    for (const one of threadModes) {
-      const c = await numpyRun(n, seed, one);
-      if (typeof c === "string") skipped.push(c);
-      else curves.push(c);
-    }
-  }
+  for (const seed of seeds) curves.push(...(await lockstep(epochs, seed, threadModes, skipped)));
   console.log("\n| implementation | seed | s per epoch (median) | held-out after the last epoch | best held-out | s to 93% | s to 94% |");
   console.log("| --- | --- | --- | --- | --- | --- | --- |");
   curves.forEach((c) => {

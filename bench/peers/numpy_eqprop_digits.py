@@ -17,6 +17,8 @@ biases alike, alpha 0.1 (image->hidden and hidden biases) and 0.05 (hidden->digi
 batch 20, examples shuffled every epoch; float32. The held-out read-out settles 20 free steps from rest.
 
 Usage: python3 numpy_eqprop_digits.py DIGITS_DIR [EPOCHS] [SEED] [HIDDEN]  (HIDDEN: 500 as published)
+With EBBFLOW_PEER_LOCKSTEP=1 the script reads one line from stdin before each epoch, so a caller can
+alternate its own epochs with this script's (on a shared machine both then see the same load).
 Set OPENBLAS_NUM_THREADS / OMP_NUM_THREADS to restrict NumPy's BLAS threads.
 """
 import json
@@ -85,7 +87,10 @@ def main():
 
     threads = os.environ.get("OPENBLAS_NUM_THREADS") or os.environ.get("OMP_NUM_THREADS") or "default"
     total = 0.0
+    lockstep = os.environ.get("EBBFLOW_PEER_LOCKSTEP") == "1"
     for epoch in range(1, epochs + 1):
+        if lockstep and sys.stdin.readline() == "":
+            return
         order = rng.permutation(len(xs))
         start = time.perf_counter()
         for s in range(0, len(xs), batch):

@@ -9,6 +9,7 @@
 import { spawnSync } from "node:child_process";
 import { existsSync } from "node:fs";
 import { fileURLToPath } from "node:url";
+import path from "node:path";
 import { buildNetwork, type Network } from "../../network/network.js";
 import type { NetworkSpec, NetworkSpecInput } from "../../network/spec.js";
 import { createRule } from "../../rules/index.js";
@@ -109,7 +110,9 @@ async function timeIt(fn: () => unknown, seconds: number): Promise<number> {
  * thread (`OPENBLAS_NUM_THREADS=1` and friends), the like-for-like peer of ebbflow on one thread.
  */
 async function numpyPeer(batches: number[], seconds: number): Promise<BenchFigure[]> {
-  const script = fileURLToPath(new URL("../../../bench/peers/numpy_eqprop.py", import.meta.url));
+  // beside the package (dist/node/bench -> bench/peers), or in the working folder (the repository's bench build)
+  const candidates = [fileURLToPath(new URL("../../../bench/peers/numpy_eqprop.py", import.meta.url)), path.resolve("bench/peers/numpy_eqprop.py")];
+  const script = candidates.find((f) => existsSync(f)) ?? (candidates[0] as string);
   const out: BenchFigure[] = [];
   for (const [implementation, env] of [
     ["numpy", {}],
