@@ -9,7 +9,7 @@ import { setFlagsFromString } from "node:v8";
 import { typescriptBackend } from "../src/kernels/index.js";
 import type { KernelBackend } from "../src/kernels/backend.js";
 import { loadWasmKernelsSync, wasmRelaxedSimdSupported } from "../src/kernels/wasm/index.js";
-import { outerSum, rowSparseOuterSum } from "../src/rules/base.js";
+import { outerSum, sparseOuterSum } from "../src/rules/base.js";
 
 if (Number(process.versions.node.split(".")[0]) === 20) setFlagsFromString("--experimental-wasm-relaxed-simd");
 
@@ -52,7 +52,7 @@ export async function run(): Promise<void> {
         for (let i = 0; i < n; i++) for (let b = 0; b < B; b++) d[b * n + i] = (i * 7919) % 1000 < density * 1000 ? 1e-3 * ((b % 3) - 1 || 1) : 0;
         const ms = be.name === "typescript" ? 600 : 300;
         const dense = time(() => outerSum(be, w, 1e-3, d, x, B, n, m, 1), ms);
-        const sparse = time(() => void rowSparseOuterSum(be, w, 1e-3, d, x, B, n, m, 1, 2), ms);
+        const sparse = time(() => void sparseOuterSum(be, w, 1e-3, d, x, B, n, m, 1, 2), ms);
         console.log(`| ${be.name} | ${B} | ${(density * 100).toFixed(0)}% | ${dense.toFixed(0)} | ${sparse.toFixed(0)} | ${(dense / sparse).toFixed(2)} |`);
       }
     }

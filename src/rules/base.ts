@@ -121,10 +121,12 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 }
 
 /**
- * Fraction of post units with a non-zero phase difference at or above which {@link diffOuterSum} takes
- * the dense product; below it, only those rows are computed. Measured with `npm run bench -- update`
- * (docs/guide/speed.md): the row-sparse update costs a scan, two gathers and a scatter besides its
- * product, which pays for itself below 50–75 % active rows on both backends (784-500, batch 20 and 64).
+ * Fraction of a contrastive update's entries that are active (receiving unit with a non-zero phase
+ * difference and sending unit with a non-zero activity, in some pattern of the batch) at or above which the
+ * dense product runs; below it, only the active entries are computed ({@link sparseOuterSum}). Measured
+ * with `npm run bench -- update` (docs/guide/speed.md): the sparse update costs two scans, three gathers
+ * and a scatter besides its product, which pays for itself below 50–75 % active entries on both backends
+ * (784-500, batch 20 and 64).
  * @category Rules
  */
 export const SPARSE_UPDATE_CROSSOVER = 0.6;
@@ -138,26 +140,35 @@ export function setSparseUpdateCrossover(c: number): number {
   return before;
 }
 
-/** Per change array (weights or a change matrix): the compacted working arrays of the row-sparse update. */
-const rowSparseWork = new WeakMap<FloatArray, { rows: Int32Array; diffT: FloatArray; block: FloatArray }>();
+/** Per change array (weights or a change matrix): the index lists and compacted working arrays of the sparse update. */
+const sparseWork = new WeakMap<FloatArray, { rows: Int32Array; cols: Int32Array; diffT: FloatArray; preC: FloatArray; block: FloatArray }>();
 
 /**
- * `out (n×m) = alpha · diffᵀ pre + beta · out` (diff B×n, pre B×m), skipping the rows of `out` (post
- * units) whose difference is exactly zero in every pattern when they are more than 1 − crossover of
- * them: the other rows' differences are gathered into an r×B block and their rows of `out` into an r×m
- * block, the product is taken on the blocks with the same kernel (`gemm` with op(A) r×B) and the rows
- * are scattered back. Bit for bit the dense product in its own order of summation: every row's
- * entries are the same sums over the batch, and a skipped row's dense entries would be
- * `beta · out + alpha · Σ (±0 · pre)`, i.e. `out` unchanged (or +0 for beta 0) as long as `pre` is
- * finite — except that a weight of −0 in a skipped row stays −0 (the dense sum makes it +0).
+ * `out (n×m) = alpha · diffᵀ pre + beta · out` (diff B×n, pre B×m), computing only the entries whose row
+ * (receiving unit) has a non-zero difference and whose column (sending unit) a non-zero activity in some
+ * pattern, when they are fewer than `crossover` of all: the active rows' differences are gathered into an
+ * r×B block, the active columns of `pre` into a B×c block and the active entries of `out` into an r×c
+ * block; the product is taken on the blocks with the same kernel (`gemm`, op(A) r×B) and the entries are
+ * scattered back. A skipped entry's dense value would be `beta · out + alpha · Σ (±0)`, i.e. `out`
+ * unchanged (or +0 for beta 0) as long as `diff` and `pre` are finite (a weight of −0 among them stays
+ * −0, where the dense sum makes it +0). Every active entry is the same sum over the batch: bit for bit
+ * the dense result on the TypeScript kernels; the WebAssembly `gemm` chooses its code path by shape
+ * (small products scale the sum by alpha, packed ones each term), so there an entry may differ from the
+ * dense one within the rounding of two orders of the same sum, 2·γ_{B+2}·(|out| + |alpha|·Σ_b |diff·pre|)
+ * (Higham 2002, Accuracy and Stability of Numerical Algorithms, §3.1; property-tested).
  * Returns false (and does nothing) when the dense product should run.
  */
-export function rowSparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover = crossoverInUse): boolean {
-  if (batch === 1 || n < 2) return false;
-  // the scan decides first; the working arrays are allocated (once per change array) only for the sparse path
-  let work = rowSparseWork.get(out);
-  const rows = work !== undefined && work.rows.length >= n ? work.rows : new Int32Array(n);
-  const limit = crossover * n;
+export function sparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover = crossoverInUse): boolean {
+  if (batch === 1) return false;
+  const dtype = out instanceof Float32Array ? "float32" : "float64";
+  let work = sparseWork.get(out);
+  if (work === undefined || work.rows.length < n || work.cols.length < m) {
+    // index lists first; the compacted arrays are allocated only when the sparse path runs
+    const none = k.allocate(dtype, 0);
+    work = { rows: new Int32Array(n), cols: new Int32Array(m), diffT: none, preC: none, block: none };
+    sparseWork.set(out, work);
+  }
+  const { rows, cols } = work;
   let r = 0;
   for (let i = 0; i < n; i++) {
     for (let b = 0; b < batch; b++) {
@@ -166,27 +177,37 @@ export function rowSparseOuterSum(k: KernelBackend, out: FloatArray, alpha: numb
         break;
       }
     }
-    if (r >= limit) {
-      if (work === undefined) rowSparseWork.set(out, { rows, diffT: k.allocate(out instanceof Float32Array ? "float32" : "float64", 0), block: k.allocate(out instanceof Float32Array ? "float32" : "float64", 0) });
-      return false;
+  }
+  let c = 0;
+  for (let j = 0; j < m; j++) {
+    for (let b = 0; b < batch; b++) {
+      if ((pre[b * m + j] as number) !== 0) {
+        cols[c++] = j;
+        break;
+      }
     }
   }
-  if (work === undefined || work.diffT.length < r * batch || work.block.length < n * m) {
-    const dtype = out instanceof Float32Array ? "float32" : "float64";
-    work = { rows, diffT: k.allocate(dtype, n * batch), block: k.allocate(dtype, n * m) };
-    rowSparseWork.set(out, work);
-  }
-  const { diffT, block } = work;
+  if (r * c >= crossover * n * m) return false;
+  if (work.diffT.length < r * batch) work.diffT = k.allocate(dtype, n * batch);
+  if (work.preC.length < batch * c) work.preC = k.allocate(dtype, batch * m);
+  if (work.block.length < r * c) work.block = k.allocate(dtype, n * m);
+  const { diffT, preC, block } = work;
   for (let q = 0; q < r; q++) {
     const i = rows[q] as number;
     for (let b = 0; b < batch; b++) diffT[q * batch + b] = diff[b * n + i] as number;
-    if (beta === 1) block.set(out.subarray(i * m, i * m + m), q * m);
   }
-  if (r > 0) k.gemm(block, diffT, pre, r, m, batch, false, false, alpha, beta);
+  for (let b = 0; b < batch; b++) for (let p = 0; p < c; p++) preC[b * c + p] = pre[b * m + (cols[p] as number)] as number;
+  if (beta === 1) {
+    for (let q = 0; q < r; q++) {
+      const row = (rows[q] as number) * m;
+      for (let p = 0; p < c; p++) block[q * c + p] = out[row + (cols[p] as number)] as number;
+    }
+  }
+  if (r > 0 && c > 0) k.gemm(block, diffT, preC, r, c, batch, false, false, alpha, beta);
   if (beta === 0) k.fill(out, 0, n * m);
   for (let q = 0; q < r; q++) {
-    const i = rows[q] as number;
-    out.set(block.subarray(q * m, q * m + m), i * m);
+    const row = (rows[q] as number) * m;
+    for (let p = 0; p < c; p++) out[row + (cols[p] as number)] = block[q * c + p] as number;
   }
   return true;
 }
@@ -201,7 +222,7 @@ export function contrast(k: KernelBackend, out: FloatArray, alpha: number, postA
   if (samePre && scratch !== undefined) {
     k.sub(scratch, postA, postB, batch * n);
     // activity-sparse: rows whose phase difference is exactly zero are skipped (same bits)
-    if (!rowSparseOuterSum(k, out, alpha, scratch, preA, batch, n, m, 0)) outerSum(k, out, alpha, scratch, preA, batch, n, m, 0);
+    if (!sparseOuterSum(k, out, alpha, scratch, preA, batch, n, m, 0)) outerSum(k, out, alpha, scratch, preA, batch, n, m, 0);
     return;
   }
   outerSum(k, out, alpha, postA, preA, batch, n, m, 0);
@@ -332,7 +353,7 @@ export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[],
     if (t.samePre) {
       const scratch = scratchFor(c.to);
       K.sub(scratch, t.postA, t.postB, batch * n);
-      if (!rowSparseOuterSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1)) outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1);
+      if (!sparseOuterSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1)) outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1);
     } else {
       outerSum(K, c.weights, t.alpha, t.postA, t.preA, batch, n, m, 1);
       outerSum(K, c.weights, -t.alpha, t.postB, t.preB, batch, n, m, 1);
