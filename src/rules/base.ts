@@ -123,20 +123,20 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 /**
  * Fraction of a contrastive update's entries that are active (receiving unit with a non-zero phase
  * difference and sending unit with a non-zero activity, in some pattern of the batch) at or above which the
- * dense product runs; below it, only the active entries are computed ({@link sparseOuterSum}). Measured
- * with `npm run bench -- update` (docs/guide/speed.md): the sparse update costs two scans, three gathers
- * and a scatter besides its product, which pays for itself below 50–75 % active entries on both backends
- * (784-500, batch 20 and 64).
+ * dense product runs, per backend; below it, only the active entries are computed ({@link sparseOuterSum}).
+ * Measured with `npm run bench -- update` (docs/guide/speed.md): besides its product the sparse update
+ * scans, gathers and scatters in JavaScript, which the plain loops of the TypeScript kernels repay below
+ * about 60–75 % active entries and the WebAssembly products only below about 20–25 %.
  * @category Rules
  */
-export const SPARSE_UPDATE_CROSSOVER = 0.6;
+export const SPARSE_UPDATE_CROSSOVER = { typescript: 0.6, wasm: 0.2 } as const;
 
-/** The crossover the rules use (benchmarks set 0 to time the dense update alone); not part of the public API. */
-let crossoverInUse = SPARSE_UPDATE_CROSSOVER;
+/** The crossover the rules use, per backend family (benchmarks set 0 to time the dense update alone); not part of the public API. */
+let crossoverInUse: { typescript: number; wasm: number } = { ...SPARSE_UPDATE_CROSSOVER };
 /** Sets the crossover the rules use (benchmarks only); returns the previous one. */
-export function setSparseUpdateCrossover(c: number): number {
+export function setSparseUpdateCrossover(c: { typescript: number; wasm: number }): { typescript: number; wasm: number } {
   const before = crossoverInUse;
-  crossoverInUse = c;
+  crossoverInUse = { ...c };
   return before;
 }
 
@@ -158,7 +158,7 @@ const sparseWork = new WeakMap<FloatArray, { rows: Int32Array; cols: Int32Array;
  * (Higham 2002, Accuracy and Stability of Numerical Algorithms, §3.1; property-tested).
  * Returns false (and does nothing) when the dense product should run.
  */
-export function sparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover = crossoverInUse): boolean {
+export function sparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover = k.name === "typescript" ? crossoverInUse.typescript : crossoverInUse.wasm): boolean {
   if (batch === 1) return false;
   const dtype = out instanceof Float32Array ? "float32" : "float64";
   let work = sparseWork.get(out);
@@ -196,18 +196,22 @@ export function sparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number,
     const i = rows[q] as number;
     for (let b = 0; b < batch; b++) diffT[q * batch + b] = diff[b * n + i] as number;
   }
-  for (let b = 0; b < batch; b++) for (let p = 0; p < c; p++) preC[b * c + p] = pre[b * m + (cols[p] as number)] as number;
+  // every column active: whole rows move (contiguous copies) and pre is used as it is
+  const allCols = c === m;
+  if (!allCols) for (let b = 0; b < batch; b++) for (let p = 0; p < c; p++) preC[b * c + p] = pre[b * m + (cols[p] as number)] as number;
   if (beta === 1) {
     for (let q = 0; q < r; q++) {
       const row = (rows[q] as number) * m;
-      for (let p = 0; p < c; p++) block[q * c + p] = out[row + (cols[p] as number)] as number;
+      if (allCols) block.set(out.subarray(row, row + m), q * m);
+      else for (let p = 0; p < c; p++) block[q * c + p] = out[row + (cols[p] as number)] as number;
     }
   }
-  if (r > 0 && c > 0) k.gemm(block, diffT, preC, r, c, batch, false, false, alpha, beta);
+  if (r > 0 && c > 0) k.gemm(block, diffT, allCols ? pre : preC, r, c, batch, false, false, alpha, beta);
   if (beta === 0) k.fill(out, 0, n * m);
   for (let q = 0; q < r; q++) {
     const row = (rows[q] as number) * m;
-    for (let p = 0; p < c; p++) out[row + (cols[p] as number)] = block[q * c + p] as number;
+    if (allCols) out.set(block.subarray(q * m, q * m + m), row);
+    else for (let p = 0; p < c; p++) out[row + (cols[p] as number)] = block[q * c + p] as number;
   }
   return true;
 }
