@@ -32,7 +32,7 @@ console.log(`check-pack: ${p.filename}: ${p.entryCount} files, ${(p.size / 1024)
 console.log("check-pack: unpacked by top-level entry: " + Object.entries(by).sort((a, b) => b[1] - a[1]).map(([k, v]) => `${k} ${(v / 1024).toFixed(0)} kB`).join(", "));
 const maps = p.files.filter((f) => f.path.endsWith(".map"));
 if (maps.length > 0) { console.error(`check-pack: ${maps.length} source maps shipped`); process.exit(1); }
-for (const need of ["LICENSE", "README.md", "data/iris.csv", "data/README.md", "docs/guide/cli.md", "examples/iris.json", "schema/network.schema.json", "require.cjs", "dist/index.js", "dist/index.d.ts", "dist/node/index.js"]) {
+for (const need of ["LICENSE", "README.md", "data/iris.csv", "data/README.md", "docs/guide/cli.md", "examples/iris.json", "examples/plugins/own-rules.js", "examples/embedding.ts", "schema/network.schema.json", "require.cjs", "dist/index.js", "dist/index.d.ts", "dist/node/index.js"]) {
   if (!p.files.some((f) => f.path === need)) { console.error(`check-pack: ${need} is not in the package`); process.exit(1); }
 }' "$work/pack.json" || fail "package contents"
 

@@ -26,10 +26,12 @@ function xsNet(seed: number, gamma: number) {
 const batch = { inputs: { in: [0.3, -0.5, 0.8] }, targets: { out: [0.4, -0.2] } };
 
 describe("Xie–Seung scaled CHL", () => {
-  it("per-layer error against backprop halves as γ halves, for γ from 0.025 down (Xie & Seung 2003; methods.md item 3 [DER, numerically verified])", () => {
+  it("per-layer error against backprop halves as γ halves, for γ from 0.01 down (Xie & Seung 2003; methods.md item 3 [DER, numerically verified])", () => {
     check(
       fc.property(fc.integer({ min: 0, max: 1e6 }), (seed) => {
-        const errs = [0.025, 0.0125, 0.00625].map((gamma) => {
+        // γ ≤ 0.01: at γ = 0.025 about 1 draw in 200 still carries a second-order term large enough to put the
+        // ratio outside [1.8, 2.2] (measured over 600 draws); from 0.01 down none of the 600 did.
+        const errs = [0.01, 0.005, 0.0025].map((gamma) => {
           const net = xsNet(seed, gamma);
           const xs = createRule(net, { rule: "xie-seung", rate: 1 }).computeDelta(batch, new ParameterDelta(net));
           const bp = feedforwardGradient(net, batch);
