@@ -44,7 +44,7 @@ export async function run(): Promise<void> {
       const times: Record<string, number[]> = { sparse: [], dense: [] };
       for (let round = 0; round < 6; round++) {
         for (const mode of ["sparse", "dense"] as const) {
-          setSparseUpdateCrossover(mode === "sparse" ? SPARSE_UPDATE_CROSSOVER : { typescript: 0, wasm: 0 });
+          setSparseUpdateCrossover(mode === "sparse" ? SPARSE_UPDATE_CROSSOVER : { typescript: 0, wasm: 0, wasmRows: 0 });
           const steps = Math.max(4, Math.round(1200 / B));
           const t0 = performance.now();
           for (let i = 0; i < steps; i++) rule.step(next());

@@ -126,15 +126,19 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
  * dense product runs, per backend; below it, only the active entries are computed ({@link sparseOuterSum}).
  * Measured with `npm run bench -- update` (docs/guide/speed.md): besides its product the sparse update
  * scans, gathers and scatters in JavaScript, which the plain loops of the TypeScript kernels repay below
- * about 60–75 % active entries and the WebAssembly products only below about 20–25 %.
+ * about 60–75 % active entries, and the WebAssembly products below about 60–75 % when only rows are silent
+ * (whole rows move by contiguous copies) but only below about 20–40 % when sending units are silent
+ * (entries move one by one).
  * @category Rules
  */
-export const SPARSE_UPDATE_CROSSOVER = { typescript: 0.6, wasm: 0.2 } as const;
+export const SPARSE_UPDATE_CROSSOVER = { typescript: 0.6, wasm: 0.2, wasmRows: 0.6 } as const;
 
-/** The crossover the rules use, per backend family (benchmarks set 0 to time the dense update alone); not part of the public API. */
-let crossoverInUse: { typescript: number; wasm: number } = { ...SPARSE_UPDATE_CROSSOVER };
+/** Crossovers per backend family: TypeScript; WebAssembly with silent sending units; WebAssembly with only silent rows. */
+type Crossovers = { typescript: number; wasm: number; wasmRows: number };
+/** The crossover the rules use (benchmarks set 0 to time the dense update alone); not part of the public API. */
+let crossoverInUse: Crossovers = { ...SPARSE_UPDATE_CROSSOVER };
 /** Sets the crossover the rules use (benchmarks only); returns the previous one. */
-export function setSparseUpdateCrossover(c: { typescript: number; wasm: number }): { typescript: number; wasm: number } {
+export function setSparseUpdateCrossover(c: Crossovers): Crossovers {
   const before = crossoverInUse;
   crossoverInUse = { ...c };
   return before;
@@ -158,7 +162,7 @@ const sparseWork = new WeakMap<FloatArray, { rows: Int32Array; cols: Int32Array;
  * (Higham 2002, Accuracy and Stability of Numerical Algorithms, §3.1; property-tested).
  * Returns false (and does nothing) when the dense product should run.
  */
-export function sparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover = k.name === "typescript" ? crossoverInUse.typescript : crossoverInUse.wasm): boolean {
+export function sparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover?: number): boolean {
   if (batch === 1) return false;
   const dtype = out instanceof Float32Array ? "float32" : "float64";
   let work = sparseWork.get(out);
@@ -187,7 +191,9 @@ export function sparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number,
       }
     }
   }
-  if (r * c >= crossover * n * m) return false;
+  // whole rows move with contiguous copies when every column is active: that path pays off at higher densities
+  const limit = crossover ?? (k.name === "typescript" ? crossoverInUse.typescript : c === m ? crossoverInUse.wasmRows : crossoverInUse.wasm);
+  if (r * c >= limit * n * m) return false;
   if (work.diffT.length < r * batch) work.diffT = k.allocate(dtype, n * batch);
   if (work.preC.length < batch * c) work.preC = k.allocate(dtype, batch * m);
   if (work.block.length < r * c) work.block = k.allocate(dtype, n * m);
