@@ -27,7 +27,8 @@ import { loadWasmKernelsSync, wasmSimdSupported } from "../src/kernels/wasm/load
 import { ParallelRule } from "../src/node/parallel/pool.js";
 import { benchNetwork } from "../src/node/bench/workload.js";
 
-const B = 64;
+/** Batch size (EBBFLOW_PARALLEL_BATCH, default 64). */
+const B = Number(process.env.EBBFLOW_PARALLEL_BATCH ?? 64);
 const WORKERS = 2;
 /** The workload of `ebbflow bench`: 20 free steps (the network's maxSteps) and 4 nudged steps. */
 const RULE: RuleConfigInput = { rule: "eqprop", beta: 0.5, rate: 0.01, nudgedSteps: 4 };

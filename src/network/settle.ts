@@ -593,7 +593,11 @@ export class Settler {
             K.axpy(nx, eta, beta, len);
           }
           K.axpby(nx, x, nx, 1, dt, len);
-          if (this.clip[i]) {
+          if (this.clip[i] && this.fusedUnit[i]?.kind === "hard-sigmoid") {
+            // the hard sigmoid is the clip to its range [0, 1] (x < 0 → 0, x > 1 → 1, else x, as the loop
+            // below): one unit-kernel pass instead of a loop in JavaScript, the same bits
+            fillUnit(K, l.unit, false, nx, nx, len);
+          } else if (this.clip[i]) {
             const lo = l.unit.lower;
             const hi = l.unit.upper;
             for (let k = 0; k < len; k++) {

@@ -3,7 +3,7 @@
  * @module
  */
 import { EbbflowError, fail, issueText } from "../errors/index.js";
-import { loadSplitByColumn, splitByIndexFiles, type FixedSplit } from "./fixed-split.js";
+import { loadSplitByColumn, splitByIndexFiles, splitFirstLast, type FixedSplit } from "./fixed-split.js";
 import type { Dataset } from "../train/data/index.js";
 import { orientedBarsDataset, parityDataset, xorDataset, trainTestSplit, fitScaler } from "../train/data/index.js";
 import { touchStripDataset } from "../demo/touchStrip.js";
@@ -24,7 +24,7 @@ function layerColumns(o: LayerColumns): LayerColumns {
 
 /**
  * Resolves a data source and splits it: built-in sets and files; `touch-strip`, `xor`, `parity:N`, `oriented-bars[:N]`, `iris`, `digits[:N]`, or a `.csv`/`.json` path.
- * The split is seeded (`testFraction`) or fixed (`split`: index files, or a CSV column of `train`/`test`).
+ * The split is seeded (`testFraction`) or fixed (`split`: index files, a CSV column of `train`/`test`, or the first and last rows).
  * @category Data
  */
 export async function resolveData(
@@ -39,7 +39,8 @@ export async function resolveData(
     if ("column" in split) {
       if (!/\.(csv|tsv)$/i.test(source)) fail("invalid_config", "data.split.column", "a CSV or TSV file as the data source (the column is one of its columns)", source);
       parts = await loadSplitByColumn(source, split.column, { ...(options.targetColumns !== undefined ? { targetColumns: options.targetColumns as readonly string[] } : {}), oneHot: options.oneHot, ...layerColumns(options) });
-    } else parts = await splitByIndexFiles(await loadSource(source, options), split.train, split.test);
+    } else if ("first" in split) parts = splitFirstLast(await loadSource(source, options), split.first, split.last);
+    else parts = await splitByIndexFiles(await loadSource(source, options), split.train, split.test);
     if (!options.scale) return parts;
     const scaler = fitScaler(parts.train);
     return { train: scaler.apply(parts.train), test: scaler.apply(parts.test) };

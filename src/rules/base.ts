@@ -133,6 +133,108 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 }
 
 /**
+ * Fraction of a contrastive update's entries that are active (receiving unit with a non-zero phase
+ * difference and sending unit with a non-zero activity, in some pattern of the batch) at or above which the
+ * dense product runs, per backend; below it, only the active entries are computed ({@link sparseOuterSum}).
+ * Measured with `npm run bench -- update` (docs/guide/speed.md): besides its product the sparse update
+ * scans, gathers and scatters in JavaScript, which the plain loops of the TypeScript kernels repay below
+ * about 60–75 % active entries, and the WebAssembly products below about 60–75 % when only rows are silent
+ * (whole rows move by contiguous copies) but only below about 20–40 % when sending units are silent
+ * (entries move one by one).
+ * @category Rules
+ */
+export const SPARSE_UPDATE_CROSSOVER = { typescript: 0.6, wasm: 0.2, wasmRows: 0.6 } as const;
+
+/** Crossovers per backend family: TypeScript; WebAssembly with silent sending units; WebAssembly with only silent rows. */
+type Crossovers = { typescript: number; wasm: number; wasmRows: number };
+/** The crossover the rules use (benchmarks set 0 to time the dense update alone); not part of the public API. */
+let crossoverInUse: Crossovers = { ...SPARSE_UPDATE_CROSSOVER };
+/** Sets the crossover the rules use (benchmarks only); returns the previous one. */
+export function setSparseUpdateCrossover(c: Crossovers): Crossovers {
+  const before = crossoverInUse;
+  crossoverInUse = { ...c };
+  return before;
+}
+
+/** Per change array (weights or a change matrix): the index lists and compacted working arrays of the sparse update. */
+const sparseWork = new WeakMap<FloatArray, { rows: Int32Array; cols: Int32Array; diffT: FloatArray; preC: FloatArray; block: FloatArray }>();
+
+/**
+ * `out (n×m) = alpha · diffᵀ pre + beta · out` (diff B×n, pre B×m), computing only the entries whose row
+ * (receiving unit) has a non-zero difference and whose column (sending unit) a non-zero activity in some
+ * pattern, when they are fewer than `crossover` of all: the active rows' differences are gathered into an
+ * r×B block, the active columns of `pre` into a B×c block and the active entries of `out` into an r×c
+ * block; the product is taken on the blocks with the same kernel (`gemm`, op(A) r×B) and the entries are
+ * scattered back. A skipped entry's dense value would be `beta · out + alpha · Σ (±0)`, i.e. `out`
+ * unchanged (or +0 for beta 0) as long as `diff` and `pre` are finite (a weight of −0 among them stays
+ * −0, where the dense sum makes it +0). Every active entry is the same sum over the batch: bit for bit
+ * the dense result on the TypeScript kernels; the WebAssembly `gemm` chooses its code path by shape
+ * (small products scale the sum by alpha, packed ones each term), so there an entry may differ from the
+ * dense one within the rounding of two orders of the same sum, 2·γ_{B+2}·(|out| + |alpha|·Σ_b |diff·pre|)
+ * (Higham 2002, Accuracy and Stability of Numerical Algorithms, §3.1; property-tested).
+ * Returns false (and does nothing) when the dense product should run.
+ */
+export function sparseOuterSum(k: KernelBackend, out: FloatArray, alpha: number, diff: FloatArray, pre: FloatArray, batch: number, n: number, m: number, beta: 0 | 1, crossover?: number): boolean {
+  if (batch === 1) return false;
+  const dtype = out instanceof Float32Array ? "float32" : "float64";
+  let work = sparseWork.get(out);
+  if (work === undefined || work.rows.length < n || work.cols.length < m) {
+    // index lists first; the compacted arrays are allocated only when the sparse path runs
+    const none = k.allocate(dtype, 0);
+    work = { rows: new Int32Array(n), cols: new Int32Array(m), diffT: none, preC: none, block: none };
+    sparseWork.set(out, work);
+  }
+  const { rows, cols } = work;
+  let r = 0;
+  for (let i = 0; i < n; i++) {
+    for (let b = 0; b < batch; b++) {
+      if ((diff[b * n + i] as number) !== 0) {
+        rows[r++] = i;
+        break;
+      }
+    }
+  }
+  let c = 0;
+  for (let j = 0; j < m; j++) {
+    for (let b = 0; b < batch; b++) {
+      if ((pre[b * m + j] as number) !== 0) {
+        cols[c++] = j;
+        break;
+      }
+    }
+  }
+  // whole rows move with contiguous copies when every column is active: that path pays off at higher densities
+  const limit = crossover ?? (k.name === "typescript" ? crossoverInUse.typescript : c === m ? crossoverInUse.wasmRows : crossoverInUse.wasm);
+  if (r * c >= limit * n * m) return false;
+  if (work.diffT.length < r * batch) work.diffT = k.allocate(dtype, n * batch);
+  if (work.preC.length < batch * c) work.preC = k.allocate(dtype, batch * m);
+  if (work.block.length < r * c) work.block = k.allocate(dtype, n * m);
+  const { diffT, preC, block } = work;
+  for (let q = 0; q < r; q++) {
+    const i = rows[q] as number;
+    for (let b = 0; b < batch; b++) diffT[q * batch + b] = diff[b * n + i] as number;
+  }
+  // every column active: whole rows move (contiguous copies) and pre is used as it is
+  const allCols = c === m;
+  if (!allCols) for (let b = 0; b < batch; b++) for (let p = 0; p < c; p++) preC[b * c + p] = pre[b * m + (cols[p] as number)] as number;
+  if (beta === 1) {
+    for (let q = 0; q < r; q++) {
+      const row = (rows[q] as number) * m;
+      if (allCols) block.set(out.subarray(row, row + m), q * m);
+      else for (let p = 0; p < c; p++) block[q * c + p] = out[row + (cols[p] as number)] as number;
+    }
+  }
+  if (r > 0 && c > 0) k.gemm(block, diffT, allCols ? pre : preC, r, c, batch, false, false, alpha, beta);
+  if (beta === 0) k.fill(out, 0, n * m);
+  for (let q = 0; q < r; q++) {
+    const row = (rows[q] as number) * m;
+    if (allCols) out.set(block.subarray(q * m, q * m + m), row);
+    else for (let p = 0; p < c; p++) out[row + (cols[p] as number)] = block[q * c + p] as number;
+  }
+  return true;
+}
+
+/**
  * `out (n×m) = alpha · (postAᵀ preA − postBᵀ preB)` over a batch of B patterns:
  * the clamped-minus-free coactivity of a connection. When the sending layer is clamped in both
  * phases (`samePre`: preA and preB hold the same values), it is computed as one product
@@ -141,7 +243,8 @@ export function outerSum(k: KernelBackend, out: FloatArray, alpha: number, post:
 export function contrast(k: KernelBackend, out: FloatArray, alpha: number, postA: FloatArray, preA: FloatArray, postB: FloatArray, preB: FloatArray, batch: number, n: number, m: number, samePre = false, scratch?: FloatArray): void {
   if (samePre && scratch !== undefined) {
     k.sub(scratch, postA, postB, batch * n);
-    outerSum(k, out, alpha, scratch, preA, batch, n, m, 0);
+    // activity-sparse: rows whose phase difference is exactly zero are skipped (same bits)
+    if (!sparseOuterSum(k, out, alpha, scratch, preA, batch, n, m, 0)) outerSum(k, out, alpha, scratch, preA, batch, n, m, 0);
     return;
   }
   outerSum(k, out, alpha, postA, preA, batch, n, m, 0);
@@ -272,7 +375,7 @@ export function addContrastInPlace(net: Network, terms: readonly ContrastTerm[],
     if (t.samePre) {
       const scratch = scratchFor(c.to);
       K.sub(scratch, t.postA, t.postB, batch * n);
-      outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1);
+      if (!sparseOuterSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1)) outerSum(K, c.weights, t.alpha, scratch, t.preA, batch, n, m, 1);
     } else {
       outerSum(K, c.weights, t.alpha, t.postA, t.preA, batch, n, m, 1);
       outerSum(K, c.weights, -t.alpha, t.postB, t.preB, batch, n, m, 1);

@@ -137,6 +137,8 @@ export function applyDelta(net: Network, delta: ParameterDelta, tie: "sum" | "me
   for (const c of net.connections) {
     if (c.spec.frozen) continue;
     const d = delta.weights[c.index] as FloatArray;
+    // an empty change array leaves the weights alone (an optimizer's array left to the rule)
+    if (d.length === 0) continue;
     const w = c.weights;
     const { sign, bounds } = c.spec;
     if (sign === "any" && bounds === "none") K.axpy(w, d, 1);
@@ -153,6 +155,8 @@ export function addBiases(net: Network, biases: readonly FloatArray[]): void {
     if (l.role === "input") continue;
     const into = net.incoming[l.index] ?? [];
     if (into.length > 0 && into.every((c) => c.spec.frozen)) continue;
-    net.kernels.axpy(l.bias, biases[l.index] as FloatArray, 1);
+    const d = biases[l.index] as FloatArray;
+    if (d.length === 0) continue;
+    net.kernels.axpy(l.bias, d, 1);
   }
 }

@@ -55,6 +55,8 @@ interface Slot {
   readonly ruleRate: number;
   /** The rate of the optimizer's step for this array. */
   readonly rate: number;
+  /** The optimizer's step is the rule's own (plain SGD at the rule's rate, no decay): the array is left as the rule changed it. */
+  readonly asRule: boolean;
   readonly first: Float64Array | null;
   readonly second: Float64Array | null;
 }
@@ -69,6 +71,8 @@ interface Slot {
  *   step ε m̂ / (√ŝ + ϵ) with m̂ = m/(1−β₁ᵗ), ŝ = s/(1−β₂ᵗ) (Kingma & Ba 2015, ICLR);
  * - `decoupled` decay: the step also takes −ελw (Loshchilov & Hutter 2019, ICLR);
  * the step is applied under the connections' constraints (applyDelta). Frozen connections are left alone.
+ * An array whose step is the rule's own (`sgd` without weight decay, at the rule's rate: every weight
+ * matrix when only `biasRates` are set) is left exactly as the rule changed it, without a copy.
  * @category Training
  */
 export class Optimizer {
@@ -90,32 +94,40 @@ export class Optimizer {
     if (problems.length > 0) throw new EbbflowError(problems);
     this.delta = new ParameterDelta(net);
     const moments = config.kind === "sgd" ? 0 : config.kind === "momentum" ? 1 : 2;
+    const plain = config.kind === "sgd" && config.weightDecay === 0;
     const slot = (param: FloatArray, delta: FloatArray, ruleRate: number, rate: number): Slot => ({
       param,
       delta,
-      before: new Float64Array(param.length),
+      // an array the optimizer leaves to the rule needs no copy (SGD with only bias rates set copies only the biases)
+      before: new Float64Array(plain && rate === ruleRate ? 0 : param.length),
       ruleRate,
       rate,
+      asRule: plain && rate === ruleRate,
       first: moments >= 1 ? new Float64Array(param.length) : null,
       second: moments >= 2 ? new Float64Array(param.length) : null,
     });
     this.slots = [];
+    // arrays left to the rule get an empty change array, which applyDelta skips
+    const none = net.allocate(0);
     for (const c of net.connections) {
       if (c.spec.frozen) continue;
       const r = connectionRate(rule.config, c);
+      if (plain) this.delta.weights[c.index] = none;
       this.slots.push(slot(c.weights, this.delta.weights[c.index] as FloatArray, r, r));
       const fb = this.delta.feedback[c.index];
       if (fb && c.feedback.kind === "separate") this.slots.push(slot(c.feedback.weights, fb, r, r));
     }
     for (const l of net.layers) {
       if (l.role === "input") continue;
-      this.slots.push(slot(l.bias, this.delta.biases[l.index] as FloatArray, rule.config.rate, config.biasRates?.[l.name] ?? rule.config.rate));
+      const rate = config.biasRates?.[l.name] ?? rule.config.rate;
+      if (plain && rate === rule.config.rate) this.delta.biases[l.index] = none;
+      this.slots.push(slot(l.bias, this.delta.biases[l.index] as FloatArray, rule.config.rate, rate));
     }
   }
 
   /** Keeps the parameters before the rule's step. */
   before(): void {
-    for (const s of this.slots) s.before.set(s.param);
+    for (const s of this.slots) if (!s.asRule) s.before.set(s.param);
   }
 
   /**
@@ -130,6 +142,8 @@ export class Optimizer {
     const c2 = 1 - o.beta2 ** this.steps;
     for (const s of this.slots) {
       const { param, before, delta, first, second } = s;
+      // plain SGD at the rule's own rate: the rule's step stands (delta stays 0)
+      if (s.asRule) continue;
       const eps = s.rate * factor;
       const per = 1 / (s.ruleRate * factor);
       for (let k = 0; k < param.length; k++) {

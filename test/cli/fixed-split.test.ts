@@ -24,6 +24,22 @@ function folder(): string {
 const load = { targetColumns: ["kind"], oneHot: true, testFraction: 0, seed: 1 } as const;
 
 describe("fixed train/test splits", () => {
+  it("by row counts: the first rows train and the last rows test, as the index files 0..k and the tail would", async () => {
+    const dir = folder();
+    const counts = await resolveData(path.join(dir, "plain.csv"), { ...load, split: { first: 5, last: 2 } });
+    expect(counts.train.size).toBe(5);
+    expect(counts.test!.size).toBe(2);
+    writeFileSync(path.join(dir, "head.idx"), "0 1 2 3 4");
+    writeFileSync(path.join(dir, "tail.idx"), "6 7");
+    const byIndex = await resolveData(path.join(dir, "plain.csv"), { ...load, split: { train: path.join(dir, "head.idx"), test: path.join(dir, "tail.idx") } });
+    expect(Array.from(counts.train.inputs)).toEqual(Array.from(byIndex.train.inputs));
+    expect(Array.from(counts.test!.inputs)).toEqual(Array.from(byIndex.test!.inputs));
+    // overlapping parts are refused with the split's path
+    const e = await resolveData(path.join(dir, "plain.csv"), { ...load, split: { first: 5, last: 4 } }).catch((x: unknown) => x);
+    expect(e).toBeInstanceOf(EbbflowError);
+    expect((e as EbbflowError).issues[0]!.path).toBe("data.split");
+  });
+
   it("by a column of train/test: the rows go where the column says, and the column is not an input", async () => {
     const dir = folder();
     const { train, test } = await resolveData(path.join(dir, "surfaces.csv"), { ...load, split: { column: "set" } });

@@ -4,6 +4,7 @@ import os from "node:os";
 import path from "node:path";
 import { createRequire } from "node:module";
 import { digitsDataset, irisDataset, loadDataset, mnistDataset } from "../../src/node/data.js";
+import { resolveData } from "../../src/node/sources.js";
 import { datasetToJson, xorDataset, type Dataset } from "../../src/train/data/index.js";
 import { expectClose } from "../helpers/tolerance.js";
 import { expectRejection } from "./errors.js";
@@ -203,6 +204,14 @@ describe("mnistDataset / digitsDataset (mnist 1.1.0, digit files read directly)"
     const perDigit = new Array<number>(10).fill(0);
     for (const l of a.train.labels!) perDigit[l]!++;
     expect(perDigit.every((c) => c >= 25 && c <= 35)).toBe(true);
+  });
+
+  it("the row-count split { first: 8000, last: 2000 } of the digits source is mnistDataset's 8,000 / 2,000 split", async () => {
+    const byCounts = await resolveData("digits", { testFraction: 0, seed: 1, split: { first: 8000, last: 2000 } });
+    const split = await mnistDataset({ train: 8000, test: 2000 });
+    expect(Array.from(byCounts.train.labels!)).toEqual(Array.from(split.train.labels!));
+    expect(Array.from(byCounts.test!.inputs.subarray(0, 784 * 50))).toEqual(Array.from(split.test.inputs.subarray(0, 784 * 50)));
+    expect(Array.from(byCounts.test!.labels!)).toEqual(Array.from(split.test.labels!));
   });
 
   it("rejects sizes beyond the images available and bad options; missing files are io_error", async () => {

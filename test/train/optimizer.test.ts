@@ -84,6 +84,16 @@ describe("training.optimizer", () => {
     expect(() => new Trainer(buildNetwork(spec()), { rule: "generec", rate: 0.3 }, data, { epochs: 1, optimizer: { kind: "adam", beta: 0.9 } as never })).toThrow(EbbflowError);
   });
 
+  it("plain sgd without decay leaves the weights exactly as the rule stepped them (no copy, same bits), with or without biasRates", () => {
+    // the rule's own step is the definition of plain SGD at the rule's rate (Optimizer doc): bit for bit, not just within rounding
+    const plain = buildNetwork(spec());
+    const withRates = buildNetwork(spec());
+    // one step (the whole set as one batch): after it the bias rates have made the networks differ
+    new Trainer(plain, { rule: "generec", rate: 0.3 }, data, { epochs: 1, batchSize: 1000, shuffle: false }).run();
+    new Trainer(withRates, { rule: "generec", rate: 0.3 }, data, { epochs: 1, batchSize: 1000, shuffle: false, optimizer: { kind: "sgd", biasRates: { out: 0.9 } } }).run();
+    for (const c of plain.connections) expect(Array.from(withRates.connections[c.index]!.weights)).toEqual(Array.from(c.weights));
+  });
+
   it("resuming from saveState gives the same bits as training straight through (Adam's moments and step count in the state)", () => {
     const opt = { kind: "adam" as const, weightDecay: 0.01, decay: "decoupled" as const };
     const straight = buildNetwork(spec());

@@ -9,13 +9,14 @@
 import { spawnSync } from "node:child_process";
 import { existsSync } from "node:fs";
 import { fileURLToPath } from "node:url";
+import path from "node:path";
 import { buildNetwork, type Network } from "../../network/network.js";
 import type { NetworkSpec, NetworkSpecInput } from "../../network/spec.js";
 import { createRule } from "../../rules/index.js";
 import { createRandom } from "../../random/index.js";
 import type { KernelBackend } from "../../kernels/backend.js";
 import { typescriptBackend } from "../../kernels/typescript-backend.js";
-import { loadWasmKernelsSync, wasmRelaxedSimdSupported, wasmSimdSupported } from "../../kernels/wasm/loader.js";
+import { loadWasmKernelsSync, selectBackend, wasmRelaxedSimdSupported, wasmSimdSupported } from "../../kernels/wasm/loader.js";
 import { ParallelRule } from "../parallel/pool.js";
 import { estimatedPeakGflops, machineFingerprint, type MachineFingerprint } from "./machine.js";
 
@@ -46,6 +47,11 @@ export interface BenchReport {
   readonly machine: MachineFingerprint;
   readonly peakGflops: number | null;
   readonly workload: string;
+  /**
+   * The kernels `selectBackend("auto")` picks on this engine (what training runs on by default, in the main
+   * thread and, attached to its memory, in worker threads), and whether relaxed SIMD is on without a flag.
+   */
+  readonly selected?: { readonly kernels: string; readonly relaxedByDefault: boolean } | undefined;
   readonly figures: readonly BenchFigure[];
   readonly kernels: readonly KernelFigure[];
   /**
@@ -104,7 +110,9 @@ async function timeIt(fn: () => unknown, seconds: number): Promise<number> {
  * thread (`OPENBLAS_NUM_THREADS=1` and friends), the like-for-like peer of ebbflow on one thread.
  */
 async function numpyPeer(batches: number[], seconds: number): Promise<BenchFigure[]> {
-  const script = fileURLToPath(new URL("../../../bench/peers/numpy_eqprop.py", import.meta.url));
+  // beside the package (dist/node/bench -> bench/peers), or in the working folder (the repository's bench build)
+  const candidates = [fileURLToPath(new URL("../../../bench/peers/numpy_eqprop.py", import.meta.url)), path.resolve("bench/peers/numpy_eqprop.py")];
+  const script = candidates.find((f) => existsSync(f)) ?? (candidates[0] as string);
   const out: BenchFigure[] = [];
   for (const [implementation, env] of [
     ["numpy", {}],
@@ -210,6 +218,11 @@ function availableBackends(): KernelBackend[] {
   return list;
 }
 
+/** Whether this Node line enables WebAssembly relaxed SIMD without a flag (Node 22 and later). */
+function relaxedByDefault(): boolean {
+  return Number(process.versions.node.split(".")[0]) >= 22 && wasmRelaxedSimdSupported();
+}
+
 /** Options of {@link runBench}. @category Benchmarks */
 export interface BenchOptions {
   readonly model?: NetworkSpec | undefined;
@@ -244,8 +257,9 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
       const contenders: { w: number; step: () => unknown; close: () => Promise<void>; times: number[] }[] = [];
       try {
         for (const w of workers) {
-          // the relaxed build is not loaded in worker threads (Node needs a flag); workers use plain SIMD
-          if (w > 1 && be.name === "wasm-relaxed-simd") continue;
+          // workers attach to the main thread's build; on Node 20 relaxed SIMD needs a flag that worker
+          // threads do not validate with, so the relaxed build runs with workers only where it is on by default
+          if (w > 1 && be.name === "wasm-relaxed-simd" && !relaxedByDefault()) continue;
           if (w > 1 && B < w) continue;
           const data = batchOf(buildNetwork(spec), B);
           // count every array the network, its settler, snapshots and the rule allocate
@@ -294,6 +308,7 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
     created: new Date().toISOString(),
     machine,
     peakGflops: peak,
+    selected: { kernels: selectBackend("auto").name, relaxedByDefault: relaxedByDefault() },
     workload: "eqprop (one-sided) on 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per training step (shared by both phases)",
     figures,
     kernels,
@@ -308,7 +323,7 @@ export function formatBench(a: BenchReport, b?: BenchReport): string {
   for (const f of a.figures) rows.set(key(f), [f, undefined]);
   for (const f of b?.figures ?? []) rows.set(key(f), [rows.get(key(f))?.[0], f]);
   const v = (f: BenchFigure | undefined) => (f === undefined ? "-" : f.usPerExample === null ? "skipped" : f.usPerExample.toFixed(1));
-  const lines = [`A: ${a.machine.cpu}, ${a.machine.cores} cores, Node ${a.machine.node}, ${a.created}`];
+  const lines = [`A: ${a.machine.cpu}, ${a.machine.cores} cores, Node ${a.machine.node}, ${a.created}${a.selected ? `; default kernels ${a.selected.kernels}${a.selected.relaxedByDefault ? " (relaxed SIMD on by default)" : ""}` : ""}`];
   if (b !== undefined) lines.push(`B: ${b.machine.cpu}, ${b.machine.cores} cores, Node ${b.machine.node}, ${b.created}`);
   lines.push("", b === undefined ? "| workload | µs per example |" : "| workload | A µs/example | B µs/example | B/A |", b === undefined ? "| --- | --- |" : "| --- | --- | --- | --- |");
   for (const [k, [fa, fb]] of rows) {
