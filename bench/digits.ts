@@ -10,8 +10,9 @@
  *
  * Like for like: each seed S sets the network's seed and the training seed, and the peers take ebbflow's random
  * draws (the initial weights, the order of the examples per epoch, the sign of β per batch; written to a
- * temporary folder, `--draws`), and the experiment's `training.persistentStates` and `training.shuffle`
- * (`--persistent`, `--fixed-order`): the two then differ only by floating-point rounding. Held-out accuracy is
+ * temporary folder, `--draws`), and the experiment's `training.persistentStates`, `persistentTestStates` and
+ * `shuffle` (`--persistent`, `--persistent-test`, `--fixed-order`): the two then differ only by floating-point
+ * rounding. Held-out accuracy is
  * scored by the experiment's tie policy for ebbflow; the peers print it both ways (first of the tied units, and a
  * tie as wrong), and both print the number of tied read-outs.
  *
@@ -161,7 +162,7 @@ async function lockstep(epochs: number | undefined, seed: number, threadModes: b
   const draws = own ? null : writeDraws(net, seed, training.epochs, train.size, training.batchSize ?? 16);
   const trainer = new Trainer(net, experiment.rules[0]!, train, training, { test, seed });
   const hidden = net.layers.find((l) => l.role === "hidden")!.size;
-  const flags = [...(training.persistentStates === true ? ["--persistent"] : []), ...(training.shuffle === false ? ["--fixed-order"] : [])];
+  const flags = [...(training.persistentStates === true ? ["--persistent"] : []), ...(training.persistentTestStates === true ? ["--persistent-test"] : []), ...(training.shuffle === false ? ["--fixed-order"] : [])];
   const peers: Peer[] = [];
   for (const one of threadModes) {
     const p = startPeer({ epochs: training.epochs, seed, hidden, draws, flags }, one);
@@ -203,7 +204,7 @@ export async function run(): Promise<void> {
   const n = epochs ?? experiment.training!.epochs;
   const t = { ...experiment.training!, ...overrides };
   console.log(`digits, published EqProp setting (${EXPERIMENT}): ${n} epochs, seeds ${seeds.join(", ")}; the same split and equations for NumPy (${PEER})`);
-  console.log(`training: shuffle ${t.shuffle ?? true}, persistent states ${t.persistentStates ?? false}, ties ${t.ties ?? "wrong"}; ${process.env.EBBFLOW_DIGIT_OWN_DRAWS === "1" ? "NumPy draws its own weights, order and signs" : "NumPy takes ebbflow's draws (weights, order, signs)"}`);
+  console.log(`training: shuffle ${t.shuffle ?? true}, persistent states ${t.persistentStates ?? false}, held-out persistent states ${t.persistentTestStates ?? false}, ties ${t.ties ?? "wrong"}; ${process.env.EBBFLOW_DIGIT_OWN_DRAWS === "1" ? "NumPy draws its own weights, order and signs" : "NumPy takes ebbflow's draws (weights, order, signs)"}`);
   const curves: Curve[] = [];
   const skipped: string[] = [];
   for (const seed of seeds) curves.push(...(await lockstep(epochs, seed, threadModes, overrides, skipped)));

@@ -16,16 +16,16 @@ code's cost is on the state, equal to the rate rho(s_out) since states stay in [
 random sign per mini-batch; update
 W += alpha / beta * mean_batch(rho(s^beta)_post rho(s^beta)_pre^T - rho(s^0)_post rho(s^0)_pre^T),
 biases alike, alpha 0.1 (image->hidden and hidden biases) and 0.05 (hidden->digit and digit biases);
-batch 20; float32. The read-out is the arg-max of the output after 20 free steps from rest; both scorings of a
+batch 20; float32. The read-out is the arg-max of the output after 20 free steps; both scorings of a
 tied largest output are printed: `test` (the first of the tied units, as numpy/Theano argmax; the authors'
 measure) and `test_ties_wrong` (a tie counts as wrong), with the number of ties.
 
 The authors' code also keeps *persistent particles* (each training example's free phase starts from the free
 state it reached the last time it was seen; zero at first) and visits the examples in a fixed order (no
 shuffling): `--persistent` and `--fixed-order` (ebbflow: `training.persistentStates`, `training.shuffle: false`).
-Without `--fixed-order` the examples are shuffled every epoch. (The authors' validation free phases also start
-from persistent states of the validation examples; ebbflow's held-out read-out settles from rest, and so does
-this script.)
+Without `--fixed-order` the examples are shuffled every epoch. The authors' validation free phases also start
+from persistent states of the validation examples: `--persistent-test` (ebbflow: `training.persistentTestStates`);
+without it the held-out read-out settles from rest.
 
 `--draws DIR` takes the random draws from files ebbflow wrote (bench/digits.ts), so both implementations start
 from the same weights and see the same order and signs: DIR/w1.f32 (HIDDEN x 784) and DIR/w2.f32 (10 x HIDDEN)
@@ -33,7 +33,8 @@ float32 row-major, DIR/order.i32 (EPOCHS x 8000 example indices, int32; used whe
 (one +1/-1 per mini-batch, int8). The runs then differ only by floating-point rounding (which the dynamics
 amplify: the weights of the two drift apart from ~1e-8 relative after one batch to ~1e-2 after 400).
 
-Usage: python3 numpy_eqprop_digits.py DIGITS_DIR [EPOCHS] [SEED] [HIDDEN] [--persistent] [--fixed-order] [--draws DIR]
+Usage: python3 numpy_eqprop_digits.py DIGITS_DIR [EPOCHS] [SEED] [HIDDEN] [--persistent] [--persistent-test]
+[--fixed-order] [--draws DIR]
 (HIDDEN: 500 as published.) With EBBFLOW_PEER_LOCKSTEP=1 the script reads one line from stdin before each
 epoch, so a caller can alternate its own epochs with this script's (on a shared machine both then see the same
 load). Set OPENBLAS_NUM_THREADS / OMP_NUM_THREADS to restrict NumPy's BLAS threads.
@@ -70,7 +71,7 @@ def main():
         at = sys.argv.index("--draws")
         draws = sys.argv[at + 1]
         args.remove(draws)
-    unknown = flags - {"--persistent", "--fixed-order", "--draws"}
+    unknown = flags - {"--persistent", "--persistent-test", "--fixed-order", "--draws"}
     if unknown:
         sys.exit(f"unknown options: {sorted(unknown)}")
     persistent = "--persistent" in flags
@@ -105,6 +106,9 @@ def main():
     # persistent particles: each training example's last free state (zero before its first visit)
     kept_h = np.zeros((len(xs), n_h), f32) if persistent else None
     kept_y = np.zeros((len(xs), n_out), f32) if persistent else None
+    # the held-out examples' last free states (--persistent-test), else None: each read-out settles from rest
+    test_h = np.zeros((len(xt), n_h), f32) if "--persistent-test" in flags else None
+    test_y = np.zeros((len(xt), n_out), f32) if "--persistent-test" in flags else None
 
     def settle(drive, h, y, steps, beta, d):
         for _ in range(steps):
@@ -124,7 +128,12 @@ def main():
         for s in range(0, len(xt), 256):
             x = xt[s:s + 256]
             drive = x @ w1.T + b1
-            h, y = settle(drive, np.zeros((len(x), n_h), f32), np.zeros((len(x), n_out), f32), 20, f32(0), None)
+            if test_h is not None:
+                h, y = settle(drive, test_h[s:s + 256], test_y[s:s + 256], 20, f32(0), None)
+                test_h[s:s + 256] = h
+                test_y[s:s + 256] = y
+            else:
+                h, y = settle(drive, np.zeros((len(x), n_h), f32), np.zeros((len(x), n_out), f32), 20, f32(0), None)
             right = y.argmax(1) == yt[s:s + 256]
             tied = (y == y.max(1, keepdims=True)).sum(1) > 1
             first += int(right.sum())
