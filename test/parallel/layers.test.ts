@@ -169,6 +169,28 @@ describe("multi-core training with several input and output layers and unobserve
     }
   });
 
+  it("predictive coding (slice split) with linear outputs not observed for some patterns equals one thread", async () => {
+    const sizes: Sizes = { a: 3, b: 2, h: 4, p: 2, q: 2 };
+    const base = twoByTwo(sizes, "float64", 6);
+    const spec = { ...base, layers: base.layers!.map((l) => (l.role === "output" ? { ...l, unit: { kind: "linear" } } : l.role === "hidden" ? { ...l, unit: { kind: "tanh" } } : l)), connections: base.connections!.map(({ feedback: _f, ...c }) => c) } as NetworkSpecInput;
+    const rule: RuleConfigInput = { rule: "predictive-coding", rate: 0.2, outputVariance: 4, dt: 0.2, maxSteps: 5000, tolerance: 1e-13 };
+    const one = build(spec, "typescript");
+    const reference = createRule(one, rule);
+    const par = await ParallelRule.create(build(spec, "typescript"), rule, 2);
+    try {
+      expect(par.split).toBe("slices");
+      for (let s = 0; s < 3; s++) {
+        const m = maskedBatch(sizes, 7, 20 + s);
+        reference.step({ inputs: m.inputs, targets: m.targets });
+        await par.step({ inputs: m.inputs, targets: m.full, observed: m.observed });
+      }
+      // float64; each slice's inference stops by its own rule (tolerance 1e-13), so agreement is to about that
+      parameters(par.net).forEach((v, i) => expect(Math.abs(v - parameters(one)[i]!)).toBeLessThan(1e-10));
+    } finally {
+      await par.close();
+    }
+  });
+
   it("a layer observed in no pattern may leave out its targets (`observed: false`); bad batches are refused with the layer named", async () => {
     const sizes: Sizes = { a: 3, b: 2, h: 4, p: 2, q: 1 };
     const spec = twoByTwo(sizes, "float64", 4);
