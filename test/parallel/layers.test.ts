@@ -1,28 +1,15 @@
 import fc from "fast-check";
 import { describe, it, expect } from "vitest";
-import {
-  buildNetwork,
-  createRule,
-  createRandom,
-  ParameterDelta,
-  EbbflowError,
-  loadWasmKernelsSync,
-  wasmSimdSupported,
-  type Network,
-  type NetworkSpecInput,
-  type RuleConfigInput,
-} from "../../src/index.js";
+import { createRule, createRandom, ParameterDelta, EbbflowError, type NetworkSpecInput, type RuleConfigInput } from "../../src/index.js";
 import { ParallelRule } from "../../src/node/index.js";
 import { check } from "../helpers/property.js";
-import { EPS32 } from "../helpers/tolerance.js";
+import { build, deltaValues, expectAgree, kernelsUnderTest, parameters } from "./common.js";
 
 // Several input and output layers, and targets observed on some patterns only, on worker threads. The
 // reference is the one-thread rule, whose handling of unobserved targets is checked against twin networks
 // and the masked exact gradient in test/verify/partial-clamping.test.ts. A worker count changes only the
 // order of the sums over the batch (and each slice's own stop rule, set below float32 resolution here), so
 // the results agree within a few float32 roundings of the largest term, as in rows.test.ts.
-
-const kernelsUnderTest: readonly ("typescript" | "wasm")[] = wasmSimdSupported() ? ["typescript", "wasm"] : ["typescript"];
 
 interface Sizes {
   readonly a: number;
@@ -56,10 +43,6 @@ function twoByTwo(s: Sizes, dtype: "float32" | "float64", seed: number, extra: P
   } as NetworkSpecInput;
 }
 
-function build(spec: NetworkSpecInput, kernels: "typescript" | "wasm"): Network {
-  return buildNetwork(spec, kernels === "wasm" ? { backend: loadWasmKernelsSync({ relaxed: false }) } : {});
-}
-
 /**
  * A batch of `B` patterns: inputs uniform in [0, 1), targets in [0.1, 0.9] (values of our own invention);
  * each output layer observed in a pattern with probability ½ (a NaN row where not).
@@ -75,23 +58,6 @@ function maskedBatch(s: Sizes, B: number, seed: number) {
     q: full.q.map((v, k) => (observed.q[Math.floor(k / s.q)] ? v : Number.NaN)),
   };
   return { inputs, targets, full, observed };
-}
-
-function parameters(net: Network): number[] {
-  return [...net.layers.flatMap((l) => Array.from(l.bias)), ...net.connections.flatMap((c) => Array.from(c.weights))];
-}
-
-function deltaValues(d: ParameterDelta): number[] {
-  return [...d.biases.flatMap((b) => Array.from(b)), ...d.weights.flatMap((w) => Array.from(w))];
-}
-
-/** |a − b| ≤ 64·ε32·(1 + scale) entry by entry: a few float32 roundings of the largest value involved. */
-function expectAgree(actual: readonly number[], expected: readonly number[], scale: number, label: string): void {
-  expect(actual.length).toBe(expected.length);
-  const tol = 64 * EPS32 * (1 + scale);
-  actual.forEach((v, i) => {
-    if (!(Math.abs(v - expected[i]!) <= tol)) expect.fail(`${label}[${i}]: ${v} vs ${expected[i]} (tolerance ${tol})`);
-  });
 }
 
 const rowRules: readonly RuleConfigInput[] = [
