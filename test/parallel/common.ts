@@ -1,6 +1,6 @@
 /** Helpers shared by the multi-core tests: kernels under test, parameters as numbers, agreement within float32 rounding. */
 import { expect } from "vitest";
-import { buildNetwork, loadWasmKernelsSync, wasmSimdSupported, type Network, type NetworkSpecInput, type ParameterDelta } from "../../src/index.js";
+import { buildNetwork, EbbflowError, loadWasmKernelsSync, wasmSimdSupported, type Network, type NetworkSpecInput, type ParameterDelta } from "../../src/index.js";
 import { EPS32 } from "../helpers/tolerance.js";
 
 /** The TypeScript kernels, and the WebAssembly ones where SIMD is supported. */
@@ -26,4 +26,15 @@ export function expectAgree(actual: readonly number[], expected: readonly number
 
 export function deltaValues(d: ParameterDelta): number[] {
   return [...d.biases.flatMap((b) => Array.from(b)), ...d.weights.flatMap((w) => Array.from(w))];
+}
+
+/** The code and path of the EbbflowError a promise rejects with (fails the test if it resolves or throws something else). */
+export function refusal(p: Promise<unknown>): Promise<unknown[]> {
+  return p.then(
+    () => expect.fail("expected an EbbflowError"),
+    (e: unknown) => {
+      expect(e).toBeInstanceOf(EbbflowError);
+      return [(e as EbbflowError).code, (e as EbbflowError).path];
+    },
+  );
 }
