@@ -53,8 +53,9 @@ export const trainingSchema = z
       .optional(),
     persistentStates: z.boolean().default(false),
     // held-out free phases start from each held-out example's last held-out free state (zero at first), as the
-    // authors' validation did (Scellier & Bengio 2017, their code's persistent particles); needs a held-out set
-    persistentTestStates: z.boolean().default(false),
+    // authors' validation did (Scellier & Bengio 2017, their code's persistent particles); needs a held-out set.
+    // No default filled in: configs that leave it out resolve as before (run ids and checkpoint hashes unchanged)
+    persistentTestStates: z.boolean().optional(),
     readout: z.enum(["auto", "settle", "forward"], { error: "one of auto, settle, forward" }).default("auto"),
     evaluateTrain: z.boolean().default(true),
     // how the arg-max read-out scores an example whose largest output is tied (see TiePolicy)
@@ -319,7 +320,7 @@ export class Trainer {
       if (this.forward) fail("unsupported", "training.persistentTestStates", "a rule whose read-out settles (a feedforward pass keeps no state)", this.rule.config.rule);
       requireBytes("training.persistentTestStates", `persistent states of ${heldOut.size} held-out examples`, heldOut.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
     }
-    this.persistentTest = this.options.persistentTestStates && heldOut !== undefined ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, heldOut.size * l.size))) : null;
+    this.persistentTest = this.options.persistentTestStates === true && heldOut !== undefined ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, heldOut.size * l.size))) : null;
     const seq = this.options.sequences;
     if (seq !== undefined) {
       if (this.options.persistentStates) fail("invalid_config", "training.persistentStates", "false with training.sequences (the carried state is the free phase's start)", true);
