@@ -19,6 +19,7 @@ import { refuseUnknownOptions } from "../errors/options.js";
 const PHASE_OPTIONS = ["phase", "inputs", "targets", "observed", "beta", "cost", "start", "maxSteps", "tolerance", "record", "requireConvergence", "onStep", "reuseDrive"];
 import { batchLoss, batchLossGradient, DEFAULT_OBJECTIVE, requireObjective, targetRowObserved, type Objective } from "../train/loss.js";
 import { requireStateMemory } from "./checks.js";
+import { ActiveDrive } from "./active-drive.js";
 
 /** The three phases: free (the prediction: only inputs clamped), clamped and nudged (target-driven states: outputs clamped to, or pulled toward, the targets). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
@@ -249,6 +250,8 @@ export class Settler {
   private readonly stateful: boolean;
   /** The resources of the snapshot being settled (read by accumulate). */
   private currentResources: FloatArray[] | null = null;
+  /** The products through dense weight matrices that skip sending units at zero (active-drive.ts). */
+  private readonly activeDrive: ActiveDrive;
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -277,6 +280,7 @@ export class Settler {
     this.tau = Float64Array.from(net.layers, (l) => l.spec.tau ?? 1);
     this.effectivePre = net.connections.map((c) => net.allocate(c.spec.depression !== undefined ? batch * (net.layers[c.from]?.size ?? 0) : 0));
     this.stateful = net.layers.some((l) => l.spec.adaptation !== undefined) || net.connections.some((c) => c.spec.depression !== undefined);
+    this.activeDrive = new ActiveDrive(net, batch);
   }
 
   /**
@@ -727,7 +731,7 @@ export class Settler {
       // eta (B×n) += X_from (B×m) · Wᵀ (m×n)
       if (cv) convolve(net.kernels, eta, cv.kernel, act[c.from] as FloatArray, cv.geometry, batch, 1, 1, this.fieldRows[c.index] as FloatArray);
       else if (sp) sparse.sparseDrive(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.from] as FloatArray, n, m, batch, 1, 1);
-      else gemm(eta, act[c.from] as FloatArray, c.weights, batch, n, m, false, true, 1, 1);
+      else this.activeDrive.product(eta, act[c.from] as FloatArray, c.weights, n, m, c.from, 1);
     }
     for (const c of net.feedbackInto[i] as readonly import("./network.js").Connection[]) {
       if (mask[c.to] !== want) continue;
@@ -743,7 +747,7 @@ export class Settler {
         else gemm(eta, act[c.to] as FloatArray, c.weights, batch, n, m, false, false, c.feedback.gain, 1);
       } else if (c.feedback.kind === "separate") {
         // eta (B×n) += X_to (B×m) · Fᵀ, F is n×m
-        gemm(eta, act[c.to] as FloatArray, c.feedback.weights, batch, n, m, false, true, 1, 1);
+        this.activeDrive.product(eta, act[c.to] as FloatArray, c.feedback.weights, n, m, c.to, 1);
       }
     }
   }
