@@ -8,20 +8,23 @@ import { ACTIVE_PRODUCT_CROSSOVER } from "../kernels/active.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "./network.js";
 
-let crossoverInUse: Record<BackendName, number> = { ...ACTIVE_PRODUCT_CROSSOVER };
+type Crossovers = Record<BackendName, { readonly wide: number; readonly narrow: number }>;
+let crossoverInUse: Crossovers = { ...ACTIVE_PRODUCT_CROSSOVER };
+/** Receiving units from which a product counts as wide (ACTIVE_PRODUCT_CROSSOVER). */
+const WIDE = 64;
 
 /**
  * Sets the crossover the settler uses (benchmarks only: 0 times the dense product alone, 1 the active product
  * wherever it is exact); returns the previous one. Not part of the public API. @internal
  */
-export function setActiveProductCrossover(c: Record<BackendName, number>): Record<BackendName, number> {
+export function setActiveProductCrossover(c: Crossovers): Crossovers {
   const before = crossoverInUse;
   crossoverInUse = { ...c };
   return before;
 }
 
-/** What the settlers chose since the last reset (benchmarks read it). @internal */
-export const activeProductCounts = { dense: 0, active: 0, listedBlocks: 0, blocks: 0 };
+/** What the settlers chose since the last reset, and per sending layer index the blocks listed and examined (benchmarks read it). @internal */
+export const activeProductCounts = { dense: 0, active: 0, listedBlocks: [] as number[], blocks: [] as number[] };
 
 /**
  * Per settler: one index list per sending layer, and the choice between the dense and the activity-sparse
@@ -59,12 +62,14 @@ export class ActiveDrive {
     const index = this.index[from];
     const start = this.start[from];
     const B = this.batch;
-    const limit = crossoverInUse[K.name];
+    const c = crossoverInUse[K.name];
+    const limit = c === undefined ? 0 : n >= WIDE ? c.wide : c.narrow;
     if (a && index && start && limit > 0 && a.exact(B, m)) {
       const listed = a.listActive(x, B, m, index, start);
       const blocks = B * Math.floor(m / a.blockWidth(this.net.dtype));
-      activeProductCounts.listedBlocks += listed;
-      activeProductCounts.blocks += blocks;
+      const counts = activeProductCounts;
+      counts.listedBlocks[from] = (counts.listedBlocks[from] ?? 0) + listed;
+      counts.blocks[from] = (counts.blocks[from] ?? 0) + blocks;
       if (listed < limit * blocks) {
         activeProductCounts.active++;
         a.activeProduct(eta, x, w, B, n, m, index, start, alpha, 1);
