@@ -83,6 +83,8 @@ export interface PhaseOptions {
    * then adds only the input from layers clamped now but free then. Otherwise it computes the drive
    * afresh. Rules pass it for the second and later phases of one training step, where the input drive
    * is the same (Equilibrium Propagation's nudged phases need no new products with the input weights).
+   * When the snapshot shares its input arrays with the previous phase's (`new Snapshot(net, B, other)`),
+   * the inputs are not copied again either: they are converted once per batch.
    */
   readonly reuseDrive?: boolean | undefined;
 }
@@ -252,6 +254,8 @@ export class Settler {
   private currentResources: FloatArray[] | null = null;
   /** The products through dense weight matrices that skip sending units at zero (active-drive.ts). */
   private readonly activeDrive: ActiveDrive;
+  /** The activity arrays the inputs were loaded into by the last phase that completed its setup (null: none). */
+  private inputsLoadedInto: FloatArray[] | null = null;
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -443,7 +447,12 @@ export class Settler {
     refreshSparseForms(net.connections);
     refreshConvolutionForms(net.connections);
 
-    const problems = this.loadValues(options.inputs, "input", "inputs", snap.activity);
+    // the inputs are converted once per batch: a phase that reuses the drive of the previous one, on the same
+    // inputs object and the same input arrays (snapshots sharing their inputs), keeps the values loaded then
+    const inputsLoaded =
+      options.reuseDrive === true && this.driveFrom !== null && this.driveFrom.inputs === options.inputs && this.inputsLoadedInto !== null && net.layers.every((l) => l.role !== "input" || this.inputsLoadedInto?.[l.index] === snap.activity[l.index]);
+    this.inputsLoadedInto = null;
+    const problems = inputsLoaded ? [] : this.loadValues(options.inputs, "input", "inputs", snap.activity);
     const observed = options.observed ?? {};
     if (phase !== "free") problems.push(...this.loadValues(options.targets, "output", "targets", this.targetBuf, observed));
     if (phase !== "free" && problems.length === 0) problems.push(...this.observedRows(options.observed));
@@ -506,6 +515,7 @@ export class Settler {
       }
     }
     this.driveFrom = { inputs: options.inputs, targets: options.targets, clamped: this.clamped.slice() };
+    this.inputsLoadedInto = snap.activity.slice();
 
     snap.layerChange.fill(0);
     snap.record = options.record ? [] : null;
