@@ -9,7 +9,8 @@
  * 2. Training on the published digits setting (bench/experiments/digits-eqprop-2017.json, real images): µs per
  *    training example with the active products at the crossover and with them off, timed in turn, and the
  *    measured fraction of active blocks in the products the settler formed. EBBFLOW_ACTIVE_HIDDEN sets the
- *    hidden layers ("500" or "500,500"), EBBFLOW_ACTIVE_KERNELS the kernels (typescript, wasm, all).
+ *    hidden layers ("500" or "500,500"; several networks separated by ";"), EBBFLOW_ACTIVE_KERNELS the kernels
+ *    (typescript, simd, wasm: both WebAssembly builds, all).
  */
 import { setFlagsFromString } from "node:v8";
 import { buildNetwork, createRule, type NetworkSpecInput } from "../src/index.js";
@@ -52,10 +53,8 @@ function backendsWanted(): KernelBackend[] {
   const which = process.env.EBBFLOW_ACTIVE_KERNELS ?? "all";
   const out: KernelBackend[] = [];
   if (which === "all" || which === "typescript") out.push(typescriptBackend);
-  if (which === "all" || which === "wasm") {
-    out.push(loadWasmKernelsSync({ relaxed: false }));
-    if (wasmRelaxedSimdSupported()) out.push(loadWasmKernelsSync({ relaxed: true }));
-  }
+  if (which === "all" || which === "wasm" || which === "simd") out.push(loadWasmKernelsSync({ relaxed: false }));
+  if ((which === "all" || which === "wasm") && wasmRelaxedSimdSupported()) out.push(loadWasmKernelsSync({ relaxed: true }));
   return out;
 }
 
@@ -106,11 +105,10 @@ function kernels(backends: KernelBackend[]): void {
   }
 }
 
-async function training(backends: KernelBackend[]): Promise<void> {
+async function training(backends: KernelBackend[], hiddens: number[]): Promise<void> {
   const { experiment } = await readModelArgument("bench/experiments/digits-eqprop-2017.json");
   const data = experiment.data!;
   const { train } = await resolveData(data.source, { testFraction: 0, seed: 1, split: data.split });
-  const hiddens = (process.env.EBBFLOW_ACTIVE_HIDDEN ?? "500").split(",").map(Number);
   const base = experiment.network;
   const hiddenLayer = base.layers.find((l) => l.role === "hidden")!;
   const layers = [base.layers[0]!, ...hiddens.map((size, h) => ({ ...hiddenLayer, name: `hidden${h + 1}`, size })), base.layers[base.layers.length - 1]!];
@@ -165,5 +163,6 @@ async function training(backends: KernelBackend[]): Promise<void> {
 export async function run(): Promise<void> {
   const backends = backendsWanted();
   if (process.env.EBBFLOW_ACTIVE_PART !== "training") kernels(backends);
-  if (process.env.EBBFLOW_ACTIVE_PART !== "kernels") await training(backends);
+  // networks separated by ";", hidden layers of one network by ",": "256;500;1024;4096;500,500"
+  if (process.env.EBBFLOW_ACTIVE_PART !== "kernels") for (const net of (process.env.EBBFLOW_ACTIVE_HIDDEN ?? "500").split(";")) await training(backends, net.split(",").map(Number));
 }

@@ -12,6 +12,12 @@ type Crossovers = Record<BackendName, { readonly wide: number; readonly narrow: 
 let crossoverInUse: Crossovers = { ...ACTIVE_PRODUCT_CROSSOVER };
 /** Receiving units from which a product counts as wide (ACTIVE_PRODUCT_CROSSOVER). */
 const WIDE = 64;
+/**
+ * Products a sending layer runs dense, unlisted, after one listing found it above the crossover: the listing is
+ * a pass over the layer's activities, as costly as a narrow product itself (hidden → 10 outputs, profiled), and
+ * a layer's density changes slowly over the steps of a settling.
+ */
+const RECHECK = 8;
 
 /**
  * Sets the crossover the settler uses (benchmarks only: 0 times the dense product alone, 1 the active product
@@ -34,6 +40,8 @@ export const activeProductCounts = { dense: 0, active: 0, listedBlocks: [] as nu
 export class ActiveDrive {
   private readonly index: (Int32Array | null)[];
   private readonly start: (Int32Array | null)[];
+  /** Per sending layer: products left to run dense without listing (after one found it too dense). */
+  private readonly denseFor: Int32Array;
 
   constructor(
     private readonly net: Network,
@@ -49,6 +57,7 @@ export class ActiveDrive {
     }
     this.index = net.layers.map((l) => (a && sends[l.index] ? a.indices(batch * l.size) : null));
     this.start = net.layers.map((l) => (a && sends[l.index] ? a.indices(batch + 1) : null));
+    this.denseFor = new Int32Array(net.layers.length);
   }
 
   /**
@@ -65,6 +74,13 @@ export class ActiveDrive {
     const c = crossoverInUse[K.name];
     const limit = c === undefined ? 0 : n >= WIDE ? c.wide : c.narrow;
     if (a && index && start && limit > 0 && a.exact(B, m)) {
+      if (this.denseFor[from]! > 0) {
+        // found too dense lately: the listing would cost more than it saves; look again after RECHECK products
+        this.denseFor[from]!--;
+        activeProductCounts.dense++;
+        K.gemm(eta, x, w, B, n, m, false, true, alpha, 1);
+        return;
+      }
       const listed = a.listActive(x, B, m, index, start);
       const blocks = B * Math.floor(m / a.blockWidth(this.net.dtype));
       const counts = activeProductCounts;
@@ -75,6 +91,7 @@ export class ActiveDrive {
         a.activeProduct(eta, x, w, B, n, m, index, start, alpha, 1);
         return;
       }
+      this.denseFor[from] = RECHECK;
     }
     activeProductCounts.dense++;
     K.gemm(eta, x, w, B, n, m, false, true, alpha, 1);
