@@ -51,14 +51,15 @@ export interface ActiveKernels {
  * settler runs {@link ActiveKernels.activeProduct} instead of the dense product, per backend: `wide` for
  * products into 64 or more receiving units, `narrow` for fewer (the listing, paid on every call, is then
  * shared by fewer outputs). Measured with `npm run bench -- active` (784→500, 500→500 and 500→10 at batch 20
- * and 64, listing included; see docs/guide/speed.md): the active product costs 1.3–1.8× the dense one per
- * computed term (one row of X per tile instead of two), so it pays below about half the blocks.
+ * and 64, listing included; see docs/guide/speed.md): the active product costs about 1.3–2× the dense one per
+ * computed term (one row of X per tile instead of two, gathered blocks of W), so it pays below about half the
+ * blocks, and less with relaxed SIMD, whose dense tiles gain more from fused multiply-adds.
  * @category Kernels
  */
 export const ACTIVE_PRODUCT_CROSSOVER: Readonly<Record<BackendName, { readonly wide: number; readonly narrow: number }>> = Object.freeze({
   typescript: { wide: 0.5, narrow: 0.3 },
-  "wasm-simd": { wide: 0.5, narrow: 0.3 },
-  "wasm-relaxed-simd": { wide: 0.45, narrow: 0.2 },
+  "wasm-simd": { wide: 0.5, narrow: 0.35 },
+  "wasm-relaxed-simd": { wide: 0.4, narrow: 0.2 },
 });
 
 /**
