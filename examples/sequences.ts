@@ -12,7 +12,7 @@
  *    adaptation (gain 0) answers every presentation alike.
  */
 import {
-  buildNetwork, Recorder, Settler, textureMemoryDataset, textureMemoryNetwork, Trainer, withSequences,
+  buildNetwork, carriesTraces, Recorder, Settler, textureMemoryDataset, textureMemoryNetwork, Trainer, withSequences,
   type RuleConfigInput, type Snapshot, type TextureMemoryNetworkOptions,
 } from "../src/index.js";
 
@@ -37,6 +37,11 @@ export interface TextureMemoryRunOptions {
   readonly sequences?: number | undefined;
   /** Also evaluate on the training sequences (default false). */
   readonly evaluateTrain?: boolean | undefined;
+  /**
+   * false: the rule's traces start afresh at every pattern while the network state still carries over
+   * (an ablation of the traces alone; default true, as the Trainer's sequence mode does).
+   */
+  readonly carryTraces?: boolean | undefined;
 }
 
 /** Share of targets below one half in a data set. */
@@ -55,6 +60,7 @@ export function runTextureMemory(rule: RuleConfigInput, epochs = 60, low = 0, op
   const trainOptions = { epochs, batchSize: 4, sequences: {}, evaluateTrain };
   const network = () => buildNetwork(textureMemoryNetwork(seed, undefined, undefined, options.network));
   const carried = new Trainer(network(), rule, train, trainOptions, { test });
+  if (options.carryTraces === false && carriesTraces(carried.rule)) carried.rule.carryTraces = false;
   carried.run();
   // the control: each pattern a sequence of its own, so every pattern starts from rest (state and traces)
   const single = (ds: typeof train) => withSequences(ds, Array.from({ length: ds.size + 1 }, (_, i) => i));
