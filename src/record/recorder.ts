@@ -55,8 +55,8 @@ export interface RecordedChannel {
 }
 
 /**
- * Records settling step by step. Pass {@link Recorder.onStep} as a phase's `onStep` (or call
- * {@link Recorder.settleOptions}), then {@link Recorder.endPattern} after each settling; every value
+ * Records settling step by step. Pass {@link Recorder.onStep} as a phase's `onStep`, then
+ * {@link Recorder.endPattern} after each settling; every value
  * goes into arrays allocated when the recorder is made (patterns × steps × batch × size per channel).
  * @category Recording
  * @example

@@ -22,7 +22,6 @@ import { applyDelta, ParameterDelta } from "./delta.js";
 import { SettlingRule, batchSizeOf, connectionRate, type Batch } from "./base.js";
 import type { RuleConfigBase } from "./descriptor.js";
 import { flatBatch, type BatchInput } from "../interop/ndarray.js";
-import { fail } from "../errors/index.js";
 
 /**
  * One phase a rule settles, with its settling options; every phase after the first starts from the first
@@ -55,7 +54,7 @@ export interface Product {
   readonly perPattern: number;
   /** The receiving layer's combination (B×n, used transposed). */
   readonly post: Combination;
-  /** The sending layer's combination (B×m), or `"input"` for an input layer (the same in every phase). */
+  /** The sending layer's combination (B×m), or `"input"` for an input layer (its values, the same in every phase). */
   readonly pre: Combination | "input";
 }
 
@@ -118,7 +117,7 @@ export interface ContrastPlan {
   readonly biases: readonly BiasPlan[];
   /** Non-input layers whose activities are needed pattern by pattern (B×n): senders of a planned connection. */
   readonly senders: readonly boolean[];
-  /** Values per slice in the statistics array: maxima per phase and layer, of the input, of each connection's and each layer's parameter block. */
+  /** Values per slice in the statistics array: maxima per phase and layer, of each input layer, of each connection's and each layer's parameter block. */
   readonly statsStride: number;
 }
 
@@ -151,14 +150,14 @@ export function contrastPlan(net: Network, config: RuleConfigBase, form: Contras
       return { layer: l.index, n: l.size, perPattern: config.rate * form.scale * factor(l.index), add: form.bias.add, subtract: form.bias.subtract, trained: !(into.length > 0 && into.every((c) => c.spec.frozen)) };
     });
   const L = net.layers.length;
-  return { phases: form.phases, connections, biases, senders, statsStride: form.phases.length * L + 1 + net.connections.length + L };
+  return { phases: form.phases, connections, biases, senders, statsStride: form.phases.length * L + L + net.connections.length + L };
 }
 
 /** The settled activities of a whole batch. @category Rules */
 export interface PhaseArrays {
   readonly batch: number;
-  /** The input layer's values, B×m. */
-  readonly input: FloatArray;
+  /** Per layer index: an input layer's values, B×m (null for the other layers). */
+  readonly inputs: readonly (FloatArray | null)[];
   /** `[phase][layer]`: activities B×n (row = pattern) of the sending layers, else null. */
   readonly byPattern: readonly (readonly (FloatArray | null)[])[];
   /** `[phase][layer]`: activities n×B (row = unit) of every non-input layer, else null. */
@@ -214,7 +213,7 @@ export function contrastRows(k: KernelBackend, plan: ContrastPlan, arrays: Phase
     let first = !target.add;
     for (const pr of cp.products) {
       const post = combine(k, scratch.post, pr.post, (p) => arrays.byUnit[p]![cp.to] as FloatArray, r0 * B, rows * B);
-      const pre = pr.pre === "input" ? arrays.input : combine(k, scratch.pre, pr.pre, (p) => arrays.byPattern[p]![cp.from] as FloatArray, 0, B * cp.m);
+      const pre = pr.pre === "input" ? (arrays.inputs[cp.from] as FloatArray) : combine(k, scratch.pre, pr.pre, (p) => arrays.byPattern[p]![cp.from] as FloatArray, 0, B * cp.m);
       // w (rows×m) = alpha · postᵀ pre (+ w), post stored unit-major (rows×B), pre pattern-major (B×m)
       k.gemm(w, post, pre, rows, cp.m, B, false, false, (scale * pr.perPattern) / B, first ? 0 : 1);
       first = false;
@@ -255,7 +254,7 @@ function sparseContrastRows(k: KernelBackend, cp: ConnectionPlan, sp: RowCompres
   let first = !target.add;
   for (const pr of cp.products) {
     const post = combine(k, scratch.post, pr.post, (p) => arrays.byUnit[p]![cp.to] as FloatArray, r0 * B, (r1 - r0) * B);
-    const pre = pr.pre === "input" ? arrays.input : combine(k, scratch.pre, pr.pre, (p) => arrays.byPattern[p]![cp.from] as FloatArray, 0, B * m);
+    const pre = pr.pre === "input" ? (arrays.inputs[cp.from] as FloatArray) : combine(k, scratch.pre, pr.pre, (p) => arrays.byPattern[p]![cp.from] as FloatArray, 0, B * m);
     kernels.sparseSampledProduct(values, starts, columnIndex, post, pre, r1 - r0, m, B, (scale * pr.perPattern) / B, first ? 0 : 1);
     first = false;
   }
@@ -266,9 +265,9 @@ function sparseContrastRows(k: KernelBackend, cp: ConnectionPlan, sp: RowCompres
 /** Index of a maximum in one slice's statistics. @category Rules */
 export const stat = {
   phase: (L: number, phase: number, layer: number): number => phase * L + layer,
-  input: (plan: ContrastPlan, L: number): number => plan.phases.length * L,
-  connection: (plan: ContrastPlan, L: number, c: number): number => plan.phases.length * L + 1 + c,
-  bias: (plan: ContrastPlan, L: number, C: number, layer: number): number => plan.phases.length * L + 1 + C + layer,
+  input: (plan: ContrastPlan, L: number, layer: number): number => plan.phases.length * L + layer,
+  connection: (plan: ContrastPlan, L: number, c: number): number => plan.phases.length * L + L + c,
+  bias: (plan: ContrastPlan, L: number, C: number, layer: number): number => plan.phases.length * L + L + C + layer,
 };
 
 /**
@@ -289,7 +288,7 @@ export function provablyFinite(plan: ContrastPlan, stats: Float64Array, slices: 
     return m;
   };
   const comboMax = (combo: Combination | "input", layer: number): number =>
-    combo === "input" ? max(stat.input(plan, L)) : combo.reduce((acc, [p, w]) => acc + Math.abs(w) * max(stat.phase(L, p, layer)), 0);
+    combo === "input" ? max(stat.input(plan, L, layer)) : combo.reduce((acc, [p, w]) => acc + Math.abs(w) * max(stat.phase(L, p, layer)), 0);
   for (const cp of plan.connections) {
     let bound = 0;
     for (const pr of cp.products) bound += Math.abs(scale * pr.perPattern) * comboMax(pr.post, cp.to) * comboMax(pr.pre, cp.from);
@@ -358,8 +357,10 @@ export function publishPhases(K: KernelBackend, net: Network, plan: ContrastPlan
       stats[stat.phase(L, p, l.index)] = K.maxAbs(a, count * n);
     }
   }
-  const inputSize = arrays.input.length / B;
-  stats[stat.input(plan, L)] = K.maxAbs(arrays.input.subarray(start * inputSize, (start + count) * inputSize));
+  for (const l of net.inputLayers) {
+    const x = arrays.inputs[l.index] as FloatArray;
+    stats[stat.input(plan, L, l.index)] = K.maxAbs(x.subarray(start * l.size, (start + count) * l.size));
+  }
 }
 
 /** Writes the maxima of part `part` of `parts` of the planned parameter blocks into one slice's statistics. @category Rules */
@@ -377,13 +378,15 @@ export function publishParameterMaxima(K: KernelBackend, net: Network, plan: Con
 
 /**
  * Allocates whole-batch phase arrays for a plan on `net` (in the network's memory): unit-major arrays for
- * every non-input layer and phase, pattern-major arrays for the senders, and the input layer's values.
+ * every non-input layer and phase, pattern-major arrays for the senders, and one array per input layer
+ * for its values.
  * @category Rules
  */
-export function allocatePhaseArrays(net: Network, plan: ContrastPlan, B: number, input: FloatArray): PhaseArrays {
+export function allocatePhaseArrays(net: Network, plan: ContrastPlan, B: number): PhaseArrays {
   const byUnit = plan.phases.map(() => net.layers.map((l) => (l.role === "input" ? null : net.allocate(l.size * B))));
   const byPattern = plan.phases.map(() => net.layers.map((l) => (plan.senders[l.index] ? net.allocate(B * l.size) : null)));
-  return { batch: B, input, byPattern, byUnit };
+  const inputs = net.layers.map((l) => (l.role === "input" ? net.allocate(B * l.size) : null));
+  return { batch: B, inputs, byPattern, byUnit };
 }
 
 /** Working arrays for {@link contrastRows} on `net` at batch size B. @category Rules */
@@ -398,7 +401,9 @@ export function allocateContrastScratch(net: Network, B: number): ContrastScratc
  * across worker threads does, so one thread and any number of workers give the same bits (when the
  * phases settle a fixed number of steps, or each pattern's settling does not depend on the others'). Its
  * step adds the change in place when that provably leaves every parameter finite, else applies it
- * through the checked update. Needs exactly one input layer.
+ * through the checked update. Takes any number of input and output layers, and target rows of NaN (a
+ * pattern whose output layer is not observed: the settler leaves that layer free for the pattern, so it
+ * takes the change of a hidden layer there, as the built-in contrastive rules do).
  * @category Rules
  */
 export class FormRule<C extends RuleConfigBase = RuleConfigBase> extends SettlingRule {
@@ -407,14 +412,12 @@ export class FormRule<C extends RuleConfigBase = RuleConfigBase> extends Settlin
   readonly form: ContrastForm;
   private readonly plan: ContrastPlan;
   private readonly inPlace: boolean;
-  private readonly work = new Map<number, { arrays: PhaseArrays; scratch: ContrastScratch; stats: Float64Array; input: FloatArray }>();
+  private readonly work = new Map<number, { arrays: PhaseArrays; scratch: ContrastScratch; stats: Float64Array }>();
   private fallback: ParameterDelta | null = null;
   declare readonly config: C;
 
   constructor(net: Network, config: C, form: ContrastForm) {
     super(net, config);
-    // the form's arrays hold one input layer's values (see settleAll)
-    if (net.inputLayers.length !== 1) fail("unsupported", "layers", "exactly one input layer for a rule declared by its contrast form", `${net.inputLayers.length} input layers`);
     this.form = form;
     this.phases = form.phases.map((p) => p.phase + (p.beta !== undefined ? ` β=${p.beta}` : ""));
     const plan = contrastPlan(net, config, form);
@@ -423,20 +426,22 @@ export class FormRule<C extends RuleConfigBase = RuleConfigBase> extends Settlin
     this.plan = plan ?? (contrastPlan(net, config, form, "allow") as ContrastPlan);
   }
 
-  private settleAll(batch: Batch): { B: number; w: { arrays: PhaseArrays; scratch: ContrastScratch; stats: Float64Array; input: FloatArray } } {
+  private settleAll(batch: Batch): { B: number; w: { arrays: PhaseArrays; scratch: ContrastScratch; stats: Float64Array } } {
     const net = this.net;
     const B = batchSizeOf(net, batch);
     const { settler, snaps } = this.workspace(B, this.plan.phases.length);
     this.lastFree = settlePlanPhases(settler, this.plan.phases, batch, snaps, this.startFor(B));
     let w = this.work.get(B);
     if (w === undefined) {
-      const first = net.inputLayers[0]!;
-      const input = net.allocate(B * first.size);
-      w = { arrays: allocatePhaseArrays(net, this.plan, B, input), scratch: allocateContrastScratch(net, B), stats: new Float64Array(this.plan.statsStride), input };
+      w = { arrays: allocatePhaseArrays(net, this.plan, B), scratch: allocateContrastScratch(net, B), stats: new Float64Array(this.plan.statsStride) };
       this.work.set(B, w);
     }
-    const values = batch.inputs[net.inputLayers[0]!.name]!;
-    for (let k = 0; k < w.input.length; k++) w.input[k] = values[k] as number;
+    // every input layer's values (the settler has checked them)
+    for (const l of net.inputLayers) {
+      const values = batch.inputs[l.name]!;
+      const x = w.arrays.inputs[l.index] as FloatArray;
+      for (let k = 0; k < x.length; k++) x[k] = values[k] as number;
+    }
     publishPhases(net.kernels, net, this.plan, snaps, w.arrays, 0, B, w.stats);
     return { B, w };
   }

@@ -35,7 +35,10 @@ type Cfg = z.output<typeof predictiveSchema>;
  * the feedforward pass and runs to equilibrium; then `ΔW = ε · Σ_out · ε_post f(v_pre)ᵀ`
  * (Whittington & Bogacz 2017, Neural Computation 29:1229). The factor Σ_out expresses the rate in
  * backprop units, so as Σ_out grows the change tends to backprop's with error O(1/Σ_out).
- * Needs linear output units (the output is the prediction itself).
+ * Needs linear output units (the output is the prediction itself). An output whose targets are not
+ * observed for a pattern (a target row of NaN) is a hidden node in that pattern (variance 1, settled
+ * with the hidden nodes); when no layer receives from it, that node sits at its prediction (ε = 0), the
+ * equilibrium of its own equation, so it neither drives the hidden nodes nor changes its weights.
  * @category Rules
  */
 export class PredictiveCoding implements LearningRule {
@@ -55,7 +58,9 @@ export class PredictiveCoding implements LearningRule {
   /** Steps the last inference took. */
   lastSteps = 0;
   private readonly order: number[];
-  private ws = new Map<number, { pass: ForwardPass; value: FloatArray[]; err: FloatArray[]; fv: FloatArray[]; slope: FloatArray[]; next: FloatArray[] }>();
+  private ws = new Map<number, { pass: ForwardPass; value: FloatArray[]; err: FloatArray[]; fv: FloatArray[]; slope: FloatArray[]; next: FloatArray[]; free: (Uint8Array | null)[] }>();
+  /** Per layer index: whether another layer receives from it. */
+  private readonly sends: readonly boolean[];
   private delta: ParameterDelta | null = null;
 
   constructor(net: Network, config: Cfg) {
@@ -63,6 +68,7 @@ export class PredictiveCoding implements LearningRule {
     this.config = config;
     checkRates(net, config);
     this.order = forwardOrder(net);
+    this.sends = net.layers.map((l) => net.connections.some((c) => c.from === l.index));
     for (const l of net.outputLayers) {
       if (l.unit.spec.kind !== "linear") fail("invalid_config", `layers[${l.index}].unit.kind`, '"linear" output units for predictive coding (the output is the prediction)', l.unit.spec.kind);
     }
@@ -72,7 +78,7 @@ export class PredictiveCoding implements LearningRule {
     let w = this.ws.get(B);
     if (w === undefined) {
       const a = () => this.net.layers.map((l) => this.net.allocate(B * l.size));
-      w = { pass: createForwardPass(this.net, B), value: a(), err: a(), fv: a(), slope: a(), next: a() };
+      w = { pass: createForwardPass(this.net, B), value: a(), err: a(), fv: a(), slope: a(), next: a(), free: this.net.layers.map((l) => (l.role === "output" ? new Uint8Array(B) : null)) };
       this.ws.set(B, w);
     }
     return w;
@@ -85,12 +91,23 @@ export class PredictiveCoding implements LearningRule {
     const w = this.workspace(B);
     const gemm = net.kernels.gemm;
     runForward(net, this.order, batch, w.pass);
+    // per output layer: the patterns whose targets are not observed (null when every pattern is observed)
+    const free: (Uint8Array | null)[] = net.layers.map(() => null);
     for (const l of net.layers) {
       const v = w.value[l.index] as FloatArray;
       if (l.role === "input") v.set(w.pass.activity[l.index] as FloatArray);
       else if (l.role === "output") {
-        const t = checkedLayerValues(batch.targets, l.name, v.length, "targets");
-        for (let k = 0; k < v.length; k++) v[k] = t[k] as number;
+        const t = checkedLayerValues(batch.targets, l.name, v.length, "targets", l.size);
+        const rows = w.free[l.index] as Uint8Array;
+        let any = false;
+        for (let p = 0; p < B; p++) {
+          // a row of NaN (checked whole above): a free value node, starting at its prediction
+          rows[p] = Number.isNaN(t[p * l.size] as number) ? 1 : 0;
+          if (rows[p] === 1) any = true;
+        }
+        const netInput = w.pass.netInput[l.index] as FloatArray;
+        for (let k = 0; k < v.length; k++) v[k] = rows[Math.floor(k / l.size)] === 1 ? (netInput[k] as number) : (t[k] as number);
+        if (any) free[l.index] = rows;
       } else v.set(w.pass.netInput[l.index] as FloatArray);
     }
     const variance = (i: number) => (net.layers[i]!.role === "output" ? cfg.outputVariance : 1);
@@ -106,12 +123,25 @@ export class PredictiveCoding implements LearningRule {
       for (const l of net.layers) {
         if (l.role === "input") continue;
         const e = w.err[l.index] as FloatArray;
-        for (let p = 0; p < B; p++) e.set(l.bias, p * l.size);
-        for (const c of net.incoming[l.index] ?? []) gemm(e, w.fv[c.from] as FloatArray, c.weights, B, l.size, net.layers[c.from]!.size, false, true, -1, -1);
+        // e = −μ = −b − Σ W f(v_pre), over every incoming connection
+        for (let p = 0; p < B; p++) for (let j = 0; j < l.size; j++) e[p * l.size + j] = -(l.bias[j] as number);
+        for (const c of net.incoming[l.index] ?? []) gemm(e, w.fv[c.from] as FloatArray, c.weights, B, l.size, net.layers[c.from]!.size, false, true, -1, 1);
         // e now holds −μ; ε = (v − μ)/Σ
         const v = w.value[l.index] as FloatArray;
         const s = 1 / variance(l.index);
-        for (let k = 0; k < e.length; k++) e[k] = ((v[k] as number) + (e[k] as number)) * s;
+        const rows = free[l.index];
+        if (rows !== null && rows !== undefined && !this.sends[l.index]) {
+          // a free output node that drives nothing is at its equilibrium v = μ (ε = 0) whatever the others do
+          for (let k = 0; k < e.length; k++) {
+            if (rows[Math.floor(k / l.size)] === 1) {
+              v[k] = -(e[k] as number);
+              e[k] = 0;
+            } else e[k] = ((v[k] as number) + (e[k] as number)) * s;
+          }
+        } else if (rows !== null && rows !== undefined) {
+          // a free output node that drives another layer is a hidden node for that pattern (variance 1)
+          for (let k = 0; k < e.length; k++) e[k] = ((v[k] as number) + (e[k] as number)) * (rows[Math.floor(k / l.size)] === 1 ? 1 : s);
+        } else for (let k = 0; k < e.length; k++) e[k] = ((v[k] as number) + (e[k] as number)) * s;
       }
     };
     let step = 0;
@@ -120,7 +150,9 @@ export class PredictiveCoding implements LearningRule {
       computeErrors();
       let change = 0;
       for (const l of net.layers) {
-        if (l.role !== "hidden") continue;
+        // hidden nodes, and the free rows of an output layer that drives another layer
+        const rows = l.role === "output" && this.sends[l.index] ? free[l.index] : null;
+        if (l.role !== "hidden" && (rows === null || rows === undefined)) continue;
         const g = w.next[l.index] as FloatArray;
         g.fill(0);
         for (const c of net.connections) if (c.from === l.index) gemm(g, w.err[c.to] as FloatArray, c.weights, B, l.size, net.layers[c.to]!.size, false, false, 1, 1);
@@ -128,6 +160,7 @@ export class PredictiveCoding implements LearningRule {
         const e = w.err[l.index] as FloatArray;
         const sl = w.slope[l.index] as FloatArray;
         for (let k = 0; k < v.length; k++) {
+          if (rows !== null && rows !== undefined && rows[Math.floor(k / l.size)] !== 1) continue;
           const dv = cfg.dt * (-(e[k] as number) + (sl[k] as number) * (g[k] as number));
           v[k] = (v[k] as number) + dv;
           if (Math.abs(dv) > change) change = Math.abs(dv);

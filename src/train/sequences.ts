@@ -32,7 +32,7 @@ export const sequenceOptionsSchema = z
 const finiteArray = z.array(z.number({ error: "a finite number" }).refine(Number.isFinite, { error: "a finite number" }));
 const index = z.number({ error: "an integer >= 0" }).int({ error: "an integer >= 0" }).min(0, { error: "an integer >= 0" });
 
-/** Schema of the sequence progress saved in a trainer state (ranges and lengths are checked by {@link sequenceProgressIssues}). @category Training */
+/** Schema of the sequence progress saved in a trainer state (ranges and lengths are checked by `sequenceProgressIssues`). @category Training */
 export const sequenceProgressSchema = z
   .object({
     plan: z.array(z.array(index)).nullable(),
@@ -46,7 +46,16 @@ export const sequenceProgressSchema = z
   .strict();
 
 /** Where an epoch of sequence training stands, as plain data (part of a checkpoint). @category Training */
-export type SequenceProgress = z.output<typeof sequenceProgressSchema>;
+export interface SequenceProgress {
+  /** The epoch's batches of sequence indices (null before the epoch's first pattern step). */
+  plan: number[][] | null;
+  /** The batch under way. */
+  batch: number;
+  /** The pattern position within that batch's sequences. */
+  position: number;
+  /** The carried free state (batch size, per layer: state, adaptation, resources), or null at a sequence start. */
+  carried: { batch: number; state: number[][]; adaptation: number[][]; resources: number[][] } | null;
+}
 
 /** Rules that keep per-pattern traces and can carry them across the patterns of a sequence. @category Training */
 export interface CarriesTraces {
@@ -252,7 +261,7 @@ export class SequenceRunner {
     };
   }
 
-  /** Restores progress saved by {@link SequenceRunner.save} (checked first with {@link sequenceProgressIssues}). */
+  /** Restores progress saved by {@link SequenceRunner.save} (checked first with `sequenceProgressIssues`). */
   load(p: SequenceProgress): void {
     this.plan = p.plan === null ? null : p.plan.map((b) => Int32Array.from(b));
     this.batchIndex = p.batch;
@@ -276,7 +285,8 @@ export class SequenceRunner {
    * Evaluates free phases over a sequence data set, carrying state across each sequence's patterns
    * (and across sequences too with reset "never", one sequence at a time in file order). With a
    * recorder (batch 1), sequences run one at a time and every pattern is recorded, labelled with its
-   * sequence and position.
+   * sequence and position. Used by {@link Trainer.evaluate}; not part of the documented API.
+   * @hidden
    */
   evaluate(ds: SequenceDataset, settlerFor: (B: number) => Settler, outputIndex: number, sums: MetricSums, recorder?: Recorder): void {
     const lengths = lengthsOf(ds);

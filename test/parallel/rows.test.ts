@@ -6,27 +6,20 @@ import {
   createRandom,
   ParameterDelta,
   EbbflowError,
-  loadWasmKernelsSync,
   wasmSimdSupported,
-  type Network,
   type NetworkSpecInput,
   type RuleConfigInput,
 } from "../../src/index.js";
 import { ParallelRule } from "../../src/node/index.js";
 import { check } from "../helpers/property.js";
 import { EPS32 } from "../helpers/tolerance.js";
+import { build, deltaValues, expectAgree, kernelsUnderTest, parameters, refusal } from "./common.js";
 
 // The reference for every check below is the one-thread rule (`createRule(net, rule).step`), whose changes
 // are checked against published values and exact gradients in test/rules. A worker count changes only the
 // order of the sums over the batch, so the results agree within a few float32 roundings of the largest
 // term; the settling stop rule is set below float32 resolution so that slices and the whole batch settle
 // for the same number of steps.
-
-const kernelsUnderTest: readonly ("typescript" | "wasm")[] = wasmSimdSupported() ? ["typescript", "wasm"] : ["typescript"];
-
-function build(spec: NetworkSpecInput, kernels: "typescript" | "wasm"): Network {
-  return buildNetwork(spec, kernels === "wasm" ? { backend: loadWasmKernelsSync({ relaxed: false }) } : {});
-}
 
 function layered(sizes: readonly number[], extra: Partial<NetworkSpecInput> = {}, dtype: "float32" | "float64" = "float32", seed = 5): NetworkSpecInput {
   const names = sizes.map((_, i) => (i === 0 ? "in" : i === sizes.length - 1 ? "out" : `h${i}`));
@@ -46,24 +39,6 @@ function batchOf(patterns: number, inputSize: number, targetSize: number, seed: 
   const inputs = Float64Array.from({ length: patterns * inputSize }, () => rng.uniform());
   const targets = Float64Array.from({ length: patterns * targetSize }, () => 0.1 + 0.8 * rng.uniform());
   return { inputs: { in: inputs }, targets: { out: targets } };
-}
-
-/** Every parameter of a network, in order, as plain numbers. */
-function parameters(net: Network): number[] {
-  return [...net.layers.flatMap((l) => Array.from(l.bias)), ...net.connections.flatMap((c) => Array.from(c.weights))];
-}
-
-/** |a − b| ≤ 64·ε32·(1 + scale) entry by entry: a few float32 roundings of the largest value involved. */
-function expectAgree(actual: readonly number[], expected: readonly number[], scale: number, label: string): void {
-  expect(actual.length).toBe(expected.length);
-  const tol = 64 * EPS32 * (1 + scale);
-  actual.forEach((v, i) => {
-    if (!(Math.abs(v - expected[i]!) <= tol)) expect.fail(`${label}[${i}]: ${v} vs ${expected[i]} (tolerance ${tol})`);
-  });
-}
-
-function deltaValues(d: ParameterDelta): number[] {
-  return [...d.biases.flatMap((b) => Array.from(b)), ...d.weights.flatMap((w) => Array.from(w))];
 }
 
 const contrastRules: readonly RuleConfigInput[] = [
@@ -293,26 +268,18 @@ describe("multi-core training, row split (each worker adds the whole batch's cha
     const one = build(spec, "typescript");
     createRule(one, rule).step(batch, 0.25);
     const par = await ParallelRule.create(build(spec, "typescript"), rule, 2);
-    const codeOf = (p: Promise<unknown>) =>
-      p.then(
-        () => expect.fail("expected an EbbflowError"),
-        (e: unknown) => {
-          expect(e).toBeInstanceOf(EbbflowError);
-          return [(e as EbbflowError).code, (e as EbbflowError).path];
-        },
-      );
     try {
       await par.step(batch, 0.25);
       const expected = parameters(one);
       expectAgree(parameters(par.net), expected, Math.max(...expected.map(Math.abs)), "scaled step");
-      expect(await codeOf(par.step(batch, Number.NaN))).toEqual(["invalid_parameter", "scale"]);
+      expect(await refusal(par.step(batch, Number.NaN))).toEqual(["invalid_parameter", "scale"]);
       const first = par.step(batch);
-      expect(await codeOf(par.step(batch))).toEqual(["unsupported", "batch"]);
+      expect(await refusal(par.step(batch))).toEqual(["unsupported", "batch"]);
       await first;
     } finally {
       await par.close();
     }
-    expect(await codeOf(par.step(batch))).toEqual(["unsupported", "rule"]);
+    expect(await refusal(par.step(batch))).toEqual(["unsupported", "rule"]);
   });
 
   // EqProp's caps on the settling steps of each phase (freeSteps, nudgedSteps)

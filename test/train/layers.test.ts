@@ -126,5 +126,12 @@ describe("the command line and sweeps with several input and output layers", () 
     const s = await summarizeSweepFolder(path.join(dir, "out"), { metric: "layers.lamp.accuracy", write: false });
     expect(s.summary.configurations.map((c) => c.value?.mean)).toEqual([1, 1]);
     expect(Object.keys(s.summary.configurations[0]!.metrics)).toContain("layers.valve.sse");
+    // the same sweep on two worker threads (one run each; dist/ holds the worker script) gives the same results
+    const threads = await runSweepLocally(plan, { out: path.join(dir, "threads"), workers: 2 });
+    expect(threads.finished).toBe(2);
+    for (const run of plan.runs) {
+      const read = (folder: string) => readResults(readFileSync(path.join(dir, folder, "runs", run.id, "results.jsonl"), "utf8"), "results.jsonl").epochs.map((e) => e.train);
+      expect(read("threads")).toEqual(read("out"));
+    }
   });
 });

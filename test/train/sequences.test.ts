@@ -6,8 +6,8 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
 import {
-  buildNetwork, createRule, createSequenceDataset, EbbflowError, parameterBuffers, parseCsvSequences, parseJsonSequences, Recorder, Settler, Trainer,
-  sequenceBatches, SlidingThresholdRule, type Network, type NetworkSpecInput, type Snapshot,
+  buildNetwork, createLayeredDataset, createRule, createSequenceDataset, EbbflowError, parameterBuffers, parseCsvSequences, parseJsonSequences, Recorder, Settler, Trainer,
+  sequenceBatches, SlidingThresholdRule, withSequences, type Network, type NetworkSpecInput, type Snapshot,
 } from "../../src/index.js";
 import { textureMemoryDataset, textureMemoryNetwork } from "../../src/demo/textureMemory.js";
 import { check } from "../helpers/property.js";
@@ -189,3 +189,37 @@ function copyParameters(from: Network, to: Network): void {
   const src = parameterBuffers(from);
   parameterBuffers(to).forEach((p, i) => p.set(src[i]!));
 }
+
+describe("sequence mode and several output layers", () => {
+  it("refuses a network with two output layers in sequence mode, naming training.sequences (not the first layer silently)", () => {
+    const net = buildNetwork({
+      seed: 3,
+      layers: [
+        { name: "touch", size: 2, role: "input" },
+        { name: "hidden", size: 3, role: "hidden" },
+        { name: "say", size: 1, role: "output" },
+        { name: "point", size: 1, role: "output" },
+      ],
+      connections: [
+        { from: "touch", to: "hidden" },
+        { from: "hidden", to: "say" },
+        { from: "hidden", to: "point" },
+      ],
+    });
+    const rows = createLayeredDataset("two-outputs", { inputs: { touch: [[1, 0], [0, 1], [1, 1]] }, targets: { say: [[1], [0], [1]], point: [[0], [1], [1]] } });
+    const ds = withSequences(rows, [0, 2, 3]);
+    let error: unknown;
+    try {
+      new Trainer(net, { rule: "generec", rate: 0.1 }, ds, { epochs: 1, batchSize: 1, sequences: {} });
+    } catch (e) {
+      error = e;
+    }
+    expect(error).toBeInstanceOf(EbbflowError);
+    const issue = (error as EbbflowError).issues[0]!;
+    expect(issue.code).toBe("unsupported");
+    expect(issue.path).toBe("training.sequences");
+    expect(issue.received).toMatch(/1 input and 2 output layers/);
+    // the same data trains outside sequence mode
+    expect(() => new Trainer(net, { rule: "generec", rate: 0.1 }, rows, { epochs: 1, batchSize: 1 }).run()).not.toThrow();
+  });
+});

@@ -2,7 +2,9 @@ import { describe, it, expect } from "vitest";
 import fc from "fast-check";
 import {
   buildNetwork,
+  builtinRegistry,
   createRandom,
+  FormRule,
   createRule,
   finiteDifferenceGradient,
   freeLoss,
@@ -192,6 +194,63 @@ describe("every contrastive rule and EqProp use only what was observed", () => {
       }),
       6,
     );
+  });
+});
+
+describe("rules declared by their contrast form alone (FormRule) with two input and two output layers", () => {
+  // The built-in rules whose descriptors give a contrast form; a FormRule made from that form is what a
+  // user's plugin declares. Checked against the twin networks above (the built-in rule on a network whose
+  // unobserved outputs are hidden layers, pattern by pattern) and against the built-in rule on the masked batch.
+  const forms: [string, Record<string, unknown>, "rate" | "energy"][] = [
+    ["chl", { rule: "chl", rate: 1 }, "rate"],
+    ["xie-seung", { rule: "xie-seung", rate: 1 }, "rate"],
+    ["generec (basic)", { rule: "generec", rate: 1 }, "rate"],
+    ["generec (symmetric)", { rule: "generec", rate: 1, variant: "symmetric" }, "rate"],
+    ["eqprop (symmetric)", { rule: "eqprop", rate: 1, beta: 0.05, mode: "symmetric" }, "energy"],
+    ["eqprop (one-sided)", { rule: "eqprop", rate: 1, beta: 0.05 }, "energy"],
+  ];
+  /** A FormRule carrying the built-in rule's contrast form. */
+  const formRule = (net: Network, rule: Record<string, unknown>) => {
+    const config = builtinRegistry.parseRule(rule);
+    const form = builtinRegistry.rule(config.rule).contrast?.(config, net) ?? null;
+    if (form === null) throw new Error(`${config.rule} gives no contrast form here`);
+    return new FormRule(net, config, form);
+  };
+  for (const [label, rule, kind] of forms) {
+    it(`${label} as a FormRule: an unobserved output acts as a hidden layer for that pattern, and the change equals the built-in rule's (1e-8 relative)`, () => {
+      check(
+        fc.property(fc.integer({ min: 0, max: 1e6 }), fc.integer({ min: 1, max: 3 }), maskArb, (seed, h, mask) => {
+          const gain = kind === "energy" ? 1 : 0.5;
+          const net = buildNetwork(spec(seed, h, gain, kind));
+          const batch = { inputs, targets: masked(mask) };
+          const got = flat(formRule(net, rule).computeDelta(batch, new ParameterDelta(net)));
+          const want = got.map(() => 0);
+          for (let p = 0; p < B; p++) twinDelta(net, kind, seed, h, gain, rule, mask, p).forEach((v, k) => (want[k] = want[k]! + v / B));
+          const builtin = flat(createRule(net, rule).computeDelta(batch, new ParameterDelta(net)));
+          const scale = Math.max(1e-3, ...want.map(Math.abs));
+          const worst = (a: number[]) => Math.max(...got.map((v, k) => Math.abs(v - a[k]!))) / scale;
+          expect(worst(want), `got ${got.join(", ")}\nwant ${want.join(", ")}`).toBeLessThan(1e-8);
+          expect(worst(builtin)).toBeLessThan(1e-8);
+        }),
+        5,
+      );
+    });
+  }
+
+  it("its step takes the observed mask as NaN rows do, and trains in place as the built-in rule does", () => {
+    const rule = { rule: "chl", rate: 0.5 };
+    const a = buildNetwork(spec(3, 2, 0.5, "rate"));
+    const b = buildNetwork(spec(3, 2, 0.5, "rate"));
+    const c = buildNetwork(spec(3, 2, 0.5, "rate"));
+    const mask = { p: [true, false, true], q: [false, false, true] };
+    formRule(a, rule).step({ inputs, targets: masked(mask) });
+    formRule(b, rule).step({ inputs, targets: fullTargets, observed: { p: mask.p, q: mask.q.map(Number) } });
+    createRule(c, rule).step({ inputs, targets: masked(mask) });
+    const params = (n: Network) => [...n.connections.flatMap((x) => Array.from(x.weights)), ...n.layers.flatMap((l) => Array.from(l.bias))];
+    expect(params(b)).toEqual(params(a));
+    const moved = params(a).map((v, k) => Math.abs(v - params(buildNetwork(spec(3, 2, 0.5, "rate")))[k]!));
+    expect(Math.max(...moved)).toBeGreaterThan(1e-4);
+    params(c).forEach((v, k) => expect(Math.abs(v - params(a)[k]!)).toBeLessThan(1e-12));
   });
 });
 

@@ -24,7 +24,8 @@ import { Piscina } from "piscina";
 import { EbbflowError, fail, requireFinite } from "../../errors/index.js";
 import { buildNetwork, parameterBuffers, parameterSlots, slotArray, type Network } from "../../network/network.js";
 import type { NetworkSpec } from "../../network/spec.js";
-import { applyDelta, builtinRegistry, contrastRows, ParameterDelta, type AnyRuleConfig, type Batch, type ContrastPlan, type ContrastScratch, type PhaseArrays, type Registry, type RuleConfigInput } from "../../rules/index.js";
+import { applyDelta, batchSizeOf, builtinRegistry, checkedLayerValues, contrastRows, ParameterDelta, type AnyRuleConfig, type ContrastPlan, type ContrastScratch, type PhaseArrays, type Registry, type RuleConfigInput } from "../../rules/index.js";
+import { flatBatch, type BatchInput } from "../../interop/ndarray.js";
 import type { Dtype, FloatArray } from "../../types/index.js";
 import { checkAllocation, type KernelBackend } from "../../kernels/backend.js";
 import { typescriptBackend } from "../../kernels/typescript-backend.js";
@@ -93,8 +94,9 @@ function withoutWeights(spec: NetworkSpec): NetworkSpec {
 /** A batch size's shared arrays, with the main thread's views of them. */
 interface MainLayout {
   readonly layout: BatchLayout;
-  readonly inputs: FloatArray;
-  readonly targets: FloatArray;
+  /** Per layer index: the input layers' values and the output layers' targets (null elsewhere). */
+  readonly inputs: readonly (FloatArray | null)[];
+  readonly targets: readonly (FloatArray | null)[];
   /** Row split: the phase activities (the main thread reads them when it has to apply the change itself). */
   readonly arrays: PhaseArrays | null;
   readonly scratch: ContrastScratch | null;
@@ -138,8 +140,6 @@ export class ParallelRule {
   private readonly delta: ParameterDelta;
   private readonly layouts = new Map<number, MainLayout>();
   private readonly describe: (a: FloatArray) => SharedArray;
-  private readonly inputName: string;
-  private readonly outputName: string;
   /** The control array shared with the workers (see sync.ts) and the job's scale. */
   private readonly words: Int32Array;
   private readonly scale: Float64Array;
@@ -161,11 +161,6 @@ export class ParallelRule {
     this.kernels = kernels;
     this.config = config;
     this.workers = workers;
-    const ins = net.inputLayers;
-    const outs = net.outputLayers;
-    if (ins.length !== 1 || outs.length !== 1) fail("unsupported", "layers", "exactly one input and one output layer for multi-core training", `${ins.length} and ${outs.length}`);
-    this.inputName = ins[0]!.name;
-    this.outputName = outs[0]!.name;
     // every array the network allocates lives in shared memory: SharedArrayBuffers with the TypeScript
     // kernels, the main backend's shared WebAssembly memory (attached to by every worker) with WebAssembly
     let memory: WasmSharedMemory | undefined;
@@ -196,8 +191,6 @@ export class ParallelRule {
       parameters: dst.map(this.describe),
       slots: this.slotViews.map((views) => views.map(this.describe)),
       delta: { weights: this.delta.weights.map(this.describe), biases: this.delta.biases.map(this.describe) },
-      inputName: this.inputName,
-      outputName: this.outputName,
       workers,
     };
     this.control = new SharedArrayBuffer(controlBytes(workers));
@@ -241,9 +234,11 @@ export class ParallelRule {
    * @param options - `kernels`: the kernels of the workers (default: the kind `net` uses); `registry`: where
    * the rule is looked up (default: the built-in rules). A rule of your own must come from a module
    * recorded in the registry (`loadPlugins`), which every worker imports.
+   * The network may have any number of input and output layers; batches may leave targets unobserved
+   * (rows of NaN, or an `observed` mask), as on one thread.
    * @throws EbbflowError `invalid_parameter` (path `workers`) for a count that is not an integer
-   * >= 1; `unsupported` for a rule whose state changes per batch (its descriptor's split is "none") or a
-   * network without exactly one input and one output layer; `invalid_config` for a bad rule.
+   * >= 1; `unsupported` for a rule whose state changes per batch (its descriptor's split is "none");
+   * `invalid_config` for a bad rule.
    */
   static async create(net: Network, rule: RuleConfigInput | Readonly<Record<string, unknown>>, workers: number, options: { kernels?: "typescript" | "wasm" | undefined; registry?: Registry | undefined } = {}): Promise<ParallelRule> {
     if (!Number.isInteger(workers) || workers < 1) fail("invalid_parameter", "workers", "an integer >= 1", workers);
@@ -262,24 +257,23 @@ export class ParallelRule {
     const known = this.layouts.get(B);
     if (known !== undefined) return known;
     const net = this.net;
-    const nIn = net.layer(this.inputName).size;
-    const nOut = net.layer(this.outputName).size;
-    const inputs = net.allocate(B * nIn);
-    const targets = net.allocate(B * nOut);
+    const inputs = net.layers.map((l) => (l.role === "input" ? net.allocate(B * l.size) : null));
+    const targets = net.layers.map((l) => (l.role === "output" ? net.allocate(B * l.size) : null));
     const plan = this.plan;
     const phases = plan?.phases.length ?? 0;
     const byUnit = Array.from({ length: phases }, () => net.layers.map((l) => (l.role === "input" ? null : net.allocate(l.size * B))));
     const byPattern = Array.from({ length: phases }, () => net.layers.map((l) => (plan !== null && plan.senders[l.index] ? net.allocate(B * l.size) : null)));
     const slices = Math.min(this.workers, B);
     const stats = new SharedArrayBuffer(8 * Math.max(1, slices * (plan?.statsStride ?? 0)));
-    const grid = (g: (FloatArray | null)[][]) => g.map((row) => row.map((a) => (a === null ? null : this.describe(a))));
+    const row = (r: readonly (FloatArray | null)[]) => r.map((a) => (a === null ? null : this.describe(a)));
+    const grid = (g: (FloatArray | null)[][]) => g.map(row);
     const largest = Math.max(...net.layers.map((l) => l.size));
-    const layout: BatchLayout = { id: this.layouts.size + 1, batch: B, slices, inputs: this.describe(inputs), targets: this.describe(targets), byPattern: grid(byPattern), byUnit: grid(byUnit), stats };
+    const layout: BatchLayout = { id: this.layouts.size + 1, batch: B, slices, inputs: row(inputs), targets: row(targets), byPattern: grid(byPattern), byUnit: grid(byUnit), stats };
     const made: MainLayout = {
       layout,
       inputs,
       targets,
-      arrays: plan === null ? null : { batch: B, input: inputs, byPattern, byUnit },
+      arrays: plan === null ? null : { batch: B, inputs, byPattern, byUnit },
       scratch: plan === null ? null : { post: net.allocate(largest * B), pre: net.allocate(largest * B) },
     };
     this.layouts.set(B, made);
@@ -288,18 +282,21 @@ export class ParallelRule {
     return made;
   }
 
-  /** Checks the batch's shapes and copies its inputs and targets into the shared arrays. */
-  private load(batch: Batch): MainLayout {
-    const x = batch.inputs[this.inputName];
-    const t = batch.targets[this.outputName];
-    const nIn = this.net.layer(this.inputName).size;
-    const nOut = this.net.layer(this.outputName).size;
-    if (x === undefined || x.length % nIn !== 0 || x.length === 0) fail("shape_mismatch", `inputs.${this.inputName}`, `a non-empty multiple of ${nIn} values`, x === undefined ? "missing" : `${x.length} values`);
-    const B = x.length / nIn;
-    if (t === undefined || t.length !== B * nOut) fail("shape_mismatch", `targets.${this.outputName}`, `${B * nOut} values`, t === undefined ? "missing" : `${t.length} values`);
+  /**
+   * Checks the batch (every input layer's values finite, every output layer's targets finite or whole
+   * rows of NaN, an `observed` mask written in as NaN rows) and copies it into the shared arrays.
+   */
+  private load(input: BatchInput): MainLayout {
+    const net = this.net;
+    const batch = flatBatch(net, input);
+    const B = batchSizeOf(net, batch);
+    const values = net.layers.map((l) => (l.role === "input" ? checkedLayerValues(batch.inputs, l.name, B * l.size, "inputs") : l.role === "output" ? checkedLayerValues(batch.targets, l.name, B * l.size, "targets", l.size) : null));
     const L = this.layoutFor(B);
-    L.inputs.set(x as ArrayLike<number>);
-    L.targets.set(t as ArrayLike<number>);
+    for (const l of net.layers) {
+      const v = values[l.index];
+      if (v === null || v === undefined) continue;
+      (((l.role === "input" ? L.inputs : L.targets)[l.index]) as FloatArray).set(v);
+    }
     return L;
   }
 
@@ -385,11 +382,11 @@ export class ParallelRule {
    * settling throws (`divergence`); `unsupported` while another batch of this rule is still running or
    * after {@link ParallelRule.close}.
    */
-  async computeDelta(batch: Batch, out: ParameterDelta = this.delta): Promise<ParameterDelta> {
+  async computeDelta(batch: BatchInput, out: ParameterDelta = this.delta): Promise<ParameterDelta> {
     return this.exclusive(() => this.changeFor(batch, out));
   }
 
-  private async changeFor(batch: Batch, out: ParameterDelta): Promise<ParameterDelta> {
+  private async changeFor(batch: BatchInput, out: ParameterDelta): Promise<ParameterDelta> {
     const L = this.load(batch);
     if (this.split === "slices") {
       await this.job(L, MODE_SLICES, 1);
@@ -415,12 +412,12 @@ export class ParallelRule {
    * non-finite; `invalid_parameter` (path `scale`) for a scale that is not finite; `shape_mismatch`,
    * `divergence` and `unsupported` as {@link ParallelRule.computeDelta}.
    */
-  async step(batch: Batch, scale = 1): Promise<void> {
+  async step(batch: BatchInput, scale = 1): Promise<void> {
     requireFinite("scale", scale);
     return this.exclusive(() => this.train(batch, scale));
   }
 
-  private async train(batch: Batch, scale: number): Promise<void> {
+  private async train(batch: BatchInput, scale: number): Promise<void> {
     const L = this.load(batch);
     if (this.split === "slices") {
       await this.job(L, MODE_SLICES, 1);

@@ -36,8 +36,6 @@ export interface SessionSetup {
   readonly slots: readonly (readonly SharedArray[])[];
   /** Row split into a change (computeDelta): the change arrays, weights per connection and biases per layer. */
   readonly delta: { readonly weights: readonly SharedArray[]; readonly biases: readonly SharedArray[] };
-  readonly inputName: string;
-  readonly outputName: string;
   /** Number of workers (sizes the control array). */
   readonly workers: number;
 }
@@ -50,10 +48,10 @@ export interface BatchLayout {
   readonly batch: number;
   /** Slices the batch is split into: min(workers, B); worker i takes slice i. */
   readonly slices: number;
-  /** The input layer's values, B×m. */
-  readonly inputs: SharedArray;
-  /** The output layer's targets, B×n. */
-  readonly targets: SharedArray;
+  /** Per layer index: an input layer's values, B×m (null for the other layers). */
+  readonly inputs: readonly (SharedArray | null)[];
+  /** Per layer index: an output layer's targets, B×n, a row of NaN where the pattern's targets are not observed (null for the other layers). */
+  readonly targets: readonly (SharedArray | null)[];
   /** Row split only: `[phase][layer]` activities B×n of sending layers (else null). */
   readonly byPattern: readonly (readonly (SharedArray | null)[])[];
   /** Row split only: `[phase][layer]` activities n×B of every non-input layer (else null). */

@@ -48,8 +48,9 @@ const WORKER_SCRATCH_BYTES = 1 << 20;
 
 interface LayoutViews {
   readonly layout: BatchLayout;
-  readonly inputs: FloatArray;
-  readonly targets: FloatArray;
+  /** Per layer index: input layers' values, output layers' targets (null elsewhere). */
+  readonly inputs: readonly (FloatArray | null)[];
+  readonly targets: readonly (FloatArray | null)[];
   readonly arrays: PhaseArrays;
   readonly stats: Float64Array;
 }
@@ -112,13 +113,14 @@ class Session {
       const m = receiveMessageOnPort(port);
       if (m === undefined) fail("unsupported", "layout", `the layout ${id} posted before its first job`, "no such layout");
       const layout = (m.message as LayoutMessage).layout;
-      const grid = (g: readonly (readonly (SharedArray | null)[])[]) => g.map((row) => row.map((a) => (a === null ? null : this.view(a))));
-      const inputs = this.view(layout.inputs);
+      const row = (r: readonly (SharedArray | null)[]) => r.map((a) => (a === null ? null : this.view(a)));
+      const grid = (g: readonly (readonly (SharedArray | null)[])[]) => g.map(row);
+      const inputs = row(layout.inputs);
       this.layouts.set(layout.id, {
         layout,
         inputs,
-        targets: this.view(layout.targets),
-        arrays: { batch: layout.batch, input: inputs, byPattern: grid(layout.byPattern), byUnit: grid(layout.byUnit) },
+        targets: row(layout.targets),
+        arrays: { batch: layout.batch, inputs, byPattern: grid(layout.byPattern), byUnit: grid(layout.byUnit) },
         stats: new Float64Array(layout.stats),
       });
       v = this.layouts.get(id);
@@ -147,15 +149,17 @@ class Session {
     return sc;
   }
 
-  /** The slice's inputs and targets: views of the shared batch arrays. */
+  /** The slice's inputs and targets (every input and output layer): views of the shared batch arrays. */
   sliceValues(job: Job): { inputs: LayerValues; targets: LayerValues } {
     const v = job.layout;
-    const nIn = v.inputs.length / v.arrays.batch;
-    const nOut = v.targets.length / v.arrays.batch;
-    return {
-      inputs: { [this.setup.inputName]: v.inputs.subarray(job.start * nIn, (job.start + job.count) * nIn) },
-      targets: { [this.setup.outputName]: v.targets.subarray(job.start * nOut, (job.start + job.count) * nOut) },
-    };
+    const inputs: Record<string, FloatArray> = {};
+    const targets: Record<string, FloatArray> = {};
+    for (const l of this.net.layers) {
+      const a = l.role === "input" ? v.inputs[l.index] : l.role === "output" ? v.targets[l.index] : null;
+      if (a === null || a === undefined) continue;
+      (l.role === "input" ? inputs : targets)[l.name] = a.subarray(job.start * l.size, (job.start + job.count) * l.size);
+    }
+    return { inputs, targets };
   }
 
   /** Row split, before the barrier: settles the slice, publishes its activities and its maxima. */
