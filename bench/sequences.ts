@@ -20,6 +20,7 @@ const rows: Row[] = [
   { label: "calcium, traces carried, fixed expansion", rule: CALCIUM_SEQUENCE_RULE, options: { network: fixed } },
   { label: "calcium, traces reset at every pattern (state carried), fixed expansion", rule: CALCIUM_SEQUENCE_RULE, options: { network: fixed, carryTraces: false } },
   { label: "calcium, default traces (fastTau 1, slowTau 20), rate 0.05, fixed expansion", rule: { ...CALCIUM_SEQUENCE_RULE, fastTau: 1, slowTau: 20, rate: 0.05 }, options: { network: fixed } },
+  { label: "calcium, default traces, rate 0.05, traces reset (state carried), fixed expansion", rule: { ...CALCIUM_SEQUENCE_RULE, fastTau: 1, slowTau: 20, rate: 0.05 }, options: { network: fixed, carryTraces: false } },
   { label: "calcium, slowTau 60, rate 0.05, traces carried, fixed expansion", rule: { ...CALCIUM_SEQUENCE_RULE, fastTau: 1, slowTau: 60, rate: 0.05 }, options: { network: fixed } },
   { label: "calcium, slowTau 60, rate 0.05, traces reset (state carried), fixed expansion", rule: { ...CALCIUM_SEQUENCE_RULE, fastTau: 1, slowTau: 60, rate: 0.05 }, options: { network: fixed, carryTraces: false } },
   { label: "calcium, traces carried, learned hidden layer", rule: CALCIUM_SEQUENCE_RULE, options: {} },
