@@ -111,6 +111,8 @@ export const kernelExports = [
   { name: "sparseDrive", typed: true, params: "out: ptr, values: ptr, rowStart: ptr, columnIndex: ptr, x: ptr, rows: i32, cols: i32, batch: i32, alpha: f64, beta: f64", result: "void", impl: "sparseDrive<T>", from: "./sparse", doc: "out = alpha X Wᵀ + beta out, W row-compressed (sparse.ts)" },
   { name: "sparseDriveTransposed", typed: true, params: "out: ptr, values: ptr, rowStart: ptr, columnIndex: ptr, z: ptr, rows: i32, cols: i32, batch: i32, alpha: f64, beta: f64", result: "void", impl: "sparseDriveTransposed<T>", from: "./sparse", doc: "out = alpha Z W + beta out, W row-compressed" },
   { name: "sparseSampledProduct", typed: true, params: "values: ptr, rowStart: ptr, columnIndex: ptr, post: ptr, pre: ptr, rows: i32, cols: i32, batch: i32, alpha: f64, beta: f64", result: "void", impl: "sparseSampledProduct<T>", from: "./sparse", doc: "values = alpha (post pre) at the stored entries + beta values" },
+  { name: "activeBlocks", typed: true, params: "x: ptr, rows: i32, k: i32, index: ptr, start: ptr", result: "i32", impl: "activeBlocks<T>", from: "./active", doc: "lists each row's vector blocks with a non-zero entry (active.ts)" },
+  { name: "activeProductNT", typed: true, params: "c: ptr, a: ptr, b: ptr, m: i32, n: i32, k: i32, index: ptr, start: ptr, alpha: f64, beta: f64", result: "void", impl: "activeProductNT<T>", from: "./active", doc: "C = alpha A Bᵀ + beta C over the listed blocks of A (active.ts)" },
   {
     name: "rateStep",
     typed: true,

@@ -14,6 +14,7 @@ const suites: Record<string, () => Promise<Suite>> = {
   training: () => import("./training.js"),
   step: () => import("./step.js"),
   update: () => import("./update.js"),
+  active: () => import("./active.js"),
   batch: () => import("./batch.js"),
   parallel: () => import("./parallel.js"),
   agreement: () => import("./agreement.js"),

@@ -13,6 +13,7 @@ import type { add, axpby, axpy, copy, fill, mul, scale, sub } from "./elementwis
 import type { allFinite, dot, maxAbs, maxAbsDiff, sumSquares } from "./reductions.js";
 import type { addRowVector, sumRows } from "./rows.js";
 import type { SparseKernels } from "./sparse.js";
+import type { ActiveKernels } from "./active.js";
 
 /**
  * Name of a kernel backend: the TypeScript loops, the WebAssembly kernels
@@ -89,6 +90,11 @@ export interface KernelBackend {
    * Code that finds none uses the TypeScript kernels (`typescriptSparseKernels`).
    */
   readonly sparse?: SparseKernels | undefined;
+  /**
+   * Optional: the activity-sparse product kernels (see `activeProduct`), which skip presynaptic units at
+   * exactly zero; both built-in backends define them. Code that finds none runs the dense `gemm`.
+   */
+  readonly active?: ActiveKernels | undefined;
   /**
    * Optional: a unit (activation) function or its slope, elementwise:
    * `out[i] = f(x[i])` (or `f'(x[i])` when `slope`) for `i < n`, with the

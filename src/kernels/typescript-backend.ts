@@ -11,6 +11,7 @@ import { ger } from "./ger.js";
 import { allFinite, dot, maxAbs, maxAbsDiff, sumSquares } from "./reductions.js";
 import { addRowVector, sumRows } from "./rows.js";
 import { typescriptSparseKernels } from "./sparse.js";
+import { typescriptActiveKernels } from "./active.js";
 
 /**
  * The TypeScript kernels as a {@link KernelBackend}: the functions of the
@@ -49,4 +50,5 @@ export const typescriptBackend: KernelBackend = Object.freeze({
   addRowVector,
   sumRows,
   sparse: typescriptSparseKernels,
+  active: typescriptActiveKernels,
 } as const);

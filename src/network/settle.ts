@@ -19,6 +19,7 @@ import { refuseUnknownOptions } from "../errors/options.js";
 const PHASE_OPTIONS = ["phase", "inputs", "targets", "observed", "beta", "cost", "start", "maxSteps", "tolerance", "record", "requireConvergence", "onStep", "reuseDrive"];
 import { batchLoss, batchLossGradient, DEFAULT_OBJECTIVE, requireObjective, targetRowObserved, type Objective } from "../train/loss.js";
 import { requireStateMemory } from "./checks.js";
+import { ActiveDrive } from "./active-drive.js";
 
 /** The three phases: free (the prediction: only inputs clamped), clamped and nudged (target-driven states: outputs clamped to, or pulled toward, the targets). @category Settling */
 export type Phase = "free" | "clamped" | "nudged";
@@ -82,6 +83,8 @@ export interface PhaseOptions {
    * then adds only the input from layers clamped now but free then. Otherwise it computes the drive
    * afresh. Rules pass it for the second and later phases of one training step, where the input drive
    * is the same (Equilibrium Propagation's nudged phases need no new products with the input weights).
+   * When the snapshot shares its input arrays with the previous phase's (`new Snapshot(net, B, other)`),
+   * the inputs are not copied again either: they are converted once per batch.
    */
   readonly reuseDrive?: boolean | undefined;
 }
@@ -249,6 +252,10 @@ export class Settler {
   private readonly stateful: boolean;
   /** The resources of the snapshot being settled (read by accumulate). */
   private currentResources: FloatArray[] | null = null;
+  /** The products through dense weight matrices that skip sending units at zero (active-drive.ts). */
+  private readonly activeDrive: ActiveDrive;
+  /** The activity arrays the inputs were loaded into by the last phase that completed its setup (null: none). */
+  private inputsLoadedInto: FloatArray[] | null = null;
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -277,6 +284,7 @@ export class Settler {
     this.tau = Float64Array.from(net.layers, (l) => l.spec.tau ?? 1);
     this.effectivePre = net.connections.map((c) => net.allocate(c.spec.depression !== undefined ? batch * (net.layers[c.from]?.size ?? 0) : 0));
     this.stateful = net.layers.some((l) => l.spec.adaptation !== undefined) || net.connections.some((c) => c.spec.depression !== undefined);
+    this.activeDrive = new ActiveDrive(net, batch);
   }
 
   /**
@@ -439,7 +447,12 @@ export class Settler {
     refreshSparseForms(net.connections);
     refreshConvolutionForms(net.connections);
 
-    const problems = this.loadValues(options.inputs, "input", "inputs", snap.activity);
+    // the inputs are converted once per batch: a phase that reuses the drive of the previous one, on the same
+    // inputs object and the same input arrays (snapshots sharing their inputs), keeps the values loaded then
+    const inputsLoaded =
+      options.reuseDrive === true && this.driveFrom !== null && this.driveFrom.inputs === options.inputs && this.inputsLoadedInto !== null && net.layers.every((l) => l.role !== "input" || this.inputsLoadedInto?.[l.index] === snap.activity[l.index]);
+    this.inputsLoadedInto = null;
+    const problems = inputsLoaded ? [] : this.loadValues(options.inputs, "input", "inputs", snap.activity);
     const observed = options.observed ?? {};
     if (phase !== "free") problems.push(...this.loadValues(options.targets, "output", "targets", this.targetBuf, observed));
     if (phase !== "free" && problems.length === 0) problems.push(...this.observedRows(options.observed));
@@ -502,6 +515,7 @@ export class Settler {
       }
     }
     this.driveFrom = { inputs: options.inputs, targets: options.targets, clamped: this.clamped.slice() };
+    this.inputsLoadedInto = snap.activity.slice();
 
     snap.layerChange.fill(0);
     snap.record = options.record ? [] : null;
@@ -727,7 +741,7 @@ export class Settler {
       // eta (B×n) += X_from (B×m) · Wᵀ (m×n)
       if (cv) convolve(net.kernels, eta, cv.kernel, act[c.from] as FloatArray, cv.geometry, batch, 1, 1, this.fieldRows[c.index] as FloatArray);
       else if (sp) sparse.sparseDrive(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.from] as FloatArray, n, m, batch, 1, 1);
-      else gemm(eta, act[c.from] as FloatArray, c.weights, batch, n, m, false, true, 1, 1);
+      else this.activeDrive.product(eta, act[c.from] as FloatArray, c.weights, n, m, c.from, 1);
     }
     for (const c of net.feedbackInto[i] as readonly import("./network.js").Connection[]) {
       if (mask[c.to] !== want) continue;
@@ -743,7 +757,7 @@ export class Settler {
         else gemm(eta, act[c.to] as FloatArray, c.weights, batch, n, m, false, false, c.feedback.gain, 1);
       } else if (c.feedback.kind === "separate") {
         // eta (B×n) += X_to (B×m) · Fᵀ, F is n×m
-        gemm(eta, act[c.to] as FloatArray, c.feedback.weights, batch, n, m, false, true, 1, 1);
+        this.activeDrive.product(eta, act[c.to] as FloatArray, c.feedback.weights, n, m, c.to, 1);
       }
     }
   }

@@ -12,6 +12,7 @@ import { wasmKernels } from "./generated/kernels.js";
 import type { WasmBuild, WasmModule } from "./platform.js";
 import { createStaging } from "./staging.js";
 import { createSparseKernels } from "./sparse.js";
+import { createActiveKernels } from "./active.js";
 import { createRateStep, createUnitFill } from "./units.js";
 
 /**
@@ -170,6 +171,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
     unitFill: createUnitFill(arena.X, own),
     rateStep: createRateStep(arena.X, own),
     sparse: createSparseKernels(arena.X, own, arena.allocate),
+    active: createActiveKernels(arena.X, own, arena.allocate, kernels.gemm),
   };
   return backend;
 }

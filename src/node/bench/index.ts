@@ -3,4 +3,5 @@
  * @module
  */
 export * from "./machine.js";
-export * from "./workload.js";
+export { benchNetwork, formatBench, runBench, type BenchFigure, type BenchOptions, type BenchReport, type KernelFigure } from "./workload.js";
+export { describePeerWorkload, peerWorkload, type PeerWorkload } from "./peer-workload.js";

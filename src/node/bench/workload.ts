@@ -11,7 +11,7 @@ import { existsSync } from "node:fs";
 import { fileURLToPath } from "node:url";
 import path from "node:path";
 import { buildNetwork, type Network } from "../../network/network.js";
-import type { NetworkSpec, NetworkSpecInput } from "../../network/spec.js";
+import { parseNetwork, type NetworkSpec, type NetworkSpecInput } from "../../network/spec.js";
 import { createRule } from "../../rules/index.js";
 import { createRandom } from "../../random/index.js";
 import type { KernelBackend } from "../../kernels/backend.js";
@@ -19,6 +19,7 @@ import { typescriptBackend } from "../../kernels/typescript-backend.js";
 import { loadWasmKernelsSync, selectBackend, wasmRelaxedSimdSupported, wasmSimdSupported } from "../../kernels/wasm/loader.js";
 import { ParallelRule } from "../parallel/pool.js";
 import { estimatedPeakGflops, machineFingerprint, type MachineFingerprint } from "./machine.js";
+import { describePeerWorkload, peerWorkload, type PeerWorkload } from "./peer-workload.js";
 
 /** One measured figure. @category Benchmarks */
 export interface BenchFigure {
@@ -28,6 +29,11 @@ export interface BenchFigure {
   /** Microseconds per training example (null when skipped). */
   readonly usPerExample: number | null;
   readonly note?: string | undefined;
+  /**
+   * What this contender ran, as it reports it (`describePeerWorkload`); a ratio is printed only between figures
+   * whose workloads are equal. Absent in reports written before this field existed.
+   */
+  readonly workload?: string | undefined;
 }
 
 /** One kernel figure. @category Benchmarks */
@@ -108,8 +114,9 @@ async function timeIt(fn: () => unknown, seconds: number): Promise<number> {
 /**
  * The NumPy peer, run twice: with NumPy's default BLAS threads (every core) and restricted to one
  * thread (`OPENBLAS_NUM_THREADS=1` and friends), the like-for-like peer of ebbflow on one thread.
+ * Exported for the test of like-for-like workloads (not from the package). @internal
  */
-async function numpyPeer(batches: number[], seconds: number): Promise<BenchFigure[]> {
+export async function numpyPeer(batches: number[], seconds: number, work: PeerWorkload): Promise<BenchFigure[]> {
   // beside the package (dist/node/bench -> bench/peers), or in the working folder (the repository's bench build)
   const candidates = [fileURLToPath(new URL("../../../bench/peers/numpy_eqprop.py", import.meta.url)), path.resolve("bench/peers/numpy_eqprop.py")];
   const script = candidates.find((f) => existsSync(f)) ?? (candidates[0] as string);
@@ -123,18 +130,19 @@ async function numpyPeer(batches: number[], seconds: number): Promise<BenchFigur
       out.push(...skip(`peer script not found (${script})`));
       continue;
     }
-    const r = spawnSync("python3", [script, String(seconds), ...batches.map(String)], { encoding: "utf8", timeout: 600_000, env: { ...process.env, ...env } });
+    const r = spawnSync("python3", [script, String(seconds), ...batches.map(String), "--workload", JSON.stringify(work)], { encoding: "utf8", timeout: 600_000, env: { ...process.env, ...env } });
     if (r.error !== undefined || r.status !== 0) {
       out.push(...skip(`skipped: python3 with NumPy not available (${(r.stderr || r.error?.message || "").trim().split("\n").at(-1) ?? ""})`));
       continue;
     }
-    const res = JSON.parse(r.stdout) as { numpy: string; threads?: string; results: Record<string, number> };
-    out.push(...batches.map((b) => ({ implementation, batch: b, workers: 1, usPerExample: res.results[String(b)] ?? null, note: `NumPy ${res.numpy}, BLAS threads ${res.threads ?? "default"}` })));
+    const res = JSON.parse(r.stdout) as { numpy: string; threads?: string; workload?: string; results: Record<string, number> };
+    out.push(...batches.map((b) => ({ implementation, batch: b, workers: 1, usPerExample: res.results[String(b)] ?? null, note: `NumPy ${res.numpy}, BLAS threads ${res.threads ?? "default"}`, workload: res.workload })));
   }
   return out;
 }
 
-async function tfjsPeer(batches: number[], seconds: number): Promise<BenchFigure[]> {
+/** The TF.js peer on its CPU backend (float32 only). @internal exported for the test of like-for-like workloads */
+export async function tfjsPeer(batches: number[], seconds: number, work: PeerWorkload): Promise<BenchFigure[]> {
   let tf: typeof import("@tensorflow/tfjs-core");
   try {
     tf = await import("@tensorflow/tfjs-core");
@@ -144,42 +152,57 @@ async function tfjsPeer(batches: number[], seconds: number): Promise<BenchFigure
   } catch {
     return batches.map((b) => ({ implementation: "tfjs-cpu", batch: b, workers: 1, usPerExample: null, note: "skipped: the optional peers are not installed (npm install @tensorflow/tfjs-core@4.22.0 @tensorflow/tfjs-backend-cpu@4.22.0)" }));
   }
+  type T2 = import("@tensorflow/tfjs-core").Tensor2D;
+  const T = tf;
+  const dtype = work.dtype === "float32" ? "float32" : null;
+  if (dtype === null) return batches.map((b) => ({ implementation: "tfjs-cpu", batch: b, workers: 1, usPerExample: null, note: "skipped: the TF.js CPU backend computes in float32 only" }));
+  // the unit functions of createUnit (logistic with gain 1 and offset 0)
+  const unit = (kind: string, z: T2): T2 =>
+    (kind === "logistic" ? T.sigmoid(z) : kind === "hard-sigmoid" ? T.clipByValue(z, 0, 1) : kind === "relu" ? T.relu(z) : kind === "tanh" ? T.tanh(z) : z) as T2;
+  const sizes = work.sizes;
+  const depth = sizes.length - 1;
   const out: BenchFigure[] = [];
   for (const B of batches) {
     const rng = createRandom(1).child("tfjs");
-    const lim1 = Math.sqrt(6 / (784 + 256));
-    const lim2 = Math.sqrt(6 / (256 + 10));
-    let w1 = tf.tensor2d(Float32Array.from({ length: 256 * 784 }, () => rng.between(-lim1, lim1)), [256, 784]);
-    let w2 = tf.tensor2d(Float32Array.from({ length: 10 * 256 }, () => rng.between(-lim2, lim2)), [10, 256]);
-    const x = tf.tensor2d(Float32Array.from({ length: B * 784 }, () => (rng.uniform() < 0.15 ? 1 : 0)), [B, 784]);
-    const t = tf.cast(tf.oneHot(tf.tensor1d(Array.from({ length: B }, () => rng.int(10)), "int32"), 10), "float32");
-    // the input drive once per training step, as ebbflow and the NumPy peer compute it
-    const settle = (drive: import("@tensorflow/tfjs-core").Tensor2D, h: import("@tensorflow/tfjs-core").Tensor2D, y: import("@tensorflow/tfjs-core").Tensor2D, steps: number, nudge: boolean) => {
+    let ws: T2[] = [];
+    for (let l = 0; l < depth; l++) {
+      const lim = Math.sqrt(6 / (sizes[l]! + sizes[l + 1]!));
+      ws.push(T.tensor2d(Float32Array.from({ length: sizes[l + 1]! * sizes[l]! }, () => rng.between(-lim, lim)), [sizes[l + 1]!, sizes[l]!]));
+    }
+    const nOut = sizes[depth]!;
+    const x = T.tensor2d(Float32Array.from({ length: B * sizes[0]! }, () => (rng.uniform() < 0.15 ? 1 : 0)), [B, sizes[0]!]);
+    const t = T.cast(T.oneHot(T.tensor1d(Array.from({ length: B }, () => rng.int(nOut)), "int32"), nOut), "float32") as T2;
+    // the input drive once per training step, as ebbflow and the NumPy peer compute it; biases stay 0 (not timed apart)
+    const settle = (drive: T2, start: T2[], steps: number, nudge: boolean): T2[] => {
+      let hs = start;
       for (let s = 0; s < steps; s++) {
-        const etaH = tf.add(drive, tf.matMul(y, w2));
-        let etaY = tf.matMul(h, w2, false, true);
-        if (nudge) etaY = tf.add(etaY, tf.mul(0.5, tf.sub(t, y)));
-        h = tf.add(h, tf.mul(0.5, tf.sub(tf.sigmoid(etaH), h))) as import("@tensorflow/tfjs-core").Tensor2D;
-        y = tf.add(y, tf.mul(0.5, tf.sub(tf.sigmoid(etaY), y))) as import("@tensorflow/tfjs-core").Tensor2D;
+        const etas = hs.map((h, l) => {
+          let eta = l === 0 ? drive : (T.matMul(hs[l - 1]!, ws[l]!, false, true) as T2);
+          if (l + 1 < depth) eta = T.add(eta, T.matMul(hs[l + 1]!, ws[l + 1]!)) as T2;
+          else if (nudge) eta = T.add(eta, T.mul(work.beta, T.sub(t, h))) as T2;
+          return eta;
+        });
+        hs = hs.map((h, l) => T.add(h, T.mul(work.dt, T.sub(unit(work.units[l]!, etas[l]!), h))) as T2);
       }
-      return [h, y] as const;
+      return hs;
     };
     const step = () => {
-      const [nw1, nw2] = tf.tidy(() => {
-        const drive = tf.matMul(x, w1, false, true) as import("@tensorflow/tfjs-core").Tensor2D;
-        const [h0, y0] = settle(drive, tf.zeros([B, 256]), tf.zeros([B, 10]), 20, false);
-        const [hb, yb] = settle(drive, h0, y0, 4, true);
-        const s = 0.01 / (0.5 * B);
-        return [tf.add(w1, tf.mul(s, tf.matMul(tf.sub(hb, h0), x, true))), tf.add(w2, tf.mul(s, tf.sub(tf.matMul(yb, hb, true), tf.matMul(y0, h0, true))))];
+      const next = T.tidy(() => {
+        const drive = T.matMul(x, ws[0]!, false, true) as T2;
+        const h0 = settle(drive, sizes.slice(1).map((n) => T.zeros([B, n]) as T2), work.freeSteps, false);
+        const hb = settle(drive, h0, work.nudgedSteps, true);
+        const s = work.rate / (work.beta * B);
+        return ws.map((w, l) =>
+          l === 0 ? T.add(w, T.mul(s, T.matMul(T.sub(hb[0]!, h0[0]!), x, true))) : T.add(w, T.mul(s, T.sub(T.matMul(hb[l]!, hb[l - 1]!, true), T.matMul(h0[l]!, h0[l - 1]!, true)))),
+        ) as T2[];
       });
-      w1.dispose();
-      w2.dispose();
-      w1 = nw1 as import("@tensorflow/tfjs-core").Tensor2D;
-      w2 = nw2 as import("@tensorflow/tfjs-core").Tensor2D;
+      for (const w of ws) w.dispose();
+      ws = next;
     };
     const sec = await timeIt(step, seconds);
-    out.push({ implementation: "tfjs-cpu", batch: B, workers: 1, usPerExample: (sec / B) * 1e6, note: `tfjs ${tf.version_core}` });
-    tf.dispose([w1, w2, x, t]);
+    const ran: PeerWorkload = { ...work, sizes: [ws[0]!.shape[1], ...ws.map((w) => w.shape[0])] };
+    out.push({ implementation: "tfjs-cpu", batch: B, workers: 1, usPerExample: (sec / B) * 1e6, note: `tfjs ${T.version_core}`, workload: describePeerWorkload(ran) });
+    T.dispose([...ws, x, t]);
   }
   return out;
 }
@@ -250,6 +273,8 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
   const rounds = Math.max(1, Math.floor(options.rounds ?? 3));
   // the peers' workload: 20 free steps (the network's maxSteps) and 4 nudged steps
   const rule = { rule: "eqprop" as const, beta: 0.5, rate: 0.01, nudgedSteps: 4 };
+  const forPeers = peerWorkload(parseNetwork(spec), { freeSteps: 20, nudgedSteps: rule.nudgedSteps, beta: rule.beta, rate: rule.rate });
+  const workload = "workload" in forPeers ? describePeerWorkload(forPeers.workload) : `the model's network, eqprop one-sided, 20 free + 4 nudged steps (the peers do not run it: ${forPeers.refused})`;
   for (const B of batches) {
     for (const be of backends) {
       // one contender per worker count, set up first, then timed in turn for `rounds` rounds (medians):
@@ -289,14 +314,18 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
       for (const c of contenders) {
         const sorted = [...c.times].sort((x, y) => x - y);
         const sec = sorted[Math.floor(sorted.length / 2)] as number;
-        const fig = { implementation: `ebbflow-${be.name}`, batch: B, workers: c.w, usPerExample: (sec / B) * 1e6 };
+        const fig = { implementation: `ebbflow-${be.name}`, batch: B, workers: c.w, usPerExample: (sec / B) * 1e6, workload };
         figures.push(fig);
         log(`${fig.implementation} batch ${B} workers ${c.w}: ${fig.usPerExample.toFixed(1)} µs/example (median of ${rounds} rounds)`);
       }
     }
   }
   if (options.peers !== false) {
-    for (const f of [...(await numpyPeer(batches, seconds)), ...(await tfjsPeer(batches, seconds))]) {
+    const peers =
+      "workload" in forPeers
+        ? [...(await numpyPeer(batches, seconds, forPeers.workload)), ...(await tfjsPeer(batches, seconds, forPeers.workload))]
+        : ["numpy", "numpy-1-thread", "tfjs-cpu"].flatMap((implementation) => batches.map((b) => ({ implementation, batch: b, workers: 1, usPerExample: null, note: `skipped: the peers do not run this model (${forPeers.refused})` })));
+    for (const f of peers) {
       figures.push(f);
       log(`${f.implementation} batch ${f.batch}: ${f.usPerExample === null ? f.note : `${f.usPerExample.toFixed(1)} µs/example`}`);
     }
@@ -309,7 +338,7 @@ export async function runBench(options: BenchOptions = {}): Promise<BenchReport>
     machine,
     peakGflops: peak,
     selected: { kernels: selectBackend("auto").name, relaxedByDefault: relaxedByDefault() },
-    workload: "eqprop (one-sided) on 784-256-10 (or the model given), 20 free + 4 nudged steps, rate dynamics, float32, input drive once per training step (shared by both phases)",
+    workload,
     figures,
     kernels,
     memory,
@@ -342,7 +371,11 @@ export function formatBench(a: BenchReport, b?: BenchReport): string {
     if (best !== undefined) lines.push(`  batch ${B}: fastest ebbflow on one thread: ${best.implementation}`);
     for (const peer of ["numpy", "numpy-1-thread", "tfjs-cpu"]) {
       const p = base(peer, B);
-      if (ours !== null && p !== null) lines.push(`  batch ${B}: ${peer} / ebbflow = ${(p / ours).toFixed(2)}`);
+      const ran = a.figures.find((f) => f.implementation === peer && f.batch === B && f.workers === 1)?.workload;
+      if (ours === null || p === null) continue;
+      // a ratio only for the same work: the peer's own description of what it ran must be ebbflow's
+      if (ran === best?.workload && ran !== undefined) lines.push(`  batch ${B}: ${peer} / ebbflow = ${(p / ours).toFixed(2)}`);
+      else lines.push(`  batch ${B}: ${peer}: no ratio (it ran ${ran === undefined ? "a workload it did not describe" : JSON.stringify(ran)}, ebbflow ${JSON.stringify(best?.workload ?? a.workload)})`);
     }
     for (const impl of [...new Set(a.figures.filter((f) => f.implementation.startsWith("ebbflow-")).map((f) => f.implementation))]) {
       const one = base(impl, B, 1);
