@@ -23,13 +23,14 @@ const suites: Record<string, () => Promise<Suite>> = {
   runs: () => import("./runs.js"),
   sparse: () => import("./sparse.js"),
   fuzz: () => import("./fuzz.js"),
+  sequences: () => import("./sequences.js"),
 };
 
 const wanted = process.argv.slice(2);
 printMachine();
 for (const [name, load] of Object.entries(suites)) {
-  // the fuzz suite runs only when asked for by name (it takes minutes)
-  if (wanted.length > 0 ? !wanted.includes(name) : name === "fuzz") continue;
+  // the fuzz and sequences suites run only when asked for by name (they take minutes)
+  if (wanted.length > 0 ? !wanted.includes(name) : name === "fuzz" || name === "sequences") continue;
   console.log(`\n## ${name}`);
   const suite = await load();
   await suite.run();

@@ -61,7 +61,7 @@ export { orientedBarsDataset, parityDataset, randomAssociation, type BinaryCodin
 export { datasetToJson, parseJsonDataset } from "./train/data/json.js";
 export { createSequenceDataset, isSequenceDataset, parseCsvSequences, parseJsonSequences, sequenceCount, splitSequences, withSequences, type CsvSequenceOptions, type SequenceDataset, type SequenceRows } from "./train/data/sequences.js";
 export { carriesTraces, sequenceBatches, sequenceOptionsSchema, SequenceRunner, type CarriesTraces, type SequenceProgress, type SequenceReset } from "./train/sequences.js";
-export { TEXTURE_SENSORS, textureMemoryDataset, textureMemoryNetwork, type TextureMemoryOptions } from "./demo/textureMemory.js";
+export { TEXTURE_SENSORS, textureMemoryDataset, textureMemoryNetwork, type TextureMemoryNetworkOptions, type TextureMemoryOptions } from "./demo/textureMemory.js";
 export { fitScaler, type Scaler, type ScalerKind } from "./train/data/scaling.js";
 export { kFold, trainTestSplit, type DatasetSplit, type SplitOptions } from "./train/data/split.js";
 export { Trainer, datasetBatch, parseTraining, trainingSchema, type EpochRecord, type StopReason, type TrainerExtras, type TrainerHooks, type TrainerState, type TrainingOptions, type TrainingOptionsInput } from "./train/loop.js";

@@ -48,31 +48,51 @@ export function textureMemoryDataset(options: TextureMemoryOptions = {}): Sequen
   return createSequenceDataset(`texture-memory:${lag}`, seqs);
 }
 
+/** Options of {@link textureMemoryNetwork}. @category Demo */
+export interface TextureMemoryNetworkOptions {
+  /**
+   * How the hidden layer reads the sensors and memories: `learned` (default; 8 units, the rule trains
+   * their weights and the report feeds back into them) or `fixed` (a frozen random expansion, weights
+   * uniform in ±`scale`, no feedback from the report: only the report's weights and the biases learn).
+   */
+  readonly hidden?: "learned" | "fixed" | undefined;
+  /** Hidden units (default 8 learned, 16 fixed). */
+  readonly size?: number | undefined;
+  /** Half-width of the fixed expansion's uniform weights (default 2). */
+  readonly scale?: number | undefined;
+}
+
 /**
  * The network of the scenario: the sensors feed two slow memory layers in a chain (fixed, frozen copies,
- * tau 8 and 8: each keeps part of its earlier state through a pattern's settling), and a learned hidden
- * layer reads the sensors and both memories and drives the report. The memories are what carries the
- * past; the rule learns to read it.
+ * tau 20 and 40 by default: each keeps part of its earlier state through a pattern's settling), and a
+ * hidden layer reads the sensors and both memories and drives the report. The memories are what carries
+ * the past; the rule learns to read it. With `hidden: "fixed"` the hidden layer is a frozen random
+ * expansion and only the read-out learns (the calcium rule's changes to a hidden layer reading drifting
+ * memories follow the drift more than the error; see the sequences guide).
  * @category Demo
  */
-export function textureMemoryNetwork(seed: number | string = 1, taus: readonly [number, number] = [20, 40], steps = 30): NetworkSpecInput {
+export function textureMemoryNetwork(seed: number | string = 1, taus: readonly [number, number] = [20, 40], steps = 30, options: TextureMemoryNetworkOptions = {}): NetworkSpecInput {
   const copy = [1, 1, 0, 0, 0, 0, 1, 1].map((v) => 3 * v);
+  const fixed = options.hidden === "fixed";
+  const size = options.size ?? (fixed ? 16 : 8);
+  const s = options.scale ?? 2;
+  const read = fixed ? { init: { kind: "uniform" as const, low: -s, high: s }, frozen: true } : { init: { kind: "uniform" as const, low: -0.5, high: 0.5 } };
   return {
     seed,
     layers: [
       { name: "sensors", size: 4, role: "input" },
       { name: "recent", size: 2, role: "hidden", unit: { kind: "logistic" }, tau: taus[0], bias: -3 },
       { name: "older", size: 2, role: "hidden", unit: { kind: "logistic" }, tau: taus[1], bias: -1.5 },
-      { name: "hidden", size: 8, role: "hidden", unit: { kind: "logistic" } },
+      { name: "hidden", size, role: "hidden", unit: { kind: "logistic" } },
       { name: "report", size: 1, role: "output", unit: { kind: "logistic" } },
     ],
     connections: [
       { from: "sensors", to: "recent", weights: copy, frozen: true },
       { from: "recent", to: "older", weights: [3, 0, 0, 3], frozen: true },
-      { from: "sensors", to: "hidden", init: { kind: "uniform", low: -0.5, high: 0.5 }, feedback: { kind: "none" } },
-      { from: "recent", to: "hidden", init: { kind: "uniform", low: -0.5, high: 0.5 } },
-      { from: "older", to: "hidden", init: { kind: "uniform", low: -0.5, high: 0.5 } },
-      { from: "hidden", to: "report", init: { kind: "uniform", low: -0.5, high: 0.5 }, feedback: { kind: "tied", gain: 1 } },
+      { from: "sensors", to: "hidden", ...read, feedback: { kind: "none" } },
+      { from: "recent", to: "hidden", ...read },
+      { from: "older", to: "hidden", ...read },
+      { from: "hidden", to: "report", init: { kind: "uniform", low: -0.5, high: 0.5 }, feedback: fixed ? { kind: "none" } : { kind: "tied", gain: 1 } },
     ],
     dynamics: { dt: 0.5, maxSteps: steps, tolerance: 1e-9 },
   };
