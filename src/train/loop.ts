@@ -52,6 +52,10 @@ export const trainingSchema = z
       .strict()
       .optional(),
     persistentStates: z.boolean().default(false),
+    // held-out free phases start from each held-out example's last held-out free state (zero at first), as the
+    // authors' validation did (Scellier & Bengio 2017, their code's persistent particles); needs a held-out set.
+    // No default filled in: configs that leave it out resolve as before (run ids and checkpoint hashes unchanged)
+    persistentTestStates: z.boolean().optional(),
     readout: z.enum(["auto", "settle", "forward"], { error: "one of auto, settle, forward" }).default("auto"),
     evaluateTrain: z.boolean().default(true),
     // how the arg-max read-out scores an example whose largest output is tied (see TiePolicy)
@@ -101,6 +105,8 @@ export interface TrainerState {
   readonly sinceBest: number;
   /** Persistent free-phase states per non-input layer, n×size, when enabled. */
   readonly persistent: (number[] | null)[] | null;
+  /** Persistent held-out free-phase states per non-input layer, n_test×size, with `training.persistentTestStates`. */
+  readonly persistentTest?: (number[] | null)[] | null | undefined;
   /** The optimizer's step count and moments, when `training.optimizer` is set. */
   readonly optimizer?: OptimizerState | null | undefined;
   /** Sequence mode: where the epoch stands (its plan and position) and the carried state. */
@@ -257,12 +263,15 @@ export class Trainer {
   private readonly layouts = new WeakMap<Dataset, DataLayout>();
   private readonly order: number[];
   private readonly persistent: (FloatArray | null)[] | null;
+  /** Held-out examples' last free states (`training.persistentTestStates`), per non-input layer. */
+  private readonly persistentTest: (FloatArray | null)[] | null;
   private readonly forward: boolean;
   /** The optimizer applied to the rule's change (null: the rule's own step). */
   readonly optimizer: Optimizer | null;
   private evalSettlers = new Map<number, Settler>();
   private evalPasses = new Map<number, ForwardPass>();
   private starts = new Map<number, Snapshot>();
+  private testStarts = new Map<number, Snapshot>();
   /** Sequence mode's runner (null unless `training.sequences`). */
   private readonly sequenceRunner: SequenceRunner | null;
   /** Start time of the epoch under way (sequence mode steps through it pattern by pattern). */
@@ -305,9 +314,17 @@ export class Trainer {
     this.optimizer = this.options.optimizer === undefined ? null : new Optimizer(net, this.rule, this.options.optimizer);
     if (this.options.persistentStates) requireBytes("training.persistentStates", `persistent states of ${train.size} examples`, train.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
     this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
+    const heldOut = this.test;
+    if (this.options.persistentTestStates) {
+      if (heldOut === undefined) fail("invalid_config", "training.persistentTestStates", "false (no held-out set was given)", true);
+      if (this.forward) fail("unsupported", "training.persistentTestStates", "a rule whose read-out settles (a feedforward pass keeps no state)", this.rule.config.rule);
+      requireBytes("training.persistentTestStates", `persistent states of ${heldOut.size} held-out examples`, heldOut.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
+    }
+    this.persistentTest = this.options.persistentTestStates === true && heldOut !== undefined ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, heldOut.size * l.size))) : null;
     const seq = this.options.sequences;
     if (seq !== undefined) {
       if (this.options.persistentStates) fail("invalid_config", "training.persistentStates", "false with training.sequences (the carried state is the free phase's start)", true);
+      if (this.options.persistentTestStates) fail("invalid_config", "training.persistentTestStates", "false with training.sequences (the carried state is the free phase's start)", true);
       if (this.forward) fail("unsupported", "training.sequences", "a rule that settles (a feedforward pass keeps no state to carry)", this.rule.config.rule);
       if (layout.inputs.length !== 1 || layout.outputs.length !== 1) fail("unsupported", "training.sequences", "one input and one output layer in sequence mode", `${layout.inputs.length} input and ${layout.outputs.length} output layers`);
       this.sequenceRunner = new SequenceRunner(net, requireSequences(train, "data.train"), seq.reset, this.options.batchSize, layout.inputs[0]!.name, layout.outputs[0]!.name);
@@ -348,6 +365,7 @@ export class Trainer {
     }
     if (recorder !== undefined) fail("invalid_parameter", "recorder", "no recorder (recording is for sequence-mode evaluation; pass onStep to a Settler otherwise)", "a recorder");
     const chunk = Math.min(256, ds.size);
+    const kept = this.persistentTest !== null && ds === this.test ? this.persistentTest : null;
     // one block per layer is a view of the rows; several are copied out per chunk
     const whole = (slots: readonly Slot[], width: number) => slots.length === 1 && slots[0]!.size === width;
     const inBufs = whole(layout.inputs, ds.inputSize) ? null : layout.inputs.map((s) => new Float64Array(chunk * s.size));
@@ -371,6 +389,11 @@ export class Trainer {
         }
         runForward(this.net, this.order, { inputs, targets: {} }, pass);
         activity = pass.activity;
+      } else if (kept !== null) {
+        // held-out persistent states: each example's free phase starts where its last one ended
+        const snap = this.evalSettler(B).settle({ phase: "free", inputs, start: this.heldOutStart(kept, start, B) });
+        for (const l of this.net.layers) kept[l.index]?.set(snap.state[l.index] as FloatArray, start * l.size);
+        activity = snap.activity;
       } else {
         activity = this.evalSettler(B).settle({ phase: "free", inputs }).activity;
       }
@@ -469,6 +492,20 @@ export class Trainer {
         const e = idx[from + p] as number;
         st.set(store.subarray(e * l.size, (e + 1) * l.size), p * l.size);
       }
+    }
+    return snap;
+  }
+
+  /** The start of a held-out chunk's free phase: rows `from`..`from + B` of the held-out persistent states. */
+  private heldOutStart(kept: readonly (FloatArray | null)[], from: number, B: number): Snapshot {
+    let snap = this.testStarts.get(B);
+    if (snap === undefined) {
+      snap = new Snapshot(this.net, B);
+      this.testStarts.set(B, snap);
+    }
+    for (const l of this.net.layers) {
+      const store = kept[l.index];
+      if (store) (snap.state[l.index] as FloatArray).set(store.subarray(from * l.size, (from + B) * l.size));
     }
     return snap;
   }
@@ -579,6 +616,7 @@ export class Trainer {
       best: this.best,
       sinceBest: this.sinceBest,
       persistent: this.persistent ? this.persistent.map((p) => (p ? Array.from(p) : null)) : null,
+      ...(this.persistentTest !== null ? { persistentTest: this.persistentTest.map((p) => (p ? Array.from(p) : null)) } : {}),
       ...(this.optimizer !== null ? { optimizer: this.optimizer.saveState() } : {}),
       ...(this.sequenceRunner !== null ? { sequence: this.sequenceRunner.save() } : {}),
     };
@@ -596,6 +634,17 @@ export class Trainer {
       if (state.sequence === undefined || state.sequence === null) problems.push(issueText("parse_error", "trainer.sequence", "the sequence progress of a run with training.sequences", "none"));
       else problems.push(...sequenceProgressIssues(state.sequence, this.net, runner.train, runner.batchSize, "trainer.sequence"));
     }
+    const kept = this.persistentTest;
+    if (problems.length === 0 && kept !== null) {
+      // held-out persistent states: one array of held-out examples × size per non-input layer
+      const saved = state.persistentTest;
+      if (!Array.isArray(saved) || saved.length !== kept.length) problems.push(issueText("parse_error", "trainer.persistentTest", `${kept.length} entries (one per layer; training.persistentTestStates is on)`, Array.isArray(saved) ? `${saved.length} entries` : String(saved)));
+      else
+        kept.forEach((k, i) => {
+          const p = saved[i] ?? null;
+          if ((k === null) !== (p === null) || (k !== null && p !== null && p.length !== k.length)) problems.push(issueText("parse_error", `trainer.persistentTest[${i}]`, k === null ? "null (input layers keep no state)" : `${k.length} values`, p === null ? "null" : `array of length ${p.length}`));
+        });
+    }
     if (problems.length > 0) throw new EbbflowError(problems);
     const shuffle = RandomStream.fromState(state.shuffle, "trainer.shuffle");
     // a damaged rule state is a typed error naming the field (checked against the rule's state schema, then by the rule)
@@ -611,6 +660,7 @@ export class Trainer {
       this.optimizer.loadState(state.optimizer);
     }
     if (runner !== null && state.sequence) runner.load(state.sequence);
+    if (kept !== null && state.persistentTest) state.persistentTest.forEach((p, i) => (p ? kept[i]?.set(p) : undefined));
     if (this.persistent && state.persistent) {
       state.persistent.forEach((p, i) => {
         const store = this.persistent?.[i];

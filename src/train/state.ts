@@ -54,6 +54,8 @@ export const trainerStateSchema = z
     best: finite().nullable(),
     sinceBest: count(0),
     persistent: z.array(z.array(finite()).nullable(), { error: "an array per layer (null for input layers)" }).nullable(),
+    /** Held-out persistent states (`training.persistentTestStates`; sizes checked by the trainer). */
+    persistentTest: z.array(z.array(finite()).nullable(), { error: "an array per layer (null for input layers)" }).nullable().optional(),
     /** The optimizer's step count and moments (checked against the network by `Optimizer.loadState`). */
     optimizer: z.object({ steps: count(0), moments: z.array(z.array(finite())) }).strict().nullable().optional(),
     /** Sequence mode's progress and carried state (checked against the data set by the trainer, see `sequenceProgressIssues`). */

@@ -2,10 +2,10 @@ import { describe, it, expect } from "vitest";
 import { mkdtempSync } from "node:fs";
 import { tmpdir } from "node:os";
 import path from "node:path";
-import { buildNetwork, Trainer, xorDataset, randomAssociation, scheduleFactor, parseTraining, EbbflowError, type NetworkSpecInput, type RuleConfigInput } from "../../src/index.js";
+import { buildNetwork, Settler, Trainer, xorDataset, randomAssociation, scheduleFactor, parseTraining, EbbflowError, type NetworkSpecInput, type RuleConfigInput } from "../../src/index.js";
 import { accumulateMetrics, MetricSums } from "../../src/train/metrics.js";
 import { saveCheckpoint, loadCheckpoint } from "../../src/node/index.js";
-import { expectClose } from "../helpers/tolerance.js";
+import { expectAllClose, expectClose } from "../helpers/tolerance.js";
 
 const xorNet = (seed: number): NetworkSpecInput => ({
   seed,
@@ -89,9 +89,9 @@ describe("the training loop", () => {
     expect(run(5)).not.toEqual(run(6));
   });
 
-  const resumeCase = async (rule: RuleConfigInput, kind: "rate" | "energy", persistentStates: boolean) => {
+  const resumeCase = async (rule: RuleConfigInput, kind: "rate" | "energy", persistentStates: boolean, persistentTestStates = false) => {
     const data = randomAssociation({ patterns: 12, inputSize: 10, targetSize: 6, seed: 4 });
-    const opts = { epochs: 6, batchSize: 5, persistentStates, schedule: { kind: "exponential" as const, decay: 0.9 } };
+    const opts = { epochs: 6, batchSize: 5, persistentStates, persistentTestStates, schedule: { kind: "exponential" as const, decay: 0.9 } };
     const whole = buildNetwork(assocNet(9, kind));
     const a = new Trainer(whole, rule, data, opts, { seed: 11, test: data });
     a.run();
@@ -116,6 +116,61 @@ describe("the training loop", () => {
 
   it("resuming is bit-identical for EqProp with random-sign β and persistent free-phase states", async () => {
     await resumeCase({ rule: "eqprop", beta: 0.5, rate: 0.2, mode: "random-sign" }, "energy", true);
+  });
+
+  it.each([false, true])("persistent free-phase states continue each example's trajectory (shuffle %s; the authors' persistent particles, Scellier & Bengio 2017 code, model.py)", (shuffle) => {
+    // analytic property: with the weights fixed, k visits of s free steps, each starting where the example's last
+    // free phase ended, reach the state of one free phase of k·s steps from rest (same example, any visiting order)
+    const spec = assocNet(3, "energy");
+    const net = buildNetwork({ ...spec, connections: spec.connections!.map((c) => ({ ...c, frozen: true })), dynamics: { kind: "energy", dt: 0.5, maxSteps: 60, tolerance: 1e-300, clip: true } });
+    const data = randomAssociation({ patterns: 12, inputSize: 10, targetSize: 6, seed: 2 });
+    // a bias rate far below every net input: the biases' changes vanish in rounding, the weights are frozen
+    const rule: RuleConfigInput = { rule: "eqprop", beta: 0.5, rate: 1e-300, freeSteps: 3, nudgedSteps: 2 };
+    const trainer = new Trainer(net, rule, data, { epochs: 4, batchSize: 5, shuffle, persistentStates: true, evaluateTrain: false }, { seed: 7 });
+    for (let e = 0; e < 4; e++) trainer.runEpoch();
+    const kept = trainer.saveState().persistent!;
+    const whole = new Settler(net, 12).settle({ phase: "free", inputs: { in: data.inputs }, maxSteps: 12 });
+    expect(whole.steps).toBe(12);
+    for (const l of net.layers) {
+      if (l.role === "input") continue;
+      expectAllClose(kept[l.index]!, whole.state[l.index]!, 1e-12, l.name);
+    }
+    // and not the state of a free phase of 3 steps from rest (which the run without persistence keeps)
+    const once = new Settler(net, 12).settle({ phase: "free", inputs: { in: data.inputs }, maxSteps: 3 });
+    expect(Math.max(...kept[1]!.map((v, i) => Math.abs(v - (once.state[1]![i] as number))))).toBeGreaterThan(1e-6);
+  });
+
+  it("resuming is bit-identical with persistent held-out states (the held-out read-out depends on them)", async () => {
+    await resumeCase({ rule: "eqprop", beta: 0.5, rate: 0.2, mode: "random-sign" }, "energy", true, true);
+  });
+
+  it("persistent held-out states continue each held-out example's free trajectory from one evaluation to the next (the authors' validation, Scellier & Bengio 2017 code, train_model.py)", () => {
+    // analytic property as for training: fixed weights, 4 evaluations of 3 free steps reach 12 steps from rest
+    const spec = assocNet(5, "energy");
+    const net = buildNetwork({ ...spec, connections: spec.connections!.map((c) => ({ ...c, frozen: true })), dynamics: { kind: "energy", dt: 0.5, maxSteps: 3, tolerance: 1e-300, clip: true } });
+    const train = randomAssociation({ patterns: 6, inputSize: 10, targetSize: 6, seed: 3 });
+    const test = randomAssociation({ patterns: 9, inputSize: 10, targetSize: 6, seed: 8 });
+    const trainer = new Trainer(net, { rule: "eqprop", beta: 0.5, rate: 1e-300 }, train, { epochs: 4, batchSize: 3, persistentTestStates: true, evaluateTrain: false }, { test, seed: 1 });
+    for (let e = 0; e < 4; e++) trainer.runEpoch();
+    const kept = trainer.saveState().persistentTest!;
+    const whole = new Settler(net, 9).settle({ phase: "free", inputs: { in: test.inputs }, maxSteps: 12 });
+    for (const l of net.layers) if (l.role !== "input") expectAllClose(kept[l.index]!, whole.state[l.index]!, 1e-12, l.name);
+    // the training set's evaluation settles from rest, as before
+    expect(trainer.evaluate(train).accuracy).toBe(trainer.evaluate(train).accuracy);
+  });
+
+  it("persistent held-out states are refused without a held-out set and with a feedforward read-out", () => {
+    const data = randomAssociation({ patterns: 6, inputSize: 10, targetSize: 6, seed: 3 });
+    const err = (f: () => unknown) => {
+      try {
+        f();
+      } catch (e) {
+        return e instanceof EbbflowError ? e.issues[0]!.path : String(e);
+      }
+      return "no error";
+    };
+    expect(err(() => new Trainer(buildNetwork(assocNet(1, "energy")), { rule: "eqprop", beta: 0.5, rate: 0.1 }, data, { epochs: 1, persistentTestStates: true }))).toBe("training.persistentTestStates");
+    expect(err(() => new Trainer(buildNetwork(assocNet(1)), { rule: "backprop", rate: 0.1 }, data, { epochs: 1, persistentTestStates: true }, { test: data }))).toBe("training.persistentTestStates");
   });
 
   it("resuming is bit-identical for the sliding-threshold rule with a BCM-like threshold (running averages saved)", async () => {
