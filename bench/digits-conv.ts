@@ -9,6 +9,7 @@
  */
 import { buildNetwork, Trainer, selectBackend, type NetworkSpecInput, type RuleConfigInput } from "../src/index.js";
 import { mnistDataset } from "../src/node/index.js";
+import { benchNetwork } from "../src/node/bench/workload.js";
 
 const EPOCHS = Number(process.env.EBBFLOW_DIGIT_EPOCHS ?? 12);
 const CONV_RATE = Number(process.env.EBBFLOW_DIGIT_CONV_RATE ?? 0.2);
@@ -17,21 +18,8 @@ const KERNEL_RATE = Number(process.env.EBBFLOW_DIGIT_KERNEL_RATE ?? 0.05);
 const CASES = (process.env.EBBFLOW_DIGIT_CASES ?? "eqprop,backprop,convolution").split(",");
 
 const dynamics = { dt: 0.5, maxSteps: 40, tolerance: 1e-4 };
-/** The dense 784-256-10 network. */
-const dense: NetworkSpecInput = {
-  seed: 1,
-  dtype: "float32",
-  layers: [
-    { name: "image", size: 784, role: "input" },
-    { name: "hidden", size: 256, role: "hidden" },
-    { name: "digit", size: 10, role: "output" },
-  ],
-  connections: [
-    { from: "image", to: "hidden", feedback: { kind: "tied", gain: 1 } },
-    { from: "hidden", to: "digit", feedback: { kind: "tied", gain: 1 } },
-  ],
-  dynamics,
-};
+/** The dense 784-256-10 network of `ebbflow bench`, settled with this comparison's dynamics. */
+const dense: NetworkSpecInput = { ...benchNetwork("float32"), dynamics };
 /** A convolutional network: the image as a 28×28 sheet, 8 feature maps of 8×8 from shared 5×5 kernels (stride 3). */
 const convolutional: NetworkSpecInput = {
   seed: 1,
