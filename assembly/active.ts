@@ -12,6 +12,7 @@
 // for bit wherever gemm takes the dot-product path (see useDotPath in gemm.ts) and the weights of the
 // left-out blocks are finite.
 
+import { KC } from "./gemm";
 import { VBYTES, hsum, lanes, vmadd } from "./simd";
 
 /** Rows of B per block: a block is re-read from cache for every row of A (as in gemm-dot.ts). */
@@ -176,5 +177,201 @@ export function activeProductNT<T>(c: usize, a: usize, b: usize, m: i32, n: i32,
       for (; j < j4; j += 4) row1x4<T>(a0, index, q0, q1, b + <usize>j * rowA, rowA, k, c0 + <usize>j * S, al, be, bz);
       for (; j < je; j++) row1x1<T>(a0, index, q0, q1, b + <usize>j * rowA, k, c0 + <usize>j * S, al, be, bz);
     }
+  }
+}
+
+// ---------------------------------------------------------------------------------------------------
+// Tied feedback: C = alpha A B + beta C (A m x k: the receiving layer's activities; B k x n: the weight
+// matrix stored to x from), skipping for each row of A the single entries that are zero.
+//
+// Exactness: gemm (gemm.ts) forms A B with m >= 2 and k >= 2 in packed blocks of KC steps along k;
+// entry (i, j) of a block is one accumulator lane that starts at +0 and receives vmadd(a_ip, b_pj, s)
+// for p ascending, and C becomes alpha s + beta C for the first block and alpha s + 1 C for the
+// others (in T, vector lanes or the scalar edge path: the same roundings). activeProductNN forms each
+// block's lane the same way over the listed entries only and applies the same alpha s + beta C for
+// every block, empty ones included. A left-out term adds a_ip b_pj = ±0 (b finite) to s, which is
+// never −0 (IEEE 754-2019 §6.3: an exact zero sum is −0 only when both terms are; the same for fused
+// multiply-adds), so s + (±0) = s and no bit changes. m = 1 (a matrix-vector product that applies
+// alpha to A first and adds into C directly) and k = 1 (an outer product) take other paths: the
+// caller runs them dense.
+
+/**
+ * Lists, for each row r of x (rows x k), the entries that are non-zero (NaN counts as non-zero, −0 as
+ * zero) in index[start[r] .. start[r + 1]), ascending; returns the number listed.
+ */
+export function activeEntries<T>(x: usize, rows: i32, k: i32, index: usize, start: usize): i32 {
+  const S = sizeof<T>();
+  const L = lanes<T>();
+  const kv = k - k % L;
+  const row = <usize>k * S;
+  const zero = v128.splat<T>(0);
+  let count = 0;
+  for (let r = 0; r < rows; r++) {
+    store<i32>(start + (<usize>r << 2), count);
+    const x0 = x + <usize>r * row;
+    let p = 0;
+    for (; p < kv; p += L) {
+      // ne is true for NaN and false for −0
+      const ne = v128.ne<T>(v128.load(x0 + <usize>p * S), zero);
+      if (!v128.any_true(ne)) continue;
+      let bits = S == 4 ? i32x4.bitmask(ne) : i64x2.bitmask(ne);
+      while (bits != 0) {
+        store<i32>(index + (<usize>count << 2), p + ctz(bits));
+        count++;
+        bits &= bits - 1;
+      }
+    }
+    for (; p < k; p++) {
+      if (load<T>(x0 + <usize>p * S) != 0) {
+        store<i32>(index + (<usize>count << 2), p);
+        count++;
+      }
+    }
+  }
+  store<i32>(start + (<usize>rows << 2), count);
+  return count;
+}
+
+// @ts-ignore: decorator
+@inline
+function combineV<T>(cp: usize, s: v128, va: v128, vb: v128, betaZero: bool): void {
+  const v = v128.mul<T>(va, s);
+  v128.store(cp, betaZero ? v : v128.add<T>(v, v128.mul<T>(vb, v128.load(cp))));
+}
+
+/**
+ * One row of A (entries list q0 .. q1, one block along k) by 8 vectors of columns of B: eight accumulator
+ * chains, as many as the dense 4 x 2 tile keeps.
+ */
+function nn8<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, va: v128, vb: v128, betaZero: bool): void {
+  const S = sizeof<T>();
+  const zero = v128.splat<T>(0);
+  let s0 = zero, s1 = zero, s2 = zero, s3 = zero, s4 = zero, s5 = zero, s6 = zero, s7 = zero;
+  for (let q = q0; q < q1; q++) {
+    const p = <usize>load<i32>(list + (<usize>q << 2));
+    const x = v128.load_splat<T>(a0 + p * S);
+    const bp = bj + p * ldb;
+    s0 = vmadd<T>(x, v128.load(bp), s0);
+    s1 = vmadd<T>(x, v128.load(bp, VBYTES), s1);
+    s2 = vmadd<T>(x, v128.load(bp, 2 * VBYTES), s2);
+    s3 = vmadd<T>(x, v128.load(bp, 3 * VBYTES), s3);
+    s4 = vmadd<T>(x, v128.load(bp, 4 * VBYTES), s4);
+    s5 = vmadd<T>(x, v128.load(bp, 5 * VBYTES), s5);
+    s6 = vmadd<T>(x, v128.load(bp, 6 * VBYTES), s6);
+    s7 = vmadd<T>(x, v128.load(bp, 7 * VBYTES), s7);
+  }
+  combineV<T>(cp, s0, va, vb, betaZero);
+  combineV<T>(cp + VBYTES, s1, va, vb, betaZero);
+  combineV<T>(cp + 2 * VBYTES, s2, va, vb, betaZero);
+  combineV<T>(cp + 3 * VBYTES, s3, va, vb, betaZero);
+  combineV<T>(cp + 4 * VBYTES, s4, va, vb, betaZero);
+  combineV<T>(cp + 5 * VBYTES, s5, va, vb, betaZero);
+  combineV<T>(cp + 6 * VBYTES, s6, va, vb, betaZero);
+  combineV<T>(cp + 7 * VBYTES, s7, va, vb, betaZero);
+}
+
+/** One row of A (one block along k) by 2 vectors of columns of B. */
+function nn2<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, va: v128, vb: v128, betaZero: bool): void {
+  const S = sizeof<T>();
+  const zero = v128.splat<T>(0);
+  let s0 = zero, s1 = zero;
+  for (let q = q0; q < q1; q++) {
+    const p = <usize>load<i32>(list + (<usize>q << 2));
+    const x = v128.load_splat<T>(a0 + p * S);
+    const bp = bj + p * ldb;
+    s0 = vmadd<T>(x, v128.load(bp), s0);
+    s1 = vmadd<T>(x, v128.load(bp, VBYTES), s1);
+  }
+  combineV<T>(cp, s0, va, vb, betaZero);
+  combineV<T>(cp + VBYTES, s1, va, vb, betaZero);
+}
+
+/** One row of A (one block along k) by one vector of columns of B. */
+function nn1<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, va: v128, vb: v128, betaZero: bool): void {
+  const S = sizeof<T>();
+  let s0 = v128.splat<T>(0);
+  for (let q = q0; q < q1; q++) {
+    const p = <usize>load<i32>(list + (<usize>q << 2));
+    s0 = vmadd<T>(v128.load_splat<T>(a0 + p * S), v128.load(bj + p * ldb), s0);
+  }
+  combineV<T>(cp, s0, va, vb, betaZero);
+}
+
+// @ts-ignore: decorator
+@inline
+function combineS<T>(cp: usize, s: T, al: T, be: T, betaZero: bool): void {
+  const v = al * s;
+  store<T>(cp, betaZero ? v : v + be * load<T>(cp));
+}
+
+/**
+ * One row of A (one block along k) by the last `cols` < L columns of B: one vector whose other lanes
+ * stay zero (the dense kernel pads its packed panel the same way), so the lanes get the same vmadd.
+ */
+function nnTail<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, cols: i32, al: T, be: T, betaZero: bool): void {
+  const S = sizeof<T>();
+  const zero = v128.splat<T>(0);
+  let s0 = zero;
+  for (let q = q0; q < q1; q++) {
+    const p = <usize>load<i32>(list + (<usize>q << 2));
+    const bp = bj + p * ldb;
+    let bv = v128.replace_lane<T>(zero, 0, load<T>(bp));
+    if (S == 4) {
+      if (cols > 1) bv = v128.replace_lane<T>(bv, 1, load<T>(bp, S));
+      if (cols > 2) bv = v128.replace_lane<T>(bv, 2, load<T>(bp, 2 * S));
+    }
+    s0 = vmadd<T>(v128.load_splat<T>(a0 + p * S), bv, s0);
+  }
+  combineS<T>(cp, v128.extract_lane<T>(s0, 0), al, be, betaZero);
+  if (S == 4) {
+    if (cols > 1) combineS<T>(cp + S, v128.extract_lane<T>(s0, 1), al, be, betaZero);
+    if (cols > 2) combineS<T>(cp + 2 * S, v128.extract_lane<T>(s0, 2), al, be, betaZero);
+  }
+}
+
+/**
+ * C (m x n) = alpha A B + beta C over the entries activeEntries listed for A (index, start); A m x k,
+ * B k x n row-major, m >= 2, k >= 2, alpha != 0 (the caller runs the other cases dense, as gemm does).
+ * Columns in tiles of 8 vectors (then 2, 1, and a partial one), each tile over all rows of A before the
+ * next, so that the tile's strip of B stays in cache.
+ */
+export function activeProductNN<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, index: usize, start: usize, alpha: f64, beta: f64): void {
+  const S = sizeof<T>();
+  const L = lanes<T>();
+  const rowA = <usize>k * S;
+  const ldb = <usize>n * S;
+  const al = <T>alpha;
+  const be = <T>beta;
+  const one = <T>1;
+  const va = v128.splat<T>(al);
+  const vbFirst = v128.splat<T>(be);
+  const vbOne = v128.splat<T>(one);
+  const bz = beta == 0;
+  let j = 0;
+  while (j < n) {
+    const left = n - j;
+    const width = left >= 8 * L ? 8 * L : left >= 2 * L ? 2 * L : left >= L ? L : left;
+    const bj = b + <usize>j * S;
+    for (let i = 0; i < m; i++) {
+      const a0 = a + <usize>i * rowA;
+      const cp = c + (<usize>i * <usize>n + <usize>j) * S;
+      let q = load<i32>(start + (<usize>i << 2));
+      const q1 = load<i32>(start + (<usize>(i + 1) << 2));
+      for (let pc = 0; pc < k; pc += KC) {
+        // the entries of this block along k (gemm's blocks: the first applies beta, the later ones add)
+        const pe = pc + KC;
+        let qe = q;
+        while (qe < q1 && load<i32>(index + (<usize>qe << 2)) < pe) qe++;
+        const first = pc == 0;
+        const betaZero = first && bz;
+        const vb = first ? vbFirst : vbOne;
+        if (width == 8 * L) nn8<T>(a0, index, q, qe, bj, ldb, cp, va, vb, betaZero);
+        else if (width == 2 * L) nn2<T>(a0, index, q, qe, bj, ldb, cp, va, vb, betaZero);
+        else if (width == L) nn1<T>(a0, index, q, qe, bj, ldb, cp, va, vb, betaZero);
+        else nnTail<T>(a0, index, q, qe, bj, ldb, cp, width, al, first ? be : one, betaZero);
+        q = qe;
+      }
+    }
+    j += width;
   }
 }

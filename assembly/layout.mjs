@@ -113,6 +113,8 @@ export const kernelExports = [
   { name: "sparseSampledProduct", typed: true, params: "values: ptr, rowStart: ptr, columnIndex: ptr, post: ptr, pre: ptr, rows: i32, cols: i32, batch: i32, alpha: f64, beta: f64", result: "void", impl: "sparseSampledProduct<T>", from: "./sparse", doc: "values = alpha (post pre) at the stored entries + beta values" },
   { name: "activeBlocks", typed: true, params: "x: ptr, rows: i32, k: i32, index: ptr, start: ptr", result: "i32", impl: "activeBlocks<T>", from: "./active", doc: "lists each row's vector blocks with a non-zero entry (active.ts)" },
   { name: "activeProductNT", typed: true, params: "c: ptr, a: ptr, b: ptr, m: i32, n: i32, k: i32, index: ptr, start: ptr, alpha: f64, beta: f64", result: "void", impl: "activeProductNT<T>", from: "./active", doc: "C = alpha A Bᵀ + beta C over the listed blocks of A (active.ts)" },
+  { name: "activeEntries", typed: true, params: "x: ptr, rows: i32, k: i32, index: ptr, start: ptr", result: "i32", impl: "activeEntries<T>", from: "./active", doc: "lists each row's non-zero entries (active.ts)" },
+  { name: "activeProductNN", typed: true, params: "c: ptr, a: ptr, b: ptr, m: i32, n: i32, k: i32, index: ptr, start: ptr, alpha: f64, beta: f64", result: "void", impl: "activeProductNN<T>", from: "./active", doc: "C = alpha A B + beta C over the listed entries of A (active.ts)" },
   {
     name: "rateStep",
     typed: true,

@@ -42,6 +42,20 @@ export interface ActiveKernels {
   activeProduct<T extends FloatArray>(out: T, x: ReadonlyFloatArray, w: ReadonlyFloatArray, m: number, n: number, k: number, index: Int32Array, start: Int32Array, alpha: number, beta: number): T;
   /** Whether `activeProduct` gives the backend's `gemm(out, x, w, m, n, k, false, true, alpha, beta)` bit for bit (finite weights) at this shape. */
   exact(m: number, k: number): boolean;
+  /**
+   * Lists, for each of the `rows` rows of `x` (rows × k), the single entries that are non-zero (NaN counts, −0
+   * does not) in `index[start[r] .. start[r + 1])`, ascending, and returns how many were listed (room for
+   * `rows · k` entries). On TypeScript this is `listActive` (whose blocks are single entries).
+   */
+  listEntries(x: ReadonlyFloatArray, rows: number, k: number, index: Int32Array, start: Int32Array): number;
+  /**
+   * `out (m × n) = alpha·X·W + beta·out` with X m × k and W k × n row-major (tied feedback: X the receiving
+   * layer's activities, W stored receiving × sending), over the entries `listEntries` listed for X. `out`
+   * must not share memory with `x` or `w`.
+   */
+  activeProductNN<T extends FloatArray>(out: T, x: ReadonlyFloatArray, w: ReadonlyFloatArray, m: number, n: number, k: number, index: Int32Array, start: Int32Array, alpha: number, beta: number): T;
+  /** Whether `activeProductNN` gives the backend's `gemm(out, x, w, m, n, k, false, false, alpha, beta)` bit for bit (finite weights) at this shape. */
+  exactNN(m: number, k: number): boolean;
   /** A zeroed index array the kernels read without a copy. */
   indices(n: number): Int32Array;
 }
@@ -138,6 +152,118 @@ export function activeProduct<T extends FloatArray>(out: T, x: ReadonlyFloatArra
 }
 
 /**
+ * `out = alpha·X·W + beta·out` (X m × k, W k × n) over the entries {@link listActive} listed: the TypeScript
+ * kernels' {@link ActiveKernels.activeProductNN}, bit for bit {@link gemm} without transposes (finite weights
+ * and alpha). Exactness: gemm adds to each entry of `out`, in ascending order, the sum of each group of eight
+ * terms `(alpha·x_p)·w_pj` as the tree ((t0 + t1) + (t2 + t3)) + ((t4 + t5) + (t6 + t7)), then the last k mod 8
+ * terms one by one. Here a group runs as that tree with its zero leaves left out (with one, two or three
+ * listed entries; whole otherwise), the tail and the other groups over the listed entries only. Leaving out
+ * a leaf `±0` changes a node's value at most in the sign of a zero (IEEE 754-2019 §6.3: s + (±0) = s for
+ * s ≠ −0), so every partial value of an entry equals gemm's up to the sign of a zero, and equals it exactly
+ * unless it is zero; a zero entry differs only if it started at −0 (beta ≠ 0): those few entries are
+ * settled afterwards from the signs of all their terms, as gemm's additions would (−0 only if every term
+ * is −0).
+ * @category Kernels
+ */
+export function activeProductNN<T extends FloatArray>(out: T, x: ReadonlyFloatArray, w: ReadonlyFloatArray, m: number, n: number, k: number, index: Int32Array, start: Int32Array, alpha: number, beta: number): T {
+  if (m <= 0 || n <= 0) return out;
+  if (alpha === 0 || k <= 0 || !Number.isFinite(alpha)) return gemm(out, x, w, m, n, k, false, false, alpha, beta);
+  const len = m * n;
+  if (beta === 0) out.fill(0, 0, len);
+  else if (beta !== 1) for (let q = 0; q < len; q++) out[q] = beta * out[q]!;
+  const k8 = k - (k & 7);
+  for (let i = 0; i < m; i++) {
+    const a0 = i * k;
+    const c0 = i * n;
+    const q1 = start[i + 1]!;
+    let q = start[i]!;
+    while (q < q1) {
+      const p = index[q]!;
+      if (p >= k8) {
+        // gemm's last k mod 8 terms: one at a time
+        const s = alpha * x[a0 + p]!;
+        const b0 = p * n;
+        for (let j = 0; j < n; j++) out[c0 + j] = out[c0 + j]! + s * w[b0 + j]!;
+        q++;
+        continue;
+      }
+      const g = p - (p & 7);
+      let e = q + 1;
+      while (e < q1 && index[e]! < g + 8) e++;
+      const count = e - q;
+      if (count === 1) {
+        const s = alpha * x[a0 + p]!;
+        const b0 = p * n;
+        for (let j = 0; j < n; j++) out[c0 + j] = out[c0 + j]! + s * w[b0 + j]!;
+      } else if (count === 2) {
+        const p1 = index[q + 1]!;
+        const s0 = alpha * x[a0 + p]!;
+        const s1 = alpha * x[a0 + p1]!;
+        const b0 = p * n;
+        const b1 = p1 * n;
+        for (let j = 0; j < n; j++) out[c0 + j] = out[c0 + j]! + (s0 * w[b0 + j]! + s1 * w[b1 + j]!);
+      } else if (count === 3) {
+        const p1 = index[q + 1]!;
+        const p2 = index[q + 2]!;
+        const s0 = alpha * x[a0 + p]!;
+        const s1 = alpha * x[a0 + p1]!;
+        const s2 = alpha * x[a0 + p2]!;
+        const b0 = p * n;
+        const b1 = p1 * n;
+        const b2 = p2 * n;
+        // the first two meet lower in gemm's tree than the last two when they differ in a lower bit
+        if ((p ^ p1) < (p1 ^ p2)) {
+          for (let j = 0; j < n; j++) out[c0 + j] = out[c0 + j]! + (s0 * w[b0 + j]! + s1 * w[b1 + j]! + s2 * w[b2 + j]!);
+        } else {
+          for (let j = 0; j < n; j++) out[c0 + j] = out[c0 + j]! + (s0 * w[b0 + j]! + (s1 * w[b1 + j]! + s2 * w[b2 + j]!));
+        }
+      } else {
+        // four or more: the whole group, as gemm runs it
+        const s0 = alpha * x[a0 + g]!;
+        const s1 = alpha * x[a0 + g + 1]!;
+        const s2 = alpha * x[a0 + g + 2]!;
+        const s3 = alpha * x[a0 + g + 3]!;
+        const s4 = alpha * x[a0 + g + 4]!;
+        const s5 = alpha * x[a0 + g + 5]!;
+        const s6 = alpha * x[a0 + g + 6]!;
+        const s7 = alpha * x[a0 + g + 7]!;
+        const b0 = g * n;
+        const b1 = b0 + n;
+        const b2 = b1 + n;
+        const b3 = b2 + n;
+        const b4 = b3 + n;
+        const b5 = b4 + n;
+        const b6 = b5 + n;
+        const b7 = b6 + n;
+        for (let j = 0; j < n; j++) {
+          out[c0 + j] =
+            out[c0 + j]! +
+            (s0 * w[b0 + j]! + s1 * w[b1 + j]! + (s2 * w[b2 + j]! + s3 * w[b3 + j]!) + (s4 * w[b4 + j]! + s5 * w[b5 + j]! + (s6 * w[b6 + j]! + s7 * w[b7 + j]!)));
+        }
+      }
+      q = e;
+    }
+  }
+  if (beta !== 0) {
+    // an entry left at −0 started at −0 and received only zeros here; gemm's additions keep −0 only if every term is −0
+    for (let c = 0; c < len; c++) {
+      const v = out[c]!;
+      if (v !== 0 || 1 / v > 0) continue;
+      const i = Math.floor(c / n);
+      const j = c - i * n;
+      for (let p = 0; p < k; p++) {
+        const t = alpha * x[i * k + p]! * w[p * n + j]!;
+        if (t !== 0 || 1 / t > 0) {
+          out[c] = 0;
+          break;
+        }
+      }
+    }
+  }
+  return out;
+}
+
+/**
  * The TypeScript backend's activity-sparse kernels (entries listed one by one; exact at every shape).
  * @category Kernels
  */
@@ -146,6 +272,9 @@ export const typescriptActiveKernels: ActiveKernels = Object.freeze({
   listActive,
   activeProduct,
   exact: () => true,
+  listEntries: listActive,
+  activeProductNN,
+  exactNN: () => true,
   indices: (n: number) => new Int32Array(n),
 });
 

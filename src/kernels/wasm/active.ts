@@ -7,12 +7,25 @@
  * @module
  */
 import type { Dtype, FloatArray } from "../../types/index.js";
-import { listActiveBlocks, type ActiveKernels } from "../active.js";
+import { listActive, listActiveBlocks, type ActiveKernels } from "../active.js";
 import type { KernelBackend } from "../backend.js";
 import type { ReadonlyFloatArray } from "../types.js";
 import type { KernelExports } from "./generated/layout.js";
 
-type ActiveExports = Pick<KernelExports, "activeBlocksF32" | "activeBlocksF64" | "activeProductNTF32" | "activeProductNTF64">;
+type ActiveExports = Pick<
+  KernelExports,
+  "activeBlocksF32" | "activeBlocksF64" | "activeProductNTF32" | "activeProductNTF64" | "activeEntriesF32" | "activeEntriesF64" | "activeProductNNF32" | "activeProductNNF64"
+>;
+
+/**
+ * Whether the WebAssembly `gemm` forms A·B (m rows, inner dimension k, no transposes) with the packed blocks
+ * that `activeProductNN` mirrors (assembly/gemm.ts: m = 1 runs as a matrix-vector product, k = 1 as an outer
+ * product).
+ * @internal
+ */
+export function wasmPackedPath(m: number, k: number): boolean {
+  return m >= 2 && k >= 2;
+}
 
 /**
  * Whether the WebAssembly `gemm` forms A·Bᵀ (m rows, inner dimension k) with the dot-product tiles that
@@ -48,6 +61,22 @@ export function createActiveKernels(X: ActiveExports, own: (b: ArrayBufferLike) 
       return out;
     },
     exact: wasmDotPath,
+    listEntries(x: ReadonlyFloatArray, rows: number, k: number, index: Int32Array, start: Int32Array): number {
+      if (rows > 0 && k > 0 && own(x.buffer) && own(index.buffer) && own(start.buffer)) {
+        return (x instanceof Float32Array ? X.activeEntriesF32 : X.activeEntriesF64)(x.byteOffset, rows, k, index.byteOffset, start.byteOffset);
+      }
+      return listActive(x, rows, k, index, start);
+    },
+    activeProductNN<T extends FloatArray>(out: T, x: ReadonlyFloatArray, w: ReadonlyFloatArray, m: number, n: number, k: number, index: Int32Array, start: Int32Array, alpha: number, beta: number): T {
+      if (m <= 0 || n <= 0) return out;
+      const f32 = out instanceof Float32Array;
+      const same = f32 ? x instanceof Float32Array && w instanceof Float32Array : x instanceof Float64Array && w instanceof Float64Array;
+      const fast = same && alpha !== 0 && wasmPackedPath(m, k) && own(out.buffer) && own(x.buffer) && own(w.buffer) && own(index.buffer) && own(start.buffer);
+      if (!fast) return gemm(out, x, w, m, n, k, false, false, alpha, beta);
+      (f32 ? X.activeProductNNF32 : X.activeProductNNF64)(out.byteOffset, x.byteOffset, w.byteOffset, m, n, k, index.byteOffset, start.byteOffset, alpha, beta);
+      return out;
+    },
+    exactNN: wasmPackedPath,
     indices: (n: number): Int32Array => {
       // a float32 allocation of the same length viewed as i32 (same bytes, same alignment), as for the sparse kernels
       const f = allocate("float32", n);
