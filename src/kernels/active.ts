@@ -77,6 +77,18 @@ export const ACTIVE_PRODUCT_CROSSOVER: Readonly<Record<BackendName, { readonly w
 });
 
 /**
+ * Fraction of non-zero entries of the receiving layer below which the settler runs tied feedback
+ * (`eta_from += gain·X_to·W`) as {@link ActiveKernels.activeProductNN} instead of the dense product, per
+ * backend. PROVISIONAL, replaced by the measurement below.
+ * @category Kernels
+ */
+export const ACTIVE_FEEDBACK_CROSSOVER: Readonly<Record<BackendName, number>> = Object.freeze({
+  typescript: 0.5,
+  "wasm-simd": 0.5,
+  "wasm-relaxed-simd": 0.4,
+});
+
+/**
  * Lists the non-zero entries of each row of `x` (rows × k): the TypeScript kernels' {@link ActiveKernels.listActive}.
  * @category Kernels
  */

@@ -4,12 +4,13 @@
  * @module
  */
 import type { BackendName } from "../kernels/backend.js";
-import { ACTIVE_PRODUCT_CROSSOVER } from "../kernels/active.js";
+import { ACTIVE_FEEDBACK_CROSSOVER, ACTIVE_PRODUCT_CROSSOVER } from "../kernels/active.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "./network.js";
 
 type Crossovers = Record<BackendName, { readonly wide: number; readonly narrow: number }>;
 let crossoverInUse: Crossovers = { ...ACTIVE_PRODUCT_CROSSOVER };
+let feedbackCrossoverInUse: Record<BackendName, number> = { ...ACTIVE_FEEDBACK_CROSSOVER };
 /** Receiving units from which a product counts as wide (ACTIVE_PRODUCT_CROSSOVER). */
 const WIDE = 64;
 /**
@@ -29,8 +30,32 @@ export function setActiveProductCrossover(c: Crossovers): Crossovers {
   return before;
 }
 
-/** What the settlers chose since the last reset, and per sending layer index the blocks listed and examined (benchmarks read it). @internal */
-export const activeProductCounts = { dense: 0, active: 0, listedBlocks: [] as number[], blocks: [] as number[] };
+/**
+ * Sets the crossover of the tied-feedback products (fraction of active entries; 0: always dense, above 1: the
+ * active product wherever it is exact); returns the previous one. Benchmarks and tests only. @internal
+ */
+export function setActiveFeedbackCrossover(c: Record<BackendName, number>): Record<BackendName, number> {
+  const before = feedbackCrossoverInUse;
+  feedbackCrossoverInUse = { ...c };
+  return before;
+}
+
+/**
+ * What the settlers chose since the last reset, per sending layer index the blocks listed and examined, and
+ * the same for the tied-feedback products (entries of the receiving layer) and how often a listing was
+ * reused within a step (benchmarks and tests read it). @internal
+ */
+export const activeProductCounts = {
+  dense: 0,
+  active: 0,
+  listedBlocks: [] as number[],
+  blocks: [] as number[],
+  feedbackDense: 0,
+  feedbackActive: 0,
+  listedEntries: [] as number[],
+  entries: [] as number[],
+  reused: 0,
+};
 
 /**
  * Per settler: one index list per sending layer, and the choice between the dense and the activity-sparse
@@ -42,6 +67,25 @@ export class ActiveDrive {
   private readonly start: (Int32Array | null)[];
   /** Per sending layer: products left to run dense without listing (after one found it too dense). */
   private readonly denseFor: Int32Array;
+  /** Per layer that receives through tied dense feedback: its non-zero entries (the blocks' arrays where a block is one entry). */
+  private readonly entryIndex: (Int32Array | null)[];
+  private readonly entryStart: (Int32Array | null)[];
+  /** Per such layer: tied-feedback products left to run dense without listing. */
+  private readonly denseForFeedback: Int32Array;
+  /**
+   * Listings made since the activities last changed ({@link ActiveDrive.activitiesChanged}): per layer, the
+   * generation and the array listed, and the count, for the blocks and for the entries (the same listing where
+   * a block is one entry), so that a layer listed for one product is not listed again for the next.
+   */
+  private generation = 1;
+  private readonly blocksAt: Int32Array;
+  private readonly blocksOf: (FloatArray | null)[];
+  private readonly blocksListed: Int32Array;
+  private readonly entriesAt: Int32Array;
+  private readonly entriesOf: (FloatArray | null)[];
+  private readonly entriesListed: Int32Array;
+  /** Whether the backend's blocks are single entries (TypeScript): then one listing serves both products. */
+  private readonly entryBlocks: boolean;
 
   constructor(
     private readonly net: Network,
@@ -55,9 +99,107 @@ export class ActiveDrive {
       sends[c.from] = true;
       if (c.feedback.kind === "separate") sends[c.to] = true;
     }
-    this.index = net.layers.map((l) => (a && sends[l.index] ? a.indices(batch * l.size) : null));
-    this.start = net.layers.map((l) => (a && sends[l.index] ? a.indices(batch + 1) : null));
-    this.denseFor = new Int32Array(net.layers.length);
+    // layers whose activities drive tied dense feedback (eta_from += gain · X_to · W)
+    const feeds = net.layers.map(() => false);
+    for (const c of net.connections) {
+      if (c.sparse || c.convolution || c.spec.depression !== undefined) continue;
+      if (c.feedback.kind === "tied" && c.feedback.gain !== 0) feeds[c.to] = true;
+    }
+    this.entryBlocks = a !== undefined && a.blockWidth(net.dtype) === 1;
+    const L = net.layers.length;
+    // where blocks are single entries, a layer that both sends and feeds back has one listing
+    this.index = net.layers.map((l) => (a && (sends[l.index] || (this.entryBlocks && feeds[l.index])) ? a.indices(batch * l.size) : null));
+    this.start = net.layers.map((l) => (a && (sends[l.index] || (this.entryBlocks && feeds[l.index])) ? a.indices(batch + 1) : null));
+    this.entryIndex = net.layers.map((l, i) => (a && feeds[l.index] ? (this.entryBlocks ? this.index[i]! : a.indices(batch * l.size)) : null));
+    this.entryStart = net.layers.map((l, i) => (a && feeds[l.index] ? (this.entryBlocks ? this.start[i]! : a.indices(batch + 1)) : null));
+    this.denseFor = new Int32Array(L);
+    this.denseForFeedback = new Int32Array(L);
+    this.blocksAt = new Int32Array(L);
+    this.blocksOf = net.layers.map(() => null);
+    this.blocksListed = new Int32Array(L);
+    this.entriesAt = new Int32Array(L);
+    this.entriesOf = net.layers.map(() => null);
+    this.entriesListed = new Int32Array(L);
+  }
+
+  /** The settler calls this whenever layer activities may have changed (each step, each phase): listings made before are stale. */
+  activitiesChanged(): void {
+    this.generation++;
+  }
+
+  /** Lists the blocks of layer `from`'s activities `x` (B × m), or reuses this generation's listing of the same array. */
+  private blocks(x: FloatArray, m: number, from: number): number {
+    if (this.blocksAt[from] === this.generation && this.blocksOf[from] === x) {
+      activeProductCounts.reused++;
+      return this.blocksListed[from]!;
+    }
+    const a = this.net.kernels.active!;
+    const listed = a.listActive(x, this.batch, m, this.index[from]!, this.start[from]!);
+    this.blocksAt[from] = this.generation;
+    this.blocksOf[from] = x;
+    this.blocksListed[from] = listed;
+    if (this.entryBlocks) {
+      // the same listing is the entries' listing
+      this.entriesAt[from] = this.generation;
+      this.entriesOf[from] = x;
+      this.entriesListed[from] = listed;
+    }
+    const blocks = this.batch * Math.floor(m / a.blockWidth(this.net.dtype));
+    const counts = activeProductCounts;
+    counts.listedBlocks[from] = (counts.listedBlocks[from] ?? 0) + listed;
+    counts.blocks[from] = (counts.blocks[from] ?? 0) + blocks;
+    return listed;
+  }
+
+  /** Lists the non-zero entries of layer `to`'s activities `x` (B × m), or reuses this generation's listing. */
+  private entries(x: FloatArray, m: number, to: number): number {
+    if (this.entriesAt[to] === this.generation && this.entriesOf[to] === x) {
+      activeProductCounts.reused++;
+      return this.entriesListed[to]!;
+    }
+    const a = this.net.kernels.active!;
+    const listed = a.listEntries(x, this.batch, m, this.entryIndex[to]!, this.entryStart[to]!);
+    this.entriesAt[to] = this.generation;
+    this.entriesOf[to] = x;
+    this.entriesListed[to] = listed;
+    if (this.entryBlocks) {
+      this.blocksAt[to] = this.generation;
+      this.blocksOf[to] = x;
+      this.blocksListed[to] = listed;
+    }
+    const counts = activeProductCounts;
+    counts.listedEntries[to] = (counts.listedEntries[to] ?? 0) + listed;
+    counts.entries[to] = (counts.entries[to] ?? 0) + this.batch * m;
+    return listed;
+  }
+
+  /**
+   * Tied feedback `eta (B×n) += alpha · X_to (B×m) · W` (W m×n, stored receiving × sending): the active product
+   * when the backend has one that is exact at this shape and fewer than the crossover of the receiving layer's
+   * entries are non-zero, else the dense `gemm`. The same bits either way (finite weights).
+   */
+  feedback(eta: FloatArray, x: FloatArray, w: FloatArray, n: number, m: number, to: number, alpha: number): void {
+    const K = this.net.kernels;
+    const a = K.active;
+    const B = this.batch;
+    const limit = feedbackCrossoverInUse[K.name] ?? 0;
+    if (a && this.entryIndex[to] && limit > 0 && a.exactNN(B, m)) {
+      if (this.denseForFeedback[to]! > 0) {
+        this.denseForFeedback[to]!--;
+        activeProductCounts.feedbackDense++;
+        K.gemm(eta, x, w, B, n, m, false, false, alpha, 1);
+        return;
+      }
+      const listed = this.entries(x, m, to);
+      if (listed < limit * B * m) {
+        activeProductCounts.feedbackActive++;
+        a.activeProductNN(eta, x, w, B, n, m, this.entryIndex[to]!, this.entryStart[to]!, alpha, 1);
+        return;
+      }
+      this.denseForFeedback[to] = RECHECK;
+    }
+    activeProductCounts.feedbackDense++;
+    K.gemm(eta, x, w, B, n, m, false, false, alpha, 1);
   }
 
   /**
@@ -81,11 +223,8 @@ export class ActiveDrive {
         K.gemm(eta, x, w, B, n, m, false, true, alpha, 1);
         return;
       }
-      const listed = a.listActive(x, B, m, index, start);
+      const listed = this.blocks(x, m, from);
       const blocks = B * Math.floor(m / a.blockWidth(this.net.dtype));
-      const counts = activeProductCounts;
-      counts.listedBlocks[from] = (counts.listedBlocks[from] ?? 0) + listed;
-      counts.blocks[from] = (counts.blocks[from] ?? 0) + blocks;
       if (listed < limit * blocks) {
         activeProductCounts.active++;
         a.activeProduct(eta, x, w, B, n, m, index, start, alpha, 1);

@@ -504,6 +504,7 @@ export class Settler {
       prev.inputs === options.inputs &&
       net.layers.every((l) => !prev.clamped[l.index] || (this.clamped[l.index] && (l.role !== "output" || prev.targets === options.targets)));
     for (const l of net.layers) this.newlyClamped[l.index] = reuse && this.clamped[l.index] === true && prev?.clamped[l.index] !== true;
+    this.activeDrive.activitiesChanged();
     for (const l of net.layers) {
       if (this.clamped[l.index]) continue;
       const d = this.drive[l.index] as FloatArray;
@@ -527,6 +528,8 @@ export class Settler {
     while (step < maxSteps) {
       step++;
       let change = 0;
+      // the activities moved at the end of the last step (or were loaded for this phase): earlier listings are stale
+      this.activeDrive.activitiesChanged();
       for (const l of net.layers) {
         const i = l.index;
         if (this.clamped[i]) continue;
@@ -754,7 +757,7 @@ export class Settler {
         // W is m×n (to × from): the transposed convolution, or the transposed drive of the compressed form
         if (cv) convolveTransposed(net.kernels, eta, cv.kernel, act[c.to] as FloatArray, cv.geometry, batch, c.feedback.gain, 1, this.fieldRows[c.index] as FloatArray);
         else if (sp) sparse.sparseDriveTransposed(eta, sp.values, sp.rowStart, sp.columnIndex, act[c.to] as FloatArray, m, n, batch, c.feedback.gain, 1);
-        else gemm(eta, act[c.to] as FloatArray, c.weights, batch, n, m, false, false, c.feedback.gain, 1);
+        else this.activeDrive.feedback(eta, act[c.to] as FloatArray, c.weights, n, m, c.to, c.feedback.gain);
       } else if (c.feedback.kind === "separate") {
         // eta (B×n) += X_to (B×m) · Fᵀ, F is n×m
         this.activeDrive.product(eta, act[c.to] as FloatArray, c.feedback.weights, n, m, c.to, 1);
