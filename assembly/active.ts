@@ -243,10 +243,10 @@ function combineV<T>(cp: usize, s: v128, va: v128, vb: v128, betaZero: bool): vo
  * One row of A (entries list q0 .. q1, one block along k) by 8 vectors of columns of B: eight accumulator
  * chains, as many as the dense 4 x 2 tile keeps.
  */
-function nn8<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, va: v128, vb: v128, betaZero: bool): void {
+function nn6<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, va: v128, vb: v128, betaZero: bool): void {
   const S = sizeof<T>();
   const zero = v128.splat<T>(0);
-  let s0 = zero, s1 = zero, s2 = zero, s3 = zero, s4 = zero, s5 = zero, s6 = zero, s7 = zero;
+  let s0 = zero, s1 = zero, s2 = zero, s3 = zero, s4 = zero, s5 = zero;
   for (let q = q0; q < q1; q++) {
     const p = <usize>load<i32>(list + (<usize>q << 2));
     const x = v128.load_splat<T>(a0 + p * S);
@@ -257,8 +257,6 @@ function nn8<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize,
     s3 = vmadd<T>(x, v128.load(bp, 3 * VBYTES), s3);
     s4 = vmadd<T>(x, v128.load(bp, 4 * VBYTES), s4);
     s5 = vmadd<T>(x, v128.load(bp, 5 * VBYTES), s5);
-    s6 = vmadd<T>(x, v128.load(bp, 6 * VBYTES), s6);
-    s7 = vmadd<T>(x, v128.load(bp, 7 * VBYTES), s7);
   }
   combineV<T>(cp, s0, va, vb, betaZero);
   combineV<T>(cp + VBYTES, s1, va, vb, betaZero);
@@ -266,8 +264,6 @@ function nn8<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize,
   combineV<T>(cp + 3 * VBYTES, s3, va, vb, betaZero);
   combineV<T>(cp + 4 * VBYTES, s4, va, vb, betaZero);
   combineV<T>(cp + 5 * VBYTES, s5, va, vb, betaZero);
-  combineV<T>(cp + 6 * VBYTES, s6, va, vb, betaZero);
-  combineV<T>(cp + 7 * VBYTES, s7, va, vb, betaZero);
 }
 
 /** One row of A (one block along k) by 2 vectors of columns of B. */
@@ -350,26 +346,27 @@ export function activeProductNN<T>(c: usize, a: usize, b: usize, m: i32, n: i32,
   let j = 0;
   while (j < n) {
     const left = n - j;
-    const width = left >= 8 * L ? 8 * L : left >= 2 * L ? 2 * L : left >= L ? L : left;
+    const width = left >= 6 * L ? 6 * L : left >= 2 * L ? 2 * L : left >= L ? L : left;
     const bj = b + <usize>j * S;
-    for (let i = 0; i < m; i++) {
-      const a0 = a + <usize>i * rowA;
-      const cp = c + (<usize>i * <usize>n + <usize>j) * S;
-      let q = load<i32>(start + (<usize>i << 2));
-      const q1 = load<i32>(start + (<usize>(i + 1) << 2));
-      for (let pc = 0; pc < k; pc += KC) {
-        // the entries of this block along k (gemm's blocks: the first applies beta, the later ones add)
-        const pe = pc + KC;
+    for (let pc = 0; pc < k; pc += KC) {
+      // gemm's blocks along k, in order (the first applies beta, the later ones add); the tile's strip of B
+      // in one block (KC rows of 6 vectors, 24 KB for f32) stays in the first-level cache for every row of A
+      const pe = pc + KC;
+      const first = pc == 0;
+      const betaZero = first && bz;
+      const vb = first ? vbFirst : vbOne;
+      for (let i = 0; i < m; i++) {
+        const a0 = a + <usize>i * rowA;
+        const cp = c + (<usize>i * <usize>n + <usize>j) * S;
+        const q1 = load<i32>(start + (<usize>(i + 1) << 2));
+        let q = load<i32>(start + (<usize>i << 2));
+        while (q < q1 && load<i32>(index + (<usize>q << 2)) < pc) q++;
         let qe = q;
         while (qe < q1 && load<i32>(index + (<usize>qe << 2)) < pe) qe++;
-        const first = pc == 0;
-        const betaZero = first && bz;
-        const vb = first ? vbFirst : vbOne;
-        if (width == 8 * L) nn8<T>(a0, index, q, qe, bj, ldb, cp, va, vb, betaZero);
+        if (width == 6 * L) nn6<T>(a0, index, q, qe, bj, ldb, cp, va, vb, betaZero);
         else if (width == 2 * L) nn2<T>(a0, index, q, qe, bj, ldb, cp, va, vb, betaZero);
         else if (width == L) nn1<T>(a0, index, q, qe, bj, ldb, cp, va, vb, betaZero);
         else nnTail<T>(a0, index, q, qe, bj, ldb, cp, width, al, first ? be : one, betaZero);
-        q = qe;
       }
     }
     j += width;

@@ -6,6 +6,10 @@
  *    second hidden layer (784→500, 500→10, 500→500) at batch 20 and 64, per backend; the active side pays its
  *    listing on every call, as in the settler. Timed in turn (rounds, medians), ratio dense / active (> 1: the
  *    active product is faster). ACTIVE_PRODUCT_CROSSOVER is where the ratio falls to about 1.
+ * 1b. Tied feedback: `C += X·W` (X the receiving layer's activities, W stored receiving × sending) with a fraction
+ *    of each pattern's entries non-zero (independently, the rest exactly 0), for the feedback paths 10→500
+ *    (output to hidden) and 500→500 (between two hidden layers) at batch 20 and 64: the dense gemm against
+ *    listEntries + activeProductNN. ACTIVE_FEEDBACK_CROSSOVER is where the ratio falls to about 1.
  * 2. Training on the published digits setting (bench/experiments/digits-eqprop-2017.json, real images): µs per
  *    training example with the active products at the crossover and with them off, timed in turn, and the
  *    measured fraction of active blocks in the products the settler formed. EBBFLOW_ACTIVE_HIDDEN sets the
@@ -16,9 +20,9 @@ import { setFlagsFromString } from "node:v8";
 import { buildNetwork, createRule, type NetworkSpecInput } from "../src/index.js";
 import { typescriptBackend } from "../src/kernels/index.js";
 import type { KernelBackend } from "../src/kernels/backend.js";
-import { ACTIVE_PRODUCT_CROSSOVER } from "../src/kernels/active.js";
+import { ACTIVE_FEEDBACK_CROSSOVER, ACTIVE_PRODUCT_CROSSOVER } from "../src/kernels/active.js";
 import { loadWasmKernelsSync, wasmRelaxedSimdSupported } from "../src/kernels/wasm/index.js";
-import { activeProductCounts, setActiveProductCrossover } from "../src/network/active-drive.js";
+import { activeProductCounts, setActiveFeedbackCrossover, setActiveProductCrossover } from "../src/network/active-drive.js";
 import { resolveData } from "../src/node/index.js";
 import { readModelArgument } from "../src/cli/inputs.js";
 
@@ -105,6 +109,47 @@ function kernels(backends: KernelBackend[]): void {
   }
 }
 
+function feedbackKernels(backends: KernelBackend[]): void {
+  console.log("\ntied feedback C += X·W (X: B × k receiving-layer activities, W: k × n); µs per call, listing included");
+  console.log("| backend | feedback k→n | batch | non-zero entries | dense µs | active µs | dense / active |");
+  console.log("| --- | --- | --- | --- | --- | --- | --- |");
+  for (const be of backends) {
+    const a = be.active!;
+    for (const [k, n] of [
+      [10, 500],
+      [500, 500],
+    ] as const) {
+      for (const B of [20, 64]) {
+        if (!a.exactNN(B, k)) continue;
+        const w = be.allocate("float32", k * n);
+        for (let i = 0; i < w.length; i++) w[i] = Math.sin(i) * 0.05;
+        const x = be.allocate("float32", B * k);
+        const c = be.allocate("float32", B * n);
+        const index = a.indices(B * k);
+        const start = a.indices(B + 1);
+        for (const density of [0.05, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9]) {
+          let s = 12345;
+          const rnd = () => (s = (Math.imul(s, 1664525) + 1013904223) >>> 0) / 2 ** 32;
+          for (let e = 0; e < B * k; e++) x[e] = rnd() < density ? 0.25 + rnd() : 0;
+          const listed = a.listEntries(x, B, k, index, start) / (B * k);
+          const ms = be.name === "typescript" ? 60 : 25;
+          const [dense, active] = timeInTurn(
+            [
+              () => be.gemm(c, x, w, B, n, k, false, false, 1, 1),
+              () => {
+                a.listEntries(x, B, k, index, start);
+                a.activeProductNN(c, x, w, B, n, k, index, start, 1, 1);
+              },
+            ],
+            ms,
+          ) as [number, number];
+          console.log(`| ${be.name} | ${k}→${n} | ${B} | ${(listed * 100).toFixed(0)}% | ${dense.toFixed(1)} | ${active.toFixed(1)} | ${(dense / active).toFixed(2)} |`);
+        }
+      }
+    }
+  }
+}
+
 async function training(backends: KernelBackend[], hiddens: number[]): Promise<void> {
   const { experiment } = await readModelArgument("bench/experiments/digits-eqprop-2017.json");
   const data = experiment.data!;
@@ -117,8 +162,8 @@ async function training(backends: KernelBackend[], hiddens: number[]): Promise<v
   const spec: NetworkSpecInput = { ...base, layers, connections: names.slice(1).map((to, q) => ({ ...conn, from: names[q]!, to })) } as NetworkSpecInput;
   const ruleSpec = { ...experiment.rules[0]!, rates: {} };
   console.log(`\ntraining, published digits setting with hidden layers ${hiddens.join("-")} (${train.size} images); µs per training example`);
-  console.log("| backend | batch | active products | dense products | dense / active | active blocks: image | active blocks: hidden (per step) |");
-  console.log("| --- | --- | --- | --- | --- | --- | --- |");
+  console.log("| backend | batch | all active | forward active, feedback dense | all dense | dense / all active | feedback dense / all active | active blocks: image | active blocks: hidden (per step) | non-zero entries fed back: hidden, output |");
+  console.log("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |");
   const k = train.inputSize;
   const xs = new Float32Array(train.inputs);
   const ts = new Float32Array(train.targets);
@@ -134,35 +179,48 @@ async function training(backends: KernelBackend[], hiddens: number[]): Promise<v
       };
       for (let i = 0; i < 40; i++) rule.step(next());
       const steps = Math.max(3, Math.round((be.name === "typescript" ? 300 : 1200) / B));
-      const times: number[][] = [[], []];
+      const times: number[][] = [[], [], []];
       const noActive = { typescript: { wide: 0, narrow: 0 }, "wasm-simd": { wide: 0, narrow: 0 }, "wasm-relaxed-simd": { wide: 0, narrow: 0 } };
       const tiny = { typescript: { wide: 1e-9, narrow: 1e-9 }, "wasm-simd": { wide: 1e-9, narrow: 1e-9 }, "wasm-relaxed-simd": { wide: 1e-9, narrow: 1e-9 } };
+      const noFeedback = { typescript: 0, "wasm-simd": 0, "wasm-relaxed-simd": 0 };
+      const tinyFeedback = { typescript: 1e-9, "wasm-simd": 1e-9, "wasm-relaxed-simd": 1e-9 };
+      // 0: every active product at its crossover; 1: the forward ones only; 2: none (dense throughout)
       for (let round = 0; round < 6; round++) {
-        for (const q of [0, 1]) {
-          setActiveProductCrossover(q === 0 ? ACTIVE_PRODUCT_CROSSOVER : noActive);
+        for (const q of [0, 1, 2]) {
+          setActiveProductCrossover(q < 2 ? ACTIVE_PRODUCT_CROSSOVER : noActive);
+          setActiveFeedbackCrossover(q === 0 ? ACTIVE_FEEDBACK_CROSSOVER : noFeedback);
           const t0 = performance.now();
           for (let i = 0; i < steps; i++) rule.step(next());
           times[q]!.push(((performance.now() - t0) * 1000) / (steps * B));
         }
       }
-      // measured densities: a crossover near 0 lists every product's blocks and runs it dense
+      // measured densities: a crossover near 0 lists every product's blocks (entries) and runs it dense
       setActiveProductCrossover(tiny);
+      setActiveFeedbackCrossover(tinyFeedback);
       activeProductCounts.listedBlocks = [];
       activeProductCounts.blocks = [];
+      activeProductCounts.listedEntries = [];
+      activeProductCounts.entries = [];
       for (let i = 0; i < 10; i++) rule.step(next());
       const share = (l: number) => ((activeProductCounts.listedBlocks[l] ?? 0) / Math.max(1, activeProductCounts.blocks[l] ?? 0)) * 100;
+      const entryShare = (l: number) => ((activeProductCounts.listedEntries[l] ?? 0) / Math.max(1, activeProductCounts.entries[l] ?? 0)) * 100;
       const hiddenShares = net.layers.filter((l) => l.role === "hidden").map((l) => share(l.index).toFixed(0) + "%").join(", ");
+      const fedBack = net.layers.filter((l) => l.role !== "input" && (activeProductCounts.entries[l.index] ?? 0) > 0).map((l) => entryShare(l.index).toFixed(0) + "%").join(", ");
       setActiveProductCrossover(ACTIVE_PRODUCT_CROSSOVER);
-      const on = median(times[0]!);
-      const off = median(times[1]!);
-      console.log(`| ${be.name} | ${B} | ${on.toFixed(1)} | ${off.toFixed(1)} | ${(off / on).toFixed(2)} | ${share(0).toFixed(0)}% | ${hiddenShares} |`);
+      setActiveFeedbackCrossover(ACTIVE_FEEDBACK_CROSSOVER);
+      const [all, forward, none] = times.map(median) as [number, number, number];
+      console.log(
+        `| ${be.name} | ${B} | ${all.toFixed(1)} | ${forward.toFixed(1)} | ${none.toFixed(1)} | ${(none / all).toFixed(2)} | ${(forward / all).toFixed(2)} | ${share(0).toFixed(0)}% | ${hiddenShares} | ${fedBack} |`,
+      );
     }
   }
 }
 
 export async function run(): Promise<void> {
   const backends = backendsWanted();
-  if (process.env.EBBFLOW_ACTIVE_PART !== "training") kernels(backends);
+  const part = process.env.EBBFLOW_ACTIVE_PART;
+  if (part === undefined || part === "kernels") kernels(backends);
+  if (part === undefined || part === "kernels" || part === "feedback") feedbackKernels(backends);
   // networks separated by ";", hidden layers of one network by ",": "256;500;1024;4096;500,500"
-  if (process.env.EBBFLOW_ACTIVE_PART !== "kernels") for (const net of (process.env.EBBFLOW_ACTIVE_HIDDEN ?? "500").split(";")) await training(backends, net.split(",").map(Number));
+  if (part === undefined || part === "training") for (const net of (process.env.EBBFLOW_ACTIVE_HIDDEN ?? "500").split(";")) await training(backends, net.split(",").map(Number));
 }
