@@ -79,12 +79,16 @@ export const ACTIVE_PRODUCT_CROSSOVER: Readonly<Record<BackendName, { readonly w
 /**
  * Fraction of non-zero entries of the receiving layer below which the settler runs tied feedback
  * (`eta_from += gain·X_to·W`) as {@link ActiveKernels.activeProductNN} instead of the dense product, per
- * backend. PROVISIONAL, replaced by the measurement below.
+ * backend. Measured with `npm run bench -- active` (feedback 10→500 and 500→500 at batch 20 and 64, entries
+ * non-zero at random, listing included; see docs/guide/speed.md): dense / active fell through 1 at 35–45 %
+ * (TypeScript), 40–60 % (SIMD) and 40–55 % (relaxed SIMD) of the entries; the WebAssembly active product
+ * costs about 2× the dense one per computed term (one pattern per tile: each load of the weights feeds one
+ * multiply-add instead of four).
  * @category Kernels
  */
 export const ACTIVE_FEEDBACK_CROSSOVER: Readonly<Record<BackendName, number>> = Object.freeze({
-  typescript: 0.5,
-  "wasm-simd": 0.5,
+  typescript: 0.4,
+  "wasm-simd": 0.45,
   "wasm-relaxed-simd": 0.4,
 });
 

@@ -36,7 +36,7 @@ export {
   type SparseAllocator,
   type SparseKernels,
 } from "./sparse.js";
-export { activeProduct, listActive, typescriptActiveKernels, ACTIVE_PRODUCT_CROSSOVER, type ActiveKernels } from "./active.js";
+export { activeProduct, activeProductNN, listActive, typescriptActiveKernels, ACTIVE_FEEDBACK_CROSSOVER, ACTIVE_PRODUCT_CROSSOVER, type ActiveKernels } from "./active.js";
 export { chooseStorage, localMask, maskDensity, SPARSE_DENSITY_CROSSOVER, type StorageOption } from "./storage.js";
 export {
   convolve,
