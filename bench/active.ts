@@ -12,9 +12,11 @@
  *    listEntries + activeProductNN. ACTIVE_FEEDBACK_CROSSOVER is where the ratio falls to about 1.
  * 2. Training on the published digits setting (bench/experiments/digits-eqprop-2017.json, real images): µs per
  *    training example with the active products at the crossover and with them off, timed in turn, and the
- *    measured fraction of active blocks in the products the settler formed. EBBFLOW_ACTIVE_HIDDEN sets the
+ *    measured fraction of active blocks in the products the settler formed; for the tied feedback, the same with
+ *    the feedback products dense, and the fraction of non-zero entries of the layers fed back. EBBFLOW_ACTIVE_HIDDEN sets the
  *    hidden layers ("500" or "500,500"; several networks separated by ";"), EBBFLOW_ACTIVE_KERNELS the kernels
- *    (typescript, simd, wasm: both WebAssembly builds, all).
+ *    (typescript, simd, wasm: both WebAssembly builds, all), EBBFLOW_ACTIVE_PART the parts (kernels: 1 and 1b,
+ *    feedback: 1b, training: 2; all when unset).
  */
 import { setFlagsFromString } from "node:v8";
 import { buildNetwork, createRule, type NetworkSpecInput } from "../src/index.js";
@@ -162,7 +164,7 @@ async function training(backends: KernelBackend[], hiddens: number[]): Promise<v
   const spec: NetworkSpecInput = { ...base, layers, connections: names.slice(1).map((to, q) => ({ ...conn, from: names[q]!, to })) } as NetworkSpecInput;
   const ruleSpec = { ...experiment.rules[0]!, rates: {} };
   console.log(`\ntraining, published digits setting with hidden layers ${hiddens.join("-")} (${train.size} images); µs per training example`);
-  console.log("| backend | batch | all active | forward active, feedback dense | all dense | dense / all active | feedback dense / all active | active blocks: image | active blocks: hidden (per step) | non-zero entries fed back: hidden, output |");
+  console.log("| backend | batch | all active | forward active, feedback dense | all dense | dense / all active | feedback dense / all active | active blocks: image | active blocks: hidden (per step) | non-zero entries fed back (per step) |");
   console.log("| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |");
   const k = train.inputSize;
   const xs = new Float32Array(train.inputs);
@@ -204,13 +206,15 @@ async function training(backends: KernelBackend[], hiddens: number[]): Promise<v
       for (let i = 0; i < 10; i++) rule.step(next());
       const share = (l: number) => ((activeProductCounts.listedBlocks[l] ?? 0) / Math.max(1, activeProductCounts.blocks[l] ?? 0)) * 100;
       const entryShare = (l: number) => ((activeProductCounts.listedEntries[l] ?? 0) / Math.max(1, activeProductCounts.entries[l] ?? 0)) * 100;
-      const hiddenShares = net.layers.filter((l) => l.role === "hidden").map((l) => share(l.index).toFixed(0) + "%").join(", ");
-      const fedBack = net.layers.filter((l) => l.role !== "input" && (activeProductCounts.entries[l.index] ?? 0) > 0).map((l) => entryShare(l.index).toFixed(0) + "%").join(", ");
+      const hiddenShares = net.layers.filter((l) => l.role === "hidden").map((l) => `${l.name} ${share(l.index).toFixed(0)}%`).join(", ");
+      // the layers whose activities are fed back through tied weights (into the layer below)
+      const fedBack = net.layers.filter((l) => net.connections.some((c) => c.to === l.index && c.feedback.kind === "tied" && net.layers[c.from]!.role !== "input"));
+      const fedBackShares = fedBack.map((l) => `${l.name} ${entryShare(l.index).toFixed(0)}%`).join(", ");
       setActiveProductCrossover(ACTIVE_PRODUCT_CROSSOVER);
       setActiveFeedbackCrossover(ACTIVE_FEEDBACK_CROSSOVER);
       const [all, forward, none] = times.map(median) as [number, number, number];
       console.log(
-        `| ${be.name} | ${B} | ${all.toFixed(1)} | ${forward.toFixed(1)} | ${none.toFixed(1)} | ${(none / all).toFixed(2)} | ${(forward / all).toFixed(2)} | ${share(0).toFixed(0)}% | ${hiddenShares} | ${fedBack} |`,
+        `| ${be.name} | ${B} | ${all.toFixed(1)} | ${forward.toFixed(1)} | ${none.toFixed(1)} | ${(none / all).toFixed(2)} | ${(forward / all).toFixed(2)} | ${share(0).toFixed(0)}% | ${hiddenShares} | ${fedBackShares} |`,
       );
     }
   }

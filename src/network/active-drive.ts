@@ -144,10 +144,7 @@ export class ActiveDrive {
       this.entriesOf[from] = x;
       this.entriesListed[from] = listed;
     }
-    const blocks = this.batch * Math.floor(m / a.blockWidth(this.net.dtype));
-    const counts = activeProductCounts;
-    counts.listedBlocks[from] = (counts.listedBlocks[from] ?? 0) + listed;
-    counts.blocks[from] = (counts.blocks[from] ?? 0) + blocks;
+    this.count(from, listed, m, true);
     return listed;
   }
 
@@ -167,10 +164,21 @@ export class ActiveDrive {
       this.blocksOf[to] = x;
       this.blocksListed[to] = listed;
     }
-    const counts = activeProductCounts;
-    counts.listedEntries[to] = (counts.listedEntries[to] ?? 0) + listed;
-    counts.entries[to] = (counts.entries[to] ?? 0) + this.batch * m;
+    this.count(to, listed, m, false);
     return listed;
+  }
+
+  /** Adds a listing of layer `l` (as blocks or as entries; on TypeScript one listing is both) to the counts the benchmarks read. */
+  private count(l: number, listed: number, m: number, asBlocks: boolean): void {
+    const counts = activeProductCounts;
+    if (asBlocks || this.entryBlocks) {
+      counts.listedBlocks[l] = (counts.listedBlocks[l] ?? 0) + listed;
+      counts.blocks[l] = (counts.blocks[l] ?? 0) + this.batch * Math.floor(m / this.net.kernels.active!.blockWidth(this.net.dtype));
+    }
+    if (!asBlocks || this.entryBlocks) {
+      counts.listedEntries[l] = (counts.listedEntries[l] ?? 0) + listed;
+      counts.entries[l] = (counts.entries[l] ?? 0) + this.batch * m;
+    }
   }
 
   /**
