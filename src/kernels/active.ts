@@ -15,6 +15,11 @@
  * Granularity: the TypeScript kernels list single entries; the WebAssembly kernels list vector blocks
  * (4 float32 or 2 float64 entries at offsets 0, L, 2L, … of a row; the last k mod L entries are always
  * added), since their dense product keeps one accumulator lane per offset mod L.
+ *
+ * Tied feedback, `C = alpha·X·W + beta·C` (W not transposed), has its own kernel ({@link activeProductNN} here,
+ * `activeProductNN` in assembly/active.ts) over single listed entries, following the other order of summation
+ * that the dense kernel uses for that product (groups of eight terms on TypeScript, packed blocks of 256 steps
+ * on WebAssembly).
  * @module
  */
 import type { Dtype, FloatArray } from "../types/index.js";

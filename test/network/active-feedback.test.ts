@@ -7,11 +7,12 @@
  */
 import fc from "fast-check";
 import { describe, expect, it } from "vitest";
-import { buildNetwork, Settler, Snapshot } from "../../src/index.js";
+import { buildNetwork } from "../../src/index.js";
 import { typescriptBackend } from "../../src/kernels/index.js";
 import type { KernelBackend } from "../../src/kernels/backend.js";
 import { ACTIVE_FEEDBACK_CROSSOVER, ACTIVE_PRODUCT_CROSSOVER } from "../../src/kernels/active.js";
 import { activeProductCounts, setActiveFeedbackCrossover, setActiveProductCrossover } from "../../src/network/active-drive.js";
+import { settleBothWays } from "../helpers/active-settle.js";
 import { check } from "../helpers/property.js";
 import { wasmBackends } from "../kernels-wasm/backends.js";
 
@@ -57,22 +58,10 @@ function settleBoth(be: KernelBackend, t: Case): string[][] {
     },
     { backend: be },
   );
-  let s = t.seed;
-  const next = () => (s = (Math.imul(s, 1664525) + 1013904223) >>> 0) / 2 ** 32;
-  const x = Array.from({ length: t.batch * nIn }, () => (next() < t.zeros ? 0 : next() * 2 - 0.5));
-  const y = Array.from({ length: t.batch * nOut }, () => (next() < 0.5 ? 1 : 0));
-  const out: string[][] = [];
-  for (const on of [true, false]) {
+  return settleBothWays(net, t.batch, t.seed, t.zeros, (on) => {
     setActiveProductCrossover(on ? always : never);
     setActiveFeedbackCrossover(on ? feedbackAlways : feedbackNever);
-    const settler = new Settler(net, t.batch);
-    const a = new Snapshot(net, t.batch);
-    const b = new Snapshot(net, t.batch, a);
-    settler.settle({ phase: "free", inputs: { in: x } }, a);
-    settler.settle({ phase: "nudged", beta: 0.5, reuseDrive: true, inputs: { in: x }, targets: { out: y }, start: a }, b);
-    out.push([...a.state, ...a.activity, ...b.state, ...b.activity].flatMap((v) => Array.from(v, (e) => (Object.is(e, -0) ? "-0" : String(e)))));
-  }
-  return out;
+  });
 }
 
 describe("settling with activity-sparse tied-feedback products", () => {
