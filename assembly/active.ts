@@ -240,8 +240,10 @@ function combineV<T>(cp: usize, s: v128, va: v128, vb: v128, betaZero: bool): vo
 }
 
 /**
- * One row of A (entries list q0 .. q1, one block along k) by 8 vectors of columns of B: eight accumulator
- * chains, as many as the dense 4 x 2 tile keeps.
+ * One row of A (entries list q0 .. q1, one block along k) by 6 vectors of columns of B: each lane gets gemm's
+ * vmadd chain from +0 minus its ±0 terms (exact: IEEE 754-2019 §6.3, see above). Six chains, not eight: V8
+ * loads a step's B vectors before its arithmetic, and 8 + 8 + 1 live vectors spilled (measured: 3x the dense
+ * cost per term, against 2x with six).
  */
 function nn6<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, va: v128, vb: v128, betaZero: bool): void {
   const S = sizeof<T>();
@@ -266,7 +268,7 @@ function nn6<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize,
   combineV<T>(cp + 5 * VBYTES, s5, va, vb, betaZero);
 }
 
-/** One row of A (one block along k) by 2 vectors of columns of B. */
+/** One row of A (one block along k) by 2 vectors of columns of B (exact as nn6). */
 function nn2<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, va: v128, vb: v128, betaZero: bool): void {
   const S = sizeof<T>();
   const zero = v128.splat<T>(0);
@@ -282,7 +284,7 @@ function nn2<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize,
   combineV<T>(cp + VBYTES, s1, va, vb, betaZero);
 }
 
-/** One row of A (one block along k) by one vector of columns of B. */
+/** One row of A (one block along k) by one vector of columns of B (exact as nn6). */
 function nn1<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, va: v128, vb: v128, betaZero: bool): void {
   const S = sizeof<T>();
   let s0 = v128.splat<T>(0);
@@ -302,7 +304,7 @@ function combineS<T>(cp: usize, s: T, al: T, be: T, betaZero: bool): void {
 
 /**
  * One row of A (one block along k) by the last `cols` < L columns of B: one vector whose other lanes
- * stay zero (the dense kernel pads its packed panel the same way), so the lanes get the same vmadd.
+ * stay zero (the dense kernel pads its packed panel the same way), so the lanes get the same vmadd (exact as nn6).
  */
 function nnTail<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usize, cp: usize, cols: i32, al: T, be: T, betaZero: bool): void {
   const S = sizeof<T>();
@@ -328,8 +330,9 @@ function nnTail<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usi
 /**
  * C (m x n) = alpha A B + beta C over the entries activeEntries listed for A (index, start); A m x k,
  * B k x n row-major, m >= 2, k >= 2, alpha != 0 (the caller runs the other cases dense, as gemm does).
- * Columns in tiles of 8 vectors (then 2, 1, and a partial one), each tile over all rows of A before the
- * next, so that the tile's strip of B stays in cache.
+ * Bit for bit gemm's packed path with finite weights (IEEE 754-2019 §6.3: see the note above). Columns in
+ * tiles of 6 vectors (then 2, 1, and a partial one); per tile, gemm's blocks along k in order, each over all
+ * rows of A, so that the tile's strip of B in one block stays in the first-level cache.
  */
 export function activeProductNN<T>(c: usize, a: usize, b: usize, m: i32, n: i32, k: i32, index: usize, start: usize, alpha: f64, beta: f64): void {
   const S = sizeof<T>();

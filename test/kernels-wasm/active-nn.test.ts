@@ -99,8 +99,9 @@ describe("activity-sparse tied-feedback product X·W", () => {
         expect(be.active!.exactNN(3, 5)).toBe(true);
         check(
           fc.property(small, (t) => {
+            // shapes where the kernel is not exact (m = 1 or k = 1 on WebAssembly) run the dense gemm: equal too
             const r = run(be, dtype, true, t);
-            if (be.active!.exactNN(t.m, t.k)) expect(r.active).toEqual(r.dense);
+            expect(r.active).toEqual(r.dense);
           }),
           60,
         );
