@@ -13,7 +13,7 @@
 // left-out blocks are finite.
 
 import { KC } from "./gemm";
-import { VBYTES, hsum, lanes, vmadd } from "./simd";
+import { VBYTES, hsum, lanes, scaleInPlace, vmadd } from "./simd";
 
 /** Rows of B per block: a block is re-read from cache for every row of A (as in gemm-dot.ts). */
 const NB: i32 = 64;
@@ -327,10 +327,126 @@ function nnTail<T>(a0: usize, list: usize, q0: i32, q1: i32, bj: usize, ldb: usi
   }
 }
 
+/** Whether the sign bit of v is set (tells −0 from +0). */
+// @ts-ignore: decorator
+@inline
+function negative<T>(v: T): bool {
+  if (sizeof<T>() == 4) return (reinterpret<u32>(<f32>v) >> 31) != 0;
+  return (reinterpret<u64>(<f64>v) >> 63) != 0;
+}
+
+/**
+ * One row: y (n) = alpha x B + beta y over the entries of x listed in index[q0 .. q1) (B k x n), as gemm's
+ * m = 1 path (gemv with the transpose, level2.ts) forms it: each listed e = alpha x_p (in T) is added to y by
+ * vmadd, row after row, on the vector columns; on the last n mod L columns each group of 4 steps adds the sum
+ * (e0 b0 + e1 b1) + (e2 b2 + e3 b3) with its unlisted terms left out, and the k mod 4 last steps one by one.
+ * Exactness: a left-out term is ±0 (b finite), and y + (±0) = y unless y is −0 (IEEE 754-2019 §6.3), so every
+ * value equals gemv's up to the sign of a zero; y ends at −0 only if it started there (beta != 0), and those
+ * entries are settled afterwards from the signs of all their terms (gemv keeps −0 only if every term is −0).
+ */
+function activeRowNN<T>(y: usize, x: usize, b: usize, n: i32, k: i32, index: usize, q0: i32, q1: i32, alpha: f64, beta: f64): void {
+  const S = sizeof<T>();
+  const L = lanes<T>();
+  const al = <T>alpha;
+  const ldb = <usize>n * S;
+  scaleInPlace<T>(y, n, beta);
+  const n6 = n - n % (6 * L);
+  const n1 = n - n % L;
+  // vector columns: six vectors of y at a time through all listed rows
+  for (let j = 0; j < n6; j += 6 * L) {
+    const yp = y + <usize>j * S;
+    let y0 = v128.load(yp), y1 = v128.load(yp, VBYTES), y2 = v128.load(yp, 2 * VBYTES);
+    let y3 = v128.load(yp, 3 * VBYTES), y4 = v128.load(yp, 4 * VBYTES), y5 = v128.load(yp, 5 * VBYTES);
+    const bj = b + <usize>j * S;
+    for (let q = q0; q < q1; q++) {
+      const p = <usize>load<i32>(index + (<usize>q << 2));
+      const e = v128.splat<T>(al * load<T>(x + p * S));
+      const bp = bj + p * ldb;
+      y0 = vmadd<T>(e, v128.load(bp), y0);
+      y1 = vmadd<T>(e, v128.load(bp, VBYTES), y1);
+      y2 = vmadd<T>(e, v128.load(bp, 2 * VBYTES), y2);
+      y3 = vmadd<T>(e, v128.load(bp, 3 * VBYTES), y3);
+      y4 = vmadd<T>(e, v128.load(bp, 4 * VBYTES), y4);
+      y5 = vmadd<T>(e, v128.load(bp, 5 * VBYTES), y5);
+    }
+    v128.store(yp, y0);
+    v128.store(yp, y1, VBYTES);
+    v128.store(yp, y2, 2 * VBYTES);
+    v128.store(yp, y3, 3 * VBYTES);
+    v128.store(yp, y4, 4 * VBYTES);
+    v128.store(yp, y5, 5 * VBYTES);
+  }
+  for (let j = n6; j < n1; j += L) {
+    const yp = y + <usize>j * S;
+    let y0 = v128.load(yp);
+    const bj = b + <usize>j * S;
+    for (let q = q0; q < q1; q++) {
+      const p = <usize>load<i32>(index + (<usize>q << 2));
+      y0 = vmadd<T>(v128.splat<T>(al * load<T>(x + p * S)), v128.load(bj + p * ldb), y0);
+    }
+    v128.store(yp, y0);
+  }
+  if (n1 < n) {
+    // the last columns: gemv's groups of four rows as trees, then single rows
+    const k4 = k - k % 4;
+    let q = q0;
+    while (q < q1) {
+      const p = load<i32>(index + (<usize>q << 2));
+      if (p >= k4) {
+        const e = al * load<T>(x + <usize>p * S);
+        const bp = b + <usize>p * ldb;
+        for (let j = n1; j < n; j++) store<T>(y + <usize>j * S, load<T>(y + <usize>j * S) + e * load<T>(bp + <usize>j * S));
+        q++;
+        continue;
+      }
+      const g = p - (p & 3);
+      let qe = q + 1;
+      while (qe < q1 && load<i32>(index + (<usize>qe << 2)) < g + 4) qe++;
+      const count = qe - q;
+      const p1 = count > 1 ? load<i32>(index + (<usize>(q + 1) << 2)) : p;
+      const p2 = count > 2 ? load<i32>(index + (<usize>(q + 2) << 2)) : p;
+      const e0 = al * load<T>(x + <usize>(count == 4 ? g : p) * S);
+      const e1 = al * load<T>(x + <usize>(count == 4 ? g + 1 : p1) * S);
+      const e2 = al * load<T>(x + <usize>(count == 4 ? g + 2 : p2) * S);
+      const e3 = al * load<T>(x + <usize>(g + 3) * S);
+      const b0 = b + <usize>(count == 4 ? g : p) * ldb;
+      const b1 = b + <usize>(count == 4 ? g + 1 : p1) * ldb;
+      const b2 = b + <usize>(count == 4 ? g + 2 : p2) * ldb;
+      const b3 = b + <usize>(g + 3) * ldb;
+      const leftPair = (p ^ p1) < (p1 ^ p2);
+      for (let j = n1; j < n; j++) {
+        const o = <usize>j * S;
+        let t: T = 0;
+        if (count == 1) t = e0 * load<T>(b0 + o);
+        else if (count == 2) t = e0 * load<T>(b0 + o) + e1 * load<T>(b1 + o);
+        else if (count == 3) t = leftPair ? e0 * load<T>(b0 + o) + e1 * load<T>(b1 + o) + e2 * load<T>(b2 + o) : e0 * load<T>(b0 + o) + (e1 * load<T>(b1 + o) + e2 * load<T>(b2 + o));
+        else t = e0 * load<T>(b0 + o) + e1 * load<T>(b1 + o) + (e2 * load<T>(b2 + o) + e3 * load<T>(b3 + o));
+        store<T>(y + o, load<T>(y + o) + t);
+      }
+      q = qe;
+    }
+  }
+  if (beta != 0) {
+    // an entry at −0 started at −0 and received only zeros here; gemv keeps −0 only if every term is −0
+    for (let j = 0; j < n; j++) {
+      const o = <usize>j * S;
+      const v = load<T>(y + o);
+      if (v != 0 || !negative<T>(v)) continue;
+      for (let p = 0; p < k; p++) {
+        const t = al * load<T>(x + <usize>p * S) * load<T>(b + <usize>p * ldb + o);
+        if (t != 0 || !negative<T>(t)) {
+          store<T>(y + o, 0);
+          break;
+        }
+      }
+    }
+  }
+}
+
 /**
  * C (m x n) = alpha A B + beta C over the entries activeEntries listed for A (index, start); A m x k,
- * B k x n row-major, m >= 2, k >= 2, alpha != 0 (the caller runs the other cases dense, as gemm does).
- * Bit for bit gemm's packed path with finite weights (IEEE 754-2019 §6.3: see the note above). Columns in
+ * B k x n row-major, k >= 2, alpha != 0 (the caller runs the other cases dense, as gemm does); m = 1 as
+ * activeRowNN. Bit for bit gemm's packed path with finite weights (IEEE 754-2019 §6.3: see the note above). Columns in
  * tiles of 6 vectors (then 2, 1, and a partial one); per tile, gemm's blocks along k in order, each over all
  * rows of A, so that the tile's strip of B in one block stays in the first-level cache.
  */
@@ -346,6 +462,10 @@ export function activeProductNN<T>(c: usize, a: usize, b: usize, m: i32, n: i32,
   const vbFirst = v128.splat<T>(be);
   const vbOne = v128.splat<T>(one);
   const bz = beta == 0;
+  if (m == 1) {
+    activeRowNN<T>(c, a, b, n, k, index, load<i32>(start), load<i32>(start, 4), alpha, beta);
+    return;
+  }
   let j = 0;
   while (j < n) {
     const left = n - j;

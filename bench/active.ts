@@ -8,7 +8,7 @@
  *    active product is faster). ACTIVE_PRODUCT_CROSSOVER is where the ratio falls to about 1.
  * 1b. Tied feedback: `C += X·W` (X the receiving layer's activities, W stored receiving × sending) with a fraction
  *    of each pattern's entries non-zero (independently, the rest exactly 0), for the feedback paths 10→500
- *    (output to hidden) and 500→500 (between two hidden layers) at batch 20 and 64: the dense gemm against
+ *    (output to hidden) and 500→500 (between two hidden layers) at batch 1, 20 and 64: the dense gemm against
  *    listEntries + activeProductNN. ACTIVE_FEEDBACK_CROSSOVER is where the ratio falls to about 1.
  * 2. Training on the published digits setting (bench/experiments/digits-eqprop-2017.json, real images): µs per
  *    training example with the active products at the crossover and with them off, timed in turn, and the
@@ -121,7 +121,7 @@ function feedbackKernels(backends: KernelBackend[]): void {
       [10, 500],
       [500, 500],
     ] as const) {
-      for (const B of [20, 64]) {
+      for (const B of [1, 20, 64]) {
         if (!a.exactNN(B, k)) continue;
         const w = be.allocate("float32", k * n);
         for (let i = 0; i < w.length; i++) w[i] = Math.sin(i) * 0.05;

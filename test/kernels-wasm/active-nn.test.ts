@@ -92,7 +92,7 @@ function run(be: KernelBackend, dtype: "float32" | "float64", arena: boolean, t:
 
 describe("activity-sparse tied-feedback product X·W", () => {
   const small = caseArb(fc.integer({ min: 1, max: 9 }), fc.integer({ min: 1, max: 37 }), fc.integer({ min: 1, max: 41 }));
-  const deep = caseArb(fc.integer({ min: 2, max: 5 }), fc.integer({ min: 1, max: 19 }), fc.integer({ min: 250, max: 530 }));
+  const deep = caseArb(fc.integer({ min: 1, max: 5 }), fc.integer({ min: 1, max: 19 }), fc.integer({ min: 250, max: 530 }));
   for (const be of backends) {
     for (const dtype of ["float32", "float64"] as const) {
       it(`${be.name}, ${dtype}: the dense gemm's bits, arrays in the backend's memory`, () => {
@@ -114,7 +114,45 @@ describe("activity-sparse tied-feedback product X·W", () => {
         );
       });
     }
-    it(`${be.name}: the dense gemm's bits for ordinary arrays and at the benchmarks' shapes (m = 20, 64; k = 10, 500)`, () => {
+    it(`${be.name}: −0 in C that receives only zero terms (some listed, some not) keeps gemm's sign`, () => {
+      // gemm adds every zero term, so C = −0 stays −0 only if all of them are −0 (IEEE 754-2019 §6.3)
+      for (const m of [1, 3]) {
+        for (const [k, n] of [
+          [7, 13],
+          [9, 45],
+        ] as const) {
+          let s = 5;
+          const next = () => (s = (Math.imul(s, 1664525) + 1013904223) >>> 0) / 2 ** 32;
+          // rows of zeros of both signs, with here and there a listed entry whose weights are zeros of both signs
+          // (one pattern's x for all rows, so that the even columns below get −0 terms only, in every row)
+          const row = Array.from({ length: k }, () => (next() < 0.15 ? 0.5 : next() < 0.5 ? -0 : 0));
+          const x = Array.from({ length: m * k }, (_, e) => row[e % k]!);
+          const c = Array.from({ length: m * n }, () => -0);
+          for (const dtype of ["float32", "float64"] as const) {
+            for (const [alpha, beta] of [
+              [1, 1],
+              [-0.5, 0.5],
+            ] as const) {
+              // even columns: every term alpha·x·w is −0, so gemm keeps C at −0; odd columns: zeros of random sign
+              const w = Array.from({ length: k * n }, (_, e) => {
+                const p = Math.floor(e / n);
+                const positive = (alpha > 0) === !Object.is(row[p], -0);
+                return (e % n) % 2 === 0 ? (positive ? -0 : 0) : next() < 0.5 ? -0 : 0;
+              });
+              const r = run(be, dtype, true, { m, n, k, x, w, c, alpha, beta });
+              expect(r.active).toEqual(r.dense);
+              // the case has both signs to get right where gemm adds into C (TypeScript; gemv for one row on
+              // WebAssembly; its packed blocks form alpha·s + beta·C with s from +0 instead)
+              if (be.name === "typescript" || m === 1) {
+                expect(r.dense).toContain("0");
+                expect(r.dense).toContain("-0");
+              }
+            }
+          }
+        }
+      }
+    });
+    it(`${be.name}: the dense gemm's bits for ordinary arrays and at the benchmarks' shapes (m = 20, 64; k = 10, 500) and for one and two patterns`, () => {
       check(
         fc.property(small, (t) => {
           const r = run(be, "float32", false, t);
@@ -122,9 +160,13 @@ describe("activity-sparse tied-feedback product X·W", () => {
         }),
         20,
       );
-      for (const [m, k] of [
-        [20, 10],
-        [64, 500],
+      // and one and two patterns with many groups of three listed entries among four or eight (the trees' shapes)
+      for (const [m, k, zeros] of [
+        [20, 10, 0.7],
+        [64, 500, 0.7],
+        [1, 40, 0.3],
+        [1, 40, 0.5],
+        [2, 80, 0.5],
       ] as const) {
         let s = 11;
         const next = () => (s = (Math.imul(s, 1664525) + 1013904223) >>> 0) / 2 ** 32;
@@ -133,7 +175,7 @@ describe("activity-sparse tied-feedback product X·W", () => {
           m,
           n,
           k,
-          x: Array.from({ length: m * k }, () => (next() < 0.7 ? 0 : next())),
+          x: Array.from({ length: m * k }, () => (next() < zeros ? 0 : next())),
           w: Array.from({ length: k * n }, () => next() - 0.5),
           c: Array.from({ length: m * n }, () => next()),
           alpha: 1,

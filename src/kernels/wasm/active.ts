@@ -18,13 +18,13 @@ type ActiveExports = Pick<
 >;
 
 /**
- * Whether the WebAssembly `gemm` forms A·B (m rows, inner dimension k, no transposes) with the packed blocks
- * that `activeProductNN` mirrors (assembly/gemm.ts: m = 1 runs as a matrix-vector product, k = 1 as an outer
- * product).
+ * Whether `activeProductNN` gives the WebAssembly `gemm`'s A·B (m rows, inner dimension k, no transposes) bit
+ * for bit: where gemm runs packed blocks (m ≥ 2, k ≥ 2) or, for m = 1, a matrix-vector product (assembly/gemm.ts);
+ * not for k = 1 with m ≥ 2 (an outer product there, which the caller runs dense).
  * @internal
  */
-export function wasmPackedPath(m: number, k: number): boolean {
-  return m >= 2 && k >= 2;
+export function wasmFeedbackExact(m: number, k: number): boolean {
+  return m === 1 || k >= 2;
 }
 
 /**
@@ -71,12 +71,12 @@ export function createActiveKernels(X: ActiveExports, own: (b: ArrayBufferLike) 
       if (m <= 0 || n <= 0) return out;
       const f32 = out instanceof Float32Array;
       const same = f32 ? x instanceof Float32Array && w instanceof Float32Array : x instanceof Float64Array && w instanceof Float64Array;
-      const fast = same && alpha !== 0 && wasmPackedPath(m, k) && own(out.buffer) && own(x.buffer) && own(w.buffer) && own(index.buffer) && own(start.buffer);
+      const fast = same && alpha !== 0 && wasmFeedbackExact(m, k) && own(out.buffer) && own(x.buffer) && own(w.buffer) && own(index.buffer) && own(start.buffer);
       if (!fast) return gemm(out, x, w, m, n, k, false, false, alpha, beta);
       (f32 ? X.activeProductNNF32 : X.activeProductNNF64)(out.byteOffset, x.byteOffset, w.byteOffset, m, n, k, index.byteOffset, start.byteOffset, alpha, beta);
       return out;
     },
-    exactNN: wasmPackedPath,
+    exactNN: wasmFeedbackExact,
     indices: (n: number): Int32Array => {
       // a float32 allocation of the same length viewed as i32 (same bytes, same alignment), as for the sparse kernels
       const f = allocate("float32", n);
