@@ -19,6 +19,13 @@ const WIDE = 64;
  * a layer's density changes slowly over the steps of a settling.
  */
 const RECHECK = 8;
+/**
+ * Fewest receiving-side entries (batch × receiving units) for which a tied-feedback product is listed at all: at
+ * batch 1 the 10→500 feedback (10 entries) ran slower sparse at every density (0.4–0.8 of the dense speed, two
+ * calls' overhead against a 0.5–0.9 µs product; `npm run bench -- active`), at batch 20 (200 entries) faster below
+ * about half.
+ */
+const FEEDBACK_MIN_ENTRIES = 64;
 
 /**
  * Sets the crossover the settler uses (benchmarks only: 0 times the dense product alone, 1 the active product
@@ -191,7 +198,7 @@ export class ActiveDrive {
     const a = K.active;
     const B = this.batch;
     const limit = feedbackCrossoverInUse[K.name] ?? 0;
-    if (a && this.entryIndex[to] && limit > 0 && a.exactNN(B, m)) {
+    if (a && this.entryIndex[to] && limit > 0 && B * m >= FEEDBACK_MIN_ENTRIES && a.exactNN(B, m)) {
       if (this.denseForFeedback[to]! > 0) {
         this.denseForFeedback[to]!--;
         activeProductCounts.feedbackDense++;
