@@ -81,7 +81,7 @@ export function writeConstantTable(): void {
 
 /** Codes of the f32 logistic with gain 1 and offset 0 (its argument is exact in f32): internal to these kernels. */
 export const LOGISTIC_PLAIN: i32 = UNIT_CODES_END;
-const LOGISTIC_PLAIN_SLOPE: i32 = UNIT_CODES_END + 1;
+export const LOGISTIC_PLAIN_SLOPE: i32 = UNIT_CODES_END + 1;
 
 // ======================= f64 lanes =======================
 
