@@ -23,7 +23,7 @@
 
 import { VBYTES, hi, join, lo } from "./simd";
 import { ABS32, ABS64, UNIT_HARD_SIGMOID, UNIT_LINEAR, UNIT_LOGISTIC, UNIT_RELU, UNIT_TANH } from "./generated/layout";
-import { K, LOGISTIC_PLAIN, LOGISTIC_PLAIN_SLOPE, run32, run64 } from "./units";
+import { K, LOGISTIC_PLAIN, LOGISTIC_PLAIN_SLOPE, apply32, apply64, run32, run64 } from "./units";
 
 // @ts-ignore: decorator
 @inline
@@ -247,13 +247,14 @@ export function rateStep64(code: i32, gain: f64, offset: f64, x: usize, nx: usiz
 
 // @ts-ignore: decorator
 @inline
-function energy32(code: i32, slope: i32, clip: bool, gain: f64, offset: f64, x: usize, eta: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
+function energy32(code: i32, slope: i32, clip: bool, short: bool, gain: f64, offset: f64, x: usize, eta: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
   const vdt = f64x2.splat(dt);
-  const one = f64x2.splat(1.0);
+  const g = f64x2.splat(gain);
+  const o = f64x2.splat(offset);
+  const g32 = f32x4.splat(<f32>gain);
   let mag = i32x4.splat(0);
   let d0 = f64x2.splat(0);
   let d1 = d0;
-  let nan = d0;
   for (let start = 0; start < n; start += BLOCK) {
     const m = min(BLOCK, n - start);
     const off = <usize>start * 4;
@@ -261,40 +262,52 @@ function energy32(code: i32, slope: i32, clip: bool, gain: f64, offset: f64, x: 
     const bx = x + off;
     const be = eta + off;
     const bn = nx + off;
-    run32(slope, bn, bx, m, gain, offset);
+    // the slope in a pass of its own (its dependency chain is long for the exp-based units), then the
+    // rest in one loop: the update in f64 lanes two values at a time, rounded, clipped and stored two
+    // values at a time (store64_lane: no two-vector shuffle); the clip sees the zero lanes of the
+    // demotion too, which are never stored
+    // (the piecewise-linear units' slopes are short: computed in the loop)
+    if (!short) run32(slope, bn, bx, m, gain, offset);
     let p: usize = 0;
     for (; p < ve; p += VBYTES) {
       const xa = v128.load(bx + p);
-      const d = f32x4.sub(f32x4.mul(v128.load(bn + p), v128.load(be + p)), xa);
-      v128.store(bn + p, join(f64x2.add(f64x2.mul(one, lo(xa)), f64x2.mul(vdt, lo(d))), f64x2.add(f64x2.mul(one, hi(xa)), f64x2.mul(vdt, hi(d)))));
+      const sl = short ? apply32(slope, xa, g, o, g32) : v128.load(bn + p);
+      const d = f32x4.sub(f32x4.mul(sl, v128.load(be + p)), xa);
+      const xl = lo(xa);
+      const xh = hi(xa);
+      // 1·x + dt·d as axpby forms it; 1·x is x exactly (a NaN's payload aside, which wasm leaves open anyway)
+      let rl = f32x4.demote_f64x2_zero(f64x2.add(xl, f64x2.mul(vdt, lo(d))));
+      let rh = f32x4.demote_f64x2_zero(f64x2.add(xh, f64x2.mul(vdt, hi(d))));
+      if (clip) {
+        rl = apply32(code, rl, g, o, g32);
+        rh = apply32(code, rh, g, o, g32);
+      }
+      v128.store64_lane(bn + p, rl, 0);
+      v128.store64_lane(bn + p, rh, 0, 8);
+      mag = i32x4.max_u(mag, i32x4.max_u(v128.and(rl, K(ABS32)), v128.and(rh, K(ABS32))));
+      const e0 = v128.and(f64x2.sub(f64x2.promote_low_f32x4(rl), xl), K(ABS64));
+      const e1 = v128.and(f64x2.sub(f64x2.promote_low_f32x4(rh), xh), K(ABS64));
+      d0 = f64x2.pmax(d0, e0);
+      d1 = f64x2.pmax(d1, e1);
     }
     for (; p < <usize>m * 4; p += 4) {
       const xs = load<f32>(bx + p);
-      const ds = load<f32>(bn + p) * load<f32>(be + p) - xs;
-      store<f32>(bn + p, <f32>(1.0 * <f64>xs + dt * <f64>ds));
-    }
-    if (clip) run32(code, bn, bn, m, gain, offset);
-    for (p = 0; p < ve; p += VBYTES) {
-      const r = v128.load(bn + p);
-      const xa = v128.load(bx + p);
-      mag = i32x4.max_u(mag, v128.and(r, K(ABS32)));
-      const e0 = v128.and(f64x2.sub(lo(r), lo(xa)), K(ABS64));
-      const e1 = v128.and(f64x2.sub(hi(r), hi(xa)), K(ABS64));
-      d0 = f64x2.pmax(d0, e0);
-      d1 = f64x2.pmax(d1, e1);
-      nan = v128.or(nan, v128.or(f64x2.ne(e0, e0), f64x2.ne(e1, e1)));
-    }
-    for (; p < <usize>m * 4; p += 4) {
-      const r = load<f32>(bn + p);
+      const sl = short ? f32x4.extract_lane(apply32(slope, f32x4.splat(xs), g, o, g32), 0) : load<f32>(bn + p);
+      const ds = sl * load<f32>(be + p) - xs;
+      let r = <f32>(<f64>xs + dt * <f64>ds);
+      if (clip) r = f32x4.extract_lane(apply32(code, f32x4.splat(r), g, o, g32), 0);
+      store<f32>(bn + p, r);
       mag = i32x4.max_u(mag, i32x4.splat(reinterpret<i32>(r) & 0x7fffffff));
-      const e = abs<f64>(<f64>r - <f64>load<f32>(bx + p));
+      const e = abs<f64>(<f64>r - <f64>xs);
       d0 = f64x2.pmax(d0, f64x2.splat(e));
-      if (e != e) nan = f64x2.splat(1.0);
     }
   }
-  const bits = max<u32>(max<u32>(<u32>i32x4.extract_lane(mag, 0), <u32>i32x4.extract_lane(mag, 1)), max<u32>(<u32>i32x4.extract_lane(mag, 2), <u32>i32x4.extract_lane(mag, 3)));
-  // a NaN state has magnitude bits above +Infinity's
-  if (bits > 0x7f800000 || !(<f64>reinterpret<f32>(bits) <= bound) || v128.any_true(nan)) return -1;
+  // lanes 2 and 3 of mag saw only the demotions' zero lanes (clipped: f(0), finite) and the splats
+  const bits = max<u32>(<u32>i32x4.extract_lane(mag, 0), <u32>i32x4.extract_lane(mag, 1));
+  // a NaN state has magnitude bits above +Infinity's. A NaN in u gives one in next (every unit's slope
+  // and rate pass NaN on), so |next - u| is NaN only where next is NaN or infinite: -1 then too, and
+  // the host makes the separate checks
+  if (bits >= 0x7f800000 || !(<f64>reinterpret<f32>(bits) <= bound)) return -1;
   const dd = f64x2.pmax(d0, d1);
   return max<f64>(f64x2.extract_lane(dd, 0), f64x2.extract_lane(dd, 1));
 }
@@ -304,6 +317,8 @@ function energy32(code: i32, slope: i32, clip: bool, gain: f64, offset: f64, x: 
 function energy64(code: i32, slope: i32, clip: bool, gain: f64, offset: f64, x: usize, eta: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
   const vdt = f64x2.splat(dt);
   const one = f64x2.splat(1.0);
+  const g = f64x2.splat(gain);
+  const o = f64x2.splat(offset);
   let m0 = f64x2.splat(0);
   let d0 = m0;
   let nan = m0;
@@ -319,26 +334,23 @@ function energy64(code: i32, slope: i32, clip: bool, gain: f64, offset: f64, x: 
     for (; p < ve; p += VBYTES) {
       const xa = v128.load(bx + p);
       const d = f64x2.sub(f64x2.mul(v128.load(bn + p), v128.load(be + p)), xa);
-      v128.store(bn + p, f64x2.add(f64x2.mul(one, xa), f64x2.mul(vdt, d)));
-    }
-    if (m % 2 != 0) {
-      const xs = load<f64>(bx + p);
-      const ds = load<f64>(bn + p) * load<f64>(be + p) - xs;
-      store<f64>(bn + p, 1.0 * xs + dt * ds);
-    }
-    if (clip) run64(code, bn, bn, m, gain, offset);
-    for (p = 0; p < ve; p += VBYTES) {
-      const r = v128.load(bn + p);
+      let r = f64x2.add(f64x2.mul(one, xa), f64x2.mul(vdt, d));
+      if (clip) r = apply64(code, r, g, o);
+      v128.store(bn + p, r);
       const aa = v128.and(r, K(ABS64));
-      const e = v128.and(f64x2.sub(r, v128.load(bx + p)), K(ABS64));
+      const e = v128.and(f64x2.sub(r, xa), K(ABS64));
       m0 = f64x2.pmax(m0, aa);
       d0 = f64x2.pmax(d0, e);
       nan = v128.or(nan, v128.or(f64x2.ne(aa, aa), f64x2.ne(e, e)));
     }
     if (m % 2 != 0) {
-      const r = load<f64>(bn + p);
+      const xs = load<f64>(bx + p);
+      const ds = load<f64>(bn + p) * load<f64>(be + p) - xs;
+      let r = 1.0 * xs + dt * ds;
+      if (clip) r = f64x2.extract_lane(apply64(code, f64x2.splat(r), g, o), 0);
+      store<f64>(bn + p, r);
       const aa = f64x2.splat(abs<f64>(r));
-      const e = f64x2.splat(abs<f64>(r - load<f64>(bx + p)));
+      const e = f64x2.splat(abs<f64>(r - xs));
       m0 = f64x2.pmax(m0, aa);
       d0 = f64x2.pmax(d0, e);
       nan = v128.or(nan, v128.or(f64x2.ne(aa, aa), f64x2.ne(e, e)));
@@ -351,22 +363,22 @@ function energy64(code: i32, slope: i32, clip: bool, gain: f64, offset: f64, x: 
 
 // one function per unit code and clip (see above)
 function eLogisticPlain32(c: bool, x: usize, e: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
-  return c ? energy32(LOGISTIC_PLAIN, LOGISTIC_PLAIN_SLOPE, true, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(LOGISTIC_PLAIN, LOGISTIC_PLAIN_SLOPE, false, 1.0, 0.0, x, e, nx, dt, bound, n);
+  return c ? energy32(LOGISTIC_PLAIN, LOGISTIC_PLAIN_SLOPE, true, false, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(LOGISTIC_PLAIN, LOGISTIC_PLAIN_SLOPE, false, false, 1.0, 0.0, x, e, nx, dt, bound, n);
 }
 function eLogistic32(c: bool, gain: f64, offset: f64, x: usize, e: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
-  return c ? energy32(UNIT_LOGISTIC, UNIT_LOGISTIC + 1, true, gain, offset, x, e, nx, dt, bound, n) : energy32(UNIT_LOGISTIC, UNIT_LOGISTIC + 1, false, gain, offset, x, e, nx, dt, bound, n);
+  return c ? energy32(UNIT_LOGISTIC, UNIT_LOGISTIC + 1, true, false, gain, offset, x, e, nx, dt, bound, n) : energy32(UNIT_LOGISTIC, UNIT_LOGISTIC + 1, false, false, gain, offset, x, e, nx, dt, bound, n);
 }
 function eTanh32(c: bool, x: usize, e: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
-  return c ? energy32(UNIT_TANH, UNIT_TANH + 1, true, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(UNIT_TANH, UNIT_TANH + 1, false, 1.0, 0.0, x, e, nx, dt, bound, n);
+  return c ? energy32(UNIT_TANH, UNIT_TANH + 1, true, false, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(UNIT_TANH, UNIT_TANH + 1, false, false, 1.0, 0.0, x, e, nx, dt, bound, n);
 }
 function eRelu32(c: bool, x: usize, e: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
-  return c ? energy32(UNIT_RELU, UNIT_RELU + 1, true, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(UNIT_RELU, UNIT_RELU + 1, false, 1.0, 0.0, x, e, nx, dt, bound, n);
+  return c ? energy32(UNIT_RELU, UNIT_RELU + 1, true, true, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(UNIT_RELU, UNIT_RELU + 1, false, true, 1.0, 0.0, x, e, nx, dt, bound, n);
 }
 function eHardSigmoid32(c: bool, x: usize, e: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
-  return c ? energy32(UNIT_HARD_SIGMOID, UNIT_HARD_SIGMOID + 1, true, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(UNIT_HARD_SIGMOID, UNIT_HARD_SIGMOID + 1, false, 1.0, 0.0, x, e, nx, dt, bound, n);
+  return c ? energy32(UNIT_HARD_SIGMOID, UNIT_HARD_SIGMOID + 1, true, true, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(UNIT_HARD_SIGMOID, UNIT_HARD_SIGMOID + 1, false, true, 1.0, 0.0, x, e, nx, dt, bound, n);
 }
 function eLinear32(c: bool, x: usize, e: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
-  return c ? energy32(UNIT_LINEAR, UNIT_LINEAR + 1, true, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(UNIT_LINEAR, UNIT_LINEAR + 1, false, 1.0, 0.0, x, e, nx, dt, bound, n);
+  return c ? energy32(UNIT_LINEAR, UNIT_LINEAR + 1, true, true, 1.0, 0.0, x, e, nx, dt, bound, n) : energy32(UNIT_LINEAR, UNIT_LINEAR + 1, false, true, 1.0, 0.0, x, e, nx, dt, bound, n);
 }
 function eLogistic64(c: bool, gain: f64, offset: f64, x: usize, e: usize, nx: usize, dt: f64, bound: f64, n: i32): f64 {
   return c ? energy64(UNIT_LOGISTIC, UNIT_LOGISTIC + 1, true, gain, offset, x, e, nx, dt, bound, n) : energy64(UNIT_LOGISTIC, UNIT_LOGISTIC + 1, false, gain, offset, x, e, nx, dt, bound, n);
