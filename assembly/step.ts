@@ -242,8 +242,8 @@ export function rateStep64(code: i32, gain: f64, offset: f64, x: usize, nx: usiz
 // unitFill picks (the plain logistic's own code when gain = 1 and offset = 0). No multiply-add is fused,
 // in the relaxed build either.
 //
-// Returns the largest |next - u| (in f64), -1 when some |next| exceeds `bound` or some value is NaN,
-// -2 for a code it does not handle.
+// Returns the largest |next - u| (in f64), -1 when some |next| exceeds `bound` or some value of next is
+// NaN or infinite (the host then makes the separate checks), -2 for a code it does not handle.
 
 // @ts-ignore: decorator
 @inline
@@ -357,7 +357,7 @@ function energy64(code: i32, slope: i32, clip: bool, gain: f64, offset: f64, x: 
     }
   }
   const largest = max<f64>(f64x2.extract_lane(m0, 0), f64x2.extract_lane(m0, 1));
-  if (v128.any_true(nan) || !(largest <= bound)) return -1;
+  if (v128.any_true(nan) || !(largest <= bound) || largest == Infinity) return -1;
   return max<f64>(f64x2.extract_lane(d0, 0), f64x2.extract_lane(d0, 1));
 }
 

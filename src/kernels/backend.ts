@@ -152,9 +152,10 @@ export interface KernelBackend {
    * order unit fill (slope, into `next`), `mul(next, next, eta)`, `sub(next, next, x)`,
    * `axpby(next, x, next, 1, dt)` and, with `clip`, unit fill (rate, in place).
    *
-   * Returns the largest `|next − x|` (in float64), `-1` when a value of `next` is NaN or has a
-   * magnitude above `bound`, or `null`, writing nothing, for a case the backend does not handle (then
-   * the caller runs the separate kernels). The TypeScript backend does not define it.
+   * Returns the largest `|next − x|` (in float64), `-1` when a value of `next` is NaN or infinite or
+   * has a magnitude above `bound` (the caller then makes the separate checks on `next`), or `null`,
+   * writing nothing, for a case the backend does not handle (then the caller runs the separate
+   * kernels). The TypeScript backend does not define it.
    */
   readonly energyStep?:
     | ((kind: UnitKernelKind, gain: number, offset: number, clip: boolean, x: FloatArray, eta: FloatArray, next: FloatArray, dt: number, bound: number, n: number) => number | null)
