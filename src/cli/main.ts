@@ -52,6 +52,7 @@ program
   .option("--test-index <file>", "fixed split: the test rows (0-based indices; with --train-index)")
   .option("--scale", "scale inputs to [0, 1] using the training split")
   .option("--persistent", "start each example's free phase from its last settled state")
+  .option("--persistent-test", "start each held-out example's free phase from its last settled state (needs a test set)")
   .option("--out <dir>", "output folder (results.jsonl, model.json, checkpoint.json)")
   .option("--checkpoint-every <n>", "epochs between checkpoints", int("--checkpoint-every"))
   .option("--resume", "continue from the output folder's checkpoint (same experiment)")

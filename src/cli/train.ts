@@ -34,6 +34,8 @@ export interface TrainCommandOptions {
   readonly json?: boolean;
   readonly scale?: boolean;
   readonly persistent?: boolean;
+  /** `training.persistentTestStates`: held-out free phases start from their last settled states. */
+  readonly persistentTest?: boolean;
   readonly kernels?: "auto" | "typescript" | "wasm";
   /** Modules defining rules of the user's own. */
   readonly plugin?: string[];
@@ -65,6 +67,7 @@ export async function trainCommand(modelFile: string, o: TrainCommandOptions): P
     ...(o.epochs !== undefined ? { epochs: o.epochs } : {}),
     ...(o.batchSize !== undefined ? { batchSize: o.batchSize } : {}),
     ...(o.persistent ? { persistentStates: true } : {}),
+    ...(o.persistentTest ? { persistentTestStates: true } : {}),
   };
   const training = parseTraining(trainingInput);
   const split = fixedSplitOption(o) ?? experiment.data?.split;

@@ -103,4 +103,42 @@ describe("fixed train/test splits", () => {
     expect(c.status).not.toBe(0);
     expect(c.stderr).toContain("--test-index");
   });
+
+  it("ebbflow train --persistent --persistent-test keep training and held-out states between epochs, and refuse the second without a test set", () => {
+    const dir = folder();
+    const experiment = {
+      name: "surfaces",
+      network: {
+        seed: 3,
+        layers: [
+          { name: "sensors", size: 2, role: "input" },
+          { name: "hidden", size: 3, role: "hidden" },
+          { name: "kind", size: 2, role: "output" },
+        ],
+        connections: [
+          { from: "sensors", to: "hidden", feedback: { kind: "tied", gain: 1 } },
+          { from: "hidden", to: "kind", feedback: { kind: "tied", gain: 1 } },
+        ],
+        dynamics: { kind: "rate", dt: 0.5, maxSteps: 3, tolerance: 1e-12 },
+      },
+      rules: [{ rule: "generec", rate: 0.5 }],
+      training: { epochs: 3, batchSize: 2 },
+      data: { source: "plain.csv", targetColumns: ["kind"], oneHot: true },
+    };
+    writeFileSync(path.join(dir, "experiment.json"), JSON.stringify(experiment));
+    const run = (args: string[]) => spawnSync(process.execPath, [bin, "train", "experiment.json", "--json", ...args], { encoding: "utf8", cwd: dir, env: { ...process.env, FORCE_COLOR: "0" } });
+    const kept = run(["--out", "kept", "--train-index", "train.idx", "--test-index", "test.idx", "--persistent", "--persistent-test"]);
+    expect(kept.status, kept.stderr).toBe(0);
+    const header = readResults(readFileSync(path.join(dir, "kept", "results.jsonl"), "utf8"), "results.jsonl").header as unknown as { config: { training: Record<string, unknown> } };
+    expect(header.config.training).toMatchObject({ persistentStates: true, persistentTestStates: true });
+    // with 3 of at most 6 steps per settling (not converged), starting where the last one ended changes the read-out's
+    // state; the held-out sse differs from the run that settles every held-out example from rest
+    const rest = run(["--out", "rest", "--train-index", "train.idx", "--test-index", "test.idx", "--persistent"]);
+    expect(rest.status, rest.stderr).toBe(0);
+    expect(JSON.parse(kept.stdout).test.sse).not.toBe(JSON.parse(rest.stdout).test.sse);
+    expect(JSON.parse(kept.stdout).train.sse).toBe(JSON.parse(rest.stdout).train.sse);
+    const none = run(["--out", "none", "--test-fraction", "0", "--persistent-test"]);
+    expect(none.status).not.toBe(0);
+    expect(none.stderr).toContain("training.persistentTestStates");
+  });
 });
