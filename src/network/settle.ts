@@ -430,7 +430,9 @@ export class Settler {
   }
 
   /**
-   * Settles one phase and returns its snapshot (written into `out` if given).
+   * Settles one phase and returns its snapshot (written into `out` if given). Without `out` each call makes a
+   * new snapshot; on the WebAssembly backends its memory comes from the kernels' arena, which is never given
+   * back, so a loop that settles many times should pass the same `out` (or a few, reused) on every call.
    * @throws {@link EbbflowError} `shape_mismatch` for wrong input or target lengths,
    *   `invalid_parameter` for a bad beta, `divergence` when a layer's state becomes
    *   non-finite or exceeds the bound (naming the layer and the step).
