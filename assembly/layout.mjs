@@ -124,6 +124,15 @@ export const kernelExports = [
     from: "./step",
     doc: "one fused rate-dynamics step (step.ts): the largest |next - x|, -1 on a NaN or a value beyond bound, -2 for a code it does not handle",
   },
+  {
+    name: "energyStep",
+    typed: true,
+    params: "code: i32, gain: f64, offset: f64, clip: i32, x: ptr, eta: ptr, nx: ptr, dt: f64, bound: f64, n: i32",
+    result: "f64",
+    impl: "energyStep#",
+    from: "./step",
+    doc: "one fused energy-dynamics step of a free layer (step.ts): the largest |next - x|, -1 on a NaN or a value beyond bound, -2 for a code it does not handle",
+  },
 ];
 
 /**

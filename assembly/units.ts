@@ -81,7 +81,7 @@ export function writeConstantTable(): void {
 
 /** Codes of the f32 logistic with gain 1 and offset 0 (its argument is exact in f32): internal to these kernels. */
 export const LOGISTIC_PLAIN: i32 = UNIT_CODES_END;
-const LOGISTIC_PLAIN_SLOPE: i32 = UNIT_CODES_END + 1;
+export const LOGISTIC_PLAIN_SLOPE: i32 = UNIT_CODES_END + 1;
 
 // ======================= f64 lanes =======================
 
@@ -169,18 +169,22 @@ function apply64raw(code: i32, x: v128, g: v128, o: v128): v128 {
     const d = f64x2.add(one, e);
     return f64x2.div(f64x2.mul(K(F64_FOUR), e), f64x2.mul(d, d));
   } else if (code == UNIT_RELU) {
-    return v128.bitselect(zero, x, f64x2.lt(x, zero));
+    // pmax(x, 0) = x < 0 ? 0 : x (-0 and NaN kept), one instruction where bitselect takes several
+    return f64x2.pmax(x, zero);
   } else if (code == UNIT_RELU_SLOPE) {
-    return v128.bitselect(one, v128.bitselect(zero, nan, f64x2.lt(x, zero)), f64x2.ge(x, zero));
+    // 1 where x >= 0, NaN where x is NaN, else +0 (all bits clear): masks and ors, no bitselect
+    return v128.or(v128.and(f64x2.ge(x, zero), one), v128.and(f64x2.ne(x, x), nan));
   } else if (code == UNIT_HARD_SIGMOID) {
-    return v128.bitselect(zero, v128.bitselect(one, x, f64x2.gt(x, one)), f64x2.lt(x, zero));
+    // pmin(pmax(x, 0), 1): x < 0 gives 0, x > 1 gives 1, anything else (-0, NaN) is x
+    return f64x2.pmin(f64x2.pmax(x, zero), one);
   } else if (code == UNIT_HARD_SIGMOID_SLOPE) {
     const inside = v128.and(f64x2.ge(x, zero), f64x2.le(x, one));
-    return v128.bitselect(one, v128.bitselect(nan, zero, f64x2.ne(x, x)), inside);
+    return v128.or(v128.and(inside, one), v128.and(f64x2.ne(x, x), nan));
   } else if (code == UNIT_LINEAR) {
     return x;
   } else {
-    return v128.bitselect(one, nan, f64x2.eq(x, x));
+    const num = f64x2.eq(x, x);
+    return v128.or(v128.and(num, one), v128.andnot(nan, num));
   }
 }
 
@@ -331,18 +335,20 @@ function apply32raw(code: i32, x: v128, g: v128, o: v128, g32: v128): v128 {
     const d = f32x4.add(one, e);
     return f32x4.div(f32x4.mul(K(F32_FOUR), e), f32x4.mul(d, d));
   } else if (code == UNIT_RELU) {
-    return v128.bitselect(zero, x, f32x4.lt(x, zero));
+    // as in f64 lanes: pmax, pmin and masks instead of bitselect, the same lanes
+    return f32x4.pmax(x, zero);
   } else if (code == UNIT_RELU_SLOPE) {
-    return v128.bitselect(one, v128.bitselect(zero, nan, f32x4.lt(x, zero)), f32x4.ge(x, zero));
+    return v128.or(v128.and(f32x4.ge(x, zero), one), v128.and(f32x4.ne(x, x), nan));
   } else if (code == UNIT_HARD_SIGMOID) {
-    return v128.bitselect(zero, v128.bitselect(one, x, f32x4.gt(x, one)), f32x4.lt(x, zero));
+    return f32x4.pmin(f32x4.pmax(x, zero), one);
   } else if (code == UNIT_HARD_SIGMOID_SLOPE) {
     const inside = v128.and(f32x4.ge(x, zero), f32x4.le(x, one));
-    return v128.bitselect(one, v128.bitselect(nan, zero, f32x4.ne(x, x)), inside);
+    return v128.or(v128.and(inside, one), v128.and(f32x4.ne(x, x), nan));
   } else if (code == UNIT_LINEAR) {
     return x;
   } else {
-    return v128.bitselect(one, nan, f32x4.eq(x, x));
+    const num = f32x4.eq(x, x);
+    return v128.or(v128.and(num, one), v128.andnot(nan, num));
   }
 }
 

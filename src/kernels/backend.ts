@@ -144,6 +144,22 @@ export interface KernelBackend {
         n: number,
       ) => number | null)
     | undefined;
+  /**
+   * Optional: one settling step of energy dynamics for `n` values of a free, un-nudged layer, in one
+   * pass: `next ← x + dt·(f′(x)·η − x)`, then `next ← f(next)` when `clip` (the hard sigmoid's clip to
+   * [0, 1]), where `x` is the state, `eta` the net input (read only) and `next` is written; with the unit
+   * definitions of `unitFill`. The values are bit for bit those of the separate kernels called in the
+   * order unit fill (slope, into `next`), `mul(next, next, eta)`, `sub(next, next, x)`,
+   * `axpby(next, x, next, 1, dt)` and, with `clip`, unit fill (rate, in place).
+   *
+   * Returns the largest `|next − x|` (in float64), `-1` when a value of `next` is NaN or infinite or
+   * has a magnitude above `bound` (the caller then makes the separate checks on `next`), or `null`,
+   * writing nothing, for a case the backend does not handle (then the caller runs the separate
+   * kernels). The TypeScript backend does not define it.
+   */
+  readonly energyStep?:
+    | ((kind: UnitKernelKind, gain: number, offset: number, clip: boolean, x: FloatArray, eta: FloatArray, next: FloatArray, dt: number, bound: number, n: number) => number | null)
+    | undefined;
 }
 
 /** Validates the arguments of `allocate` (shared by every backend). @internal */

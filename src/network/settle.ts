@@ -179,6 +179,19 @@ export class Snapshot {
   }
 }
 
+/**
+ * `dest.set(src)` for typed arrays: an element loop when the element types differ (the same rounding to
+ * the storage type; on a shared WebAssembly memory several times faster than the converting `set`).
+ */
+function copyConverted(dest: FloatArray, src: ArrayLike<number> & ArrayBufferView): void {
+  if (src.constructor === dest.constructor) {
+    dest.set(src);
+    return;
+  }
+  const n = src.length;
+  for (let i = 0; i < n; i++) dest[i] = src[i] as number;
+}
+
 /** k-th largest (k >= 1) of a[0..n) via quickselect on a scratch copy; reorders `scratch`. */
 function kthLargest(scratch: FloatArray, n: number, k: number): number {
   let lo = 0;
@@ -331,7 +344,7 @@ export class Settler {
       if (ArrayBuffer.isView(v) && !(v instanceof DataView) && !(v instanceof BigInt64Array) && !(v instanceof BigUint64Array)) {
         // typed arrays: one conversion copy, then one pass for finiteness (also catches values that
         // overflow a float32 network's storage); the slow loop below only names the first bad value
-        d.set(v as unknown as ArrayLike<number>);
+        copyConverted(d, v as unknown as ArrayLike<number> & ArrayBufferView);
         if (Number.isFinite(this.net.kernels.maxAbs(d, want))) continue;
       }
       for (let i = 0; i < want; i++) {
@@ -417,7 +430,9 @@ export class Settler {
   }
 
   /**
-   * Settles one phase and returns its snapshot (written into `out` if given).
+   * Settles one phase and returns its snapshot (written into `out` if given). Without `out` each call makes a
+   * new snapshot; on the WebAssembly backends its memory comes from the kernels' arena, which is never given
+   * back, so a loop that settles many times should pass the same `out` (or a few, reused) on every call.
    * @throws {@link EbbflowError} `shape_mismatch` for wrong input or target lengths,
    *   `invalid_parameter` for a bad beta, `divergence` when a layer's state becomes
    *   non-finite or exceeds the bound (naming the layer and the step).
@@ -475,11 +490,12 @@ export class Settler {
         act.set(this.targetBuf[i] as FloatArray);
         if (energy) st.set(act);
       } else if (options.start !== undefined) {
-        st.set(options.start.state[i] as FloatArray);
-        if (energy) l.unit.fill(act, st);
+        // a kernel copy: between two arena views far faster than TypedArray.set on shared memory
+        net.kernels.copy(st, options.start.state[i] as FloatArray, st.length);
+        if (energy) this.startActivity(i, act, st);
       } else {
         st.fill(0);
-        if (energy) l.unit.fill(act, st);
+        if (energy) this.startActivity(i, act, st);
       }
       if (phase === "clamped" && l.role === "output" && this.coverage[i] === 2) {
         this.holdObserved(i, st);
@@ -593,6 +609,19 @@ export class Settler {
           K.axpby(nx, x, nx, 1, dt, len); // x + dt (f(eta) - x)
         } else {
           // energy dynamics: u += dt (rho'(u) eta - u) [+ dt beta (t - u)]  (Scellier & Bengio 2017, Front. Comput. Neurosci. 11:24)
+          // a free layer in one fused kernel pass when the backend has it: the same bits as the separate
+          // calls below (slope, mul, sub, axpby, the clip, maxAbs, maxAbsDiff)
+          const fu = this.fusedUnit[i];
+          const clipKernel = this.clip[i] === true;
+          if (!nudge && !held && fu !== null && fu !== undefined && K.energyStep !== undefined && (!clipKernel || fu.kind === "hard-sigmoid")) {
+            const fused = K.energyStep(fu.kind, fu.gain, fu.offset, clipKernel, x, eta, nx, dt, bound, len);
+            if (fused !== null) {
+              const d = (fused < 0 ? this.energyCheck(i, nx, x, len, bound, phase, step) : fused) * tauL;
+              snap.layerChange[i] = d;
+              if (d > change) change = d;
+              continue;
+            }
+          }
           fillUnit(K, l.unit, true, nx, x, len); // rho'(u)
           if (nudge && (!plainCost || masked)) {
             // force = factor · ∂L/∂v, v = u (cost on the state) or ρ(u) (cost on the rate, chain rule: · ρ'(u))
@@ -709,6 +738,29 @@ export class Settler {
   }
 
   /** Reports a layer whose state became non-finite or left ±bound. */
+  /**
+   * The starting activity ρ(u) of layer i: on the backend's unit kernel for the piecewise-linear units,
+   * whose kernels give the unit's own bits (kernels/units.ts), else with the unit's own fill.
+   */
+  private startActivity(i: number, act: FloatArray, st: FloatArray): void {
+    const kind = this.fusedUnit[i]?.kind;
+    const unit = this.net.layers[i]!.unit;
+    if (kind === "hard-sigmoid" || kind === "relu" || kind === "linear") fillUnit(this.net.kernels, unit, false, act, st);
+    else unit.fill(act, st);
+  }
+
+  /**
+   * The checks of a step the fused kernel found a NaN or a value beyond the bound in, made as the
+   * separate kernels make them: throws `divergence` unless the largest |next| is within the bound;
+   * returns the largest change otherwise (NaN, as maxAbsDiff gives it, when only the old state held one).
+   */
+  private energyCheck(i: number, next: FloatArray, x: FloatArray, len: number, bound: number, phase: Phase, step: number): number {
+    const K = this.net.kernels;
+    const largest = K.maxAbs(next, len);
+    if (!(largest <= bound)) this.diverged(i, largest, bound, phase, step);
+    return K.maxAbsDiff(next, x, len);
+  }
+
   private diverged(i: number, largest: number, bound: number, phase: Phase, step: number): never {
     const l = this.net.layers[i]!;
     const bad = !Number.isFinite(largest) ? "a non-finite value" : `a value of magnitude ${largest}`;

@@ -205,6 +205,22 @@ export function datasetBatch(net: Network, ds: Dataset, count = ds.size, what = 
   return { inputs, targets };
 }
 
+/**
+ * Copies between a batch's rows (`batch`, B×width) and the rows `idx[from ..]` of a per-example store:
+ * into the batch, or back to the store with `toStore`; one copy per run of consecutive example indices
+ * (the whole batch at once when the order is fixed).
+ */
+function copyRuns(batch: FloatArray, store: FloatArray, idx: Int32Array, from: number, B: number, width: number, toStore: boolean): void {
+  for (let p = 0; p < B; ) {
+    const e = idx[from + p] as number;
+    let q = p + 1;
+    while (q < B && idx[from + q] === e + (q - p)) q++;
+    if (toStore) store.set(batch.subarray(p * width, q * width), e * width);
+    else batch.set(store.subarray(e * width, (e + q - p) * width), p * width);
+    p = q;
+  }
+}
+
 /** Copies one layer's block of rows `from .. from+B` (or of the rows `idx[from ..]`) into `out` (B×size). */
 function gatherBlock(all: Float64Array, width: number, slot: Slot, idx: Int32Array | null, from: number, B: number, out: Float64Array): void {
   for (let p = 0; p < B; p++) {
@@ -269,6 +285,8 @@ export class Trainer {
   /** The optimizer applied to the rule's change (null: the rule's own step). */
   readonly optimizer: Optimizer | null;
   private evalSettlers = new Map<number, Settler>();
+  /** The snapshot each evaluation settler settles into (one per batch size, reused: no memory taken per chunk). */
+  private evalSnaps = new Map<number, Snapshot>();
   private evalPasses = new Map<number, ForwardPass>();
   private starts = new Map<number, Snapshot>();
   private testStarts = new Map<number, Snapshot>();
@@ -391,11 +409,11 @@ export class Trainer {
         activity = pass.activity;
       } else if (kept !== null) {
         // held-out persistent states: each example's free phase starts where its last one ended
-        const snap = this.evalSettler(B).settle({ phase: "free", inputs, start: this.heldOutStart(kept, start, B) });
+        const snap = this.evalSettler(B).settle({ phase: "free", inputs, start: this.heldOutStart(kept, start, B) }, this.evalSnapshot(B));
         for (const l of this.net.layers) kept[l.index]?.set(snap.state[l.index] as FloatArray, start * l.size);
         activity = snap.activity;
       } else {
-        activity = this.evalSettler(B).settle({ phase: "free", inputs }).activity;
+        activity = this.evalSettler(B).settle({ phase: "free", inputs }, this.evalSnapshot(B)).activity;
       }
       layout.outputs.forEach((s, i) => {
         let t: Float64Array;
@@ -415,6 +433,16 @@ export class Trainer {
       layers[s.name] = perLayer[i]!.result();
     });
     return { ...overall.result(), layers };
+  }
+
+  /** The snapshot the evaluation settler of batch size B settles into (made once). */
+  private evalSnapshot(B: number): Snapshot {
+    let s = this.evalSnaps.get(B);
+    if (s === undefined) {
+      s = new Snapshot(this.net, B);
+      this.evalSnaps.set(B, s);
+    }
+    return s;
   }
 
   /** The evaluation settler of batch size B (made once). */
@@ -487,11 +515,7 @@ export class Trainer {
     for (const l of this.net.layers) {
       const store = this.persistent?.[l.index];
       if (!store) continue;
-      const st = snap.state[l.index] as FloatArray;
-      for (let p = 0; p < B; p++) {
-        const e = idx[from + p] as number;
-        st.set(store.subarray(e * l.size, (e + 1) * l.size), p * l.size);
-      }
+      copyRuns(snap.state[l.index] as FloatArray, store, idx, from, B, l.size, false);
     }
     return snap;
   }
@@ -516,11 +540,7 @@ export class Trainer {
     for (const l of this.net.layers) {
       const store = this.persistent?.[l.index];
       if (!store) continue;
-      const st = free.state[l.index] as FloatArray;
-      for (let p = 0; p < B; p++) {
-        const e = idx[from + p] as number;
-        store.set(st.subarray(p * l.size, (p + 1) * l.size), e * l.size);
-      }
+      copyRuns(free.state[l.index] as FloatArray, store, idx, from, B, l.size, true);
     }
   }
 

@@ -45,6 +45,31 @@ export function createRateStep(X: RateStepExports, own: (b: ArrayBufferLike) => 
   };
 }
 
+type EnergyStepExports = Pick<KernelExports, "energyStepF32" | "energyStepF64">;
+
+/**
+ * Builds the `energyStep` method of a WASM backend: arena views of one dtype only, `n` within each,
+ * `next` disjoint from `x` and `eta`, finite `dt`, finite `offset` and finite `gain > 0`; anything else
+ * returns null without writing.
+ * @internal
+ */
+export function createEnergyStep(X: EnergyStepExports, own: (b: ArrayBufferLike) => boolean): NonNullable<KernelBackend["energyStep"]> {
+  const disjoint = (a: FloatArray, b: FloatArray, bytes: number) => a.byteOffset + bytes <= b.byteOffset || b.byteOffset + bytes <= a.byteOffset;
+  return (kind, gain, offset, clip, x, eta, next, dt, bound, n) => {
+    const code = unitFillCode(kind, false);
+    if (code < 0 || !Number.isInteger(n) || n < 0 || n > x.length || n > next.length || n > eta.length) return null;
+    if (!(gain > 0 && gain < Infinity) || !Number.isFinite(offset) || !Number.isFinite(dt) || Number.isNaN(bound)) return null;
+    const f32 = next instanceof Float32Array;
+    if (f32 !== x instanceof Float32Array || f32 !== eta instanceof Float32Array) return null;
+    if (!own(next.buffer) || !own(x.buffer) || !own(eta.buffer)) return null;
+    const bytes = n * next.BYTES_PER_ELEMENT;
+    if (!disjoint(next, x, bytes) || !disjoint(next, eta, bytes)) return null;
+    if (n === 0) return 0;
+    const r = (f32 ? X.energyStepF32 : X.energyStepF64)(code, gain, offset, clip ? 1 : 0, x.byteOffset, eta.byteOffset, next.byteOffset, dt, bound, n);
+    return r === -2 ? null : r;
+  };
+}
+
 type UnitFillExports = Pick<KernelExports, "unitFillF32" | "unitFillF64">;
 
 /**

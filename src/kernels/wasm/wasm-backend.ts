@@ -13,7 +13,7 @@ import type { WasmBuild, WasmModule } from "./platform.js";
 import { createStaging } from "./staging.js";
 import { createSparseKernels } from "./sparse.js";
 import { createActiveKernels } from "./active.js";
-import { createRateStep, createUnitFill } from "./units.js";
+import { createEnergyStep, createRateStep, createUnitFill } from "./units.js";
 
 /**
  * Options of a WASM kernel backend (all sizes in bytes).
@@ -170,6 +170,7 @@ export function createWasmBackend(module: WasmModule, build: WasmBuild, options:
     sumSquares: (a: ReadonlyFloatArray, n: number = a.length): number => kernels.dot(a, a, n),
     unitFill: createUnitFill(arena.X, own),
     rateStep: createRateStep(arena.X, own),
+    energyStep: createEnergyStep(arena.X, own),
     sparse: createSparseKernels(arena.X, own, arena.allocate),
     active: createActiveKernels(arena.X, own, arena.allocate, kernels.gemm),
   };
