@@ -68,7 +68,8 @@ describe("the local sweep runner", () => {
     for (;;) {
       const checkpoint = existsSync(runsDir) && readdirSync(runsDir).some((id) => existsSync(path.join(runsDir, id, "checkpoint.json")));
       if (checkpoint) break;
-      expect(Date.now() - t0, "no checkpoint within 20 s").toBeLessThan(20_000);
+      // a guard against a hang, not a timing: under a loaded 2-core machine the CLI and its workers boot slowly
+      expect(Date.now() - t0, "no checkpoint within 60 s").toBeLessThan(60_000);
       await new Promise((r) => setTimeout(r, 2));
     }
     child.kill("SIGKILL");
@@ -93,7 +94,7 @@ describe("the local sweep runner", () => {
     }
     expect(report.runs.some((o) => o.resumedFrom > 0)).toBe(true);
     expect(fingerprint(out, plan)).toEqual(reference);
-  });
+  }, 150_000);
 
   it("running a finished sweep again does nothing", () => {
     const out = path.join(dir, "threads");
