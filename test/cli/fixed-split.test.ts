@@ -23,6 +23,29 @@ function folder(): string {
 }
 const load = { targetColumns: ["kind"], oneHot: true, testFraction: 0, seed: 1 } as const;
 
+/** The surfaces experiment: sensors → hidden → kind with tied feedback, GeneRec; network extras, training and data given. */
+function surfacesExperiment(seed: number, network: Record<string, unknown>, training: Record<string, unknown>, data: Record<string, unknown>): Record<string, unknown> {
+  return {
+    name: "surfaces",
+    network: {
+      seed,
+      layers: [
+        { name: "sensors", size: 2, role: "input" },
+        { name: "hidden", size: 3, role: "hidden" },
+        { name: "kind", size: 2, role: "output" },
+      ],
+      connections: [
+        { from: "sensors", to: "hidden", feedback: { kind: "tied", gain: 1 } },
+        { from: "hidden", to: "kind", feedback: { kind: "tied", gain: 1 } },
+      ],
+      ...network,
+    },
+    rules: [{ rule: "generec", rate: 0.5 }],
+    training,
+    data,
+  };
+}
+
 describe("fixed train/test splits", () => {
   it("by row counts: the first rows train and the last rows test, as the index files 0..k and the tail would", async () => {
     const dir = folder();
@@ -71,24 +94,7 @@ describe("fixed train/test splits", () => {
 
   it("ebbflow train takes --split-column and --train-index/--test-index: the test metrics are over the fixed test rows", () => {
     const dir = folder();
-    const experiment = {
-      name: "surfaces",
-      network: {
-        seed: 2,
-        layers: [
-          { name: "sensors", size: 2, role: "input" },
-          { name: "hidden", size: 3, role: "hidden" },
-          { name: "kind", size: 2, role: "output" },
-        ],
-        connections: [
-          { from: "sensors", to: "hidden", feedback: { kind: "tied", gain: 1 } },
-          { from: "hidden", to: "kind", feedback: { kind: "tied", gain: 1 } },
-        ],
-      },
-      rules: [{ rule: "generec", rate: 0.5 }],
-      training: { epochs: 2, batchSize: 2 },
-      data: { source: "surfaces.csv", targetColumns: ["kind"], oneHot: true, split: { column: "set" } },
-    };
+    const experiment = surfacesExperiment(2, {}, { epochs: 2, batchSize: 2 }, { source: "surfaces.csv", targetColumns: ["kind"], oneHot: true, split: { column: "set" } });
     writeFileSync(path.join(dir, "experiment.json"), JSON.stringify(experiment));
     const run = (args: string[]) => spawnSync(process.execPath, [bin, "train", "experiment.json", "--json", ...args], { encoding: "utf8", cwd: dir, env: { ...process.env, FORCE_COLOR: "0" } });
     const a = run(["--out", "a"]);
@@ -106,25 +112,7 @@ describe("fixed train/test splits", () => {
 
   it("ebbflow train --persistent --persistent-test keep training and held-out states between epochs, and refuse the second without a test set", () => {
     const dir = folder();
-    const experiment = {
-      name: "surfaces",
-      network: {
-        seed: 3,
-        layers: [
-          { name: "sensors", size: 2, role: "input" },
-          { name: "hidden", size: 3, role: "hidden" },
-          { name: "kind", size: 2, role: "output" },
-        ],
-        connections: [
-          { from: "sensors", to: "hidden", feedback: { kind: "tied", gain: 1 } },
-          { from: "hidden", to: "kind", feedback: { kind: "tied", gain: 1 } },
-        ],
-        dynamics: { kind: "rate", dt: 0.5, maxSteps: 3, tolerance: 1e-12 },
-      },
-      rules: [{ rule: "generec", rate: 0.5 }],
-      training: { epochs: 3, batchSize: 2 },
-      data: { source: "plain.csv", targetColumns: ["kind"], oneHot: true },
-    };
+    const experiment = surfacesExperiment(3, { dynamics: { kind: "rate", dt: 0.5, maxSteps: 3, tolerance: 1e-12 } }, { epochs: 3, batchSize: 2 }, { source: "plain.csv", targetColumns: ["kind"], oneHot: true });
     writeFileSync(path.join(dir, "experiment.json"), JSON.stringify(experiment));
     const run = (args: string[]) => spawnSync(process.execPath, [bin, "train", "experiment.json", "--json", ...args], { encoding: "utf8", cwd: dir, env: { ...process.env, FORCE_COLOR: "0" } });
     const kept = run(["--out", "kept", "--train-index", "train.idx", "--test-index", "test.idx", "--persistent", "--persistent-test"]);
