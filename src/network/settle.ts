@@ -737,7 +737,6 @@ export class Settler {
     return change;
   }
 
-  /** Reports a layer whose state became non-finite or left ±bound. */
   /**
    * The starting activity ρ(u) of layer i: on the backend's unit kernel for the piecewise-linear units,
    * whose kernels give the unit's own bits (kernels/units.ts), else with the unit's own fill.
@@ -761,6 +760,7 @@ export class Settler {
     return K.maxAbsDiff(next, x, len);
   }
 
+  /** Reports a layer whose state became non-finite or left ±bound. */
   private diverged(i: number, largest: number, bound: number, phase: Phase, step: number): never {
     const l = this.net.layers[i]!;
     const bad = !Number.isFinite(largest) ? "a non-finite value" : `a value of magnitude ${largest}`;
