@@ -127,16 +127,20 @@ export class Snapshot {
   /**
    * Allocates a zeroed snapshot for `net` and `batch` patterns. With `shareInputsWith`, the input layers'
    * arrays are those of another snapshot (the phases of one batch see the same inputs), saving memory.
+   * `memory: "heap"` makes ordinary typed arrays, given back by the garbage collector, instead of the
+   * kernels' memory (on the WebAssembly backends an arena that is never given back, where the kernels
+   * read and write without copies).
    */
-  constructor(net: Network, batch: number, shareInputsWith?: Snapshot) {
+  constructor(net: Network, batch: number, shareInputsWith?: Snapshot, memory: "kernels" | "heap" = "kernels") {
     this.batch = batch;
+    const allocate = memory === "heap" ? (n: number): FloatArray => (net.dtype === "float32" ? new Float32Array(n) : new Float64Array(n)) : (n: number): FloatArray => net.allocate(n);
     const inputOf = (l: { index: number; role: string }, which: "activity" | "state"): FloatArray | null =>
       shareInputsWith !== undefined && l.role === "input" && shareInputsWith.batch === batch ? (shareInputsWith[which][l.index] as FloatArray) : null;
-    this.activity = net.layers.map((l) => inputOf(l, "activity") ?? net.allocate(batch * l.size));
-    this.state = net.spec.dynamics.kind === "energy" ? net.layers.map((l) => inputOf(l, "state") ?? net.allocate(batch * l.size)) : this.activity;
-    this.adaptation = net.layers.map((l) => net.allocate(l.spec.adaptation !== undefined ? batch * l.size : 0));
+    this.activity = net.layers.map((l) => inputOf(l, "activity") ?? allocate(batch * l.size));
+    this.state = net.spec.dynamics.kind === "energy" ? net.layers.map((l) => inputOf(l, "state") ?? allocate(batch * l.size)) : this.activity;
+    this.adaptation = net.layers.map((l) => allocate(l.spec.adaptation !== undefined ? batch * l.size : 0));
     this.resources = net.connections.map((c) => {
-      const r = net.allocate(c.spec.depression !== undefined ? batch * (net.layers[c.from]?.size ?? 0) : 0);
+      const r = allocate(c.spec.depression !== undefined ? batch * (net.layers[c.from]?.size ?? 0) : 0);
       r.fill(1);
       return r;
     });
@@ -233,6 +237,8 @@ function kthLargest(scratch: FloatArray, n: number, k: number): number {
 export class Settler {
   readonly net: Network;
   readonly batch: number;
+  /** The snapshot phases settle in when `settle` is called without `out` on a WebAssembly backend. */
+  private kept: Snapshot | null = null;
   private readonly drive: FloatArray[];
   private readonly netInput: FloatArray[];
   private readonly next: FloatArray[];
@@ -430,9 +436,12 @@ export class Settler {
   }
 
   /**
-   * Settles one phase and returns its snapshot (written into `out` if given). Without `out` each call makes a
-   * new snapshot; on the WebAssembly backends its memory comes from the kernels' arena, which is never given
-   * back, so a loop that settles many times should pass the same `out` (or a few, reused) on every call.
+   * Settles one phase and returns its snapshot (written into `out` if given). Without `out` each call returns
+   * a new snapshot: on the TypeScript kernels it is settled in place; on the WebAssembly backends, whose
+   * arena is never given back, the phase is settled in one snapshot the settler keeps and the result is
+   * returned as a copy in ordinary memory (so a loop without `out` does not grow the arena; `onStep` then
+   * sees the kept snapshot, valid during the call). Passing `out` (a snapshot of this network and batch,
+   * reused from call to call) settles in place without that copy.
    * @throws {@link EbbflowError} `shape_mismatch` for wrong input or target lengths,
    *   `invalid_parameter` for a bad beta, `divergence` when a layer's state becomes
    *   non-finite or exceeds the bound (naming the layer and the step).
@@ -454,7 +463,9 @@ export class Settler {
     // the default cost keeps its own (fused) arithmetic; any other cost goes through the force buffer
     const cost = options.cost === undefined ? null : requireObjective("cost", options.cost);
     const plainCost = cost === null || (cost.loss === "squared-error" && cost.factor === 1 && (cost.on === "state" || dyn.kind === "rate"));
-    const snap = out ?? new Snapshot(net, batch);
+    // without `out` on a backend with its own memory: settle in the kept snapshot, return a copy on the heap
+    const detach = out === undefined && net.kernels.name !== "typescript";
+    const snap = out ?? (detach ? (this.kept ??= new Snapshot(net, batch)) : new Snapshot(net, batch));
     if (snap.batch !== batch) fail("shape_mismatch", "out", `a snapshot of batch ${batch}`, `batch ${snap.batch}`);
     if (options.start !== undefined && options.start.batch !== batch) fail("shape_mismatch", "start", `a snapshot of batch ${batch}`, `batch ${options.start.batch}`);
 
@@ -688,7 +699,11 @@ export class Settler {
         issueText("divergence", "dynamics.maxSteps", `settling to converge within ${maxSteps} steps (tolerance ${tolerance})`, `largest change ${snap.lastChange} at the last step`, `phase ${phase}`),
       );
     }
-    return snap;
+    if (!detach) return snap;
+    const copy = new Snapshot(net, batch, undefined, "heap").copyFrom(snap);
+    copy.record = snap.record;
+    snap.record = null;
+    return copy;
   }
 
   /**

@@ -159,6 +159,8 @@ export class SequenceRunner {
   private position = 0;
   /** The carried free state per batch size, and whether it holds a state to carry. */
   private readonly carried = new Map<number, Snapshot>();
+  /** Evaluation's snapshot per batch size, reused from call to call (the WebAssembly arena is never given back). */
+  private readonly evaluated = new Map<number, Snapshot>();
   private carriedBatch = 0;
   private readonly inBuf: Float64Array;
   private readonly tBuf: Float64Array;
@@ -303,7 +305,10 @@ export class SequenceRunner {
     for (const seqs of batches) {
       const B = seqs.length;
       const settler = settlerFor(B);
-      const snap = new Snapshot(this.net, B);
+      // one snapshot per batch size: a sequence starts from rest or, with reset "never", from the last state,
+      // which is this snapshot's (start === out, as within a sequence)
+      let snap = this.evaluated.get(B);
+      if (snap === undefined) this.evaluated.set(B, (snap = new Snapshot(this.net, B)));
       for (let t = 0; t < (lengths[seqs[0] as number] as number); t++) {
         const batch = this.gather(ds, seqs, t, inBuf, tBuf);
         const start = t > 0 ? snap : this.reset === "never" && carried !== null ? carried : undefined;

@@ -1,6 +1,6 @@
 import { describe, it, expect } from "vitest";
 import fc from "fast-check";
-import { buildNetwork, Settler, EbbflowError, recurrentGradient, finiteDifferenceGradient, loadWasmKernelsSync, wasmSimdSupported, type NetworkSpecInput } from "../../src/index.js";
+import { buildNetwork, Settler, Snapshot, EbbflowError, recurrentGradient, finiteDifferenceGradient, loadWasmKernelsSync, wasmSimdSupported, type NetworkSpecInput } from "../../src/index.js";
 import { check } from "../helpers/property.js";
 import { expectClose } from "../helpers/tolerance.js";
 
@@ -211,7 +211,8 @@ describe.skipIf(!wasmSimdSupported())("stateful units and tau on the WebAssembly
     const b = buildNetwork(spec, { backend: wasm });
     const x = Array.from({ length: 18 }, (_, k) => ((k * 37) % 11) / 11);
     const sa = new Settler(a, 2).settle({ phase: "free", inputs: { in: x } });
-    const sb = new Settler(b, 2).settle({ phase: "free", inputs: { in: x } });
+    // settled in place (`out`), so the stateful units' arrays are the kernels' own
+    const sb = new Settler(b, 2).settle({ phase: "free", inputs: { in: x } }, new Snapshot(b, 2));
     expect(wasm.isArenaView(sb.adaptation[1]!)).toBe(true);
     for (let k = 0; k < 6; k++) expectClose(sb.activity[2]![k]!, sa.activity[2]![k]!, 1e-10, `out[${k}]`);
     for (let k = 0; k < 14; k++) expectClose(sb.adaptation[1]![k]!, sa.adaptation[1]![k]!, 1e-10, `a[${k}]`);
