@@ -200,17 +200,10 @@ export function activeProductNN<T extends FloatArray>(out: T, x: ReadonlyFloatAr
     let q = start[i]!;
     while (q < q1) {
       const p = index[q]!;
-      if (p >= k8) {
-        // gemm's last k mod 8 terms: one at a time
-        const s = alpha * x[a0 + p]!;
-        const b0 = p * n;
-        for (let j = 0; j < n; j++) out[c0 + j] = out[c0 + j]! + s * w[b0 + j]!;
-        q++;
-        continue;
-      }
       const g = p - (p & 7);
       let e = q + 1;
-      while (e < q1 && index[e]! < g + 8) e++;
+      // gemm's last k mod 8 terms are added one at a time: each is a group of one
+      if (p < k8) while (e < q1 && index[e]! < g + 8) e++;
       const count = e - q;
       if (count === 1) {
         const s = alpha * x[a0 + p]!;

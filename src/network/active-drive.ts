@@ -64,6 +64,23 @@ export const activeProductCounts = {
   reused: 0,
 };
 
+/** Per layer: the generation a listing was made in, the array listed and the count listed. */
+interface Listings {
+  readonly at: Int32Array;
+  readonly of: (FloatArray | null)[];
+  readonly listed: Int32Array;
+}
+
+function listings(layers: number): Listings {
+  return { at: new Int32Array(layers), of: new Array<FloatArray | null>(layers).fill(null), listed: new Int32Array(layers) };
+}
+
+function remember(memo: Listings, l: number, generation: number, x: FloatArray, listed: number): void {
+  memo.at[l] = generation;
+  memo.of[l] = x;
+  memo.listed[l] = listed;
+}
+
 /**
  * Per settler: one index list per sending layer, and the choice between the dense and the activity-sparse
  * product made per call from the measured fraction of active blocks.
@@ -85,12 +102,8 @@ export class ActiveDrive {
    * a block is one entry), so that a layer listed for one product is not listed again for the next.
    */
   private generation = 1;
-  private readonly blocksAt: Int32Array;
-  private readonly blocksOf: (FloatArray | null)[];
-  private readonly blocksListed: Int32Array;
-  private readonly entriesAt: Int32Array;
-  private readonly entriesOf: (FloatArray | null)[];
-  private readonly entriesListed: Int32Array;
+  private readonly blockListing: Listings;
+  private readonly entryListing: Listings;
   /** Whether the backend's blocks are single entries (TypeScript): then one listing serves both products. */
   private readonly entryBlocks: boolean;
 
@@ -99,17 +112,14 @@ export class ActiveDrive {
     private readonly batch: number,
   ) {
     const a = net.kernels.active;
-    // layers that send through a dense weight matrix (forward, or as the source of separate feedback)
+    // layers that send through a dense weight matrix (forward, or as the source of separate feedback), and
+    // layers whose activities drive tied dense feedback (eta_from += gain · X_to · W)
     const sends = net.layers.map(() => false);
+    const feeds = net.layers.map(() => false);
     for (const c of net.connections) {
       if (c.sparse || c.convolution || c.spec.depression !== undefined) continue;
       sends[c.from] = true;
       if (c.feedback.kind === "separate") sends[c.to] = true;
-    }
-    // layers whose activities drive tied dense feedback (eta_from += gain · X_to · W)
-    const feeds = net.layers.map(() => false);
-    for (const c of net.connections) {
-      if (c.sparse || c.convolution || c.spec.depression !== undefined) continue;
       if (c.feedback.kind === "tied" && c.feedback.gain !== 0) feeds[c.to] = true;
     }
     this.entryBlocks = a !== undefined && a.blockWidth(net.dtype) === 1;
@@ -121,12 +131,8 @@ export class ActiveDrive {
     this.entryStart = net.layers.map((l, i) => (a && feeds[l.index] ? (this.entryBlocks ? this.start[i]! : a.indices(batch + 1)) : null));
     this.denseFor = new Int32Array(L);
     this.denseForFeedback = new Int32Array(L);
-    this.blocksAt = new Int32Array(L);
-    this.blocksOf = net.layers.map(() => null);
-    this.blocksListed = new Int32Array(L);
-    this.entriesAt = new Int32Array(L);
-    this.entriesOf = net.layers.map(() => null);
-    this.entriesListed = new Int32Array(L);
+    this.blockListing = listings(L);
+    this.entryListing = listings(L);
   }
 
   /** The settler calls this whenever layer activities may have changed (each step, each phase): listings made before are stale. */
@@ -134,44 +140,19 @@ export class ActiveDrive {
     this.generation++;
   }
 
-  /** Lists the blocks of layer `from`'s activities `x` (B × m), or reuses this generation's listing of the same array. */
-  private blocks(x: FloatArray, m: number, from: number): number {
-    if (this.blocksAt[from] === this.generation && this.blocksOf[from] === x) {
+  /** Layer `l`'s listing as blocks or as entries: this generation's listing of the same array, or a new one. */
+  private listing(x: FloatArray, m: number, l: number, asBlocks: boolean): number {
+    const memo = asBlocks ? this.blockListing : this.entryListing;
+    if (memo.at[l] === this.generation && memo.of[l] === x) {
       activeProductCounts.reused++;
-      return this.blocksListed[from]!;
+      return memo.listed[l]!;
     }
     const a = this.net.kernels.active!;
-    const listed = a.listActive(x, this.batch, m, this.index[from]!, this.start[from]!);
-    this.blocksAt[from] = this.generation;
-    this.blocksOf[from] = x;
-    this.blocksListed[from] = listed;
-    if (this.entryBlocks) {
-      // the same listing is the entries' listing
-      this.entriesAt[from] = this.generation;
-      this.entriesOf[from] = x;
-      this.entriesListed[from] = listed;
-    }
-    this.count(from, listed, m, true);
-    return listed;
-  }
-
-  /** Lists the non-zero entries of layer `to`'s activities `x` (B × m), or reuses this generation's listing. */
-  private entries(x: FloatArray, m: number, to: number): number {
-    if (this.entriesAt[to] === this.generation && this.entriesOf[to] === x) {
-      activeProductCounts.reused++;
-      return this.entriesListed[to]!;
-    }
-    const a = this.net.kernels.active!;
-    const listed = a.listEntries(x, this.batch, m, this.entryIndex[to]!, this.entryStart[to]!);
-    this.entriesAt[to] = this.generation;
-    this.entriesOf[to] = x;
-    this.entriesListed[to] = listed;
-    if (this.entryBlocks) {
-      this.blocksAt[to] = this.generation;
-      this.blocksOf[to] = x;
-      this.blocksListed[to] = listed;
-    }
-    this.count(to, listed, m, false);
+    const listed = asBlocks ? a.listActive(x, this.batch, m, this.index[l]!, this.start[l]!) : a.listEntries(x, this.batch, m, this.entryIndex[l]!, this.entryStart[l]!);
+    remember(memo, l, this.generation, x, listed);
+    // where a block is one entry the same listing serves the other kind of product
+    if (this.entryBlocks) remember(asBlocks ? this.entryListing : this.blockListing, l, this.generation, x, listed);
+    this.count(l, listed, m, asBlocks);
     return listed;
   }
 
@@ -205,7 +186,7 @@ export class ActiveDrive {
         K.gemm(eta, x, w, B, n, m, false, false, alpha, 1);
         return;
       }
-      const listed = this.entries(x, m, to);
+      const listed = this.listing(x, m, to, false);
       if (listed < limit * B * m) {
         activeProductCounts.feedbackActive++;
         a.activeProductNN(eta, x, w, B, n, m, this.entryIndex[to]!, this.entryStart[to]!, alpha, 1);
@@ -238,7 +219,7 @@ export class ActiveDrive {
         K.gemm(eta, x, w, B, n, m, false, true, alpha, 1);
         return;
       }
-      const listed = this.blocks(x, m, from);
+      const listed = this.listing(x, m, from, true);
       const blocks = B * Math.floor(m / a.blockWidth(this.net.dtype));
       if (listed < limit * blocks) {
         activeProductCounts.active++;

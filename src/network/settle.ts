@@ -184,6 +184,16 @@ export class Snapshot {
 }
 
 /**
+ * The snapshot of batch size `B` kept in `cache` (made on first use): one per size, reused from call to call,
+ * since on the WebAssembly backends a snapshot's memory is never given back. @internal
+ */
+export function keptSnapshot(cache: Map<number, Snapshot>, net: Network, B: number): Snapshot {
+  let s = cache.get(B);
+  if (s === undefined) cache.set(B, (s = new Snapshot(net, B)));
+  return s;
+}
+
+/**
  * `dest.set(src)` for typed arrays: an element loop when the element types differ (the same rounding to
  * the storage type; on a shared WebAssembly memory several times faster than the converting `set`).
  */
@@ -274,7 +284,7 @@ export class Settler {
   /** The products through dense weight matrices that skip sending units at zero (active-drive.ts). */
   private readonly activeDrive: ActiveDrive;
   /** The activity arrays the inputs were loaded into by the last phase that completed its setup (null: none). */
-  private inputsLoadedInto: FloatArray[] | null = null;
+  private inputsLoadedInto: readonly FloatArray[] | null = null;
 
   constructor(net: Network, batch: number) {
     requireInteger("batch", batch, 1);
@@ -543,7 +553,7 @@ export class Settler {
       }
     }
     this.driveFrom = { inputs: options.inputs, targets: options.targets, clamped: this.clamped.slice() };
-    this.inputsLoadedInto = snap.activity.slice();
+    this.inputsLoadedInto = snap.activity; // a snapshot's array of layers never changes: held, not copied
 
     snap.layerChange.fill(0);
     snap.record = options.record ? [] : null;

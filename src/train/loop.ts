@@ -9,7 +9,7 @@ import { z } from "zod";
 import { EbbflowError, fail, issueText, type Issue } from "../errors/index.js";
 import { allocate, type FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
-import { Settler, Snapshot } from "../network/settle.js";
+import { keptSnapshot, Settler, Snapshot } from "../network/settle.js";
 import { issuesFromZod } from "../network/spec.js";
 import { createRandom, RandomStream, type RandomStreamState } from "../random/index.js";
 import { builtinRegistry, type AnyRuleDescriptor, type LearningRule, type Registry, type RuleConfigInput, type RuleState } from "../rules/index.js";
@@ -330,15 +330,18 @@ export class Trainer {
     this.forward = this.options.readout === "forward" || (this.options.readout === "auto" && this.descriptor?.readout === "forward");
     this.order = this.forward ? forwardOrder(net) : [];
     this.optimizer = this.options.optimizer === undefined ? null : new Optimizer(net, this.rule, this.options.optimizer);
-    if (this.options.persistentStates) requireBytes("training.persistentStates", `persistent states of ${train.size} examples`, train.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
-    this.persistent = this.options.persistentStates ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, train.size * l.size))) : null;
+    // per non-input layer, one state row per example of a data set of `count` examples
+    const stateBytes = (count: number) => count * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8);
+    const states = (count: number) => net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, count * l.size)));
+    if (this.options.persistentStates) requireBytes("training.persistentStates", `persistent states of ${train.size} examples`, stateBytes(train.size));
+    this.persistent = this.options.persistentStates ? states(train.size) : null;
     const heldOut = this.test;
     if (this.options.persistentTestStates) {
       if (heldOut === undefined) fail("invalid_config", "training.persistentTestStates", "false (no held-out set was given)", true);
       if (this.forward) fail("unsupported", "training.persistentTestStates", "a rule whose read-out settles (a feedforward pass keeps no state)", this.rule.config.rule);
-      requireBytes("training.persistentTestStates", `persistent states of ${heldOut.size} held-out examples`, heldOut.size * net.layers.reduce((n, l) => n + (l.role === "input" ? 0 : l.size), 0) * (net.dtype === "float32" ? 4 : 8));
+      requireBytes("training.persistentTestStates", `persistent states of ${heldOut.size} held-out examples`, stateBytes(heldOut.size));
     }
-    this.persistentTest = this.options.persistentTestStates === true && heldOut !== undefined ? net.layers.map((l) => (l.role === "input" ? null : allocate(net.dtype, heldOut.size * l.size))) : null;
+    this.persistentTest = this.options.persistentTestStates === true && heldOut !== undefined ? states(heldOut.size) : null;
     const seq = this.options.sequences;
     if (seq !== undefined) {
       if (this.options.persistentStates) fail("invalid_config", "training.persistentStates", "false with training.sequences (the carried state is the free phase's start)", true);
@@ -437,12 +440,7 @@ export class Trainer {
 
   /** The snapshot the evaluation settler of batch size B settles into (made once). */
   private evalSnapshot(B: number): Snapshot {
-    let s = this.evalSnaps.get(B);
-    if (s === undefined) {
-      s = new Snapshot(this.net, B);
-      this.evalSnaps.set(B, s);
-    }
-    return s;
+    return keptSnapshot(this.evalSnaps, this.net, B);
   }
 
   /** The evaluation settler of batch size B (made once). */
@@ -507,11 +505,7 @@ export class Trainer {
   }
 
   private persistentStart(idx: Int32Array, from: number, B: number): Snapshot {
-    let snap = this.starts.get(B);
-    if (snap === undefined) {
-      snap = new Snapshot(this.net, B);
-      this.starts.set(B, snap);
-    }
+    const snap = keptSnapshot(this.starts, this.net, B);
     for (const l of this.net.layers) {
       const store = this.persistent?.[l.index];
       if (!store) continue;
@@ -522,11 +516,7 @@ export class Trainer {
 
   /** The start of a held-out chunk's free phase: rows `from`..`from + B` of the held-out persistent states. */
   private heldOutStart(kept: readonly (FloatArray | null)[], from: number, B: number): Snapshot {
-    let snap = this.testStarts.get(B);
-    if (snap === undefined) {
-      snap = new Snapshot(this.net, B);
-      this.testStarts.set(B, snap);
-    }
+    const snap = keptSnapshot(this.testStarts, this.net, B);
     for (const l of this.net.layers) {
       const store = kept[l.index];
       if (store) (snap.state[l.index] as FloatArray).set(store.subarray(from * l.size, (from + B) * l.size));

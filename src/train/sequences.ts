@@ -9,7 +9,7 @@ import { z } from "zod";
 import { fail, formatPath, issueText, type Issue } from "../errors/index.js";
 import type { FloatArray } from "../types/index.js";
 import type { Network } from "../network/network.js";
-import { Settler, Snapshot } from "../network/settle.js";
+import { keptSnapshot, Settler, Snapshot } from "../network/settle.js";
 import type { LearningRule } from "../rules/base.js";
 import type { RandomStream } from "../random/index.js";
 import type { Recorder } from "../record/recorder.js";
@@ -187,9 +187,7 @@ export class SequenceRunner {
   }
 
   private snapshotFor(B: number): Snapshot {
-    let s = this.carried.get(B);
-    if (s === undefined) this.carried.set(B, (s = new Snapshot(this.net, B)));
-    return s;
+    return keptSnapshot(this.carried, this.net, B);
   }
 
   /** Copies pattern `position` of the sequences `seqs` into the flat buffers. */
@@ -307,8 +305,7 @@ export class SequenceRunner {
       const settler = settlerFor(B);
       // one snapshot per batch size: a sequence starts from rest or, with reset "never", from the last state,
       // which is this snapshot's (start === out, as within a sequence)
-      let snap = this.evaluated.get(B);
-      if (snap === undefined) this.evaluated.set(B, (snap = new Snapshot(this.net, B)));
+      const snap = keptSnapshot(this.evaluated, this.net, B);
       for (let t = 0; t < (lengths[seqs[0] as number] as number); t++) {
         const batch = this.gather(ds, seqs, t, inBuf, tBuf);
         const start = t > 0 ? snap : this.reset === "never" && carried !== null ? carried : undefined;

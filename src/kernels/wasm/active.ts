@@ -43,6 +43,15 @@ export function wasmDotPath(m: number, k: number): boolean {
  */
 export function createActiveKernels(X: ActiveExports, own: (b: ArrayBufferLike) => boolean, allocate: (dtype: Dtype, n: number) => FloatArray, gemm: KernelBackend["gemm"]): ActiveKernels {
   const width = (x: ReadonlyFloatArray): number => (x instanceof Float32Array ? 4 : 2);
+  /** Whether a product can run on the exports: one dtype, alpha not 0, every array an arena view. */
+  const onExports = (out: FloatArray, x: ReadonlyFloatArray, w: ReadonlyFloatArray, index: Int32Array, start: Int32Array, alpha: number): boolean =>
+    (out instanceof Float32Array ? x instanceof Float32Array && w instanceof Float32Array : x instanceof Float64Array && w instanceof Float64Array) &&
+    alpha !== 0 &&
+    own(out.buffer) &&
+    own(x.buffer) &&
+    own(w.buffer) &&
+    own(index.buffer) &&
+    own(start.buffer);
   return Object.freeze({
     blockWidth: (dtype: Dtype) => (dtype === "float32" ? 4 : 2),
     listActive(x: ReadonlyFloatArray, rows: number, k: number, index: Int32Array, start: Int32Array): number {
@@ -53,11 +62,8 @@ export function createActiveKernels(X: ActiveExports, own: (b: ArrayBufferLike) 
     },
     activeProduct<T extends FloatArray>(out: T, x: ReadonlyFloatArray, w: ReadonlyFloatArray, m: number, n: number, k: number, index: Int32Array, start: Int32Array, alpha: number, beta: number): T {
       if (m <= 0 || n <= 0) return out;
-      const f32 = out instanceof Float32Array;
-      const same = f32 ? x instanceof Float32Array && w instanceof Float32Array : x instanceof Float64Array && w instanceof Float64Array;
-      const fast = same && alpha !== 0 && wasmDotPath(m, k) && own(out.buffer) && own(x.buffer) && own(w.buffer) && own(index.buffer) && own(start.buffer);
-      if (!fast) return gemm(out, x, w, m, n, k, false, true, alpha, beta);
-      (f32 ? X.activeProductNTF32 : X.activeProductNTF64)(out.byteOffset, x.byteOffset, w.byteOffset, m, n, k, index.byteOffset, start.byteOffset, alpha, beta);
+      if (!wasmDotPath(m, k) || !onExports(out, x, w, index, start, alpha)) return gemm(out, x, w, m, n, k, false, true, alpha, beta);
+      (out instanceof Float32Array ? X.activeProductNTF32 : X.activeProductNTF64)(out.byteOffset, x.byteOffset, w.byteOffset, m, n, k, index.byteOffset, start.byteOffset, alpha, beta);
       return out;
     },
     exact: wasmDotPath,
@@ -69,11 +75,8 @@ export function createActiveKernels(X: ActiveExports, own: (b: ArrayBufferLike) 
     },
     activeProductNN<T extends FloatArray>(out: T, x: ReadonlyFloatArray, w: ReadonlyFloatArray, m: number, n: number, k: number, index: Int32Array, start: Int32Array, alpha: number, beta: number): T {
       if (m <= 0 || n <= 0) return out;
-      const f32 = out instanceof Float32Array;
-      const same = f32 ? x instanceof Float32Array && w instanceof Float32Array : x instanceof Float64Array && w instanceof Float64Array;
-      const fast = same && alpha !== 0 && wasmFeedbackExact(m, k) && own(out.buffer) && own(x.buffer) && own(w.buffer) && own(index.buffer) && own(start.buffer);
-      if (!fast) return gemm(out, x, w, m, n, k, false, false, alpha, beta);
-      (f32 ? X.activeProductNNF32 : X.activeProductNNF64)(out.byteOffset, x.byteOffset, w.byteOffset, m, n, k, index.byteOffset, start.byteOffset, alpha, beta);
+      if (!wasmFeedbackExact(m, k) || !onExports(out, x, w, index, start, alpha)) return gemm(out, x, w, m, n, k, false, false, alpha, beta);
+      (out instanceof Float32Array ? X.activeProductNNF32 : X.activeProductNNF64)(out.byteOffset, x.byteOffset, w.byteOffset, m, n, k, index.byteOffset, start.byteOffset, alpha, beta);
       return out;
     },
     exactNN: wasmFeedbackExact,
